@@ -1,0 +1,430 @@
+"""Loss distribution of one borrower holding several facilities.
+
+Over the horizon the borrower's loss is
+
+    L = 1{default} * sum_i EAD_i * (1 - R_i),    default ~ Bernoulli(PD),
+
+with R_i the recovery rate of facility i. All facilities of one borrower
+default together, so only the joint law of the recoveries is a modelling choice:
+
+* ``"comonotonic"`` (the default): one uniform U drives every recovery,
+  R_i = F_i^{-1}(U). The loss given default G(U) = sum_i EAD_i (1 - F_i^{-1}(U))
+  is then non-increasing in U and the tail is exact:
+
+      u* = min(1, (1 - q) / PD)
+      VaR_q = 0                                   if PD <= 1 - q
+      VaR_q = G(u*)                               otherwise
+      ES_q  = PD / (1 - q) * integral_0^{u*} G(u) du
+
+  A comonotonic sum dominates every other dependence with the same marginals in
+  convex order, so its expected shortfall is the largest possible: the
+  conservative choice (Dhaene, Denuit, Goovaerts, Kaas and Vyncke (2002), "The
+  concept of comonotonicity in actuarial science and finance: theory",
+  Insurance: Mathematics and Economics 31(1), 3-33).
+* ``"independent"``: recoveries independent of each other. The tail is
+  estimated by seeded Monte Carlo: an APPROXIMATION whose standard errors are
+  reported beside the estimates.
+
+Value at risk and expected shortfall follow Acerbi and Tasche (2002), "On the
+coherence of expected shortfall", Journal of Banking & Finance 26(7):
+VaR_q = inf{x : P(L <= x) >= q}, ES_q = (1/(1-q)) integral_q^1 VaR_p dp.
+
+A recovery law is any object with ``ppf(u: ndarray) -> ndarray``, ``mean()``
+and ``var()`` describing a recovery rate in [0, 1] [fraction], e.g. a frozen
+``scipy.stats.beta(a, b, loc=0, scale=upper)``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Literal, Protocol, Sequence
+
+import numpy as np
+from scipy import integrate
+
+Join = Literal["comonotonic", "independent"]
+JOINS: tuple[str, ...] = ("comonotonic", "independent")
+
+DEFAULT_N_SIMS = 200_000
+DEFAULT_SEED = 20_061_999
+# Bisection on [0, 1] halves the bracket each step; 64 steps reach the spacing
+# of doubles near 1, so the curve is as exact as the recovery laws' ppf.
+_BISECTION_STEPS = 64
+
+
+class RecoveryLaw(Protocol):
+    """Distribution of a recovery rate on [0, 1] [fraction]."""
+
+    def ppf(self, q: np.ndarray) -> np.ndarray: ...
+
+    def mean(self) -> float: ...
+
+    def var(self) -> float: ...
+
+
+@dataclass(frozen=True)
+class LossDistribution:
+    """The borrower's loss over the horizon and its tail measures.
+
+    Fields:
+        pd: probability of default over the horizon [fraction].
+        confidence: q, the confidence level of VaR and ES [fraction].
+        join: how the facilities' recoveries are joined.
+        method: "exact" (closed form and quadrature) or "monte carlo".
+        exposures: EAD of each facility [currency].
+        recovery_means: E[R_i] of each facility [fraction].
+        total_exposure: sum of EAD [currency].
+        loss_given_default_mean: E[G] = sum EAD_i (1 - E R_i) [currency].
+        expected_loss: EL = PD * E[G] [currency].
+        tail_fraction: u* = min(1, (1-q)/PD), the share of default scenarios
+            lying in the (1-q) tail [fraction].
+        var: value at risk at ``confidence`` (not a variance) [currency].
+        expected_shortfall: ES at ``confidence`` [currency].
+        economic_capital: max(VaR - EL, 0) [currency].
+        capital_floored: True when VaR - EL < 0 and the zero floor binds.
+        n_sims: Monte Carlo draws of the loss given default (0 when exact).
+        seed: seed of the Monte Carlo generator (None when exact).
+        var_standard_error: standard error of ``var`` [currency]; 0 when exact.
+        expected_shortfall_standard_error: standard error of
+            ``expected_shortfall`` [currency]; 0 when exact.
+        quadrature_error: QUADPACK's bound on the absolute error of the ES
+            integral [currency]; 0 when no quadrature was needed.
+        curve_loss: grid of losses x from 0 to ``total_exposure`` [currency].
+        curve_cdf: P(L <= x) on that grid, the atom 1 - PD at x = 0 included
+            [fraction].
+    """
+
+    pd: float
+    confidence: float
+    join: str
+    method: str
+    exposures: tuple[float, ...]
+    recovery_means: tuple[float, ...]
+    total_exposure: float
+    loss_given_default_mean: float
+    expected_loss: float
+    tail_fraction: float
+    var: float
+    expected_shortfall: float
+    economic_capital: float
+    capital_floored: bool
+    n_sims: int
+    seed: int | None
+    var_standard_error: float
+    expected_shortfall_standard_error: float
+    quadrature_error: float
+    curve_loss: tuple[float, ...]
+    curve_cdf: tuple[float, ...]
+
+
+def _check_probability(name: str, value: float, *, open_low: float | None = None) -> float:
+    """A number in [0, 1], or in (open_low, 1) when ``open_low`` is given."""
+    allowed = "[0, 1]" if open_low is None else f"({open_low}, 1), both ends excluded"
+    if isinstance(value, bool) or not isinstance(value, (int, float, np.floating, np.integer)):
+        raise ValueError(f"{name} must be a number in {allowed}; got {value!r}")
+    number = float(value)
+    inside = (
+        0.0 <= number <= 1.0 if open_low is None else open_low < number < 1.0
+    )
+    if not inside:
+        raise ValueError(f"{name} must lie in {allowed}; got {value!r}")
+    return number
+
+
+def _check_join(join: str) -> str:
+    if join not in JOINS:
+        raise ValueError(f"join must be one of {', '.join(JOINS)}; got {join!r}")
+    return join
+
+
+def _check_exposures_and_laws(
+    exposures: Sequence[float], recovery_laws: Sequence[RecoveryLaw]
+) -> tuple[np.ndarray, tuple[RecoveryLaw, ...], np.ndarray]:
+    try:
+        ead = np.asarray(exposures, dtype=float)
+    except (TypeError, ValueError):
+        raise ValueError(
+            f"exposures must be a sequence of finite numbers >= 0; got {exposures!r}"
+        ) from None
+    if ead.ndim != 1 or ead.size == 0:
+        raise ValueError(
+            f"exposures must be a non-empty one-dimensional sequence; got {exposures!r}"
+        )
+    for index, value in enumerate(ead):
+        if not math.isfinite(value) or value < 0.0:
+            raise ValueError(
+                f"exposures[{index}] must be a finite number >= 0 [currency]; got {value!r}"
+            )
+    laws = tuple(recovery_laws)
+    if len(laws) != ead.size:
+        raise ValueError(
+            f"recovery_laws must have one law per exposure ({ead.size}); got {len(laws)}"
+        )
+    means = np.empty(ead.size)
+    for index, law in enumerate(laws):
+        for method in ("ppf", "mean", "var"):
+            if not callable(getattr(law, method, None)):
+                raise ValueError(
+                    f"recovery_laws[{index}] must offer ppf(u), mean() and var(); "
+                    f"{law!r} has no {method}()"
+                )
+        mean = float(law.mean())
+        variance = float(law.var())
+        if not (0.0 <= mean <= 1.0):
+            raise ValueError(
+                f"recovery_laws[{index}].mean() must lie in [0, 1] [fraction]; got {mean!r}"
+            )
+        if not (math.isfinite(variance) and variance >= 0.0):
+            raise ValueError(
+                f"recovery_laws[{index}].var() must be a finite number >= 0; got {variance!r}"
+            )
+        # A recovery above 1 would be a negative loss; catch a law on the wrong scale early.
+        probe = np.asarray(law.ppf(np.array([0.0, 0.5, 1.0])), dtype=float)
+        if probe.shape != (3,) or not np.all((probe >= 0.0) & (probe <= 1.0)):
+            raise ValueError(
+                f"recovery_laws[{index}].ppf must return recovery rates in [0, 1]; "
+                f"at u = 0, 0.5, 1 it gave {probe.tolist()!r}"
+            )
+        means[index] = mean
+    return ead, laws, means
+
+
+def _check_count(name: str, value: int, minimum: int) -> int:
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:
+        raise ValueError(f"{name} must be an integer >= {minimum}; got {value!r}")
+    return int(value)
+
+
+def _loss_given_default_comonotonic(
+    u: np.ndarray, exposures: np.ndarray, laws: Sequence[RecoveryLaw]
+) -> np.ndarray:
+    """G(u) = sum_i EAD_i (1 - F_i^{-1}(u)) [currency] for u in [0, 1]."""
+    total = np.zeros_like(u, dtype=float)
+    for ead, law in zip(exposures, laws):
+        if ead > 0.0:
+            total += ead * (1.0 - np.asarray(law.ppf(u), dtype=float))
+    return total
+
+
+def _loss_given_default_sample(
+    exposures: np.ndarray,
+    laws: Sequence[RecoveryLaw],
+    join: str,
+    n_draws: int,
+    rng: np.random.Generator,
+) -> np.ndarray:
+    """Draws of the loss given default G [currency] under the chosen join."""
+    if join == "comonotonic":
+        return _loss_given_default_comonotonic(rng.random(n_draws), exposures, laws)
+    total = np.zeros(n_draws)
+    for ead, law in zip(exposures, laws):
+        # Drawn even for a zero exposure so that the stream does not depend on the amounts.
+        u = rng.random(n_draws)
+        if ead > 0.0:
+            total += ead * (1.0 - np.asarray(law.ppf(u), dtype=float))
+    return total
+
+
+def monte_carlo_loss(
+    *,
+    pd: float,
+    exposures: Sequence[float],
+    recovery_laws: Sequence[RecoveryLaw],
+    join: Join,
+    n_sims: int,
+    seed: int,
+) -> np.ndarray:
+    """Simulated borrower losses L [currency], one per scenario.
+
+    Args:
+        pd: probability of default over the horizon [fraction], in [0, 1].
+        exposures: EAD of each facility [currency], finite, >= 0.
+        recovery_laws: one recovery-rate law per facility [fraction].
+        join: "comonotonic" (one uniform drives all recoveries) or "independent".
+        n_sims: number of scenarios, >= 1.
+        seed: seed of ``numpy.random.default_rng``.
+
+    Returns:
+        Array of ``n_sims`` losses; scenarios without default have loss 0.
+    """
+    probability = _check_probability("pd", pd)
+    ead, laws, _ = _check_exposures_and_laws(exposures, recovery_laws)
+    join = _check_join(join)
+    n_sims = _check_count("n_sims", n_sims, 1)
+    rng = np.random.default_rng(seed)
+    defaulted = rng.random(n_sims) < probability
+    losses = np.zeros(n_sims)
+    n_defaults = int(defaulted.sum())
+    if n_defaults:
+        losses[defaulted] = _loss_given_default_sample(ead, laws, join, n_defaults, rng)
+    return losses
+
+
+def _comonotonic_curve(
+    grid: np.ndarray, probability: float, exposures: np.ndarray, laws: Sequence[RecoveryLaw]
+) -> np.ndarray:
+    """P(L <= x) = 1 - PD * u_x with u_x = inf{u : G(u) <= x}, G non-increasing."""
+    low = np.zeros_like(grid)
+    high = np.ones_like(grid)
+    for _ in range(_BISECTION_STEPS):
+        middle = 0.5 * (low + high)
+        below = _loss_given_default_comonotonic(middle, exposures, laws) <= grid
+        high = np.where(below, middle, high)
+        low = np.where(below, low, middle)
+    return np.clip(1.0 - probability * high, 0.0, 1.0)
+
+
+def _comonotonic_tail(
+    probability: float,
+    level: float,
+    tail_fraction: float,
+    exposures: np.ndarray,
+    laws: Sequence[RecoveryLaw],
+    expected_loss: float,
+) -> tuple[float, float, float]:
+    """Exact (VaR, ES, quadrature error bound) of the comonotonic loss."""
+    if tail_fraction >= 1.0:
+        # The whole default mass sits inside the tail: VaR is the atom at zero and
+        # the tail integral is E[G] itself, known exactly from the recovery means.
+        return 0.0, expected_loss / (1.0 - level), 0.0
+    value_at_risk = float(
+        _loss_given_default_comonotonic(np.array([tail_fraction]), exposures, laws)[0]
+    )
+
+    def integrand(u: float) -> float:
+        return float(_loss_given_default_comonotonic(np.array([u]), exposures, laws)[0])
+
+    scale = float(exposures.sum()) * tail_fraction
+    # epsabs keeps QUADPACK from chasing a relative target on an all-zero integrand.
+    integral, error = integrate.quad(
+        integrand, 0.0, tail_fraction, epsabs=1e-14 * scale, epsrel=1e-10, limit=200
+    )
+    factor = probability / (1.0 - level)
+    return value_at_risk, factor * integral, factor * error
+
+
+def _monte_carlo_tail(
+    sample: np.ndarray, level: float, tail_fraction: float
+) -> tuple[float, float, float, float]:
+    """(VaR, ES, their standard errors) from draws of the loss given default.
+
+    VaR_q(L) is the (1 - u*) quantile of G and ES_q(L) the mean of G over its
+    top u* share. The quantile's standard error is half the spread of the order
+    statistics one binomial standard deviation of rank either side; the
+    shortfall's is sd((G - VaR)^+) / (u* sqrt n), the first-order variance of
+    the estimator VaR + mean((G - VaR)^+)/u* (Rockafellar and Uryasev (2000),
+    "Optimization of conditional value-at-risk", Journal of Risk 2(3)).
+    """
+    ordered = np.sort(sample)
+    n = ordered.size
+    p = 1.0 - tail_fraction
+    rank = min(max(math.ceil(n * p), 1), n)
+    value_at_risk = float(ordered[rank - 1])
+    spread = math.sqrt(n * p * (1.0 - p))
+    low = min(max(math.floor(n * p - spread), 1), n)
+    high = min(max(math.ceil(n * p + spread), 1), n)
+    var_error = 0.5 * float(ordered[high - 1] - ordered[low - 1])
+    excess = np.maximum(ordered - value_at_risk, 0.0)
+    shortfall = value_at_risk + float(excess.mean()) / tail_fraction
+    shortfall_error = float(excess.std(ddof=1)) / (tail_fraction * math.sqrt(n)) if n > 1 else 0.0
+    return value_at_risk, shortfall, var_error, shortfall_error
+
+
+def loss_distribution(
+    *,
+    pd: float,
+    exposures: Sequence[float],
+    recovery_laws: Sequence[RecoveryLaw],
+    confidence: float = 0.999,
+    join: Join = "comonotonic",
+    n_curve: int = 200,
+    n_sims: int = DEFAULT_N_SIMS,
+    seed: int = DEFAULT_SEED,
+) -> LossDistribution:
+    """Borrower loss L = 1{default} sum EAD_i (1 - R_i): EL, VaR, ES, capital, CDF.
+
+    Args:
+        pd: probability of default over the horizon [fraction], in [0, 1].
+        exposures: EAD of each facility [currency], finite, >= 0.
+        recovery_laws: one recovery-rate law per facility, values in [0, 1]
+            [fraction]; duck typed: ``ppf(u)``, ``mean()``, ``var()``.
+        confidence: q for VaR and ES [fraction], in (0.5, 1).
+        join: "comonotonic" (exact, conservative) or "independent" (Monte Carlo).
+        n_curve: number of grid points of the charted CDF, >= 2.
+        n_sims: draws of the loss given default for the independent join, >= 2.
+        seed: seed of the Monte Carlo generator for the independent join.
+
+    Returns:
+        A ``LossDistribution``. EL = PD * sum EAD_i (1 - E R_i) is exact under
+        both joins; economic capital = max(VaR - EL, 0) (Basel Committee,
+        "An Explanatory Note on the Basel II IRB Risk Weight Functions", 2005:
+        capital covers the unexpected loss, the quantile in excess of EL).
+
+    The independent join simulates only default scenarios (the default event is
+    mixed in exactly through u*), which spends every draw in the tail. With a
+    single facility of positive exposure both joins are one law and the exact
+    route is taken. For recovery laws with atoms, VaR uses G(u*), i.e. the
+    left-continuous ppf at u*.
+    """
+    probability = _check_probability("pd", pd)
+    level = _check_probability("confidence", confidence, open_low=0.5)
+    join = _check_join(join)
+    n_curve = _check_count("n_curve", n_curve, 2)
+    n_sims = _check_count("n_sims", n_sims, 2)
+    ead, laws, means = _check_exposures_and_laws(exposures, recovery_laws)
+
+    total = float(ead.sum())
+    lgd_mean = float(np.sum(ead * (1.0 - means)))
+    expected_loss = probability * lgd_mean
+    tail_fraction = 1.0 if probability <= 1.0 - level else (1.0 - level) / probability
+    grid = np.linspace(0.0, total, n_curve)
+
+    exact = join == "comonotonic" or int(np.count_nonzero(ead > 0.0)) <= 1
+    if exact:
+        value_at_risk, shortfall, quad_error = _comonotonic_tail(
+            probability, level, tail_fraction, ead, laws, expected_loss
+        )
+        var_error = shortfall_error = 0.0
+        cdf = _comonotonic_curve(grid, probability, ead, laws)
+        method, used_sims, used_seed = "exact", 0, None
+    else:
+        rng = np.random.default_rng(seed)
+        sample = _loss_given_default_sample(ead, laws, join, n_sims, rng)
+        quad_error = 0.0
+        if tail_fraction >= 1.0:
+            value_at_risk, shortfall = 0.0, expected_loss / (1.0 - level)
+            var_error = shortfall_error = 0.0
+        else:
+            value_at_risk, shortfall, var_error, shortfall_error = _monte_carlo_tail(
+                sample, level, tail_fraction
+            )
+        ordered = np.sort(sample)
+        share_at_or_below = np.searchsorted(ordered, grid, side="right") / n_sims
+        cdf = np.clip(1.0 - probability + probability * share_at_or_below, 0.0, 1.0)
+        method, used_sims, used_seed = "monte carlo", n_sims, seed
+
+    unexpected = value_at_risk - expected_loss
+    return LossDistribution(
+        pd=probability,
+        confidence=level,
+        join=join,
+        method=method,
+        exposures=tuple(float(x) for x in ead),
+        recovery_means=tuple(float(x) for x in means),
+        total_exposure=total,
+        loss_given_default_mean=lgd_mean,
+        expected_loss=expected_loss,
+        tail_fraction=tail_fraction,
+        var=value_at_risk,
+        expected_shortfall=shortfall,
+        economic_capital=max(unexpected, 0.0),
+        capital_floored=unexpected < 0.0,
+        n_sims=used_sims,
+        seed=used_seed,
+        var_standard_error=var_error,
+        expected_shortfall_standard_error=shortfall_error,
+        quadrature_error=quad_error,
+        curve_loss=tuple(float(x) for x in grid),
+        curve_cdf=tuple(float(x) for x in cdf),
+    )
