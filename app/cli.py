@@ -1,0 +1,91 @@
+"""The ``obligor-memo`` command: evaluate, memo, verify, app.
+
+Starting the command imports neither Streamlit, plotly nor WeasyPrint; those load only in the
+subcommand that needs them. A user's mistake ends with exit code 2 and one paragraph naming the
+field, the value and what is allowed; never a traceback.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import sys
+from pathlib import Path
+
+import click
+
+EXIT_USER_ERROR = 2
+EXIT_INTERNAL = 3
+
+
+def _fail(message: str, code: int = EXIT_USER_ERROR) -> None:
+    click.echo(message, err=True)
+    sys.exit(code)
+
+
+def _guard(func):
+    """Turn user mistakes into a paragraph and internal failures into a short report."""
+    import functools
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        from engine.errors import CaseError
+
+        try:
+            return func(*args, **kwargs)
+        except CaseError as exc:
+            _fail(exc.paragraph(limit=12))
+        except click.exceptions.Exit:
+            raise
+        except (KeyboardInterrupt, BrokenPipeError):
+            sys.exit(130)
+        except Exception as exc:  # an engine bug: short report; traceback only on request
+            if os.environ.get("OBLIGOR_MEMO_DEBUG"):
+                raise
+            _fail(f"obligor-memo hit an internal error ({type(exc).__name__}: {exc}). This is a "
+                  "bug, not a problem with your input; set OBLIGOR_MEMO_DEBUG=1 to see the details "
+                  "and report them.", EXIT_INTERNAL)
+    return wrapper
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(package_name="obligor-memo", prog_name="obligor-memo")
+def main() -> None:
+    """One borrower's expected loss, from a case file to a signed credit memo."""
+
+
+@main.command()
+@click.argument("case", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object (the documented contract).")
+@_guard
+def evaluate(case: Path, as_json: bool) -> None:
+    """Validate CASE (YAML or JSON) and compute EAD, PD, LGD, EL and the rest."""
+    from engine.evaluate import evaluate as run
+    from engine.loading import load_case
+
+    results = run(load_case(case))
+    if as_json:
+        from app.report import contract_json
+
+        click.echo(json.dumps(contract_json(results), indent=2, allow_nan=False))
+    else:
+        from app.report import summary_text
+
+        click.echo(summary_text(results))
+
+
+@main.command()
+@click.option("--port", default=8501, show_default=True, type=click.IntRange(1024, 65535))
+@click.option("--host", default="127.0.0.1", show_default=True,
+              help="Address to bind. Anything but 127.0.0.1 exposes the workbench to the network.")
+@click.option("--workdir", type=click.Path(file_okay=False, path_type=Path), default=None,
+              help="Folder for autosaved cases (default: ~/.obligor-memo).")
+def app(port: int, host: str, workdir: Path | None) -> None:
+    """Start the workbench in the browser (Streamlit), on the sample borrower."""
+    from app.serve import serve
+
+    sys.exit(serve(port=port, host=host, workdir=workdir))
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

@@ -1,0 +1,480 @@
+"""The case: every input of one borrower's memo, validated once at the edge.
+
+The schema is written with pydantic (strict types, unknown keys forbidden, no NaN or infinity).
+:func:`parse_case` turns a plain mapping into a frozen :class:`Case` or raises
+:class:`~engine.errors.CaseError` naming each bad field, the value and what is allowed; an unknown
+key gets the nearest valid key suggested, so a typo never silently drops an input.
+
+Units: money in the borrower's currency [currency]; rates and shares as fractions [fraction];
+times in years [years].
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+from typing import Annotated, Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+
+from engine.errors import CaseError, Problem
+
+FacilityKind = Literal["bond", "term_loan", "revolver", "guarantee", "letter_of_credit"]
+Seniority = Literal["senior_secured", "senior_unsecured", "subordinated"]
+PdMethod = Literal["balance_sheet", "market"]
+Standard = Literal["basel_iii", "basel_ii"]
+
+Money = Annotated[float, Field(ge=0, le=1e15)]
+PositiveMoney = Annotated[float, Field(gt=0, le=1e15)]
+SignedMoney = Annotated[float, Field(ge=-1e15, le=1e15)]
+Fraction = Annotated[float, Field(ge=0, le=1)]
+Text = Annotated[str, Field(max_length=20_000)]
+ShortText = Annotated[str, Field(max_length=200)]
+
+
+class _Model(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
+
+
+# --------------------------------------------------------------------------- borrower, statements
+
+
+class Borrower(_Model):
+    name: Annotated[str, Field(min_length=1, max_length=200)]
+    currency: Annotated[str, Field(pattern=r"^[A-Z]{3}$")]
+    sector: ShortText = ""
+    country: ShortText = ""
+
+
+class StatementRow(_Model):
+    """One financial year [currency]. Optional columns feed the Altman Z-score cross-check."""
+
+    year: Annotated[int, Field(ge=1900, le=2200)]
+    total_assets: PositiveMoney
+    short_term_liabilities: Money
+    long_term_liabilities: Money
+    working_capital: SignedMoney | None = None
+    retained_earnings: SignedMoney | None = None
+    ebit: SignedMoney | None = None
+    sales: Money | None = None
+    book_equity: SignedMoney | None = None
+    total_liabilities: PositiveMoney | None = None
+
+
+# --------------------------------------------------------------------------- market, PD
+
+
+class Market(_Model):
+    """Listed borrowers: market value of equity and its volatility."""
+
+    equity_value: PositiveMoney
+    equity_volatility: Annotated[float, Field(gt=0, le=5)]
+    risk_free_rate: Annotated[float, Field(ge=-0.1, le=0.5)]
+    asset_drift: Annotated[float, Field(ge=-1, le=1)] | None = None
+    trailing_equity_return: Annotated[float, Field(ge=-1, le=10)] | None = None
+
+
+class DefaultPoint(_Model):
+    short_term_share: Fraction = 1.0
+    long_term_share: Fraction = 0.5
+
+
+class GradeRow(_Model):
+    grade: Annotated[str, Field(min_length=1, max_length=20)]
+    pd_upper: Annotated[float, Field(gt=0, le=1)]
+
+
+class PdSettings(_Model):
+    method: PdMethod = "balance_sheet"
+    horizon_years: Annotated[float, Field(gt=0, le=30)] = 1.0
+    window_years: Annotated[int, Field(ge=2, le=100)] | None = None
+    asset_growth: Annotated[float, Field(ge=-1, le=1)] | None = None
+    asset_volatility: Annotated[float, Field(gt=0, le=3)] | None = None
+    default_point: DefaultPoint = DefaultPoint()
+    measure: Literal["risk_neutral", "physical"] = "risk_neutral"
+    override: Annotated[float, Field(gt=0, le=1)] | None = None
+    override_reason: Text | None = None
+    master_scale: list[GradeRow] | None = None
+
+    @model_validator(mode="after")
+    def _override_needs_reason(self) -> "PdSettings":
+        if self.override is not None and not (self.override_reason or "").strip():
+            raise _FieldError("override_reason", self.override_reason,
+                              "a non-empty reason whenever pd.override is set")
+        return self
+
+
+# --------------------------------------------------------------------------- exposure, recovery
+
+
+class Recovery(_Model):
+    """Recovery-rate law on [0, upper], fitted by moments to a beta distribution."""
+
+    mean: Fraction
+    std: Annotated[float, Field(ge=0, le=1)]
+    upper: Annotated[float, Field(gt=0, le=1)] = 1.0
+
+    @model_validator(mode="after")
+    def _feasible(self) -> "Recovery":
+        if self.mean > self.upper:
+            raise _FieldError("mean", self.mean, f"a recovery mean at most upper = {self.upper:g}")
+        m = self.mean / self.upper
+        limit = self.upper * math.sqrt(m * (1 - m))
+        if self.std > 0 and self.std >= limit:
+            allowed = (f"a std below {limit:.4f} for mean {self.mean:g} on [0, {self.upper:g}] "
+                       "(a beta law needs std^2 < mean(upper - mean))")
+            if limit == 0:
+                allowed = (f"std 0: a mean of {self.mean:g} on [0, {self.upper:g}] "
+                           "leaves no room for spread")
+            raise _FieldError("std", self.std, allowed)
+        return self
+
+
+class Collateral(_Model):
+    value: Money
+    haircut: Annotated[float, Field(ge=0, lt=1)] = 0.0
+    description: ShortText = ""
+
+
+class Facility(_Model):
+    id: Annotated[str, Field(min_length=1, max_length=40)]
+    kind: FacilityKind
+    committed: Money
+    drawn: Money
+    ccf: Fraction | None = None
+    cancellable: bool = False
+    seniority: Seniority
+    maturity_years: Annotated[float, Field(gt=0, le=50)]
+    recovery: Recovery | None = None
+    collateral: Collateral | None = None
+    description: ShortText = ""
+
+
+class CcfGradeRow(_Model):
+    grade: Annotated[str, Field(min_length=1, max_length=20)]
+    ccf: Fraction
+    kind: FacilityKind | None = None
+
+
+class ExposureSettings(_Model):
+    ccf_standard: Standard = "basel_iii"
+    ccf_by_grade: list[CcfGradeRow] | None = None
+
+
+class Downturn(_Model):
+    method: Literal["none", "quantile", "add_on"] = "none"
+    quantile: Annotated[float, Field(ge=0.5, lt=1)] = 0.9
+    add_on: Annotated[float, Field(ge=0, le=0.5)] = 0.0
+
+
+class LgdSettings(_Model):
+    standard: Standard = "basel_iii"
+    default_recovery_std: Annotated[float, Field(ge=0, le=0.5)] = 0.25
+    downturn: Downturn = Downturn()
+
+
+# --------------------------------------------------------------------------- capital, pricing
+
+
+class CapitalSettings(_Model):
+    confidence: Annotated[float, Field(gt=0.5, lt=1)] = 0.999
+    pd_floor: Annotated[float, Field(ge=0.00001, le=0.01)] = 0.0005
+    scaling_factor: bool = False
+    annual_sales_eur_millions: Annotated[float, Field(gt=0, le=1e7)] | None = None
+    recovery_join: Literal["comonotonic", "independent"] = "comonotonic"
+
+
+class Pricing(_Model):
+    """Annual rates as fractions of EAD [fraction/year]."""
+
+    proposed_spread: Annotated[float, Field(ge=-0.05, le=0.5)]
+    fee_rate: Annotated[float, Field(ge=0, le=0.2)] = 0.0
+    base_rate: Annotated[float, Field(ge=-0.1, le=0.5)] = 0.0
+    funding_spread: Annotated[float, Field(ge=-0.05, le=0.5)] = 0.0
+    operating_cost_rate: Annotated[float, Field(ge=0, le=0.2)] = 0.0
+    capital_return_rate: Annotated[float, Field(ge=-0.1, le=0.5)] = 0.0
+    hurdle_rate: Annotated[float, Field(ge=0, le=1)] = 0.12
+    capital_basis: Literal["economic", "regulatory"] = "economic"
+
+
+# --------------------------------------------------------------------------- sensitivity, scenarios
+
+
+class SensitivitySteps(_Model):
+    short_term_share: Annotated[float, Field(gt=0, le=1)] = 0.10
+    long_term_share: Annotated[float, Field(gt=0, le=1)] = 0.10
+    asset_growth: Annotated[float, Field(gt=0, le=0.5)] = 0.02
+    asset_volatility: Annotated[float, Field(gt=0, le=0.5)] = 0.02
+    horizon_years: Annotated[float, Field(gt=0, le=5)] = 0.5
+    ccf: Annotated[float, Field(gt=0, le=1)] = 0.10
+    recovery_mean: Annotated[float, Field(gt=0, le=0.5)] = 0.05
+
+
+class GridAxis(_Model):
+    start: Annotated[float, Field(ge=0, le=3)]
+    stop: Annotated[float, Field(ge=0, le=3)]
+    points: Annotated[int, Field(ge=2, le=101)] = 21
+
+    @model_validator(mode="after")
+    def _ordered(self) -> "GridAxis":
+        if self.stop <= self.start:
+            raise _FieldError("stop", self.stop, f"a value above start = {self.start:g}")
+        return self
+
+
+class Sensitivity(_Model):
+    steps: SensitivitySteps = SensitivitySteps()
+    long_term_share_axis: GridAxis = GridAxis(start=0.0, stop=1.0, points=21)
+    asset_volatility_axis: GridAxis | None = None  # None: centred on the estimate
+
+
+ScenarioValue = float | int | bool | str | None
+
+
+class Scenario(_Model):
+    name: Annotated[str, Field(min_length=1, max_length=60)]
+    description: Text = ""
+    set: dict[str, ScenarioValue] = Field(default_factory=dict)
+
+
+class MemoText(_Model):
+    """Free text, printed exactly as typed."""
+
+    prepared_by: Text = ""
+    reviewed_by: Text = ""
+    approved_by: Text = ""
+    request: Text = ""
+    summary: Text = ""
+    recommendation: Text = ""
+    conditions: Text = ""
+    page_size: Literal["A4", "Letter"] = "A4"
+
+
+class Case(_Model):
+    """One borrower's whole case. Statements are always held inline (a file is read at load)."""
+
+    borrower: Borrower
+    statements: Annotated[list[StatementRow], Field(min_length=1, max_length=200)]
+    market: Market | None = None
+    pd: PdSettings = PdSettings()
+    capital: CapitalSettings = CapitalSettings()
+    exposure: ExposureSettings = ExposureSettings()
+    lgd: LgdSettings = LgdSettings()
+    facilities: Annotated[list[Facility], Field(min_length=1, max_length=100)]
+    pricing: Pricing | None = None
+    sensitivity: Sensitivity = Sensitivity()
+    scenarios: list[Scenario] = Field(default_factory=list, max_length=20)
+    memo: MemoText = MemoText()
+
+    @field_validator("statements", mode="after")
+    @classmethod
+    def _sorted_unique_years(cls, rows: list[StatementRow]) -> list[StatementRow]:
+        seen: dict[int, int] = {}
+        for index, row in enumerate(rows):
+            if row.year in seen:
+                raise _FieldError(f"[{index}].year", row.year,
+                                  f"each year once (year {row.year} also in row {seen[row.year]})")
+            seen[row.year] = index
+        return sorted(rows, key=lambda r: r.year)
+
+    @model_validator(mode="after")
+    def _cross_checks(self) -> "Case":
+        problems: list[Problem] = []
+        ids: dict[str, int] = {}
+        for index, facility in enumerate(self.facilities):
+            if facility.id in ids:
+                problems.append(Problem(f"facilities[{index}].id", facility.id,
+                                        f"a unique id (also used by facilities[{ids[facility.id]}])"))
+            ids.setdefault(facility.id, index)
+        if self.pd.method == "market" and self.market is None:
+            problems.append(Problem("pd.method", "market",
+                                    "'balance_sheet', or 'market' together with a market block "
+                                    "(equity_value, equity_volatility, risk_free_rate)"))
+        needs_history = self.pd.method == "balance_sheet" and self.pd.override is None
+        window = self.pd.window_years
+        years_used = min(window, len(self.statements)) if window else len(self.statements)
+        if needs_history and self.pd.asset_volatility is None and years_used < 3:
+            problems.append(Problem("statements", f"{years_used} year(s) in the window",
+                                    "at least three years when asset volatility is estimated "
+                                    "(or set pd.asset_volatility)"))
+        if needs_history and self.pd.asset_growth is None and years_used < 2:
+            problems.append(Problem("statements", f"{years_used} year(s) in the window",
+                                    "at least two years when asset growth is estimated "
+                                    "(or set pd.asset_growth)"))
+        if window is not None and window > len(self.statements):
+            problems.append(Problem("pd.window_years", window,
+                                    f"at most the {len(self.statements)} years of statements given, "
+                                    "or null for all years"))
+        latest = self.statements[-1]
+        dp = (self.pd.default_point.short_term_share * latest.short_term_liabilities
+              + self.pd.default_point.long_term_share * latest.long_term_liabilities)
+        if dp <= 0 and self.pd.override is None:
+            problems.append(Problem("pd.default_point", f"{dp:g} {self.borrower.currency}",
+                                    "shares and latest liabilities giving a default point above 0"))
+        names = [s.name for s in self.scenarios]
+        for index, name in enumerate(names):
+            if name in names[:index]:
+                problems.append(Problem(f"scenarios[{index}].name", name, "a unique scenario name"))
+        if problems:
+            raise _CaseProblems(problems)
+        return self
+
+
+# --------------------------------------------------------------------------- errors and parsing
+
+
+class _FieldError(ValueError):
+    """Raised inside validators: a sub-field path relative to the model being validated."""
+
+    def __init__(self, field: str, value: Any, allowed: str):
+        self.field, self.value, self.allowed = field, value, allowed
+        super().__init__(f"{field}|{allowed}")
+
+
+class _CaseProblems(ValueError):
+    def __init__(self, problems: list[Problem]):
+        self.problems = problems
+        super().__init__("; ".join(p.sentence() for p in problems))
+
+
+def _path(loc: tuple[Any, ...]) -> str:
+    out = ""
+    for part in loc:
+        if isinstance(part, int):
+            out += f"[{part}]"
+        else:
+            out += ("." if out else "") + str(part)
+    return out
+
+
+def _model_at(loc: tuple[Any, ...]) -> type[BaseModel] | None:
+    """The pydantic model class that owns the last key of ``loc`` (walking from Case)."""
+    import typing
+
+    model: Any = Case
+    for part in loc[:-1]:
+        if isinstance(part, int):
+            continue
+        if not (isinstance(model, type) and issubclass(model, BaseModel)):
+            return None
+        field = model.model_fields.get(str(part))
+        if field is None:
+            return None
+        model = _unwrap_model(field.annotation, typing)
+    return model if isinstance(model, type) and issubclass(model, BaseModel) else None
+
+
+def _unwrap_model(annotation: Any, typing: Any) -> Any:
+    origin = typing.get_origin(annotation)
+    if origin is None:
+        return annotation
+    for arg in typing.get_args(annotation):
+        found = _unwrap_model(arg, typing)
+        if isinstance(found, type) and issubclass(found, BaseModel):
+            return found
+    return None
+
+
+def _allowed_for(error: dict[str, Any]) -> str:
+    kind = error["type"]
+    ctx = error.get("ctx") or {}
+    if kind == "extra_forbidden":
+        owner = _model_at(tuple(error["loc"]))
+        keys = sorted(owner.model_fields) if owner else []
+        near = difflib.get_close_matches(str(error["loc"][-1]), keys, n=1, cutoff=0.6)
+        hint = f" (did you mean '{near[0]}'?)" if near else ""
+        return f"no such key{hint}; the keys allowed here are {', '.join(keys)}"
+    if kind == "missing":
+        return "a value (this key is required)"
+    if kind in ("greater_than", "greater_than_equal", "less_than", "less_than_equal"):
+        return _range_text(error)
+    if kind == "finite_number":
+        return "a finite number (not NaN or infinity)"
+    if kind in ("float_type", "float_parsing"):
+        return "a number"
+    if kind in ("int_type", "int_parsing", "int_from_float"):
+        return "a whole number"
+    if kind in ("string_type",):
+        return "text"
+    if kind == "bool_type":
+        return "true or false"
+    if kind == "literal_error":
+        return "one of " + str(ctx.get("expected", ""))
+    if kind == "string_pattern_mismatch":
+        return "a three-letter ISO 4217 code in capitals, e.g. EUR, USD, CHF"
+    if kind in ("string_too_short", "too_short"):
+        return f"at least {ctx.get('min_length', 1)} item(s)/character(s)"
+    if kind in ("string_too_long", "too_long"):
+        return f"at most {ctx.get('max_length')} item(s)/character(s)"
+    if kind in ("list_type",):
+        return "a list"
+    if kind in ("model_type", "model_attributes_type", "dict_type"):
+        return "a mapping of keys to values"
+    return error.get("msg", "a valid value")
+
+
+def _range_text(error: dict[str, Any]) -> str:
+    """Combine the field's bounds into one range, reading them off the schema when possible."""
+    owner = _model_at(tuple(error["loc"]))
+    key = error["loc"][-1]
+    if owner is not None and str(key) in owner.model_fields:
+        low = high = None
+        low_open = high_open = False
+        for meta in owner.model_fields[str(key)].metadata:
+            if getattr(meta, "ge", None) is not None:
+                low = meta.ge
+            if getattr(meta, "gt", None) is not None:
+                low, low_open = meta.gt, True
+            if getattr(meta, "le", None) is not None:
+                high = meta.le
+            if getattr(meta, "lt", None) is not None:
+                high, high_open = meta.lt, True
+        if low is not None and high is not None:
+            return (f"a number from {low:g}{' (exclusive)' if low_open else ''} "
+                    f"to {high:g}{' (exclusive)' if high_open else ''}")
+    return error.get("msg", "a number in range").replace("Input should be ", "a number ")
+
+
+def problems_from_validation(exc: ValidationError, prefix: str = "") -> list[Problem]:
+    problems: list[Problem] = []
+    for error in exc.errors(include_url=False):
+        loc = tuple(error["loc"])
+        original = (error.get("ctx") or {}).get("error")
+        if isinstance(original, _CaseProblems):
+            for p in original.problems:
+                problems.append(Problem(_join(prefix, _join(_path(loc), p.field)), p.value, p.allowed))
+            continue
+        if isinstance(original, _FieldError):
+            field = original.field
+            path = _path(loc) + (field if field.startswith("[") else ("." + field if loc else field))
+            problems.append(Problem(_join(prefix, path), original.value, original.allowed))
+            continue
+        value = error.get("input")
+        if error["type"] == "missing":
+            value = None
+        problems.append(Problem(_join(prefix, _path(loc)) or "case", value, _allowed_for(error)))
+    return problems
+
+
+def _join(prefix: str, path: str) -> str:
+    if not prefix:
+        return path
+    if not path:
+        return prefix
+    return prefix + (path if path.startswith("[") else "." + path)
+
+
+def parse_case(data: Any, source: str = "case") -> Case:
+    """Validate a plain mapping (from YAML, JSON or a form) into a frozen :class:`Case`."""
+    if not isinstance(data, dict):
+        raise CaseError.single("case", type(data).__name__,
+                               "a mapping with keys borrower, statements, facilities, ...", source)
+    try:
+        return Case.model_validate(data)
+    except ValidationError as exc:
+        raise CaseError(problems_from_validation(exc), source=source) from None
+
+
+def case_to_dict(case: Case) -> dict[str, Any]:
+    """The case as plain data (JSON/YAML-ready); parse_case(case_to_dict(c)) == c."""
+    return case.model_dump(mode="json")

@@ -1,0 +1,84 @@
+"""Errors and warnings the engine hands to every front end.
+
+A user's mistake becomes a :class:`CaseError` holding one :class:`Problem` per bad field: the
+field's path (``facilities[1].recovery.std``), the value given and what is allowed. Front ends
+print :meth:`CaseError.paragraph`; they never show a traceback for a user's mistake.
+
+Things a user can live with (a PD floor that binds, a short history) are :class:`Caution`
+objects carried in the results, shown by the workbench and printed in the memo.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+_MAX_VALUE_CHARS = 60
+
+
+def show_value(value: Any) -> str:
+    """A short, unambiguous rendering of a user's value for a message."""
+    if isinstance(value, str):
+        text = repr(value)
+    elif isinstance(value, float):
+        text = repr(value)
+    elif value is None:
+        text = "empty (null)"
+    else:
+        text = repr(value)
+    if len(text) > _MAX_VALUE_CHARS:
+        text = text[: _MAX_VALUE_CHARS - 3] + "..."
+    return text
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One bad input: where it is, what was given, what is allowed."""
+
+    field: str
+    value: Any
+    allowed: str
+
+    def sentence(self) -> str:
+        return f"{self.field}: got {show_value(self.value)}; allowed: {self.allowed}."
+
+
+class CaseError(ValueError):
+    """A case (file, upload or form) that cannot be evaluated as given."""
+
+    def __init__(self, problems: list[Problem] | tuple[Problem, ...], source: str = "case"):
+        self.problems: tuple[Problem, ...] = tuple(problems)
+        self.source = source
+        super().__init__(self.paragraph())
+
+    @classmethod
+    def single(cls, field: str, value: Any, allowed: str, source: str = "case") -> "CaseError":
+        return cls([Problem(field, value, allowed)], source=source)
+
+    def paragraph(self, limit: int = 8) -> str:
+        shown = self.problems[:limit]
+        head = (
+            f"The {self.source} has {len(self.problems)} problem"
+            f"{'s' if len(self.problems) != 1 else ''}: "
+        )
+        body = " ".join(p.sentence() for p in shown)
+        more = len(self.problems) - len(shown)
+        tail = f" ({more} more not shown.)" if more > 0 else ""
+        return head + body + tail
+
+    @property
+    def fields(self) -> tuple[str, ...]:
+        return tuple(p.field for p in self.problems)
+
+
+@dataclass(frozen=True)
+class Caution:
+    """Something the reader should know about a result; not an error.
+
+    ``code`` is a stable identifier (tests and templates key on it), ``field`` the input it
+    concerns (may be empty), ``message`` a plain sentence.
+    """
+
+    code: str
+    message: str
+    field: str = ""

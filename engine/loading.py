@@ -1,0 +1,142 @@
+"""Reading case files (YAML or JSON) from disk or from bytes.
+
+YAML is read with a safe loader (no object construction) that refuses duplicate keys (a second
+value must never silently replace the first) and reads ``1e6`` as a number, as people mean it.
+A ``statements: {file: ...}`` entry is read relative to the case file and inlined, so the
+validated case always carries its own statements (a memo re-runs from the case alone).
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from engine.case import Case, parse_case
+from engine.errors import CaseError, Problem
+from engine.statements import read_statement_table
+
+MAX_CASE_BYTES = 5_000_000
+
+
+class _StrictLoader(yaml.SafeLoader):
+    pass
+
+
+def _mapping_without_duplicates(loader: yaml.SafeLoader, node: yaml.MappingNode, deep: bool = False):
+    seen: dict[Any, int] = {}
+    for key_node, _ in node.value:
+        key = loader.construct_object(key_node, deep=deep)
+        if key in seen:
+            raise _DuplicateKey(key, key_node.start_mark.line + 1, seen[key])
+        seen[key] = key_node.start_mark.line + 1
+    return loader.construct_mapping(node, deep=deep)
+
+
+class _DuplicateKey(Exception):
+    def __init__(self, key: Any, line: int, first: int):
+        self.key, self.line, self.first = key, line, first
+
+
+_StrictLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _mapping_without_duplicates)
+# YAML 1.1 reads 1e6 as text; accept the scientific notation people write.
+_StrictLoader.add_implicit_resolver(
+    "tag:yaml.org,2002:float",
+    re.compile(r"""^(?:[-+]?(?:[0-9][0-9_]*)\.[0-9_]*(?:[eE][-+]?[0-9]+)?
+                    |[-+]?(?:[0-9][0-9_]*)(?:[eE][-+]?[0-9]+)
+                    |\.[0-9_]+(?:[eE][-+][0-9]+)?
+                    |[-+]?\.(?:inf|Inf|INF)
+                    |\.(?:nan|NaN|NAN))$""", re.X),
+    list("-+0123456789."),
+)
+
+
+def parse_text(text: str, name: str) -> Any:
+    """Plain data from YAML or JSON text (JSON is valid YAML, but JSON gets JSON's messages)."""
+    if name.lower().endswith(".json"):
+        try:
+            return json.loads(text, object_pairs_hook=_json_pairs)
+        except json.JSONDecodeError as exc:
+            raise CaseError.single(f"{name}, line {exc.lineno}, column {exc.colno}", exc.msg,
+                                   "valid JSON", "case file") from None
+    try:
+        return yaml.load(text, Loader=_StrictLoader)  # noqa: S506 - _StrictLoader is a SafeLoader
+    except _DuplicateKey as dup:
+        raise CaseError.single(f"{name}, line {dup.line}", dup.key,
+                               f"each key once in a mapping (first given on line {dup.first})",
+                               "case file") from None
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f"{name}, line {mark.line + 1}, column {mark.column + 1}" if mark else name
+        problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
+        raise CaseError.single(where, problem, "valid YAML (check indentation and colons)",
+                               "case file") from None
+
+
+def _json_pairs(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for key, value in pairs:
+        if key in out:
+            raise CaseError.single(f"key {key!r}", value, "each key once in an object", "case file")
+        out[key] = value
+    return out
+
+
+def resolve_statements(data: Any, base_dir: Path | None) -> Any:
+    """Inline a ``statements: {file: path, sheet: name}`` entry (path relative to the case file)."""
+    if not isinstance(data, dict):
+        return data
+    spec = data.get("statements")
+    if not isinstance(spec, dict):
+        return data
+    extra = set(spec) - {"file", "sheet", "decimal"}
+    if extra or not isinstance(spec.get("file"), str):
+        raise CaseError.single("statements", spec,
+                               "a list of yearly rows, or {file: path.csv|.xlsx, sheet: name}",
+                               "case file")
+    if base_dir is None:
+        raise CaseError.single("statements.file", spec["file"],
+                               "inline rows here (a file path needs a case file on disk)", "case file")
+    path = (base_dir / spec["file"]).resolve()
+    if not path.is_file():
+        raise CaseError.single("statements.file", spec["file"],
+                               f"a CSV or XLSX file that exists (looked for {path})", "case file")
+    decimal = spec.get("decimal", ".")
+    if decimal not in (".", ","):
+        raise CaseError.single("statements.decimal", decimal, "'.' or ','", "case file")
+    rows = read_statement_table(path.read_bytes(), path.name, sheet=spec.get("sheet"), decimal=decimal)
+    return {**data, "statements": rows}
+
+
+def load_case(path: str | Path) -> Case:
+    """Read, inline and validate a case file. Raises CaseError for every user mistake."""
+    path = Path(path)
+    if not path.is_file():
+        raise CaseError.single("CASE", str(path), "the path of an existing .yaml, .yml or .json file",
+                               "command")
+    if path.suffix.lower() not in (".yaml", ".yml", ".json"):
+        raise CaseError.single("CASE", str(path), "a file ending in .yaml, .yml or .json", "command")
+    raw = path.read_bytes()
+    if len(raw) > MAX_CASE_BYTES:
+        raise CaseError.single("CASE", f"{len(raw):,} bytes", f"at most {MAX_CASE_BYTES:,} bytes",
+                               "case file")
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise CaseError.single("CASE", str(path), "a UTF-8 text file", "case file") from None
+    data = parse_text(text, path.name)
+    data = resolve_statements(data, path.parent)
+    return parse_case(data, source="case file")
+
+
+def load_case_text(text: str, name: str = "case.yaml", base_dir: Path | None = None) -> Case:
+    """Validate a case given as text (an upload)."""
+    data = parse_text(text, name)
+    data = resolve_statements(data, base_dir)
+    return parse_case(data, source="case file")
+
+
+__all__ = ["load_case", "load_case_text", "parse_text", "resolve_statements", "Problem"]

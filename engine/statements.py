@@ -1,0 +1,240 @@
+"""Statement tables from CSV or XLSX files, and the key ratios of the financial years.
+
+Reading is defensive: a table is data, never code. Formulas in a workbook are refused (their
+cached values could be stale and they could be crafted); size and row limits keep an upload
+from exhausting memory. Every problem names the file, the row and the column.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import re
+import zipfile
+from dataclasses import dataclass
+from typing import Any
+
+from engine.errors import CaseError, Problem
+
+MAX_FILE_BYTES = 2_000_000
+MAX_ROWS = 200
+MAX_XLSX_UNCOMPRESSED = 50_000_000
+
+REQUIRED_COLUMNS = ("year", "total_assets", "short_term_liabilities", "long_term_liabilities")
+OPTIONAL_COLUMNS = ("working_capital", "retained_earnings", "ebit", "sales", "book_equity",
+                    "total_liabilities")
+ALL_COLUMNS = REQUIRED_COLUMNS + OPTIONAL_COLUMNS
+
+_NUMBER = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?$")
+
+
+def _header_key(text: Any) -> str:
+    return re.sub(r"[^a-z0-9]+", "_", str(text).strip().lower()).strip("_")
+
+
+def parse_number(text: Any, *, decimal: str = ".") -> float | None:
+    """A cell as a float: '1,234.5', '1 234,5' (with decimal=','), '(12)' for -12; '' -> None."""
+    if text is None:
+        return None
+    if isinstance(text, bool):
+        raise ValueError("true/false")
+    if isinstance(text, (int, float)):
+        return float(text)
+    raw = str(text).strip().replace("\u00a0", " ").replace("\u202f", " ")
+    if raw == "" or raw in {"-", "n/a", "N/A", "na", "NA"}:
+        return None
+    negative = raw.startswith("(") and raw.endswith(")")
+    if negative:
+        raw = raw[1:-1].strip()
+    thousands = "," if decimal == "." else "."
+    cleaned = raw.replace(" ", "").replace("'", "")
+    if re.fullmatch(r"[+-]?\d{1,3}(" + re.escape(thousands) + r"\d{3})+(" + re.escape(decimal)
+                    + r"\d*)?", cleaned):
+        cleaned = cleaned.replace(thousands, "")
+    if decimal == ",":
+        cleaned = cleaned.replace(",", ".")
+    if not _NUMBER.match(cleaned) or cleaned.count(".") > 1 or "," in cleaned:
+        raise ValueError(raw)
+    value = float(cleaned)
+    return -value if negative else value
+
+
+def _decode(data: bytes, name: str) -> str:
+    for encoding in ("utf-8-sig", "utf-16") if data[:2] in (b"\xff\xfe", b"\xfe\xff") else ("utf-8-sig",):
+        try:
+            return data.decode(encoding)
+        except UnicodeDecodeError:
+            continue
+    try:
+        return data.decode("cp1252")
+    except UnicodeDecodeError:
+        raise CaseError.single(f"statements file {name}", "undecodable bytes",
+                               "a text file in UTF-8 (or Windows-1252)", "statements file") from None
+
+
+def _rows_from_csv(data: bytes, name: str) -> list[list[Any]]:
+    text = _decode(data, name)
+    if "\x00" in text:
+        raise CaseError.single(f"statements file {name}", "binary content",
+                               "a CSV text table or an .xlsx workbook", "statements file")
+    sample = text[:4096]
+    try:
+        dialect = csv.Sniffer().sniff(sample, delimiters=",;\t")
+        delimiter = dialect.delimiter
+    except csv.Error:
+        delimiter = ","
+    return [row for row in csv.reader(io.StringIO(text), delimiter=delimiter)]
+
+
+def _rows_from_xlsx(data: bytes, name: str, sheet: str | None) -> list[list[Any]]:
+    try:
+        archive = zipfile.ZipFile(io.BytesIO(data))
+        expanded = sum(info.file_size for info in archive.infolist())
+    except zipfile.BadZipFile:
+        raise CaseError.single(f"statements file {name}", "not a valid .xlsx archive",
+                               "an Excel 2007+ workbook (.xlsx) or a CSV file", "statements file") from None
+    if expanded > MAX_XLSX_UNCOMPRESSED:
+        raise CaseError.single(f"statements file {name}", f"{expanded:,} bytes when expanded",
+                               f"a workbook expanding to at most {MAX_XLSX_UNCOMPRESSED:,} bytes",
+                               "statements file")
+    import openpyxl  # deferred: only workbooks need it
+
+    try:
+        book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=False)
+    except Exception as exc:  # openpyxl raises many types for broken files
+        raise CaseError.single(f"statements file {name}", f"unreadable workbook ({type(exc).__name__})",
+                               "a workbook saved by a spreadsheet program as .xlsx",
+                               "statements file") from None
+    if sheet is not None and sheet not in book.sheetnames:
+        raise CaseError.single("statements.sheet", sheet, f"one of {', '.join(book.sheetnames)}",
+                               "statements file")
+    ws = book[sheet] if sheet else book.worksheets[0]
+    rows: list[list[Any]] = []
+    for r_index, row in enumerate(ws.iter_rows(values_only=True)):
+        if r_index > MAX_ROWS + 1:
+            break
+        for c_index, value in enumerate(row):
+            if isinstance(value, str) and value.startswith("="):
+                raise CaseError.single(f"statements file {name}, row {r_index + 1}, column {c_index + 1}",
+                                       value, "plain values (formulas are not evaluated; paste values)",
+                                       "statements file")
+        rows.append(list(row))
+    book.close()
+    return rows
+
+
+def read_statement_table(data: bytes, name: str, *, sheet: str | None = None,
+                         decimal: str = ".") -> list[dict[str, Any]]:
+    """Rows of a statements table as plain dicts (column -> number), ready for the case schema.
+
+    ``name`` is used in messages and to tell CSV from XLSX by its ending.
+    """
+    if len(data) > MAX_FILE_BYTES:
+        raise CaseError.single(f"statements file {name}", f"{len(data):,} bytes",
+                               f"a file of at most {MAX_FILE_BYTES:,} bytes", "statements file")
+    if not data.strip():
+        raise CaseError.single(f"statements file {name}", "an empty file",
+                               "a header row and at least one year", "statements file")
+    lower = name.lower()
+    if lower.endswith((".xlsx", ".xlsm")):
+        rows = _rows_from_xlsx(data, name, sheet)
+    elif lower.endswith((".csv", ".txt", ".tsv")):
+        rows = _rows_from_csv(data, name)
+    else:
+        raise CaseError.single(f"statements file {name}", name.rsplit(".", 1)[-1] if "." in name else name,
+                               "a .csv or .xlsx file", "statements file")
+    rows = [r for r in rows if any(c not in (None, "") and str(c).strip() for c in r)]
+    if not rows:
+        raise CaseError.single(f"statements file {name}", "no rows",
+                               "a header row and at least one year", "statements file")
+    header = [_header_key(c) for c in rows[0]]
+    problems: list[Problem] = []
+    unknown = [h for h in header if h and h not in ALL_COLUMNS]
+    if unknown:
+        import difflib
+
+        for h in unknown:
+            near = difflib.get_close_matches(h, ALL_COLUMNS, n=1, cutoff=0.6)
+            hint = f" (did you mean '{near[0]}'?)" if near else ""
+            problems.append(Problem(f"statements file {name}, header", h,
+                                    f"a known column{hint}: {', '.join(ALL_COLUMNS)}"))
+    for needed in REQUIRED_COLUMNS:
+        if needed not in header:
+            problems.append(Problem(f"statements file {name}, header", ", ".join(h for h in header if h),
+                                    f"a column named {needed}"))
+    if problems:
+        raise CaseError(problems, "statements file")
+    body = rows[1:]
+    if len(body) > MAX_ROWS:
+        raise CaseError.single(f"statements file {name}", f"{len(body)} rows",
+                               f"at most {MAX_ROWS} years", "statements file")
+    out: list[dict[str, Any]] = []
+    for r_index, row in enumerate(body, start=2):
+        record: dict[str, Any] = {}
+        for c_index, key in enumerate(header):
+            if not key:
+                continue
+            cell = row[c_index] if c_index < len(row) else None
+            try:
+                value = parse_number(cell, decimal=decimal)
+            except ValueError:
+                problems.append(Problem(f"statements file {name}, row {r_index}, column {key}", cell,
+                                        "a number such as 1234.5 or 1,234.5"))
+                continue
+            if value is None:
+                if key in REQUIRED_COLUMNS:
+                    problems.append(Problem(f"statements file {name}, row {r_index}, column {key}",
+                                            cell, "a number (this column is required)"))
+                continue
+            if key == "year":
+                if not math.isfinite(value) or value != int(value):
+                    problems.append(Problem(f"statements file {name}, row {r_index}, column year",
+                                            cell, "a whole year such as 2024"))
+                    continue
+                record[key] = int(value)
+            else:
+                record[key] = value
+        out.append(record)
+    if problems:
+        raise CaseError(problems, "statements file")
+    return out
+
+
+# --------------------------------------------------------------------------- ratios
+
+
+@dataclass(frozen=True)
+class YearRatios:
+    """Key ratios of one financial year [fraction]."""
+
+    year: int
+    total_liabilities: float          # [currency] given, or short + long term
+    leverage: float                   # total liabilities / total assets
+    short_term_share_of_debt: float   # short-term / (short + long)
+    equity_ratio: float | None        # book equity / total assets
+    ebit_margin: float | None         # EBIT / sales
+    return_on_assets: float | None    # EBIT / total assets
+    asset_growth: float | None        # ln(TA_t / TA_{t-1})
+
+
+def year_ratios(rows: list[Any]) -> tuple[YearRatios, ...]:
+    """Ratios per year from validated, year-sorted statement rows."""
+    out = []
+    previous = None
+    for row in rows:
+        tl = row.total_liabilities or (row.short_term_liabilities + row.long_term_liabilities)
+        debt = row.short_term_liabilities + row.long_term_liabilities
+        out.append(YearRatios(
+            year=row.year,
+            total_liabilities=tl,
+            leverage=tl / row.total_assets,
+            short_term_share_of_debt=(row.short_term_liabilities / debt) if debt > 0 else 0.0,
+            equity_ratio=(row.book_equity / row.total_assets) if row.book_equity is not None else None,
+            ebit_margin=(row.ebit / row.sales) if (row.ebit is not None and row.sales) else None,
+            return_on_assets=(row.ebit / row.total_assets) if row.ebit is not None else None,
+            asset_growth=(math.log(row.total_assets / previous.total_assets)
+                          if previous is not None else None),
+        ))
+        previous = row
+    return tuple(out)

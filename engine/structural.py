@@ -1,0 +1,134 @@
+"""Structural (Merton-type) PD from the balance sheet, and the PD term structure.
+
+Assets follow a geometric Brownian motion with expected return mu and volatility s; the borrower
+defaults when assets at the horizon fall below the default point DP. Distance to default
+
+    DD = (ln(V / DP) + (mu - s^2 / 2) T) / (s sqrt(T)),      PD = N(-DD)
+
+(Merton, R. C. (1974), "On the Pricing of Corporate Debt", Journal of Finance 29(2); the
+physical-measure form as used for distance to default in practice). The default point is
+DP = a x short-term liabilities + b x long-term liabilities; a = 1, b = 0.5 is common practice.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.special import ndtr
+
+
+def default_point(*, short_term_liabilities: float, long_term_liabilities: float,
+                  short_term_share: float = 1.0, long_term_share: float = 0.5) -> float:
+    """DP = a x STL + b x LTL [currency] (common practice: a = 1, b = 0.5)."""
+    for name, value in (("short_term_share", short_term_share), ("long_term_share", long_term_share)):
+        if not (0 <= value <= 1):
+            raise ValueError(f"pd.default_point.{name}: got {value!r}; allowed: a number from 0 to 1")
+    return short_term_share * short_term_liabilities + long_term_share * long_term_liabilities
+
+
+def distance_to_default(*, asset_value, default_point, asset_return, asset_volatility, horizon_years):
+    """DD = (ln(V/DP) + (mu - s^2/2) T) / (s sqrt T) [standard deviations]. Broadcasts over arrays.
+
+    asset_value, default_point [currency]; asset_return mu [1/year]; asset_volatility s
+    [1/sqrt(year)]; horizon_years T [years].
+    """
+    v = np.asarray(asset_value, dtype=float)
+    dp = np.asarray(default_point, dtype=float)
+    s = np.asarray(asset_volatility, dtype=float)
+    t = np.asarray(horizon_years, dtype=float)
+    if np.any(v <= 0) or np.any(dp <= 0):
+        raise ValueError("asset value and default point must both be above 0 "
+                         f"(got asset value {v!r}, default point {dp!r})")
+    if np.any(s <= 0) or np.any(t <= 0):
+        raise ValueError(f"asset volatility and horizon must be above 0 (got {s!r}, {t!r})")
+    dd = (np.log(v / dp) + (np.asarray(asset_return, dtype=float) - s**2 / 2) * t) / (s * np.sqrt(t))
+    return float(dd) if dd.ndim == 0 else dd
+
+
+def pd_from_distance(distance) -> float | np.ndarray:
+    """PD = N(-DD), the standard normal CDF (scipy.special.ndtr)."""
+    out = ndtr(-np.asarray(distance, dtype=float))
+    return float(out) if np.ndim(out) == 0 else out
+
+
+@dataclass(frozen=True)
+class BalanceSheetPd:
+    """Every quantity of the balance-sheet structural PD."""
+
+    asset_value: float          # V: latest total assets [currency]
+    asset_growth: float         # g [1/year]
+    asset_volatility: float     # s [1/sqrt(year)]
+    asset_return: float         # mu = g + s^2/2 [1/year]
+    short_term_liabilities: float  # latest [currency]
+    long_term_liabilities: float   # latest [currency]
+    short_term_share: float     # a [fraction]
+    long_term_share: float      # b [fraction]
+    default_point: float        # DP [currency]
+    horizon_years: float        # T [years]
+    distance_to_default: float  # DD
+    pd: float                   # N(-DD) [fraction]
+
+
+def balance_sheet_pd(*, asset_value: float, asset_growth: float, asset_volatility: float,
+                     short_term_liabilities: float, long_term_liabilities: float,
+                     short_term_share: float = 1.0, long_term_share: float = 0.5,
+                     horizon_years: float = 1.0) -> BalanceSheetPd:
+    """Balance-sheet PD with mu = g + s^2/2, so the log-asset drift mu - s^2/2 equals g."""
+    dp = default_point(short_term_liabilities=short_term_liabilities,
+                       long_term_liabilities=long_term_liabilities,
+                       short_term_share=short_term_share, long_term_share=long_term_share)
+    if dp <= 0:
+        raise ValueError(f"pd.default_point: got {dp!r}; allowed: shares and liabilities giving a "
+                         "default point above 0")
+    mu = asset_growth + asset_volatility**2 / 2
+    dd = distance_to_default(asset_value=asset_value, default_point=dp, asset_return=mu,
+                             asset_volatility=asset_volatility, horizon_years=horizon_years)
+    return BalanceSheetPd(
+        asset_value=asset_value, asset_growth=asset_growth, asset_volatility=asset_volatility,
+        asset_return=mu, short_term_liabilities=short_term_liabilities,
+        long_term_liabilities=long_term_liabilities, short_term_share=short_term_share,
+        long_term_share=long_term_share, default_point=dp, horizon_years=horizon_years,
+        distance_to_default=dd, pd=pd_from_distance(dd),
+    )
+
+
+@dataclass(frozen=True)
+class PdTermStructure:
+    """Cumulative and marginal PD by year [fraction]; ``basis`` says how it was built."""
+
+    years: tuple[float, ...]
+    cumulative: tuple[float, ...]
+    marginal: tuple[float, ...]        # cumulative(t) - cumulative(t-1)
+    conditional: tuple[float, ...]     # marginal / survival to t-1 (annual hazard)
+    basis: str
+
+
+def structural_term_structure(*, asset_value: float, default_point: float, log_drift: float,
+                              asset_volatility: float, years: int, basis: str) -> PdTermStructure:
+    """Cumulative PD(t) = N(-(ln(V/DP) + m t)/(s sqrt t)) for t = 1..years, m the log-asset drift
+    (g on the balance sheet; r - s^2/2 risk-neutral in the market model). The default point is held
+    at today's value: a simplification stated in the memo's cautions."""
+    t = np.arange(1, years + 1, dtype=float)
+    dd = (math.log(asset_value / default_point) + log_drift * t) / (asset_volatility * np.sqrt(t))
+    cumulative = np.asarray(pd_from_distance(dd))
+    return _from_cumulative(t, np.maximum.accumulate(cumulative), basis)
+
+
+def constant_hazard_term_structure(*, pd: float, horizon_years: float, years: int,
+                                   basis: str) -> PdTermStructure:
+    """Cumulative PD(t) = 1 - (1 - PD)^(t / T): a constant annual hazard reproducing PD at T."""
+    t = np.arange(1, years + 1, dtype=float)
+    cumulative = 1.0 - (1.0 - pd) ** (t / horizon_years) if pd < 1 else np.ones_like(t)
+    return _from_cumulative(t, cumulative, basis)
+
+
+def _from_cumulative(t: np.ndarray, cumulative: np.ndarray, basis: str) -> PdTermStructure:
+    previous = np.concatenate([[0.0], cumulative[:-1]])
+    marginal = cumulative - previous
+    survival = 1.0 - previous
+    conditional = np.divide(marginal, survival, out=np.ones_like(marginal), where=survival > 0)
+    return PdTermStructure(years=tuple(t.tolist()), cumulative=tuple(cumulative.tolist()),
+                           marginal=tuple(marginal.tolist()), conditional=tuple(conditional.tolist()),
+                           basis=basis)

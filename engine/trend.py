@@ -1,0 +1,145 @@
+"""Asset trend: how the borrower's total assets grew, and how unevenly.
+
+Two least-squares lines are fitted over the chosen window so the analyst can judge the trend:
+ln(total assets) on year (slope = continuous growth g [1/year]) and total assets on year
+(slope [currency/year]), each with its R^2. Asset volatility is the sample standard deviation
+(n - 1) of the annual log changes of total assets [1/sqrt(year)].
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from engine.errors import Caution
+
+
+@dataclass(frozen=True)
+class LinearFit:
+    """y = intercept + slope * year, fitted by ordinary least squares."""
+
+    slope: float          # [y-units / year]
+    intercept: float      # [y-units] at year 0
+    r_squared: float | None  # None when y does not vary (R^2 undefined)
+    n: int
+
+    def at(self, year: float) -> float:
+        return self.intercept + self.slope * year
+
+
+def least_squares_line(years: np.ndarray, values: np.ndarray) -> LinearFit:
+    """Ordinary least squares of ``values`` on ``years`` with R^2 = 1 - SSR/SST.
+
+    Years are centred before fitting: raw calendar years squared lose digits in float64.
+    """
+    x = np.asarray(years, dtype=float)
+    y = np.asarray(values, dtype=float)
+    if x.size < 2:
+        raise ValueError(f"years: got {x.size} point(s); allowed: at least 2 to fit a line")
+    xc = x - x.mean()
+    sxx = float(xc @ xc)
+    if sxx == 0:
+        raise ValueError("years: all equal; allowed: at least two distinct years")
+    slope = float(xc @ (y - y.mean())) / sxx
+    intercept = float(y.mean() - slope * x.mean())
+    residual = y - (intercept + slope * x)
+    sst = float(((y - y.mean()) ** 2).sum())
+    r2 = None if sst <= 1e-300 * max(1.0, float(np.abs(y).max())) else 1.0 - float(residual @ residual) / sst
+    return LinearFit(slope=slope, intercept=intercept, r_squared=r2, n=int(x.size))
+
+
+def annual_log_changes(years: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """ln(A_t / A_{t-1}) per year. Across a gap of k years the change is divided by sqrt(k) so
+    that its variance is that of one year under a random walk (the mean is not used)."""
+    gaps = np.diff(np.asarray(years, dtype=float))
+    return np.diff(np.log(values)) / np.sqrt(gaps)
+
+
+def sample_volatility(changes: np.ndarray) -> float:
+    """Sample standard deviation with n - 1 in the denominator (numpy ddof=1)."""
+    if changes.size < 2:
+        raise ValueError(f"annual log changes: got {changes.size}; allowed: at least 2 "
+                         "(three years of statements) to estimate a volatility")
+    return float(np.std(changes, ddof=1))
+
+
+@dataclass(frozen=True)
+class AssetTrend:
+    """The asset history in the window and everything fitted from it."""
+
+    years: tuple[int, ...]               # window used, oldest first
+    total_assets: tuple[float, ...]      # [currency]
+    window_years: int                    # number of years in the window
+    log_fit: LinearFit                   # ln(total assets) on year; slope = growth g [1/year]
+    level_fit: LinearFit                 # total assets on year; slope [currency/year]
+    log_changes: tuple[float, ...]       # annual log changes [1/year]
+    growth_estimate: float               # g from the log fit [1/year]
+    volatility_estimate: float | None    # sample std of log changes [1/sqrt(year)]
+    growth_used: float                   # estimate or the analyst's override [1/year]
+    volatility_used: float               # estimate or the analyst's override [1/sqrt(year)]
+    growth_overridden: bool
+    volatility_overridden: bool
+    expected_return: float               # mu = g + s^2 / 2 [1/year]
+    cautions: tuple[Caution, ...]
+
+
+def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years: int | None = None,
+                    growth_override: float | None = None,
+                    volatility_override: float | None = None) -> AssetTrend:
+    """Fit the asset trend over the latest ``window_years`` years (None = all years).
+
+    Growth g is the slope of ln(total assets) on year; volatility s the sample standard deviation
+    of annual log changes; the expected asset return is mu = g + s^2/2 (the drift of a geometric
+    Brownian motion whose log grows at g; e.g. Hull, Options, Futures, and Other Derivatives,
+    the lognormal property of stock prices).
+    """
+    y = np.asarray(years, dtype=float)
+    a = np.asarray(total_assets, dtype=float)
+    order = np.argsort(y)
+    y, a = y[order], a[order]
+    if window_years is not None:
+        y, a = y[-window_years:], a[-window_years:]
+    cautions: list[Caution] = []
+    if len(y) < 2 and growth_override is None:
+        raise ValueError(f"statements: got {len(y)} year(s) in the window; allowed: at least 2 to "
+                         "estimate asset growth, or set pd.asset_growth")
+    if len(y) >= 2:
+        log_fit = least_squares_line(y, np.log(a))
+        level_fit = least_squares_line(y, a)
+        changes = annual_log_changes(y, a)
+    else:
+        log_fit = LinearFit(slope=0.0, intercept=float(np.log(a[0])), r_squared=None, n=1)
+        level_fit = LinearFit(slope=0.0, intercept=float(a[0]), r_squared=None, n=1)
+        changes = np.array([])
+    if np.any(np.diff(y) > 1):
+        cautions.append(Caution("trend.gaps", "The statement years are not consecutive; annual log "
+                                "changes across a gap are scaled by 1/sqrt(gap).", "statements"))
+    vol_estimate = sample_volatility(changes) if changes.size >= 2 else None
+    if vol_estimate is None and volatility_override is None:
+        raise ValueError(f"statements: got {len(y)} year(s) in the window; allowed: at least 3 to "
+                         "estimate asset volatility, or set pd.asset_volatility")
+    if len(y) < 5:
+        cautions.append(Caution("trend.short_history",
+                                f"Only {len(y)} years in the window: growth and volatility estimates "
+                                "from so short a history are very uncertain.", "pd.window_years"))
+    if vol_estimate is not None and vol_estimate == 0 and volatility_override is None:
+        raise ValueError("pd.asset_volatility: the estimate is 0 (total assets changed by the same "
+                         "log amount every year); allowed: set pd.asset_volatility above 0")
+    for fit, label in ((log_fit, "log-linear"), (level_fit, "straight-line")):
+        if fit.r_squared is not None and fit.r_squared < 0.5 and fit.n >= 3:
+            cautions.append(Caution("trend.weak_fit", f"The {label} asset trend explains little "
+                                    f"(R^2 = {fit.r_squared:.2f}); the growth estimate is weak.",
+                                    "pd.window_years"))
+            break
+    growth = growth_override if growth_override is not None else log_fit.slope
+    vol = volatility_override if volatility_override is not None else float(vol_estimate)
+    return AssetTrend(
+        years=tuple(int(v) for v in y), total_assets=tuple(float(v) for v in a), window_years=len(y),
+        log_fit=log_fit, level_fit=level_fit, log_changes=tuple(float(c) for c in changes),
+        growth_estimate=log_fit.slope, volatility_estimate=vol_estimate, growth_used=float(growth),
+        volatility_used=float(vol), growth_overridden=growth_override is not None,
+        volatility_overridden=volatility_override is not None,
+        expected_return=float(growth) + float(vol) ** 2 / 2, cautions=tuple(cautions),
+    )
+
