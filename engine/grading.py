@@ -230,7 +230,9 @@ def assign_grade(pd: float, scale: MasterScale = DEFAULT_MASTER_SCALE) -> GradeR
     if isinstance(pd, bool) or not isinstance(pd, numbers.Real):
         raise ValueError(f"pd must be a number in (0, 1]; got {pd!r}")
     if not (0.0 < pd <= 1.0):
-        raise ValueError(f"pd must lie in (0, 1] (0 excluded: lower bounds are exclusive); got {pd!r}")
+        raise ValueError(
+            f"pd must lie in (0, 1] (0 excluded: lower bounds are exclusive); got {pd!r}"
+        )
     # bisect_left finds the first band whose upper bound is >= pd: upper inclusive.
     index = bisect.bisect_left(scale.upper_bounds, float(pd))
     band = scale.grades[index]
