@@ -97,6 +97,18 @@ class PdSettings(_Model):
     master_scale: list[GradeRow] | None = None
 
     @model_validator(mode="after")
+    def _valid_master_scale(self) -> "PdSettings":
+        if self.master_scale is not None:
+            from engine.grading import master_scale_from_rows
+
+            try:
+                master_scale_from_rows([row.model_dump() for row in self.master_scale])
+            except ValueError as exc:
+                raise _FieldError("master_scale", [r.model_dump() for r in self.master_scale],
+                                  str(exc)) from None
+        return self
+
+    @model_validator(mode="after")
     def _override_needs_reason(self) -> "PdSettings":
         if self.override is not None and not (self.override_reason or "").strip():
             raise _FieldError("override_reason", self.override_reason,

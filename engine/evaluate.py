@@ -10,13 +10,15 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-from dataclasses import asdict, dataclass, field, fields, is_dataclass
+from collections.abc import Mapping
+from dataclasses import dataclass, field, fields, is_dataclass
 from typing import Any
 
 from engine import ENGINE_VERSION
 from engine.case import Case, case_to_dict
 from engine.errors import CaseError, Caution
 from engine.capital import irb_corporate_capital
+from engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
 from engine.exposure import facility_exposure, resolve_ccf
 from engine.lossdist import LossDistribution, loss_distribution
 from engine.pricing import PricingResult, price_borrower
@@ -27,6 +29,7 @@ from engine.statements import YearRatios, year_ratios
 from engine.structural import (PdTermStructure, balance_sheet_pd, constant_hazard_term_structure,
                                structural_term_structure)
 from engine.trend import AssetTrend, fit_asset_trend
+from engine.zscore import ZScore, altman_scores
 
 
 @dataclass(frozen=True)
@@ -113,6 +116,9 @@ class Results:
     trend: AssetTrend | None
     ratios: tuple[YearRatios, ...]
     pd: PdResult
+    master_scale_source: str         # "case file" or "illustrative default"
+    zscores: tuple[ZScore, ...]      # latest year
+    zscore_history: tuple[tuple[int, str, float | None, str | None], ...]  # (year, variant, score, zone)
     term_structure: PdTermStructure
     facilities: tuple[FacilityResult, ...]
     total: Totals
@@ -133,12 +139,15 @@ class Results:
 
 
 def _plain(value: Any) -> Any:
-    if is_dataclass(value):
-        return {k: _plain(v) for k, v in asdict(value).items()}
-    if isinstance(value, dict):
+    """Dataclasses, mappings, sequences and numpy values as JSON-ready Python data."""
+    if is_dataclass(value) and not isinstance(value, type):
+        return {f.name: _plain(getattr(value, f.name)) for f in fields(value) if f.repr}
+    if isinstance(value, Mapping):
         return {str(k): _plain(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         return [_plain(v) for v in value]
+    if hasattr(value, "tolist"):  # numpy arrays and scalars
+        return _plain(value.tolist())
     if isinstance(value, float) and not math.isfinite(value):
         return None
     return value
@@ -227,7 +236,10 @@ def evaluate(case: Case) -> Results:
     cautions: list[Caution] = []
     trend, pd, pd_cautions = estimate_pd(case)
     cautions.extend(pd_cautions)
+    pd, scale_source = _graded(case, pd)
     ts = term_structure(case, pd)
+    zscores, z_history, z_cautions = _zscores(case)
+    cautions.extend(z_cautions)
 
     ccf_table = ([(r.grade, r.ccf, r.kind) for r in case.exposure.ccf_by_grade]
                  if case.exposure.ccf_by_grade else None)
@@ -312,9 +324,48 @@ def evaluate(case: Case) -> Results:
     pricing, pricing_cautions = _price(case, total)
     cautions.extend(pricing_cautions)
     return Results(engine_version=ENGINE_VERSION, fingerprint=fingerprint(case), case=case, trend=trend,
-                   ratios=year_ratios(case.statements), pd=pd, term_structure=ts,
+                   ratios=year_ratios(case.statements), pd=pd, master_scale_source=scale_source,
+                   zscores=zscores, zscore_history=z_history, term_structure=ts,
                    facilities=tuple(facilities), total=total, loss_distribution=dist, pricing=pricing,
                    cautions=tuple(cautions), laws=laws)
+
+
+def _graded(case: Case, pd: PdResult) -> tuple[PdResult, str]:
+    """Grade the PD in force on the case's master scale (or the illustrative default)."""
+    from dataclasses import replace
+
+    if case.pd.master_scale is not None:
+        scale = master_scale_from_rows([r.model_dump() for r in case.pd.master_scale])
+        source = "case file"
+    else:
+        scale, source = DEFAULT_MASTER_SCALE, "illustrative default"
+    # A PD that underflows to 0 belongs to the best grade (lower bounds are exclusive).
+    grade = assign_grade(max(pd.pd, 1e-300), scale)
+    return replace(pd, grade=grade.grade, grade_lower=grade.pd_lower, grade_upper=grade.pd_upper), source
+
+
+def _zscores(case: Case):
+    """Altman Z-scores for the latest year, and the book-based variants for every year."""
+    cautions: list[Caution] = []
+    equity = case.market.equity_value if case.market else None
+
+    def scores(row, market_equity):
+        return altman_scores(total_assets=row.total_assets, working_capital=row.working_capital,
+                             retained_earnings=row.retained_earnings, ebit=row.ebit, sales=row.sales,
+                             market_equity=market_equity, book_equity=row.book_equity,
+                             total_liabilities=row.total_liabilities
+                             or (row.short_term_liabilities + row.long_term_liabilities))
+    try:
+        latest = scores(case.statements[-1], equity)
+        history = tuple((row.year, z.variant, z.score, z.zone)
+                        for row in case.statements for z in scores(row, None) if z.score is not None)
+    except ValueError as exc:
+        raise _engine_error("statements", exc) from None
+    missing = sorted({m for z in latest for m in z.missing})
+    if missing:
+        cautions.append(Caution("zscore.missing", "Z-score variants not computed for lack of the "
+                                f"columns: {', '.join(missing)}.", "statements"))
+    return latest, history, cautions
 
 
 def _price(case: Case, total: Totals) -> tuple[PricingResult | None, list[Caution]]:
