@@ -32,7 +32,7 @@ from typing import Union
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.stats import norm
+from scipy.special import ndtr, ndtri  # standard normal CDF and its inverse (as scipy.stats.norm)
 
 from engine import ENGINE_VERSION
 
@@ -283,8 +283,8 @@ def irb_corporate_capital(
     maturity_adjustment = (1.0 + (maturity_used - 2.5) * b) / (1.0 - 1.5 * b)
     with np.errstate(divide="ignore", invalid="ignore"):
         # G(1) is +inf; the defaulted case is set explicitly below.
-        conditional_pd = norm.cdf(
-            (norm.ppf(pd_used) + np.sqrt(correlation) * norm.ppf(confidence)) / np.sqrt(1.0 - correlation)
+        conditional_pd = ndtr(
+            (ndtri(pd_used) + np.sqrt(correlation) * ndtri(confidence)) / np.sqrt(1.0 - correlation)
         )
     conditional_pd = np.where(defaulted, 1.0, conditional_pd)
     bracket = lgd_arr * conditional_pd - pd_used * lgd_arr

@@ -14,6 +14,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, fields, is_dataclass
 from typing import Any
 
+import numpy as np
+
 from engine import ENGINE_VERSION
 from engine.case import Case, case_to_dict
 from engine.errors import CaseError, Caution
@@ -241,70 +243,48 @@ def evaluate(case: Case) -> Results:
     zscores, z_history, z_cautions = _zscores(case)
     cautions.extend(z_cautions)
 
-    ccf_table = ([(r.grade, r.ccf, r.kind) for r in case.exposure.ccf_by_grade]
-                 if case.exposure.ccf_by_grade else None)
+    prepared = [_prepare_facility(case, index, f, pd.grade, cautions)
+                for index, f in enumerate(case.facilities)]
+    laws = {item["exposure"].id: item["law"] for item in prepared}
+    # One vectorised call for every facility's risk weight.
+    cap = irb_corporate_capital(pd=np.full(len(prepared), pd.pd),
+                                lgd=np.array([item["downturn_lgd"] for item in prepared]),
+                                maturity_years=np.array([f.maturity_years for f in case.facilities]),
+                                annual_sales_eur_millions=case.capital.annual_sales_eur_millions,
+                                pd_floor=case.capital.pd_floor,
+                                scaling_factor=1.06 if case.capital.scaling_factor else 1.0)
+    if bool(np.any(cap.floor_binds)):
+        cautions.append(Caution("capital.pd_floor", f"The PD floor of {case.capital.pd_floor:.2%} "
+                                f"binds in the risk weights (PD in force {pd.pd:.4%}).", "capital.pd_floor"))
+    levels = np.array([0.05, 0.25, 0.5, 0.75, 0.95])
     facilities: list[FacilityResult] = []
-    laws: dict[str, RecoveryLaw] = {}
-    for index, f in enumerate(case.facilities):
-        ccf, ccf_source = resolve_ccf(kind=f.kind, own_ccf=f.ccf, grade=pd.grade, grade_table=ccf_table,
-                                      standard=case.exposure.ccf_standard,
-                                      maturity_years=f.maturity_years, cancellable=f.cancellable)
-        exp = facility_exposure(id=f.id, kind=f.kind, drawn=f.drawn, committed=f.committed, ccf=ccf,
-                                ccf_source=ccf_source)
-        if f.drawn > f.committed:
-            cautions.append(Caution("exposure.overdrawn", f"Facility {f.id}: drawn exceeds committed; "
-                                    "EAD is the drawn amount (no undrawn part).",
-                                    f"facilities[{index}].drawn"))
-        if f.recovery is not None:
-            mean, std, upper = f.recovery.mean, f.recovery.std, f.recovery.upper
-            source = "set on the facility"
-        else:
-            mean, source = seniority_recovery_mean(f.seniority, case.lgd.standard)
-            std, upper = case.lgd.default_recovery_std, 1.0
-            limit = math.sqrt(mean * (1 - mean))
-            if std >= limit:
-                raise CaseError.single("lgd.default_recovery_std", std,
-                                       f"below {limit:.4f} for the default mean recovery {mean:.2f} "
-                                       f"of facility {f.id}")
-        coll_value = f.collateral.value * (1 - f.collateral.haircut) if f.collateral else 0.0
-        cover = collateral_cover(collateral_value=f.collateral.value, haircut=f.collateral.haircut,
-                                 ead=exp.ead) if f.collateral else 0.0
-        law = recovery_law(mean=mean, std=std, upper=upper, collateral_cover=cover)
-        laws[f.id] = law
-        lgd = law.lgd
-        lgd_std = law.std()
-        dt = case.lgd.downturn
-        lgd_down = downturn_lgd(law, method=dt.method, quantile=dt.quantile, add_on=dt.add_on)
-        cap = irb_corporate_capital(pd=pd.pd, lgd=lgd_down, maturity_years=f.maturity_years,
-                                    annual_sales_eur_millions=case.capital.annual_sales_eur_millions,
-                                    pd_floor=case.capital.pd_floor,
-                                    scaling_factor=1.06 if case.capital.scaling_factor else 1.0)
-        quantiles = {f"q{int(q * 100):02d}": float(law.ppf(q)) for q in (0.05, 0.25, 0.5, 0.75, 0.95)}
+    for i, (f, item) in enumerate(zip(case.facilities, prepared)):
+        exp, law = item["exposure"], item["law"]
+        lgd, lgd_std = law.lgd, law.std()
+        quantiles = {f"q{int(round(q * 100)):02d}": float(v) for q, v in zip(levels, law.ppf(levels))}
         facilities.append(FacilityResult(
             id=f.id, kind=f.kind, seniority=f.seniority, maturity_years=f.maturity_years,
             drawn=exp.drawn, committed=exp.committed, undrawn=exp.undrawn, ccf=exp.ccf,
-            ccf_source=exp.ccf_source, ead=exp.ead, recovery_mean=mean, recovery_std=std,
-            recovery_upper=upper, recovery_source=source, collateral_value=coll_value,
-            collateral_cover=cover, alpha=law.alpha, beta=law.beta, recovery_quantiles=quantiles,
-            lgd=lgd, lgd_std=lgd_std, downturn_lgd=lgd_down,
+            ccf_source=exp.ccf_source, ead=exp.ead, recovery_mean=item["mean"], recovery_std=item["std"],
+            recovery_upper=item["upper"], recovery_source=item["source"],
+            collateral_value=item["collateral_value"], collateral_cover=item["cover"],
+            alpha=law.alpha, beta=law.beta, recovery_quantiles=quantiles,
+            lgd=lgd, lgd_std=lgd_std, downturn_lgd=item["downturn_lgd"],
             expected_loss=expected_loss(ead=exp.ead, pd=pd.pd, lgd=lgd),
             unexpected_loss=unexpected_loss(ead=exp.ead, pd=pd.pd, lgd=lgd, lgd_std=lgd_std),
             lifetime_expected_loss=exp.ead * lgd * _lifetime_pd_share(ts, f.maturity_years),
-            capital_pd=float(cap.pd_used), capital_maturity=float(cap.maturity_used),
-            correlation=float(cap.correlation), maturity_adjustment=float(cap.maturity_adjustment),
-            capital_k=float(cap.k), risk_weight=float(cap.risk_weight),
-            rwa=float(cap.risk_weight) * exp.ead, regulatory_capital=float(cap.k) * exp.ead,
+            capital_pd=float(cap.pd_used[i]), capital_maturity=float(cap.maturity_used[i]),
+            correlation=float(cap.correlation[i]), maturity_adjustment=float(cap.maturity_adjustment[i]),
+            capital_k=float(cap.k[i]), risk_weight=float(cap.risk_weight[i]),
+            rwa=float(cap.risk_weight[i]) * exp.ead, regulatory_capital=float(cap.k[i]) * exp.ead,
         ))
-        if cap.floor_binds and index == 0:
-            cautions.append(Caution("capital.pd_floor", f"The PD floor of {case.capital.pd_floor:.2%} "
-                                    f"binds in the risk weights (PD in force {pd.pd:.4%}).",
-                                    "capital.pd_floor"))
 
     total_ead = sum(f.ead for f in facilities)
     total_el = sum(f.expected_loss for f in facilities)
     dist = loss_distribution(pd=pd.pd, exposures=[f.ead for f in facilities],
                              recovery_laws=[laws[f.id] for f in facilities],
-                             confidence=case.capital.confidence, join=case.capital.recovery_join)
+                             confidence=case.capital.confidence, join=case.capital.recovery_join,
+                             n_curve=121)
     if dist.capital_floored:
         cautions.append(Caution("capital.economic_floor", "Economic capital is floored at zero: the "
                                 f"PD in force ({pd.pd:.4%}) is at or below 1 - confidence "
@@ -328,6 +308,39 @@ def evaluate(case: Case) -> Results:
                    zscores=zscores, zscore_history=z_history, term_structure=ts,
                    facilities=tuple(facilities), total=total, loss_distribution=dist, pricing=pricing,
                    cautions=tuple(cautions), laws=laws)
+
+
+def _prepare_facility(case: Case, index: int, f, grade: str | None,
+                      cautions: list[Caution]) -> dict[str, Any]:
+    """Exposure, recovery law and downturn LGD of one facility."""
+    ccf_table = ([(r.grade, r.ccf, r.kind) for r in case.exposure.ccf_by_grade]
+                 if case.exposure.ccf_by_grade else None)
+    ccf, ccf_source = resolve_ccf(kind=f.kind, own_ccf=f.ccf, grade=grade, grade_table=ccf_table,
+                                  standard=case.exposure.ccf_standard,
+                                  maturity_years=f.maturity_years, cancellable=f.cancellable)
+    exp = facility_exposure(id=f.id, kind=f.kind, drawn=f.drawn, committed=f.committed, ccf=ccf,
+                            ccf_source=ccf_source)
+    if f.drawn > f.committed:
+        cautions.append(Caution("exposure.overdrawn", f"Facility {f.id}: drawn exceeds committed; "
+                                "EAD is the drawn amount (no undrawn part).", f"facilities[{index}].drawn"))
+    if f.recovery is not None:
+        mean, std, upper = f.recovery.mean, f.recovery.std, f.recovery.upper
+        source = "set on the facility"
+    else:
+        mean, source = seniority_recovery_mean(f.seniority, case.lgd.standard)
+        std, upper = case.lgd.default_recovery_std, 1.0
+        limit = math.sqrt(mean * (1 - mean))
+        if std >= limit:
+            raise CaseError.single("lgd.default_recovery_std", std,
+                                   f"below {limit:.4f} for the default mean recovery {mean:.2f} "
+                                   f"of facility {f.id}")
+    coll = f.collateral
+    cover = collateral_cover(collateral_value=coll.value, haircut=coll.haircut, ead=exp.ead) if coll else 0.0
+    law = recovery_law(mean=mean, std=std, upper=upper, collateral_cover=cover)
+    dt = case.lgd.downturn
+    return {"exposure": exp, "law": law, "mean": mean, "std": std, "upper": upper, "source": source,
+            "collateral_value": coll.value * (1 - coll.haircut) if coll else 0.0, "cover": cover,
+            "downturn_lgd": downturn_lgd(law, method=dt.method, quantile=dt.quantile, add_on=dt.add_on)}
 
 
 def _graded(case: Case, pd: PdResult) -> tuple[PdResult, str]:

@@ -131,6 +131,21 @@ class RecoveryLaw:
                    - special.betaln(self.alpha, self.beta) - math.log(self.scale))
         return np.where(inside, np.exp(log_pdf), 0.0)
 
+    def ppf_integral(self, u: float) -> float:
+        """Integral of the quantile function from 0 to u, i.e. E[R 1{R <= F^-1(u)}] [fraction].
+
+        For B ~ beta(a, b): E[B 1{B <= x}] = a / (a + b) I_x(a + 1, b) (the first incomplete moment
+        of the beta law; I the regularised incomplete beta function), so with R = c + s B the
+        integral is c u + s a/(a + b) I_{x(u)}(a + 1, b), x(u) = I^-1_u(a, b).
+        """
+        if not 0 <= u <= 1:
+            raise ValueError(f"u: got {u!r}; allowed: 0 to 1")
+        if self.point_mass:
+            return self.mean() * u
+        x = special.betaincinv(self.alpha, self.beta, u)
+        partial = self.alpha / (self.alpha + self.beta) * special.betainc(self.alpha + 1.0, self.beta, x)
+        return float(self.floor * u + self.scale * partial)
+
     @property
     def lgd(self) -> float:
         """Expected loss given default = 1 - mean recovery [fraction]."""
