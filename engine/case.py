@@ -432,7 +432,7 @@ def _range_text(error: dict[str, Any]) -> str:
     if owner is not None and str(key) in owner.model_fields:
         low = high = None
         low_open = high_open = False
-        for meta in owner.model_fields[str(key)].metadata:
+        for meta in _bound_metadata(owner.model_fields[str(key)]):
             if getattr(meta, "ge", None) is not None:
                 low = meta.ge
             if getattr(meta, "gt", None) is not None:
@@ -445,6 +445,18 @@ def _range_text(error: dict[str, Any]) -> str:
             return (f"a number from {low:g}{' (exclusive)' if low_open else ''} "
                     f"to {high:g}{' (exclusive)' if high_open else ''}")
     return error.get("msg", "a number in range").replace("Input should be ", "a number ")
+
+
+def _bound_metadata(field: Any) -> list[Any]:
+    """Constraint metadata of a field, looking inside ``Annotated[...] | None`` as well."""
+    import typing
+
+    found = list(field.metadata)
+    if not found:
+        for arg in typing.get_args(field.annotation):
+            for extra in getattr(arg, "__metadata__", ()):
+                found.extend(getattr(extra, "metadata", [extra]))
+    return found
 
 
 def problems_from_validation(exc: ValidationError, prefix: str = "") -> list[Problem]:

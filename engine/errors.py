@@ -13,7 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-_MAX_VALUE_CHARS = 60
+_MAX_VALUE_CHARS = 80
 
 
 def show_value(value: Any) -> str:
@@ -27,7 +27,9 @@ def show_value(value: Any) -> str:
     else:
         text = repr(value)
     if len(text) > _MAX_VALUE_CHARS:
-        text = text[: _MAX_VALUE_CHARS - 3] + "..."
+        # Keep both ends: the end of a path (the file name) matters as much as its start.
+        keep = (_MAX_VALUE_CHARS - 3) // 2
+        text = text[:keep] + "..." + text[-keep:]
     return text
 
 

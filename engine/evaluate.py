@@ -20,6 +20,7 @@ from engine import ENGINE_VERSION
 from engine.case import Case, case_to_dict
 from engine.errors import CaseError, Caution
 from engine.capital import irb_corporate_capital
+from engine.market import MertonSolution, NaiveDD, naive_distance_to_default, solve_merton
 from engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
 from engine.exposure import facility_exposure, resolve_ccf
 from engine.lossdist import LossDistribution, loss_distribution
@@ -56,6 +57,16 @@ class PdResult:
     grade: str | None
     grade_lower: float | None        # band (lower, upper] of the grade
     grade_upper: float | None
+
+
+@dataclass(frozen=True)
+class MarketResult:
+    """Market-implied PD (Merton 1974) and the naive cross-check (Bharath and Shumway 2008)."""
+
+    default_point: float             # the debt barrier D [currency]
+    merton: MertonSolution | None    # None when the solve failed (see message)
+    naive: NaiveDD
+    message: str                     # "" or why the Merton solve failed
 
 
 @dataclass(frozen=True)
@@ -118,6 +129,7 @@ class Results:
     trend: AssetTrend | None
     ratios: tuple[YearRatios, ...]
     pd: PdResult
+    market: MarketResult | None      # when the case has a market block
     master_scale_source: str         # "case file" or "illustrative default"
     zscores: tuple[ZScore, ...]      # latest year
     zscore_history: tuple[tuple[int, str, float | None, str | None], ...]  # (year, variant, score, zone)
@@ -161,13 +173,116 @@ def fingerprint(case: Case) -> str:
 
 
 def _engine_error(field: str, exc: ValueError) -> CaseError:
+    """A step's ValueError ("path: got V; allowed: A") as a CaseError on that path (else ``field``)."""
     text = str(exc)
-    return CaseError.single(field, text.split(": got ")[-1].split(";")[0] if ": got " in text else "",
-                            text.split("allowed: ")[-1] if "allowed: " in text else text)
+    head, _, rest = text.partition(": ")
+    if rest and " " not in head:
+        field, text = head, rest
+    value, allowed = "", text
+    if text.startswith("got "):
+        value_part, _, allowed_part = text[4:].partition("; allowed: ")
+        value = value_part.split(" as the ")[0].split(" (")[0]
+        allowed = allowed_part or text
+    elif "allowed: " in text:
+        allowed = text.split("allowed: ", 1)[1]
+    return CaseError.single(field, value, allowed)
 
 
-def estimate_pd(case: Case) -> tuple[AssetTrend | None, PdResult, list[Caution]]:
-    """Asset trend and the balance-sheet PD (market PD is wired in by the market step)."""
+def estimate_pd(case: Case) -> tuple[AssetTrend | None, PdResult, MarketResult | None, list[Caution]]:
+    """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist."""
+    settings = case.pd
+    latest = case.statements[-1]
+    if settings.method == "market":
+        trend, cautions = None, []
+        try:
+            trend, _, _ = _balance_sheet(case)
+        except CaseError as exc:  # the trend is context only here: say why it is missing
+            cautions.append(Caution("trend.unavailable", "No asset trend: " + exc.problems[0].allowed,
+                                    "statements"))
+        market = _market(case, required=True)
+        m = market.merton
+        measure = settings.measure
+        drift = case.market.risk_free_rate
+        if measure == "physical":
+            drift = case.market.asset_drift if case.market.asset_drift is not None else (
+                trend.expected_return if trend is not None else None)
+            if drift is None:
+                raise CaseError.single("pd.measure", "physical", "risk_neutral, or physical together "
+                                       "with market.asset_drift or enough statements for a trend")
+            if case.market.asset_drift is None:
+                cautions.append(Caution("market.drift_from_trend", "The physical market PD uses the "
+                                        f"balance-sheet asset return ({drift:.2%}) as its drift.",
+                                        "market.asset_drift"))
+        result = PdResult(
+            method="market", measure=measure, asset_value=m.asset_value,
+            asset_growth=trend.growth_used if trend else None, asset_volatility=m.asset_volatility,
+            asset_return=drift, default_point=market.default_point,
+            short_term_share=settings.default_point.short_term_share,
+            long_term_share=settings.default_point.long_term_share, horizon_years=settings.horizon_years,
+            distance_to_default=m.distance_to_default if measure == "risk_neutral" else
+            (math.log(m.asset_value / market.default_point) + (drift - m.asset_volatility**2 / 2)
+             * settings.horizon_years) / (m.asset_volatility * math.sqrt(settings.horizon_years)),
+            model_pd=0.0, pd=0.0, overridden=False, override_reason=None,
+            grade=None, grade_lower=None, grade_upper=None)
+        from dataclasses import replace
+        from engine.structural import pd_from_distance
+
+        model_pd = pd_from_distance(result.distance_to_default)
+        result = replace(result, model_pd=model_pd, pd=model_pd)
+        return trend, *_with_override(settings, result, cautions), market
+    trend, bs, cautions = _balance_sheet(case)
+    result = PdResult(
+        method="balance_sheet", measure="physical", asset_value=bs.asset_value,
+        asset_growth=bs.asset_growth, asset_volatility=bs.asset_volatility,
+        asset_return=bs.asset_return, default_point=bs.default_point,
+        short_term_share=bs.short_term_share, long_term_share=bs.long_term_share,
+        horizon_years=bs.horizon_years, distance_to_default=bs.distance_to_default,
+        model_pd=bs.pd, pd=bs.pd, overridden=False, override_reason=None,
+        grade=None, grade_lower=None, grade_upper=None)
+    market = _market(case, required=False) if case.market is not None else None
+    if market is not None and market.message:
+        cautions.append(Caution("market.unsolved", market.message, "market"))
+    return trend, *_with_override(settings, result, cautions), market
+
+
+def _with_override(settings, result: PdResult, cautions: list[Caution]) -> tuple[PdResult, list[Caution]]:
+    from dataclasses import replace
+
+    if settings.override is None:
+        return result, cautions
+    cautions.append(Caution("pd.override", f"The analyst's PD of {settings.override:.4%} is used "
+                            f"instead of the model's {result.model_pd:.4%}. Reason: "
+                            f"{settings.override_reason}", "pd.override"))
+    return replace(result, pd=settings.override, overridden=True,
+                   override_reason=settings.override_reason), cautions
+
+
+def _market(case: Case, *, required: bool) -> MarketResult:
+    """Solve the Merton model with the balance-sheet default point as the debt barrier."""
+    mk = case.market
+    latest = case.statements[-1]
+    dp = (case.pd.default_point.short_term_share * latest.short_term_liabilities
+          + case.pd.default_point.long_term_share * latest.long_term_liabilities)
+    naive = naive_distance_to_default(equity_value=mk.equity_value, equity_volatility=mk.equity_volatility,
+                                      face_value_debt=dp, horizon_years=case.pd.horizon_years,
+                                      trailing_equity_return=mk.trailing_equity_return,
+                                      risk_free_rate=mk.risk_free_rate)
+    try:
+        merton = solve_merton(equity_value=mk.equity_value, equity_volatility=mk.equity_volatility,
+                              default_point=dp, risk_free_rate=mk.risk_free_rate,
+                              horizon_years=case.pd.horizon_years)
+        message = ""
+    except ValueError as exc:
+        if required:
+            raise CaseError.single("market", f"equity {mk.equity_value:g}, volatility "
+                                   f"{mk.equity_volatility:g}, default point {dp:g}",
+                                   f"inputs for which the Merton equations have a solution ({exc})") from None
+        merton, message = None, f"The Merton model could not be solved from the market data: {exc}"
+    return MarketResult(default_point=dp, merton=merton, naive=naive, message=message)
+
+
+def _balance_sheet(case: Case):
+    """Asset trend and balance-sheet PD; user-facing errors as CaseError."""
     cautions: list[Caution] = []
     settings = case.pd
     latest = case.statements[-1]
@@ -191,22 +306,7 @@ def estimate_pd(case: Case) -> tuple[AssetTrend | None, PdResult, list[Caution]]
                               horizon_years=settings.horizon_years)
     except ValueError as exc:
         raise _engine_error("pd.default_point", exc) from None
-    pd_in_force = settings.override if settings.override is not None else bs.pd
-    if settings.override is not None:
-        cautions.append(Caution("pd.override", f"The analyst's PD of {settings.override:.4%} is used "
-                                f"instead of the model's {bs.pd:.4%}. Reason: {settings.override_reason}",
-                                "pd.override"))
-    result = PdResult(
-        method="balance_sheet", measure="physical", asset_value=bs.asset_value,
-        asset_growth=bs.asset_growth, asset_volatility=bs.asset_volatility,
-        asset_return=bs.asset_return, default_point=bs.default_point,
-        short_term_share=bs.short_term_share, long_term_share=bs.long_term_share,
-        horizon_years=bs.horizon_years, distance_to_default=bs.distance_to_default,
-        model_pd=bs.pd, pd=pd_in_force, overridden=settings.override is not None,
-        override_reason=settings.override_reason if settings.override is not None else None,
-        grade=None, grade_lower=None, grade_upper=None,
-    )
-    return trend, result, cautions
+    return trend, bs, cautions
 
 
 def term_structure(case: Case, pd: PdResult) -> PdTermStructure:
@@ -236,7 +336,7 @@ def _lifetime_pd_share(ts: PdTermStructure, maturity_years: float) -> float:
 def evaluate(case: Case) -> Results:
     """Run every step on a validated case. User mistakes surface as CaseError, never tracebacks."""
     cautions: list[Caution] = []
-    trend, pd, pd_cautions = estimate_pd(case)
+    trend, pd, pd_cautions, market = estimate_pd(case)
     cautions.extend(pd_cautions)
     pd, scale_source = _graded(case, pd)
     ts = term_structure(case, pd)
@@ -304,7 +404,7 @@ def evaluate(case: Case) -> Results:
     pricing, pricing_cautions = _price(case, total)
     cautions.extend(pricing_cautions)
     return Results(engine_version=ENGINE_VERSION, fingerprint=fingerprint(case), case=case, trend=trend,
-                   ratios=year_ratios(case.statements), pd=pd, master_scale_source=scale_source,
+                   ratios=year_ratios(case.statements), pd=pd, market=market, master_scale_source=scale_source,
                    zscores=zscores, zscore_history=z_history, term_structure=ts,
                    facilities=tuple(facilities), total=total, loss_distribution=dist, pricing=pricing,
                    cautions=tuple(cautions), laws=laws)

@@ -124,8 +124,9 @@ def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years
                                 f"Only {len(y)} years in the window: growth and volatility estimates "
                                 "from so short a history are very uncertain.", "pd.window_years"))
     if vol_estimate is not None and vol_estimate == 0 and volatility_override is None:
-        raise ValueError("pd.asset_volatility: the estimate is 0 (total assets changed by the same "
-                         "log amount every year); allowed: set pd.asset_volatility above 0")
+        raise ValueError("pd.asset_volatility: got 0.0 as the estimate (total assets changed by the "
+                         "same log amount every year); allowed: a volatility above 0: set "
+                         "pd.asset_volatility")
     for fit, label in ((log_fit, "log-linear"), (level_fit, "straight-line")):
         if fit.r_squared is not None and fit.r_squared < 0.5 and fit.n >= 3:
             cautions.append(Caution("trend.weak_fit", f"The {label} asset trend explains little "
