@@ -31,12 +31,16 @@ from engine import ENGINE_VERSION
 Measure = Literal["risk_neutral", "physical"]
 FloatArray = NDArray[np.float64]
 
-# Relative residual below which Newton stops, and the looser one a result must
-# meet before it is returned at all (float cancellation in V N(d1) - K N(d2)
-# grows with K/E, so the acceptance bar is kept well above machine precision).
+# Relative residual at which Newton stops; above the hand-over level after the
+# first Newton pass the bracketed search takes over; the acceptance level is what
+# a result must meet before it is returned at all (cancellation in
+# V N(d1) - K N(d2) grows with K/E, so that bar sits well above machine precision).
 _NEWTON_TOLERANCE = 1e-12
+_HAND_OVER_TOLERANCE = 1e-11
 _ACCEPT_TOLERANCE = 1e-9
-_MAX_NEWTON_ITERATIONS = 20
+# Newton from the corner start needs 3-6 steps for ordinary borrowers; more
+# means extreme leverage and volatility, where the bracketed search is faster.
+_MAX_NEWTON_ITERATIONS = 10
 _MAX_HALVINGS = 40
 _MAX_LOG_STEP = 1.0
 _MAX_BRACKET_DOUBLINGS = 64
@@ -79,7 +83,8 @@ def _bad_mask(name: str, values: FloatArray) -> NDArray[np.bool_]:
 
 def _out_of_range_message(name: str, values: FloatArray, flat_index: int) -> str:
     where = f" (element {flat_index})" if values.ndim else ""
-    return f"{name}={values.ravel()[flat_index]!r}{where} is not allowed; allowed: {_LIMITS[name][4]}"
+    given = float(values.ravel()[flat_index])
+    return f"{name}={given!r}{where} is not allowed; allowed: {_LIMITS[name][4]}"
 
 
 def _checked(name: str, value: ArrayLike) -> FloatArray:
@@ -130,48 +135,37 @@ def merton_equity_value(*, asset_value: ArrayLike, asset_volatility: ArrayLike,
 
 @dataclass(frozen=True, eq=False)
 class MertonBatch:
-    """Merton solutions for many borrowers; every array has the broadcast input shape.
+    """Merton solutions for many borrowers; arrays (read-only) of the broadcast input shape.
 
-    Value arrays are NaN where `converged` is False; `failures` says why, as
-    (flat C-order index, reason) pairs. Arrays are read-only.
-
-    Fields: asset_value V [currency]; asset_volatility s [fraction/year^0.5];
-    d1, d2 [standard deviations]; distance_to_default [standard deviations] (d2
-    when risk-neutral); pd [fraction] over the horizon; leverage D/V [fraction];
-    iterations (Newton steps plus fall-back evaluations); residual, the larger
-    relative residual of the two equations [fraction]; used_fallback (the
-    bracketed search was needed); converged; the broadcast inputs in their own
-    units; measure; engine_version.
+    Value arrays are NaN where `converged` is False, and `failures` says why, as
+    (flat C-order index, reason) pairs; nothing is left NaN without a reason.
     """
 
-    asset_value: FloatArray
-    asset_volatility: FloatArray
-    d1: FloatArray
-    d2: FloatArray
-    distance_to_default: FloatArray
-    pd: FloatArray
-    leverage: FloatArray
-    iterations: NDArray[np.int64]
-    residual: FloatArray
-    used_fallback: NDArray[np.bool_]
+    asset_value: FloatArray  # V [currency]
+    asset_volatility: FloatArray  # s [fraction/year^0.5]
+    d1: FloatArray  # [standard deviations]
+    d2: FloatArray  # [standard deviations]
+    distance_to_default: FloatArray  # [standard deviations]; d2 when risk-neutral
+    pd: FloatArray  # N(-distance_to_default) over the horizon [fraction]
+    leverage: FloatArray  # D / V [fraction]
+    iterations: NDArray[np.int64]  # Newton steps plus bracketed-search evaluations
+    residual: FloatArray  # larger relative residual of the two equations [fraction]
+    used_fallback: NDArray[np.bool_]  # the bracketed search was needed
     converged: NDArray[np.bool_]
     failures: tuple[tuple[int, str], ...]
-    equity_value: FloatArray
-    equity_volatility: FloatArray
-    default_point: FloatArray
-    risk_free_rate: FloatArray
-    horizon_years: FloatArray
-    asset_drift: FloatArray | None
+    equity_value: FloatArray  # E [currency]
+    equity_volatility: FloatArray  # sE [fraction/year^0.5]
+    default_point: FloatArray  # D [currency]
+    risk_free_rate: FloatArray  # r [1/year]
+    horizon_years: FloatArray  # T [years]
+    asset_drift: FloatArray | None  # mu [1/year]; None when risk-neutral
     measure: Measure
     engine_version: str = ENGINE_VERSION
 
 
 @dataclass(frozen=True)
 class MertonSolution:
-    """One borrower's Merton solution; fields and units as in `MertonBatch`.
-
-    `solver` is "newton" or "bracketed" (the fall-back search).
-    """
+    """One borrower's Merton solution; fields and units as in `MertonBatch`."""
 
     asset_value: float
     asset_volatility: float
@@ -182,7 +176,7 @@ class MertonSolution:
     leverage: float
     iterations: int
     residual: float
-    solver: Literal["newton", "bracketed"]
+    solver: Literal["newton", "bracketed"]  # "bracketed": the fall-back search was needed
     equity_value: float
     equity_volatility: float
     default_point: float
@@ -231,11 +225,10 @@ def _newton(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray,
         j12 = V * phi1 * s * sqT[a] / E[a]
         j21 = V * (s * N1 + phi1 / sqT[a]) / (sE[a] * E[a])
         j22 = s * V * (N1 - phi1 * d2) / (sE[a] * E[a])
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            det = j11 * j22 - j12 * j21
-            dx = (-g1 * j22 + g2 * j12) / det
-            dy = (-j11 * g2 + j21 * g1) / det
-            scale = np.minimum(1.0, _MAX_LOG_STEP / np.maximum(np.abs(dx), np.abs(dy)))
+        det = j11 * j22 - j12 * j21
+        dx = (-g1 * j22 + g2 * j12) / det
+        dy = (-j11 * g2 + j21 * g1) / det
+        scale = np.minimum(1.0, _MAX_LOG_STEP / np.maximum(np.abs(dx), np.abs(dy)))
         singular = ~(np.isfinite(dx) & np.isfinite(dy))
         dx, dy = dx * scale, dy * scale
         merit = g1 * g1 + g2 * g2
@@ -310,12 +303,12 @@ def _bracketed(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
         gap, slope, *_ = _reduced_gap(d2[active], a[active], b[active])
         lo[active] = np.where(gap < 0, d2[active], lo[active])
         hi[active] = np.where(gap < 0, hi[active], d2[active])
-        with np.errstate(divide="ignore", invalid="ignore"):
-            step = d2[active] - gap / slope
+        step = d2[active] - gap / slope
         inside = (step > lo[active]) & (step < hi[active])
-        step = np.where(inside, step, 0.5 * (lo[active] + hi[active]))
-        done = (np.abs(gap) <= _NEWTON_TOLERANCE) | (
-            np.abs(step - d2[active]) <= 4e-16 * np.maximum(1.0, np.abs(step)))
+        solved = np.abs(gap) <= _NEWTON_TOLERANCE  # stay put: a bisection would undo it
+        step = np.where(solved, d2[active],
+                        np.where(inside, step, 0.5 * (lo[active] + hi[active])))
+        done = solved | (np.abs(step - d2[active]) <= 4e-16 * np.maximum(1.0, np.abs(step)))
         d2[active] = step
         iterations[active] += 1
         active = active[~done]
@@ -334,31 +327,24 @@ def _solve_valid(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
                  ) -> tuple[FloatArray, FloatArray, NDArray[np.int64], FloatArray,
                             NDArray[np.bool_]]:
     """V, s, iterations, relative residual and fall-back flag for validated inputs."""
-    corner_x = np.log(E + np.exp(lnK))  # V0 = E + D e^{-rT}, s0 = sE E / V0
-    x, y, iterations = _newton(E, sE, lnK, sqT, corner_x, np.log(sE * E) - corner_x)
-    residual = _max_residual(x, y, E, sE, lnK, sqT)
-    short = np.flatnonzero(~(residual <= _ACCEPT_TOLERANCE))
-    if short.size:  # rare outside extreme leverage and volatility; still vectorised
-        args = (E[short], sE[short], lnK[short], sqT[short])
-        bx, by, b_iter = _bracketed(*args)
-        px, py, p_iter = _newton(*args, bx, by)  # polish to Newton's tolerance
-        p_res = _max_residual(px, py, *args)
-        better = p_res < residual[short]
-        keep = short[better]
-        x[keep], y[keep], residual[keep] = px[better], py[better], p_res[better]
-        iterations[short] += b_iter + p_iter
-    fallback = np.zeros(E.shape, dtype=bool)
-    fallback[short] = True
+    # Extreme elements may over- or underflow on the way; the residual check catches them.
+    with np.errstate(all="ignore"):
+        corner_x = np.log(E + np.exp(lnK))  # V0 = E + D e^{-rT}, s0 = sE E / V0
+        x, y, iterations = _newton(E, sE, lnK, sqT, corner_x, np.log(sE * E) - corner_x)
+        residual = _max_residual(x, y, E, sE, lnK, sqT)
+        short = np.flatnonzero(~(residual <= _HAND_OVER_TOLERANCE))
+        if short.size:  # rare outside extreme leverage and volatility; still vectorised
+            args = (E[short], sE[short], lnK[short], sqT[short])
+            bx, by, b_iter = _bracketed(*args)
+            px, py, p_iter = _newton(*args, bx, by)  # polish to Newton's tolerance
+            p_res = _max_residual(px, py, *args)
+            better = p_res < residual[short]
+            keep = short[better]
+            x[keep], y[keep], residual[keep] = px[better], py[better], p_res[better]
+            iterations[short] += b_iter + p_iter
+        fallback = np.zeros(E.shape, dtype=bool)
+        fallback[short] = True
     return np.exp(x), np.exp(y), iterations, residual, fallback
-
-
-def _no_convergence_reason(E: float, sE: float, D: float, r: float, T: float,
-                           residual: float) -> str:
-    return (f"the Merton equations did not converge for equity_value={E!r}, "
-            f"equity_volatility={sE!r}, default_point={D!r}, risk_free_rate={r!r}, "
-            f"horizon_years={T!r} (relative residual {residual:.2e} after Newton and a "
-            f"bracketed search); check that equity value and default point are in the same "
-            f"currency and scale, and that equity volatility is an annual fraction (0.40, not 40)")
 
 
 def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
@@ -380,8 +366,12 @@ def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
 
     Returns:
         MertonBatch. No element is returned as converged unless both relative
-        residuals are at most 1e-9 at the returned V and s.
+        residuals, plus a bound on their rounding error, are at most 1e-9 at the
+        returned V and s; when equity is so small a fraction of the debt that this
+        cannot be checked in double precision the element is a failure, with reason.
     """
+    if invalid not in ("raise", "flag"):
+        raise ValueError(f"invalid={invalid!r} is not allowed; allowed: 'raise' or 'flag'")
     names = ["equity_value", "equity_volatility", "default_point", "risk_free_rate",
              "horizon_years"] + ([] if asset_drift is None else ["asset_drift"])
     given = [equity_value, equity_volatility, default_point, risk_free_rate, horizon_years,
@@ -407,32 +397,39 @@ def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
             reasons[int(i)] = _out_of_range_message(name, values.reshape(shape), int(i))
         bad |= mask
 
-    E, sE, D, r, T = flat[:5]
-    good = np.flatnonzero(~bad)
-    V_good, s_good, iter_good, resid_good, fallback_good = _solve_valid(
-        E[good], sE[good], np.log(D[good]) - r[good] * T[good], np.sqrt(T[good]))
-    ok_good = resid_good <= _ACCEPT_TOLERANCE
-    for j in np.flatnonzero(~ok_good):
-        i = int(good[j])
-        reasons[i] = _no_convergence_reason(E[i], sE[i], D[i], r[i], T[i], resid_good[j])
-
-    def spread(values: NDArray[np.generic], fill: object) -> NDArray[np.generic]:
-        full = np.full(n, fill, dtype=values.dtype)
-        full[good] = values
-        return full
-
-    converged = spread(ok_good, False)
-    V = np.where(converged, spread(V_good, np.nan), np.nan)
-    s = np.where(converged, spread(s_good, np.nan), np.nan)
-    with np.errstate(invalid="ignore"):
+    # Invalid elements get a harmless stand-in so the solve stays one array pass.
+    E, sE, D, r, T = (np.where(bad, stand_in, values)
+                      for stand_in, values in zip((1.0, 0.3, 1.0, 0.0, 1.0), flat[:5]))
+    V, s, iterations, residual, used_fallback = _solve_valid(E, sE, np.log(D) - r * T,
+                                                             np.sqrt(T))
+    # Rounding bound of V N(d1) - D e^{-rT} N(d2) relative to E: when equity is a
+    # sliver of the debt the equations cannot be checked in double precision.
+    with np.errstate(all="ignore"):
         sv = s * np.sqrt(T)
         d1 = (np.log(V / D) + (r + 0.5 * s * s) * T) / sv
         d2 = d1 - sv
-        if asset_drift is None:
-            dd = d2
+        rounding = 4 * np.finfo(float).eps * (
+            V * special.ndtr(d1) + D * np.exp(-r * T) * special.ndtr(d2)) / E
+    checkable = rounding <= _ACCEPT_TOLERANCE / 2
+    converged = ~bad & checkable & (residual + rounding <= _ACCEPT_TOLERANCE)
+    for i in np.flatnonzero(~bad & ~converged):
+        if checkable[i]:
+            what = (f"the Merton equations did not converge for equity_value={float(E[i])!r}, "
+                    f"equity_volatility={float(sE[i])!r}, default_point={float(D[i])!r}, "
+                    f"risk_free_rate={float(r[i])!r}, horizon_years={float(T[i])!r} (relative "
+                    f"residual {residual[i]:.2e} after Newton and a bracketed search)")
         else:
-            dd = (np.log(V / D) + (flat[5] - 0.5 * s * s) * T) / sv
-    residual = spread(resid_good, np.nan)
+            ratio = E[i] / (D[i] * np.exp(-r[i] * T[i]))
+            what = (f"equity_value={float(E[i])!r} is too small against default_point="
+                    f"{float(D[i])!r} discounted at risk_free_rate={float(r[i])!r} over "
+                    f"horizon_years={float(T[i])!r} (ratio {ratio:.1e}) for a solution to be "
+                    f"checked in double precision")
+        reasons[int(i)] = what + ("; check that equity value and default point are in the "
+                                  "same currency and scale, and that equity volatility is an "
+                                  "annual fraction (0.40, not 40)")
+    V, s, d1, d2 = (np.where(converged, values, np.nan) for values in (V, s, d1, d2))
+    dd = d2 if asset_drift is None else (
+        np.log(V / D) + (flat[5] - 0.5 * s * s) * T) / (s * np.sqrt(T))
 
     def shaped(values: NDArray[np.generic]) -> NDArray[np.generic]:
         return _frozen(values.reshape(shape))
@@ -440,11 +437,13 @@ def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
     return MertonBatch(
         asset_value=shaped(V), asset_volatility=shaped(s), d1=shaped(d1), d2=shaped(d2),
         distance_to_default=shaped(dd), pd=shaped(special.ndtr(-dd)), leverage=shaped(D / V),
-        iterations=shaped(spread(iter_good, 0)), residual=shaped(residual),
-        used_fallback=shaped(spread(fallback_good, False)), converged=shaped(converged),
+        iterations=shaped(np.where(bad, 0, iterations)),
+        residual=shaped(np.where(bad, np.nan, residual)),
+        used_fallback=shaped(~bad & used_fallback), converged=shaped(converged),
         failures=tuple(sorted(reasons.items())),
-        equity_value=shaped(E), equity_volatility=shaped(sE), default_point=shaped(D),
-        risk_free_rate=shaped(r), horizon_years=shaped(T),
+        equity_value=shaped(flat[0]), equity_volatility=shaped(flat[1]),
+        default_point=shaped(flat[2]), risk_free_rate=shaped(flat[3]),
+        horizon_years=shaped(flat[4]),
         asset_drift=None if asset_drift is None else shaped(flat[5]),
         measure="risk_neutral" if asset_drift is None else "physical",
     )
@@ -456,8 +455,9 @@ def solve_merton(*, equity_value: float, equity_volatility: float, default_point
     """Asset value, asset volatility and PD of one listed borrower, Merton (1974).
 
     Arguments and units as in `solve_merton_many`, each a single number.
-    Raises ValueError for a bad input (naming it, its value and the allowed range)
-    or when no V, s meets both equations to a relative 1e-9.
+    Raises ValueError for a bad input (naming it, its value and the allowed range),
+    or when no V, s can be shown to meet both equations to a relative 1e-9 (the
+    message names the inputs and what to check).
     """
     given = {"equity_value": equity_value, "equity_volatility": equity_volatility,
              "default_point": default_point, "risk_free_rate": risk_free_rate,
@@ -469,44 +469,33 @@ def solve_merton(*, equity_value: float, equity_volatility: float, default_point
     batch = solve_merton_many(**given, invalid="raise")
     if not batch.converged:
         raise ValueError(batch.failures[0][1])
+    numbers = {name: float(getattr(batch, name)) for name in (
+        "asset_value", "asset_volatility", "d1", "d2", "distance_to_default", "pd", "leverage",
+        "residual", "equity_value", "equity_volatility", "default_point", "risk_free_rate",
+        "horizon_years")}
     return MertonSolution(
-        asset_value=float(batch.asset_value), asset_volatility=float(batch.asset_volatility),
-        d1=float(batch.d1), d2=float(batch.d2),
-        distance_to_default=float(batch.distance_to_default), pd=float(batch.pd),
-        leverage=float(batch.leverage), iterations=int(batch.iterations),
-        residual=float(batch.residual),
-        solver="bracketed" if bool(batch.used_fallback) else "newton",
-        equity_value=float(equity_value), equity_volatility=float(equity_volatility),
-        default_point=float(default_point), risk_free_rate=float(risk_free_rate),
-        horizon_years=float(horizon_years),
-        asset_drift=None if asset_drift is None else float(asset_drift),
-        measure=batch.measure,
-    )
+        **numbers, iterations=int(batch.iterations),
+        solver="bracketed" if batch.used_fallback else "newton",
+        asset_drift=None if asset_drift is None else float(asset_drift), measure=batch.measure)
 
 
 @dataclass(frozen=True, eq=False)
 class NaiveDD:
-    """Bharath-Shumway (2008) naive distance to default; floats for scalar inputs, else arrays.
+    """Bharath-Shumway (2008) naive distance to default; floats for scalar inputs, else arrays."""
 
-    Fields: debt_volatility sigma_D [fraction/year^0.5]; asset_value V = E + F
-    [currency]; asset_volatility sigma_V [fraction/year^0.5]; drift mu [1/year]
-    and drift_source (which input supplied it); distance_to_default [standard
-    deviations]; pd [fraction] over the horizon; the inputs in their own units.
-    """
-
-    debt_volatility: float | FloatArray
-    asset_value: float | FloatArray
-    asset_volatility: float | FloatArray
-    drift: float | FloatArray
+    debt_volatility: float | FloatArray  # sigma_D [fraction/year^0.5]
+    asset_value: float | FloatArray  # V = E + F [currency]
+    asset_volatility: float | FloatArray  # sigma_V [fraction/year^0.5]
+    drift: float | FloatArray  # mu [1/year]
     drift_source: Literal["trailing_equity_return", "risk_free_rate"]
-    distance_to_default: float | FloatArray
-    pd: float | FloatArray
-    equity_value: float | FloatArray
-    equity_volatility: float | FloatArray
-    face_value_debt: float | FloatArray
-    horizon_years: float | FloatArray
-    trailing_equity_return: float | FloatArray | None
-    risk_free_rate: float | FloatArray | None
+    distance_to_default: float | FloatArray  # [standard deviations]
+    pd: float | FloatArray  # N(-DD) over the horizon [fraction]
+    equity_value: float | FloatArray  # E [currency]
+    equity_volatility: float | FloatArray  # sigma_E [fraction/year^0.5]
+    face_value_debt: float | FloatArray  # F [currency]
+    horizon_years: float | FloatArray  # T [years]
+    trailing_equity_return: float | FloatArray | None  # [fraction]
+    risk_free_rate: float | FloatArray | None  # [1/year]
     engine_version: str = ENGINE_VERSION
 
 
@@ -534,11 +523,13 @@ def naive_distance_to_default(*, equity_value: ArrayLike, equity_volatility: Arr
     sE = _checked("equity_volatility", equity_volatility)
     F = _checked("face_value_debt", face_value_debt)
     T = _checked("horizon_years", horizon_years)
+    source: Literal["trailing_equity_return", "risk_free_rate"]
     if trailing_equity_return is not None:
-        mu, source = _checked("trailing_equity_return", trailing_equity_return), \
-            "trailing_equity_return"
+        source = "trailing_equity_return"
+        mu = _checked(source, trailing_equity_return)
     elif risk_free_rate is not None:
-        mu, source = _checked("risk_free_rate", risk_free_rate), "risk_free_rate"
+        source = "risk_free_rate"
+        mu = _checked(source, risk_free_rate)
     else:
         raise ValueError("trailing_equity_return and risk_free_rate: both missing; allowed: "
                          "give the trailing one-year equity return, or the risk-free rate "
