@@ -1,0 +1,103 @@
+"""Step 2: the asset trend, the default point and the PD (with the market and Z-score checks)."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from app import charts
+from app.formatting import millions, num, pct, years
+from app.pages import _ui
+
+results = _ui.header("Asset trend and PD",
+                     "Judge the trend, set and defend the default point, read the PD and its grade.")
+ss = st.session_state
+cur = _ui.currency()
+n_years = len(ss.raw.get("statements") or [])
+
+controls, chart = st.columns([1, 2.2])
+with controls:
+    st.subheader("Trend window")
+    _ui.number_field("Window [years] (empty = all years)", "pd.window_years", integer=True, optional=True,
+                     placeholder=f"all {n_years} years", help="Fit over the latest N years only.")
+    st.subheader("Estimates and overrides")
+    trend = results.trend if results else None
+    _ui.number_field("Asset growth override [1/year]", "pd.asset_growth", optional=True,
+                     placeholder=f"estimated: {pct(trend.growth_estimate) if trend else 'n/a'}",
+                     help="Empty: the slope of the log-linear fit. A number replaces it.")
+    _ui.number_field("Asset volatility override [1/sqrt(year)]", "pd.asset_volatility", optional=True,
+                     placeholder=f"estimated: {pct(trend.volatility_estimate) if trend else 'n/a'}",
+                     help="Empty: the sample std of annual log changes of total assets.")
+    st.subheader("Default point")
+    c1, c2 = st.columns(2)
+    _ui.number_field("Short-term share [fraction]", "pd.default_point.short_term_share", where=c1,
+                     step=0.05, fmt="%.2f")
+    _ui.number_field("Long-term share [fraction]", "pd.default_point.long_term_share", where=c2,
+                     step=0.05, fmt="%.2f")
+    _ui.number_field("Horizon [years]", "pd.horizon_years", step=0.5, fmt="%.2f")
+    methods = ["balance_sheet", "market"] if ss.raw.get("market") else ["balance_sheet"]
+    _ui.select_field("PD method", "pd.method", methods,
+                     labels={"balance_sheet": "Balance sheet (asset trend)",
+                             "market": "Market (equity value and volatility)"})
+    with st.expander("Analyst's PD override"):
+        _ui.number_field("PD override [fraction] (empty = the model's)", "pd.override", optional=True,
+                         fmt="%.6f")
+        _ui.text_field("Reason (required with an override; printed in the memo)", "pd.override_reason",
+                       area=True, height=80)
+
+with chart:
+    if results is None:
+        st.error("No valid case yet: fix the messages on the Borrower page.")
+        st.stop()
+    st.plotly_chart(charts.asset_trend_figure(results), key="asset_trend")
+    p = results.pd
+    m = st.columns(5)
+    m[0].metric("Distance to default", num(p.distance_to_default, 2))
+    m[1].metric("PD in force", _ui.pd_text(p.pd), help="The override where one is set, else the model's.")
+    m[2].metric("Grade", p.grade or "n/a")
+    m[3].metric("Default point", millions(p.default_point, cur))
+    m[4].metric("Asset value", millions(p.asset_value, cur))
+    fits = st.columns(4)
+    if trend is not None:
+        fits[0].metric("Growth used", pct(trend.growth_used) + (" (override)" if trend.growth_overridden else ""))
+        fits[1].metric("Volatility used",
+                       pct(trend.volatility_used) + (" (override)" if trend.volatility_overridden else ""))
+        fits[2].metric("Expected asset return", pct(trend.expected_return))
+        fits[3].metric("Window", years(trend.window_years))
+    if p.overridden:
+        st.warning(f"Model PD {_ui.pd_text(p.model_pd)} replaced by the analyst's {_ui.pd_text(p.pd)}: "
+                   f"{p.override_reason}")
+    for caution in results.cautions:
+        if caution.code.startswith(("trend", "pd", "statements", "market", "grade")):
+            st.caption(f":material/info: {caution.message}")
+
+st.divider()
+left, right = st.columns([1.3, 1])
+with left:
+    st.plotly_chart(charts.term_structure_figure(results), key="term_structure")
+with right:
+    st.plotly_chart(charts.liabilities_figure(results), key="liabilities")
+
+market = getattr(results, "market", None)
+if market is not None:
+    st.subheader("Market-implied PD")
+    st.caption("Merton (1974): asset value and volatility solved from the equity value and its "
+               "volatility; cross-checked by the naive distance to default of Bharath and Shumway (2008).")
+    merton = market.merton
+    cols = st.columns(5)
+    cols[0].metric("Asset value (Merton)", millions(merton.asset_value, cur) if merton else "n/a")
+    cols[1].metric("Asset volatility (Merton)", pct(merton.asset_volatility) if merton else "n/a")
+    cols[2].metric("Distance to default (Merton)", num(merton.distance_to_default, 2) if merton else "n/a")
+    cols[3].metric("PD (Merton)", _ui.pd_text(merton.pd) if merton else "n/a")
+    cols[4].metric("PD (naive cross-check)", _ui.pd_text(float(market.naive.pd)),
+                   help=f"Naive DD {num(float(market.naive.distance_to_default), 2)}; drift from "
+                        f"{market.naive.drift_source.replace('_', ' ')}")
+    if market.message:
+        st.warning(market.message)
+
+zscores = getattr(results, "zscores", None)
+if zscores:
+    st.subheader("Z-score cross-check (latest year)")
+    st.dataframe([{"variant": z.variant, "score": num(z.score, 2) if z.score is not None else "n/a",
+                   "zone": z.zone or "n/a",
+                   "missing columns": ", ".join(z.missing) if z.missing else "",
+                   "source": z.source} for z in zscores], hide_index=True)

@@ -1,0 +1,99 @@
+"""Step 1: the borrower and its statements: open the sample or a case file, upload, edit."""
+
+from __future__ import annotations
+
+import pandas as pd
+import streamlit as st
+
+from app import state
+from app.pages import _ui
+from engine.case import StatementRow
+from engine.errors import CaseError
+
+COLUMNS = list(StatementRow.model_fields)
+REQUIRED = ("year", "total_assets", "short_term_liabilities", "long_term_liabilities")
+
+
+def _open_sample() -> None:
+    _ui.replace_case(state.sample_case_dict(), "Opened the sample borrower.")
+
+
+def _open_case_file(key: str) -> None:
+    upload = st.session_state.get(key)
+    if upload is None:
+        return
+    try:
+        raw = state.case_dict_from_upload(upload.getvalue(), upload.name)
+    except CaseError as exc:
+        st.session_state.upload_error = exc.paragraph()
+        return
+    st.session_state.upload_error = None
+    _ui.replace_case(raw, f"Opened {upload.name}.")
+
+
+def _upload_statements(key: str) -> None:
+    upload = st.session_state.get(key)
+    if upload is None:
+        return
+    try:
+        rows = state.statements_from_upload(upload.getvalue(), upload.name)
+    except CaseError as exc:
+        st.session_state.upload_error = exc.paragraph()
+        return
+    st.session_state.upload_error = None
+    raw = state.set_path(st.session_state.raw, "statements", rows)
+    _ui.replace_case(raw, f"Read {len(rows)} year(s) of statements from {upload.name}.")
+
+
+_ui.header("Borrower and statements",
+           "Open a case, then check the statements: every later step reads them.")
+ss = st.session_state
+
+left, right = st.columns([1, 1])
+with left:
+    st.subheader("Open")
+    st.button("Open the sample borrower", on_click=_open_sample, icon=":material/restart_alt:",
+              help="Replaces the case in this session with the invented sample borrower.")
+    st.file_uploader("Open a case file (YAML or JSON)", type=["yaml", "yml", "json"],
+                     key=f"case_upload{ss.gen}", on_change=_open_case_file, args=(f"case_upload{ss.gen}",))
+    st.file_uploader("Replace the statements from a table (CSV or XLSX)", type=["csv", "xlsx"],
+                     key=f"stmt_upload{ss.gen}", on_change=_upload_statements,
+                     args=(f"stmt_upload{ss.gen}",),
+                     help="Columns: " + ", ".join(COLUMNS) + ". One row per financial year.")
+    if ss.get("upload_error"):
+        st.error(ss.upload_error + " The case in the workbench is unchanged.", icon=":material/error:")
+with right:
+    st.subheader("Borrower")
+    _ui.text_field("Name", "borrower.name")
+    c1, c2 = st.columns(2)
+    _ui.text_field("Currency (ISO 4217)", "borrower.currency", where=c1)
+    _ui.text_field("Country", "borrower.country", where=c2)
+    _ui.text_field("Sector", "borrower.sector")
+
+st.subheader(f"Statements [{_ui.currency()}]")
+st.caption("Edit in place; add a row for a new year. Total assets and the two liability lines are "
+           "required; the other columns feed the Z-score cross-check.")
+base_key = f"stmt_base{ss.gen}"
+if base_key not in ss:
+    rows = ss.raw.get("statements") if isinstance(ss.raw.get("statements"), list) else []
+    ss[base_key] = pd.DataFrame([{c: r.get(c) for c in COLUMNS} for r in rows if isinstance(r, dict)],
+                                columns=COLUMNS)
+money_col = {"format": "localized", "step": 1000.0}
+config = {c: st.column_config.NumberColumn(c.replace("_", " "), required=c in REQUIRED, **money_col)
+          for c in COLUMNS if c != "year"}
+config["year"] = st.column_config.NumberColumn("year", format="%d", step=1, required=True)
+edited = st.data_editor(ss[base_key], key=f"stmt_editor{ss.gen}", num_rows="dynamic", hide_index=True,
+                        column_config=config)
+records = state.plain(edited.to_dict("records"))
+if records != ss.raw.get("statements"):
+    _ui.commit(state.set_path(ss.raw, "statements", records))
+    st.rerun()
+for problem in _ui.state.problems_at(ss.problems, "statements"):
+    parts = state.split_path(problem.field)
+    where = problem.field
+    if len(parts) >= 2 and isinstance(parts[1], int) and parts[1] < len(records):
+        year = records[parts[1]].get("year")
+        column = parts[2] if len(parts) > 2 else "row"
+        where = f"row {parts[1] + 1} (year {year}), column {column}"
+    st.error(f"Statements, {where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.",
+             icon=":material/error:")

@@ -1,0 +1,96 @@
+"""Step 5: expected and unexpected loss, risk weights and capital, the minimum price."""
+
+from __future__ import annotations
+
+import pandas as pd
+import streamlit as st
+
+from app import charts, state
+from app.formatting import millions, money, pct
+from app.pages import _ui
+
+results = _ui.header("Loss, capital and pricing",
+                     "EL = EAD x PD x LGD; risk weights from the Basel IRB corporate formula; "
+                     "economic capital = loss quantile - EL; RAROC against the hurdle.")
+ss = st.session_state
+cur = _ui.currency()
+if results is None:
+    st.stop()
+
+t = results.total
+rows = [{"facility": f.id, f"EAD [{cur}]": money(f.ead), "PD": _ui.pd_text(f.capital_pd),
+         "LGD": pct(f.lgd, 1), "downturn LGD": pct(f.downturn_lgd, 1), f"EL [{cur}]": money(f.expected_loss),
+         f"UL [{cur}]": money(f.unexpected_loss), "M [years]": f"{f.capital_maturity:g}",
+         "RW": pct(f.risk_weight, 1), f"RWA [{cur}]": money(f.rwa),
+         f"capital K x EAD [{cur}]": money(f.regulatory_capital)} for f in results.facilities]
+rows.append({"facility": "Total", f"EAD [{cur}]": money(t.ead), "PD": _ui.pd_text(results.pd.pd),
+             "LGD": "", "downturn LGD": "", f"EL [{cur}]": money(t.expected_loss),
+             f"UL [{cur}]": money(t.unexpected_loss), "M [years]": "",
+             "RW": "", f"RWA [{cur}]": money(t.rwa),
+             f"capital K x EAD [{cur}]": money(t.regulatory_capital)})
+st.dataframe(pd.DataFrame(rows), hide_index=True)
+st.caption("PD column: the PD used in the risk weight (after the floor). The total UL joins the "
+           f"facilities' recoveries {state.get_path(ss.valid, 'capital.recovery_join', 'comonotonic')}.")
+
+m = st.columns(5)
+m[0].metric("Expected loss", millions(t.expected_loss, cur), help=f"EL rate {pct(t.el_rate, 3)} of EAD")
+m[1].metric("Unexpected loss", millions(t.unexpected_loss, cur))
+m[2].metric(f"VaR {pct(results.loss_distribution.confidence, 1)}", millions(t.value_at_risk, cur))
+m[3].metric("Economic capital", millions(t.economic_capital, cur),
+            help="Floored at zero" if t.economic_capital_floored else "VaR - EL")
+m[4].metric("RWA", millions(t.rwa, cur))
+
+left, right = st.columns([2, 1])
+with left:
+    st.plotly_chart(charts.loss_distribution_figure(results), key="loss_distribution")
+with right:
+    st.subheader("Capital settings")
+    _ui.number_field("Confidence [fraction]", "capital.confidence", step=0.0005, fmt="%.4f")
+    _ui.select_field("Recoveries of the facilities", "capital.recovery_join", ["comonotonic", "independent"],
+                     labels={"comonotonic": "Move together (conservative)", "independent": "Independent"})
+    _ui.number_field("PD floor [fraction]", "capital.pd_floor", step=0.0001, fmt="%.4f")
+    _ui.toggle_field("Apply the 1.06 scaling factor", "capital.scaling_factor")
+for caution in results.cautions:
+    if caution.code.startswith("capital"):
+        st.caption(f":material/info: {caution.message}")
+
+st.divider()
+st.subheader("Pricing")
+
+
+def _add_pricing() -> None:
+    _ui.commit(state.set_path(st.session_state.raw, "pricing", {"proposed_spread": 0.02}))
+
+
+if ss.raw.get("pricing") is None:
+    st.button("Add a pricing proposal", on_click=_add_pricing)
+    st.stop()
+c = st.columns(4)
+_ui.number_field("Proposed spread [fraction/year]", "pricing.proposed_spread", where=c[0], step=0.0005,
+                 fmt="%.4f")
+_ui.number_field("Fee rate [fraction/year]", "pricing.fee_rate", where=c[1], step=0.0005, fmt="%.4f")
+_ui.number_field("Hurdle rate [fraction/year]", "pricing.hurdle_rate", where=c[2], step=0.01, fmt="%.3f")
+_ui.select_field("Capital basis", "pricing.capital_basis", ["regulatory", "economic"], where=c[3])
+c = st.columns(4)
+_ui.number_field("Base rate [fraction/year]", "pricing.base_rate", where=c[0], step=0.0005, fmt="%.4f")
+_ui.number_field("Funding spread [fraction/year]", "pricing.funding_spread", where=c[1], step=0.0005, fmt="%.4f")
+_ui.number_field("Operating cost [fraction/year]", "pricing.operating_cost_rate", where=c[2], step=0.0005,
+                 fmt="%.4f")
+_ui.number_field("Return on capital held [fraction/year]", "pricing.capital_return_rate", where=c[3],
+                 step=0.005, fmt="%.3f")
+p = results.pricing
+if p is None:
+    for caution in results.cautions:
+        if caution.code.startswith("pricing"):
+            st.warning(caution.message)
+else:
+    m = st.columns(4)
+    m[0].metric("RAROC", pct(p.raroc, 1), help=f"Hurdle {pct(p.hurdle_rate, 1)}")
+    m[1].metric("Minimum spread", pct(p.minimum_spread, 3))
+    m[2].metric("Proposed spread", pct(p.proposed_spread, 3))
+    m[3].metric("Capital charged", millions(p.capital, cur))
+    verdict = (f"The proposal meets the hurdle: RAROC {pct(p.raroc, 1)} against {pct(p.hurdle_rate, 1)}; "
+               f"the spread could fall to {pct(p.minimum_spread, 3)}." if p.meets_hurdle else
+               f"The proposal falls short of the hurdle: RAROC {pct(p.raroc, 1)} against "
+               f"{pct(p.hurdle_rate, 1)}; the spread must be at least {pct(p.minimum_spread, 3)}.")
+    (st.success if p.meets_hurdle else st.error)(verdict)

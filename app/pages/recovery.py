@@ -1,0 +1,90 @@
+"""Step 4: recovery and LGD per facility: the beta law, seniority, collateral, downturn."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from app import charts, state
+from app.formatting import money, num, pct
+from app.pages import _ui
+
+results = _ui.header("Recovery and LGD",
+                     "Recovery rate as a beta law on [0, upper] fitted to its mean and std; "
+                     "collateral after haircut recovers in full. LGD = 1 - mean recovery.")
+ss = st.session_state
+cur = _ui.currency()
+facilities_raw = [f for f in (ss.raw.get("facilities") or []) if isinstance(f, dict)]
+ids = [str(f.get("id")) for f in facilities_raw]
+if not ids:
+    st.error("The case has no facilities: add one on the Facilities page.")
+    st.stop()
+chosen = st.selectbox("Facility", ids, key="recovery_facility")
+index = ids.index(chosen)
+base = f"facilities[{index}]"
+fac_raw = facilities_raw[index]
+fac_res = next((f for f in results.facilities if f.id == chosen), None) if results else None
+
+
+def _toggle_recovery(key: str) -> None:
+    if st.session_state[key]:
+        start = ({"mean": fac_res.recovery_mean, "std": fac_res.recovery_std, "upper": fac_res.recovery_upper}
+                 if fac_res else {"mean": 0.5, "std": 0.2, "upper": 1.0})
+        _ui.commit(state.set_path(st.session_state.raw, f"{base}.recovery", start))
+    else:
+        _ui.commit(state.set_path(st.session_state.raw, f"{base}.recovery", None))
+
+
+def _toggle_collateral(key: str) -> None:
+    value = {"value": 0.0, "haircut": 0.0, "description": ""} if st.session_state[key] else None
+    _ui.commit(state.set_path(st.session_state.raw, f"{base}.collateral", value))
+
+
+left, right = st.columns([1, 2.2])
+with left:
+    _ui.select_field("Seniority", f"{base}.seniority", ["senior_secured", "senior_unsecured", "subordinated"],
+                     labels={"senior_secured": "Senior secured", "senior_unsecured": "Senior unsecured",
+                             "subordinated": "Subordinated"})
+    key = f"rec_on{ss.gen}:{index}"
+    st.toggle("Own recovery assumption (off: the supervisory LGD of the seniority)",
+              value=fac_raw.get("recovery") is not None, key=key, on_change=_toggle_recovery, args=(key,))
+    if fac_raw.get("recovery") is not None:
+        c1, c2, c3 = st.columns(3)
+        _ui.number_field("Mean [fraction]", f"{base}.recovery.mean", where=c1, step=0.05, fmt="%.3f")
+        _ui.number_field("Std [fraction]", f"{base}.recovery.std", where=c2, step=0.01, fmt="%.3f")
+        _ui.number_field("Upper [fraction]", f"{base}.recovery.upper", where=c3, step=0.05, fmt="%.2f")
+    key = f"coll_on{ss.gen}:{index}"
+    st.toggle("Collateral", value=fac_raw.get("collateral") is not None, key=key,
+              on_change=_toggle_collateral, args=(key,))
+    if fac_raw.get("collateral") is not None:
+        c1, c2 = st.columns(2)
+        _ui.number_field(f"Value [{cur}]", f"{base}.collateral.value", where=c1, step=1e6, fmt="%.0f")
+        _ui.number_field("Haircut [fraction]", f"{base}.collateral.haircut", where=c2, step=0.05, fmt="%.2f")
+        _ui.text_field("Collateral description", f"{base}.collateral.description")
+    st.subheader("For all facilities")
+    _ui.select_field("Supervisory LGD table", "lgd.standard", ["basel_iii", "basel_ii"],
+                     labels={"basel_iii": "Basel III final (2017)", "basel_ii": "Basel II (2006)"})
+    _ui.number_field("Default recovery std [fraction]", "lgd.default_recovery_std", step=0.01, fmt="%.3f")
+    _ui.select_field("Downturn LGD for capital", "lgd.downturn.method", ["none", "quantile", "add_on"],
+                     labels={"none": "None (mean LGD)", "quantile": "Recovery quantile",
+                             "add_on": "Add-on to the mean LGD"})
+    method = state.get_path(ss.raw, "lgd.downturn.method", "none")
+    if method == "quantile":
+        _ui.number_field("Downturn quantile [fraction]", "lgd.downturn.quantile", step=0.05, fmt="%.2f")
+    elif method == "add_on":
+        _ui.number_field("Add-on [fraction]", "lgd.downturn.add_on", step=0.01, fmt="%.3f")
+
+with right:
+    if fac_res is None:
+        st.error("No results for this facility yet: fix the messages beside its fields.")
+        st.stop()
+    st.plotly_chart(charts.recovery_figure(results, chosen), key="recovery")
+    m = st.columns(4)
+    m[0].metric("LGD", pct(fac_res.lgd, 1))
+    m[1].metric("LGD std", pct(fac_res.lgd_std, 1))
+    m[2].metric("Downturn LGD (capital)", pct(fac_res.downturn_lgd, 1))
+    m[3].metric("Collateral cover", pct(fac_res.collateral_cover, 1))
+    law = ("point mass at the mean" if fac_res.alpha is None
+           else f"beta(alpha {num(fac_res.alpha)}, beta {num(fac_res.beta)}) on [0, {num(fac_res.recovery_upper)}]")
+    st.caption(f"Unsecured part: mean {pct(fac_res.recovery_mean, 1)}, std {pct(fac_res.recovery_std, 1)}, "
+               f"{law}; source: {fac_res.recovery_source}. Collateral after haircut "
+               f"{money(fac_res.collateral_value, cur)}.")

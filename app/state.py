@@ -1,0 +1,271 @@
+"""The workbench's case state: one plain case dict per browser session, kept on disk.
+
+No Streamlit here, so the rules are testable on their own:
+
+* The state is plain data (the case schema's dict form), never a pickle; files are JSON and case
+  downloads YAML or JSON.
+* Two dicts are kept: ``raw``, exactly what the user typed (even when it does not validate), and
+  ``valid``, the last version that passed ``engine.case.parse_case``. A bad value therefore never
+  costs the other inputs, and the results keep showing the last valid case.
+* Each browser session has its own case id (32 hex characters, the only thing ever joined to the
+  working folder's path) and its own autosave file; writes go to a temp file then ``os.replace``,
+  so a crash mid-write leaves the previous file whole.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import math
+import os
+import re
+import tempfile
+import time
+import uuid
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from engine.case import Case, case_to_dict, parse_case
+from engine.errors import CaseError, Problem
+
+ROOT = Path(__file__).resolve().parent.parent
+SAMPLE_PATH = ROOT / "sample_data" / "hollowmere.yaml"
+WORKDIR_ENV = "OBLIGOR_MEMO_WORKDIR"
+AUTOSAVE_FORMAT = "obligor-memo autosave"
+AUTOSAVE_VERSION = 1
+_CASE_ID = re.compile(r"[0-9a-f]{32}")
+_PATH_PART = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
+
+
+def default_workdir() -> Path:
+    """The folder for autosaved cases: $OBLIGOR_MEMO_WORKDIR, else ~/.obligor-memo."""
+    configured = os.environ.get(WORKDIR_ENV)
+    return Path(configured).expanduser() if configured else Path.home() / ".obligor-memo"
+
+
+def new_case_id() -> str:
+    return uuid.uuid4().hex
+
+
+def is_case_id(text: Any) -> bool:
+    """True only for ids this module makes: nothing else may reach a file path."""
+    return isinstance(text, str) and _CASE_ID.fullmatch(text) is not None
+
+
+def autosave_path(workdir: Path, case_id: str) -> Path:
+    if not is_case_id(case_id):
+        raise ValueError(f"case_id: got {case_id!r}; allowed: 32 lower-case hex characters")
+    return Path(workdir) / "cases" / f"{case_id}.json"
+
+
+# --------------------------------------------------------------------------- plain data
+
+
+def plain(value: Any) -> Any:
+    """JSON-safe plain data: numpy scalars to Python, NaN and infinities to None (an empty cell)."""
+    if isinstance(value, dict):
+        return {str(k): plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [plain(v) for v in value]
+    if hasattr(value, "item") and callable(value.item) and not isinstance(value, (str, bytes)):
+        try:
+            value = value.item()
+        except (TypeError, ValueError):
+            return str(value)
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if value is None or isinstance(value, (bool, int, float, str)):
+        return value
+    return str(value)
+
+
+def sample_case_dict() -> dict[str, Any]:
+    """The invented sample borrower as a case dict (statements inlined)."""
+    from engine.loading import load_case
+
+    return case_to_dict(load_case(SAMPLE_PATH))
+
+
+# --------------------------------------------------------------------------- paths into the dict
+
+
+def split_path(path: str) -> list[str | int]:
+    """``facilities[1].recovery.std`` -> ["facilities", 1, "recovery", "std"]."""
+    parts: list[str | int] = []
+    for name, index in _PATH_PART.findall(path):
+        parts.append(int(index) if index else name)
+    if not parts:
+        raise ValueError(f"path: got {path!r}; allowed: a dotted path such as pd.horizon_years")
+    return parts
+
+
+def get_path(data: Any, path: str, default: Any = None) -> Any:
+    node = data
+    for part in split_path(path):
+        try:
+            node = node[part]
+        except (KeyError, IndexError, TypeError):
+            return default
+        if node is None:
+            return default
+    return node
+
+
+def set_path(data: dict[str, Any], path: str, value: Any) -> dict[str, Any]:
+    """A copy of ``data`` with ``path`` set; missing mappings on the way are created."""
+    out = copy.deepcopy(data)
+    parts = split_path(path)
+    node: Any = out
+    for part, following in zip(parts[:-1], parts[1:]):
+        child = node[part] if (isinstance(node, list) or part in node) else None
+        if child is None:
+            child = [] if isinstance(following, int) else {}
+            node[part] = child
+        node = child
+    node[parts[-1]] = plain(value)
+    return out
+
+
+# --------------------------------------------------------------------------- validation
+
+
+@dataclass(frozen=True)
+class Checked:
+    """A raw case dict and what validation made of it."""
+
+    case: Case | None
+    problems: tuple[Problem, ...]
+
+
+def check(raw: Any) -> Checked:
+    try:
+        return Checked(parse_case(raw, source="case"), ())
+    except CaseError as exc:
+        return Checked(None, exc.problems)
+
+
+def problems_at(problems: tuple[Problem, ...] | list[Problem], path: str) -> list[Problem]:
+    """The problems that belong to the widget at ``path`` (itself or anything below it)."""
+    return [p for p in problems if p.field == path or p.field.startswith(path + ".")
+            or p.field.startswith(path + "[")]
+
+
+# --------------------------------------------------------------------------- scenarios
+
+
+def apply_settings(raw: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+    """A copy of the case dict with a scenario's ``set`` applied.
+
+    Keys are case paths; ``facilities.<id>.<field>`` addresses a facility by its id. A recovery
+    mean set on a facility that had none keeps the case's default std on [0, 1].
+    """
+    out = copy.deepcopy(raw)
+    for key, value in settings.items():
+        parts = key.split(".")
+        if parts[0] == "facilities" and len(parts) >= 3:
+            ids = [f.get("id") for f in out.get("facilities", [])]
+            if parts[1] not in ids:
+                raise CaseError.single(f"scenario setting {key}", parts[1],
+                                       "the id of a facility in the case: " + ", ".join(map(str, ids)))
+            index = ids.index(parts[1])
+            rest = ".".join(parts[2:])
+            if parts[2] == "recovery" and out["facilities"][index].get("recovery") is None:
+                std = get_path(out, "lgd.default_recovery_std", 0.25)
+                out["facilities"][index]["recovery"] = {"mean": None, "std": std, "upper": 1.0}
+            out = set_path(out, f"facilities[{index}].{rest}", value)
+        else:
+            out = set_path(out, key, value)
+    return out
+
+
+# --------------------------------------------------------------------------- files
+
+
+def _atomic_write(path: Path, text: str) -> None:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    handle, temp = tempfile.mkstemp(prefix=path.name + ".", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8") as out:
+            out.write(text)
+            out.flush()
+            os.fsync(out.fileno())
+        os.replace(temp, path)
+    except BaseException:
+        try:
+            os.unlink(temp)
+        except OSError:
+            pass
+        raise
+
+
+def autosave(workdir: Path, case_id: str, *, raw: dict[str, Any], valid: dict[str, Any] | None,
+             extra: dict[str, Any] | None = None) -> Path:
+    """Write the session's state atomically; returns the file written."""
+    path = autosave_path(workdir, case_id)
+    record = {"format": AUTOSAVE_FORMAT, "version": AUTOSAVE_VERSION, "case_id": case_id,
+              "saved_at": time.strftime("%Y-%m-%dT%H:%M:%S%z"), "raw": plain(raw),
+              "valid": plain(valid) if valid is not None else None, "extra": plain(extra or {})}
+    _atomic_write(path, json.dumps(record, indent=1, allow_nan=False))
+    return path
+
+
+@dataclass(frozen=True)
+class Restored:
+    raw: dict[str, Any]
+    valid: dict[str, Any] | None
+    extra: dict[str, Any]
+    saved_at: str
+
+
+def restore(workdir: Path, case_id: str) -> Restored | None:
+    """The saved state of ``case_id``, or None when there is none or it cannot be read."""
+    try:
+        path = autosave_path(workdir, case_id)
+        record = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    if not isinstance(record, dict) or record.get("format") != AUTOSAVE_FORMAT:
+        return None
+    raw = record.get("raw")
+    if not isinstance(raw, dict):
+        return None
+    valid = record.get("valid") if isinstance(record.get("valid"), dict) else None
+    extra = record.get("extra") if isinstance(record.get("extra"), dict) else {}
+    return Restored(raw, valid, extra, str(record.get("saved_at", "")))
+
+
+def case_file_text(data: dict[str, Any], fmt: str = "yaml") -> str:
+    """The case as a YAML or JSON file a user can open again (or run from the command line)."""
+    if fmt == "json":
+        return json.dumps(plain(data), indent=2, allow_nan=False)
+    if fmt != "yaml":
+        raise ValueError(f"fmt: got {fmt!r}; allowed: 'yaml' or 'json'")
+    return yaml.safe_dump(plain(data), sort_keys=False, allow_unicode=True, width=100)
+
+
+def case_dict_from_upload(data: bytes, name: str) -> dict[str, Any]:
+    """A case file upload (YAML or JSON) as a validated case dict. Raises CaseError."""
+    from engine.loading import MAX_CASE_BYTES, load_case_text
+
+    if len(data) > MAX_CASE_BYTES:
+        raise CaseError.single(f"case file {name}", f"{len(data):,} bytes",
+                               f"at most {MAX_CASE_BYTES:,} bytes", "case file")
+    if not name.lower().endswith((".yaml", ".yml", ".json")):
+        raise CaseError.single(f"case file {name}", name, "a file ending in .yaml, .yml or .json",
+                               "case file")
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError:
+        raise CaseError.single(f"case file {name}", "bytes that are not UTF-8 text",
+                               "a UTF-8 text file (YAML or JSON)", "case file") from None
+    return case_to_dict(load_case_text(text, name, base_dir=None))
+
+
+def statements_from_upload(data: bytes, name: str) -> list[dict[str, Any]]:
+    """Statement rows from an uploaded CSV/XLSX. Raises CaseError naming the bad cell."""
+    from engine.statements import read_statement_table
+
+    return plain(read_statement_table(data, name))

@@ -1,0 +1,66 @@
+"""The workbench's Streamlit entry: session, sidebar and the pages in the order of the job.
+
+Run through ``obligor-memo app`` (see app/serve.py). Each browser session gets its own case,
+autosaved under the working folder; the case id sits in the URL so a refresh finds it again.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+_ROOT = Path(__file__).resolve().parent.parent
+if str(_ROOT) not in sys.path:  # `streamlit run app/workbench.py` puts only app/ on the path
+    sys.path.insert(0, str(_ROOT))
+
+import streamlit as st  # noqa: E402
+
+from app.pages import _ui  # noqa: E402
+
+PAGES_DIR = Path(__file__).resolve().parent / "pages"
+PAGES = (
+    ("borrower.py", "Borrower and statements", ":material/domain:"),
+    ("asset_pd.py", "Asset trend and PD", ":material/trending_up:"),
+    ("exposure.py", "Facilities and exposure", ":material/account_balance:"),
+    ("recovery.py", "Recovery and LGD", ":material/shield:"),
+    ("loss.py", "Loss, capital and pricing", ":material/functions:"),
+    ("whatif.py", "What-if and scenarios", ":material/tune:"),
+    ("memo.py", "Memo and files", ":material/description:"),
+)
+
+st.set_page_config(page_title="obligor-memo workbench", page_icon=":material/balance:", layout="wide")
+css = Path(__file__).resolve().parent / "assets" / "workbench.css"
+if css.is_file():
+    st.markdown(f"<style>{css.read_text(encoding='utf-8')}</style>", unsafe_allow_html=True)
+
+try:
+    _ui.ensure_session()
+except Exception as exc:  # nothing but a plain message may reach the screen
+    st.error(f"The workbench could not start this session ({type(exc).__name__}: {exc}).")
+    st.stop()
+
+ss = st.session_state
+with st.sidebar:
+    st.markdown("### obligor-memo")
+    borrower = _ui.state.get_path(ss.raw, "borrower.name", "(no name)")
+    st.markdown(f"**{borrower}**")
+    if ss.problems:
+        st.warning(f"{len(ss.problems)} input problem(s): results use the last valid case.")
+    if ss.get("save_error"):
+        st.error(ss.save_error)
+    else:
+        st.caption(f"Autosaved to `{ss.get('saved_to', '')}`. Bookmark this page's address to come "
+                   "back to this case.")
+    if ss.get("restored_at"):
+        st.caption(f"Restored from the autosave of {ss.restored_at}.")
+
+pages = [st.Page(str(PAGES_DIR / name), title=title, icon=icon, default=(i == 0))
+         for i, (name, title, icon) in enumerate(PAGES)]
+page = st.navigation(pages)
+try:
+    page.run()
+except st.errors.StreamlitAPIException:
+    raise
+except Exception as exc:  # a page bug: say so plainly, keep the case
+    st.error(f"This page hit an internal error ({type(exc).__name__}: {exc}). Your case is saved; "
+             "other pages keep working.")
