@@ -41,7 +41,6 @@ from dataclasses import dataclass
 from typing import Literal, Protocol, Sequence
 
 import numpy as np
-from scipy import integrate
 
 Join = Literal["comonotonic", "independent"]
 JOINS: tuple[str, ...] = ("comonotonic", "independent")
@@ -299,6 +298,8 @@ def _comonotonic_tail(
         integral = sum(float(e) * (tail_fraction - law.ppf_integral(tail_fraction))
                        for e, law in zip(exposures, laws) if e > 0.0)
         return value_at_risk, probability / (1.0 - level) * integral, 0.0
+
+    from scipy import integrate  # deferred: only recovery laws without a closed form need it
 
     def integrand(u: float) -> float:
         return float(_loss_given_default_comonotonic(np.array([u]), exposures, laws)[0])

@@ -1,0 +1,276 @@
+"""One benchmark command with every figure: prints a table and writes JSON.
+
+    python bench/run.py            # full: more repeats
+    python bench/run.py --quick    # CI: few repeats; reports, never fails on a slow machine
+
+Each item runs in its own child process so its peak memory (max RSS, from os.wait4) is its own.
+Medians over repeated runs; ratios are taken within the same run. Thresholds live in the README.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+SAMPLE = ROOT / "sample_data" / "hollowmere.yaml"
+PYTHON = sys.executable
+CLI = [PYTHON, "-m", "app.cli"]
+
+
+# --------------------------------------------------------------------------- items (run in a child)
+
+
+def _median_ms(func, repeats: int, warmup: int = 2) -> float:
+    for _ in range(warmup):
+        func()
+    times = []
+    for _ in range(repeats):
+        start = time.perf_counter()
+        func()
+        times.append(time.perf_counter() - start)
+    return statistics.median(times) * 1000
+
+
+def item_evaluate(quick: bool) -> dict:
+    from engine.evaluate import evaluate
+    from engine.loading import load_case
+
+    case = load_case(SAMPLE)
+    return {"median_ms": _median_ms(lambda: evaluate(case), 50 if quick else 500), "target_ms": 5}
+
+
+def item_grid(quick: bool) -> dict:
+    from engine.evaluate import evaluate
+    from engine.loading import load_case
+    from engine.sensitivity import pd_grid
+
+    case = load_case(SAMPLE)
+    base = evaluate(case)
+    grid = pd_grid(case, base)
+    cells = len(grid.pd) * len(grid.pd[0])
+    return {"median_ms": _median_ms(lambda: pd_grid(case, base), 20 if quick else 200), "cells": cells}
+
+
+def item_sensitivity(quick: bool) -> dict:
+    from engine.evaluate import evaluate
+    from engine.loading import load_case
+    from engine.sensitivity import one_way_sensitivity
+
+    case = load_case(SAMPLE)
+    base = evaluate(case)
+    return {"median_ms": _median_ms(lambda: one_way_sensitivity(case, base), 5 if quick else 30)}
+
+
+def item_market(quick: bool) -> dict:
+    import numpy as np
+    from scipy import optimize
+    from scipy.stats import norm
+
+    from engine.market import solve_merton_many
+
+    n = 100_000
+    rng = np.random.default_rng(20261201)
+    debt = rng.uniform(50, 150, n)
+    equity = debt * rng.uniform(0.05, 3.0, n)
+    vol = rng.uniform(0.15, 1.2, n)
+    rate = rng.uniform(0.0, 0.06, n)
+    horizon = np.ones(n)
+
+    def batch():
+        return solve_merton_many(equity_value=equity, equity_volatility=vol, default_point=debt,
+                                 risk_free_rate=rate, horizon_years=horizon, invalid="flag")
+
+    batch_ms = _median_ms(batch, 3 if quick else 10, warmup=1)
+    converged = int(np.count_nonzero(batch().converged))
+
+    def one(e, se, d, r, t):  # the per-borrower reference: scipy.optimize.root on both equations
+        def equations(x):
+            v, s = np.exp(x)
+            d1 = (np.log(v / d) + (r + s * s / 2) * t) / (s * np.sqrt(t))
+            d2 = d1 - s * np.sqrt(t)
+            return [(v * norm.cdf(d1) - d * np.exp(-r * t) * norm.cdf(d2) - e) / e,
+                    (norm.cdf(d1) * s * v - se * e) / (se * e)]
+        v0 = e + d * np.exp(-r * t)
+        return optimize.root(equations, [np.log(v0), np.log(se * e / v0)], method="hybr")
+
+    loop_n = 300 if quick else 3000
+    start = time.perf_counter()
+    for i in range(loop_n):
+        one(equity[i], vol[i], debt[i], rate[i], horizon[i])
+    loop_per = (time.perf_counter() - start) / loop_n
+    batch_per = batch_ms / 1000 / n
+    return {"borrowers": n, "batch_median_ms": batch_ms, "converged": converged,
+            "scipy_loop_borrowers_timed": loop_n, "scipy_loop_ms_per_100k": loop_per * n * 1000,
+            "speedup": loop_per / batch_per}
+
+
+def item_workbench(quick: bool) -> dict:
+    from streamlit.testing.v1 import AppTest
+
+    os.environ.setdefault("OBLIGOR_MEMO_WORKDIR", tempfile.mkdtemp(prefix="om-bench-"))
+    script = str(ROOT / "app" / "workbench.py")
+    start = time.perf_counter()
+    at = AppTest.from_file(script, default_timeout=60)
+    at.run()
+    first = time.perf_counter() - start
+    if at.exception:
+        return {"error": str(at.exception[0].message)[:200]}
+    slider_keys = [s.key for s in at.slider if s.key]
+    number_keys = [n.key for n in at.number_input if n.key]
+    times = []
+    repeats = 5 if quick else 25
+    for i in range(repeats):
+        start = time.perf_counter()
+        if slider_keys:
+            widget = at.slider(key=slider_keys[0])
+            low, high = widget.min, widget.max
+            widget.set_value(low + (high - low) * (0.3 + 0.4 * (i % 2))).run()
+        elif number_keys:
+            widget = at.number_input(key=number_keys[0])
+            widget.set_value((widget.value or 0) + (0.01 if i % 2 else -0.01)).run()
+        else:
+            at.run()
+        times.append(time.perf_counter() - start)
+    return {"first_load_s": first, "rerun_median_ms": statistics.median(times) * 1000,
+            "control": (slider_keys or number_keys or ["(plain rerun)"])[0],
+            "target_rerun_ms": 150, "target_first_load_s": 3}
+
+
+def item_memo_warm(quick: bool) -> dict:
+    from app.memo import render_memo_pdf
+    from engine.evaluate import evaluate
+    from engine.loading import load_case
+
+    results = evaluate(load_case(SAMPLE))
+    start = time.perf_counter()
+    render_memo_pdf(results)  # starts the chart exporter once
+    first = time.perf_counter() - start
+    times = []
+    for _ in range(2 if quick else 5):
+        start = time.perf_counter()
+        render_memo_pdf(results)
+        times.append(time.perf_counter() - start)
+    return {"first_s": first, "warm_median_s": statistics.median(times), "target_warm_s": 2}
+
+
+ITEMS = {"evaluate": item_evaluate, "grid": item_grid, "sensitivity": item_sensitivity,
+         "market": item_market, "workbench": item_workbench, "memo_warm": item_memo_warm}
+
+
+# --------------------------------------------------------------------------- orchestration
+
+
+def _run_child(argv: list[str], timeout: float) -> tuple[float, float, int, str]:
+    """Wall seconds, peak RSS in MB, exit code and stdout of one child process."""
+    start = time.perf_counter()
+    with tempfile.TemporaryFile() as out, tempfile.TemporaryFile() as err:
+        proc = subprocess.Popen(argv, cwd=ROOT, stdout=out, stderr=err)
+        deadline = start + timeout
+        while True:
+            pid, status, usage = os.wait4(proc.pid, os.WNOHANG)
+            if pid:
+                break
+            if time.perf_counter() > deadline:
+                proc.kill()
+                pid, status, usage = os.wait4(proc.pid, 0)
+                break
+            time.sleep(0.005)
+        wall = time.perf_counter() - start
+        out.seek(0)
+        err.seek(0)
+        text = out.read().decode("utf-8", "replace")
+        if os.waitstatus_to_exitcode(status) != 0:
+            text += err.read().decode("utf-8", "replace")[-400:]
+    return wall, usage.ru_maxrss / 1024, os.waitstatus_to_exitcode(status), text
+
+
+def _item(name: str, quick: bool) -> dict:
+    argv = [PYTHON, str(Path(__file__).resolve()), "--item", name] + (["--quick"] if quick else [])
+    wall, peak, code, text = _run_child(argv, timeout=600)
+    if code != 0:
+        return {"error": text.strip().splitlines()[-1] if text.strip() else f"exit {code}", "peak_mb": peak}
+    data = json.loads(text.strip().splitlines()[-1])
+    data["peak_mb"] = peak
+    return data
+
+
+def _cold(argv: list[str], repeats: int) -> dict:
+    walls, peaks = [], []
+    for _ in range(repeats):
+        wall, peak, code, text = _run_child(argv, timeout=120)
+        if code != 0:
+            return {"error": text.strip()[-300:]}
+        walls.append(wall)
+        peaks.append(peak)
+    return {"median_s": statistics.median(walls), "peak_mb": max(peaks)}
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="few repeats (CI)")
+    parser.add_argument("--item", choices=sorted(ITEMS), help=argparse.SUPPRESS)
+    parser.add_argument("--out", type=Path, default=ROOT / "bench" / "results" / "latest.json")
+    parser.add_argument("--only", nargs="*", help="run only these figures")
+    args = parser.parse_args()
+    if args.item:
+        sys.path.insert(0, str(ROOT))
+        print(json.dumps(ITEMS[args.item](args.quick)))
+        return 0
+
+    repeats = 3 if args.quick else 10
+    wanted = set(args.only or [])
+    figures: dict[str, dict] = {}
+
+    def want(name: str) -> bool:
+        return not wanted or name in wanted
+
+    for name in ("evaluate", "grid", "sensitivity", "market", "workbench", "memo_warm"):
+        if want(name):
+            figures[name] = _item(name, args.quick)
+    if want("cli_cold"):
+        bare = _cold([PYTHON, "-c", "import numpy, scipy"], repeats)
+        cli = _cold(CLI + ["evaluate", str(SAMPLE), "--json"], repeats)
+        if "median_s" in bare and "median_s" in cli:
+            cli["bare_numpy_scipy_s"] = bare["median_s"]
+            cli["ratio_to_bare"] = cli["median_s"] / bare["median_s"]
+        cli["target_s"] = 1.5
+        figures["cli_cold"] = cli
+    if want("memo_cold"):
+        with tempfile.TemporaryDirectory() as folder:
+            memo = _cold(CLI + ["memo", str(SAMPLE), "-o", str(Path(folder) / "m.pdf")],
+                         1 if args.quick else 3)
+        memo.update({"target_s": 6, "target_peak_mb": 600})
+        figures["memo_cold"] = memo
+
+    report = {"quick": args.quick, "python": sys.version.split()[0], "cores": os.cpu_count(),
+              "when": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()), "figures": figures}
+    args.out.parent.mkdir(parents=True, exist_ok=True)
+    args.out.write_text(json.dumps(report, indent=2))
+    _print_table(figures)
+    print(f"\nwritten {args.out}")
+    return 0
+
+
+def _print_table(figures: dict[str, dict]) -> None:
+    print(f"{'figure':<14} {'result':<70} {'peak MB':>8}")
+    print("-" * 94)
+    for name, data in figures.items():
+        peak = data.get("peak_mb")
+        shown = {k: v for k, v in data.items() if k != "peak_mb"}
+        text = ", ".join(f"{k}={v:.4g}" if isinstance(v, float) else f"{k}={v}" for k, v in shown.items())
+        print(f"{name:<14} {text[:70]:<70} {peak if peak is None else round(peak):>8}")
+        if len(text) > 70:
+            for start in range(70, len(text), 70):
+                print(f"{'':<14} {text[start:start + 70]}")
+
+
+if __name__ == "__main__":
+    sys.exit(main())
