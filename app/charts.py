@@ -278,7 +278,7 @@ def loss_distribution_figure(results: Any) -> go.Figure:
     fig = go.Figure()
     fig.add_trace(go.Scatter(
         x=loss[positive], y=exceed[positive], mode="lines", name="P(loss > x)",
-        line={"color": INK, "width": 2.5, "shape": "hv"},
+        line={"color": INK, "width": 2.5},
         hovertemplate="P(loss > " + cur + " %{x:,.1f}m) = %{y:.3%}<extra></extra>"))
     tail = 1.0 - dist.confidence
     if positive.any():

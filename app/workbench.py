@@ -40,6 +40,8 @@ except Exception as exc:  # nothing but a plain message may reach the screen
     st.stop()
 
 ss = st.session_state
+if st.query_params.get("case") != ss.case_id:  # page switches clear the query string
+    st.query_params["case"] = ss.case_id
 with st.sidebar:
     st.markdown("### obligor-memo")
     borrower = _ui.state.get_path(ss.raw, "borrower.name", "(no name)")

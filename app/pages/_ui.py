@@ -248,3 +248,8 @@ def rows_of(items: Any) -> list[dict[str, Any]]:
                                            v if isinstance(v, (str, int, bool)) or v is None else str(v))
                      for k, v in data.items()})
     return rows
+
+
+def chart(where: Any, figure: Any, key: str) -> None:
+    """A figure exactly as the memo prints it (our layout, not the Streamlit theme)."""
+    where.plotly_chart(figure, key=key, theme=None, config={"displaylogo": False})

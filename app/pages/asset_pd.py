@@ -48,7 +48,7 @@ with chart:
     if results is None:
         st.error("No valid case yet: fix the messages on the Borrower page.")
         st.stop()
-    st.plotly_chart(charts.asset_trend_figure(results), key="asset_trend")
+    _ui.chart(st, charts.asset_trend_figure(results), key="asset_trend")
     p = results.pd
     m = st.columns(5)
     m[0].metric("Distance to default", num(p.distance_to_default, 2))
@@ -73,9 +73,9 @@ with chart:
 st.divider()
 left, right = st.columns([1.3, 1])
 with left:
-    st.plotly_chart(charts.term_structure_figure(results), key="term_structure")
+    _ui.chart(st, charts.term_structure_figure(results), key="term_structure")
 with right:
-    st.plotly_chart(charts.liabilities_figure(results), key="liabilities")
+    _ui.chart(st, charts.liabilities_figure(results), key="liabilities")
 
 market = getattr(results, "market", None)
 if market is not None:

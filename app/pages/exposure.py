@@ -69,7 +69,7 @@ st.dataframe(pd.DataFrame([{
     "CCF": pct(f.ccf, 0), "CCF source": f.ccf_source, "EAD": money(f.ead)} for f in results.facilities]
     + [{"facility": "Total", "kind": "", "drawn": "", "undrawn": "", "CCF": "", "CCF source": "",
         "EAD": money(results.total.ead)}]), hide_index=True)
-st.plotly_chart(charts.exposure_figure(results), key="exposure")
+_ui.chart(st, charts.exposure_figure(results), key="exposure")
 for caution in results.cautions:
     if caution.code.startswith("exposure"):
         st.caption(f":material/info: {caution.message}")

@@ -42,7 +42,7 @@ m[4].metric("RWA", millions(t.rwa, cur))
 
 left, right = st.columns([2, 1])
 with left:
-    st.plotly_chart(charts.loss_distribution_figure(results), key="loss_distribution")
+    _ui.chart(st, charts.loss_distribution_figure(results), key="loss_distribution")
 with right:
     st.subheader("Capital settings")
     _ui.number_field("Confidence [fraction]", "capital.confidence", step=0.0005, fmt="%.4f")

@@ -77,7 +77,7 @@ with right:
     if fac_res is None:
         st.error("No results for this facility yet: fix the messages beside its fields.")
         st.stop()
-    st.plotly_chart(charts.recovery_figure(results, chosen), key="recovery")
+    _ui.chart(st, charts.recovery_figure(results, chosen), key="recovery")
     m = st.columns(4)
     m[0].metric("LGD", pct(fac_res.lgd, 1))
     m[1].metric("LGD std", pct(fac_res.lgd_std, 1))

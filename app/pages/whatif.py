@@ -102,9 +102,9 @@ m[2].metric("What-if economic capital", millions(shown.total.economic_capital, c
 m[3].metric("What-if RAROC", pct(shown.pricing.raroc, 1) if shown.pricing else "n/a")
 left, right = st.columns(2)
 with left:
-    st.plotly_chart(charts.asset_trend_figure(shown), key="whatif_trend")
+    _ui.chart(st, charts.asset_trend_figure(shown), key="whatif_trend")
 with right:
-    st.plotly_chart(charts.loss_distribution_figure(shown), key="whatif_loss")
+    _ui.chart(st, charts.loss_distribution_figure(shown), key="whatif_loss")
 
 if getattr(base_results, "sensitivity", None) is not None:
     st.subheader("Sensitivities of the case")
@@ -112,7 +112,7 @@ if getattr(base_results, "sensitivity", None) is not None:
     for where, builder, key in ((left, charts.sensitivity_figure, "tornado"),
                                 (right, charts.pd_grid_figure, "pd_grid")):
         try:
-            where.plotly_chart(builder(base_results), key=key)
+            _ui.chart(where, builder(base_results), key=key)
         except ValueError as exc:
             where.caption(str(exc))
 

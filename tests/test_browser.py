@@ -1,0 +1,134 @@
+"""A real browser drives the workbench: open the sample, move the default point, PD moves.
+
+Uses the system Chromium (never downloads one); skipped when it is missing. Screenshots of every
+page go to test-artifacts/ so a person can look at them.
+"""
+
+from __future__ import annotations
+
+import os
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+CHROMIUM = "/usr/bin/chromium"
+ROOT = Path(__file__).resolve().parent.parent
+ARTIFACTS = ROOT / "test-artifacts"
+
+pytestmark = [pytest.mark.browser,
+              pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture(scope="module")
+def server(tmp_path_factory):
+    port = _free_port()
+    workdir = tmp_path_factory.mktemp("workdir")
+    code = ("import sys; from app.serve import serve; "
+            f"sys.exit(serve(port={port}, host='127.0.0.1', workdir=r'{workdir}'))")
+    proc = subprocess.Popen([sys.executable, "-c", code], cwd=ROOT, stdout=subprocess.PIPE,
+                            stderr=subprocess.STDOUT, start_new_session=True)
+    url = f"http://127.0.0.1:{port}"
+    deadline = time.time() + 30
+    while time.time() < deadline:
+        try:
+            with urllib.request.urlopen(url + "/_stcore/health", timeout=1) as r:
+                if r.status == 200:
+                    break
+        except OSError:
+            time.sleep(0.3)
+    else:
+        proc.kill()
+        pytest.fail("the workbench did not start within 30 s")
+    yield url, workdir
+    os.killpg(proc.pid, 15)
+    proc.wait(timeout=10)
+
+
+def _metric(page, label: str) -> str:
+    box = page.locator('[data-testid="stMetric"]', has_text=label).first
+    return box.locator('[data-testid="stMetricValue"]').inner_text().strip()
+
+
+def _settle(page) -> None:
+    page.wait_for_timeout(300)
+    page.wait_for_function("() => !document.querySelector('[data-testid=\"stStatusWidget\"]')",
+                           timeout=15000)
+    page.wait_for_timeout(300)
+
+
+def test_default_point_moves_pd(server):
+    from playwright.sync_api import sync_playwright
+
+    url, workdir = server
+    ARTIFACTS.mkdir(exist_ok=True)
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True,
+                                    args=["--no-sandbox", "--headless=new", "--disable-gpu",
+                                          "--disable-dev-shm-usage"])
+        page = browser.new_page(viewport={"width": 1500, "height": 1100})
+        page.goto(url, wait_until="networkidle")
+        page.get_by_text("Hollowmere Lifting Group").first.wait_for(timeout=20000)
+        _settle(page)
+        page.screenshot(path=str(ARTIFACTS / "01_borrower.png"), full_page=True)
+
+        page.get_by_role("link", name="Asset trend and PD").click()
+        page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=20000)
+        _settle(page)
+        before = _metric(page, "PD in force")
+        page.screenshot(path=str(ARTIFACTS / "02_asset_pd_before.png"), full_page=True)
+
+        box = page.get_by_label("Long-term share [fraction]")
+        box.fill("1.00")
+        box.press("Enter")
+        page.wait_for_function(
+            "(old) => [...document.querySelectorAll('[data-testid=\"stMetric\"]')]"
+            ".some(m => m.innerText.includes('PD in force') && !m.innerText.includes(old))",
+            arg=before, timeout=15000)
+        _settle(page)
+        after = _metric(page, "PD in force")
+        page.screenshot(path=str(ARTIFACTS / "03_asset_pd_after.png"), full_page=True)
+        assert after != before
+        # A heavier default point can only raise the PD: common practice, and the direction of
+        # N(-DD) when ln(V/DP) falls.
+        assert float(after.rstrip(" %")) > float(before.rstrip(" %"))
+
+        # A value out of range gets a message beside the field; the PD shown stays the last valid.
+        box = page.get_by_label("Short-term share [fraction]")
+        box.fill("-0.5")
+        box.press("Enter")
+        page.get_by_text("pd.default_point.short_term_share").first.wait_for(timeout=15000)
+        _settle(page)
+        assert _metric(page, "PD in force") == after
+        page.screenshot(path=str(ARTIFACTS / "04_bad_value.png"), full_page=True)
+        assert not page.get_by_text("Traceback").count()
+
+        for index, name in enumerate(["Facilities and exposure", "Recovery and LGD",
+                                      "Loss, capital and pricing", "What-if and scenarios",
+                                      "Memo and files"], start=5):
+            page.get_by_role("link", name=name).click()
+            page.get_by_role("heading", name=name).first.wait_for(timeout=20000)
+            _settle(page)
+            page.screenshot(path=str(ARTIFACTS / f"{index:02d}_{name.split()[0].lower()}.png"),
+                            full_page=True)
+            assert not page.get_by_text("Traceback").count()
+
+        # The autosave keeps what was typed: a fresh load of the same address restores it.
+        page.reload(wait_until="networkidle")
+        page.get_by_role("link", name="Asset trend and PD").click()
+        page.get_by_label("Long-term share [fraction]").wait_for(timeout=20000)
+        _settle(page)
+        assert page.get_by_label("Long-term share [fraction]").input_value() == "1.00"
+        browser.close()
+    saved = list((Path(workdir) / "cases").glob("*.json"))
+    assert len(saved) >= 1
