@@ -1,0 +1,158 @@
+"""The figures draw what the engine computed, checked against numpy/scipy computing it another way,
+with units on every axis and series told apart without colour."""
+
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy import integrate, stats
+
+from app import charts
+from engine.evaluate import evaluate
+from engine.loading import load_case
+
+SAMPLE = Path(__file__).resolve().parent.parent / "sample_data" / "hollowmere.yaml"
+
+
+@pytest.fixture(scope="module")
+def results():
+    return evaluate(load_case(SAMPLE))
+
+
+def _all_figures(results):
+    figures = {name: build(results) for name, build in charts.FIGURES.items()}
+    for f in results.facilities:
+        figures[f"recovery {f.id}"] = charts.recovery_figure(results, f.id)
+    return figures
+
+
+def _trace(fig, starts: str):
+    return next(t for t in fig.data if (t.name or "").startswith(starts))
+
+
+def test_every_axis_has_a_unit_and_money_axes_name_the_currency(results):
+    for name, fig in _all_figures(results).items():
+        x_title, y_title = fig.layout.xaxis.title.text, fig.layout.yaxis.title.text
+        for title in (x_title, y_title):
+            assert title, f"{name}: an axis without a title"
+        # Unit in brackets or a stated scale, the convention of the whole project.
+        assert any(("[" in t) or ("log scale" in t) or ("Facility" == t) for t in (x_title, y_title)), name
+        if "[EUR m]" in x_title + y_title:
+            assert results.case.borrower.currency == "EUR"
+
+
+def test_series_differ_by_more_than_colour(results):
+    """Grayscale print: two series of one figure never share dash, marker and fill pattern."""
+    for name, fig in _all_figures(results).items():
+        looks = []
+        for t in fig.data:
+            line = getattr(t, "line", None)
+            marker = getattr(t, "marker", None)
+            pattern = getattr(marker, "pattern", None) if marker is not None else None
+            looks.append((t.type, getattr(t, "mode", None), getattr(line, "dash", None) if line else None,
+                          str(getattr(marker, "symbol", None)) if marker is not None else None,
+                          getattr(pattern, "shape", None) if pattern is not None else None,
+                          getattr(marker, "color", None) if t.type == "bar" else None))
+        assert len(set(looks)) == len(looks), f"{name}: two series look alike in grayscale"
+
+
+def test_log_fit_line_and_r2_match_numpy(results):
+    fig = charts.asset_trend_figure(results)
+    years = np.array(results.trend.years, dtype=float)
+    assets = np.array(results.trend.total_assets)
+    slope, intercept = np.polyfit(years, np.log(assets), 1)  # least squares by numpy
+    line = _trace(fig, "Log-linear fit")
+    np.testing.assert_allclose(line.y, np.exp(slope * np.asarray(line.x) + intercept) / 1e6, rtol=1e-9)
+    r2 = np.corrcoef(years, np.log(assets))[0, 1] ** 2  # R^2 of a one-regressor fit = r^2
+    assert f"R\u00b2 = {r2:.3f}" in line.name
+    r2_level = np.corrcoef(years, assets)[0, 1] ** 2
+    assert f"R\u00b2 = {r2_level:.3f}" in _trace(fig, "Straight-line fit").name
+    dp = _trace(fig, "Default point")
+    latest = results.case.statements[-1]
+    # Default point = 1 x short-term + 0.5 x long-term liabilities (common practice).
+    assert dp.y[0] == pytest.approx((latest.short_term_liabilities + 0.5 * latest.long_term_liabilities) / 1e6)
+
+
+def test_liabilities_are_stacked_from_the_statements(results):
+    fig = charts.liabilities_figure(results)
+    assert fig.layout.barmode == "stack"
+    st_bar, lt_bar = fig.data[0], fig.data[1]
+    np.testing.assert_allclose(st_bar.y, [r.short_term_liabilities / 1e6 for r in results.case.statements])
+    np.testing.assert_allclose(lt_bar.y, [r.long_term_liabilities / 1e6 for r in results.case.statements])
+
+
+def test_term_structure_cumulative_is_the_running_sum_of_marginals(results):
+    fig = charts.term_structure_figure(results)
+    marginal, cumulative = fig.data[0].y, fig.data[1].y
+    np.testing.assert_allclose(np.cumsum(marginal), cumulative, rtol=1e-12)  # numpy, by definition
+    assert cumulative[0] == pytest.approx(results.pd.pd)
+
+
+@pytest.mark.parametrize("facility_id", ["TL-A", "RCF-1", "NOTE-29"])
+def test_recovery_density_matches_scipy_beta(results, facility_id):
+    fig = charts.recovery_figure(results, facility_id)
+    fac = next(f for f in results.facilities if f.id == facility_id)
+    law = results.laws[facility_id]
+    ref = stats.beta(fac.alpha, fac.beta, loc=law.floor, scale=law.scale)  # scipy's own beta law
+    density = fig.data[0]
+    x, y = np.asarray(density.x), np.asarray(density.y)
+    inside = (x > law.floor + 1e-9) & (x < law.floor + law.scale - 1e-9)
+    np.testing.assert_allclose(y[inside], ref.pdf(x[inside]), rtol=1e-9)
+    # The drawn density holds the mass scipy's cdf puts between the first and last inner grid
+    # points (an alpha or beta below 1 makes the density run to infinity at an end, so the ends
+    # themselves are left out); 400 trapezoids: 1 % tolerance.
+    xi, yi = x[inside], y[inside]
+    assert integrate.trapezoid(yi, xi) == pytest.approx(ref.cdf(xi[-1]) - ref.cdf(xi[0]), rel=0.01)
+    for key, q in (("5 %", 0.05), ("50 %", 0.50), ("95 %", 0.95)):
+        mark = _trace(fig, f"{key} quantile")
+        assert mark.x[0] == pytest.approx(ref.ppf(q), rel=1e-9)
+    assert _trace(fig, "Mean recovery").x[0] == pytest.approx(ref.mean(), rel=1e-9)
+
+
+def test_point_mass_is_drawn_as_a_spike(results):
+    law = dataclasses.replace(results.laws["RCF-1"], alpha=None, beta=None, unsecured_std=0.0)
+    point = dataclasses.replace(results, laws={**results.laws, "RCF-1": law})
+    fig = charts.recovery_figure(point, "RCF-1")
+    spike = fig.data[0]
+    assert spike.name.startswith("Point mass") and spike.x[0] == spike.x[1] == pytest.approx(0.6)
+
+
+def test_unknown_facility_is_named_in_the_error(results):
+    with pytest.raises(ValueError, match="facility_id: got 'NOPE'"):
+        charts.recovery_figure(results, "NOPE")
+
+
+def test_exposure_bars_add_up_to_ead_from_the_inputs(results):
+    fig = charts.exposure_figure(results)
+    drawn, converted, left_out = fig.data[0].x, fig.data[1].x, fig.data[2].x
+    for i, f in enumerate(results.case.facilities):
+        ccf = results.facilities[i].ccf
+        # EAD = drawn + CCF x undrawn (Basel standardised approach, credit conversion factors).
+        ead = f.drawn + ccf * max(f.committed - f.drawn, 0.0)
+        assert drawn[i] + converted[i] == pytest.approx(ead / 1e6, rel=1e-12)
+        assert drawn[i] + converted[i] + left_out[i] == pytest.approx(max(f.committed, f.drawn) / 1e6)
+
+
+def test_loss_curve_crosses_the_tail_level_at_var(results):
+    fig = charts.loss_distribution_figure(results)
+    curve = fig.data[0]
+    dist = results.loss_distribution
+    x, exceed = np.asarray(curve.x), np.asarray(curve.y)
+    # VaR is the q-quantile, so P(L > VaR) = 1 - q; read off the drawn curve by numpy
+    # interpolation (200-point grid: 2 % tolerance on the probability).
+    at_var = np.interp(dist.var / 1e6, x, exceed)
+    assert at_var == pytest.approx(1 - dist.confidence, rel=0.02)
+    assert exceed[0] == pytest.approx(results.pd.pd, rel=1e-6)  # P(L > 0) = PD: no default, no loss
+    ec = _trace(fig, "Economic capital")
+    assert ec.x[1] - ec.x[0] == pytest.approx(results.total.economic_capital / 1e6, rel=1e-9)
+
+
+def test_sensitivity_figures_say_what_is_missing(results):
+    if getattr(results, "sensitivity", None) is None:
+        with pytest.raises(ValueError, match="results.sensitivity"):
+            charts.sensitivity_figure(results)
+        with pytest.raises(ValueError, match="sensitivity"):
+            charts.pd_grid_figure(results)
