@@ -60,10 +60,10 @@ def main() -> None:
 @_guard
 def evaluate(case: Path, as_json: bool) -> None:
     """Validate CASE (YAML or JSON) and compute EAD, PD, LGD, EL and the rest."""
-    from engine.evaluate import evaluate as run
+    from engine.analysis import analyse
     from engine.loading import load_case
 
-    results = run(load_case(case))
+    results = analyse(load_case(case))
     if as_json:
         from app.report import contract_json
 
@@ -72,6 +72,53 @@ def evaluate(case: Path, as_json: bool) -> None:
         from app.report import summary_text
 
         click.echo(summary_text(results))
+
+
+@main.command()
+@click.argument("case", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False, path_type=Path),
+              help="Where to write the PDF memo.")
+@click.option("--page-size", type=click.Choice(["A4", "Letter"]), default=None,
+              help="Paper size (default: the case's memo.page_size, else A4).")
+@click.option("--no-charts", is_flag=True,
+              help="Print without charts (no browser needed); a note marks each chart's place.")
+@_guard
+def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> None:
+    """Write the credit memo for CASE as a PDF that carries its own inputs."""
+    from app.memo import ChartsUnavailable, render_memo_pdf
+    from engine.analysis import analyse
+    from engine.loading import load_case
+
+    results = analyse(load_case(case))
+    if not output.parent.is_dir():
+        _fail(f"-o/--output: got {str(output)!r}; allowed: a file in an existing folder "
+              f"({str(output.parent)!r} does not exist).")
+    try:
+        pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size)
+    except ChartsUnavailable as exc:
+        _fail(f"The memo was not written: {exc}")
+    partial = output.with_name(output.name + ".partial")
+    partial.write_bytes(pdf)
+    partial.replace(output)
+    click.echo(f"Wrote {output} ({len(pdf):,} bytes).")
+
+
+@main.command()
+@click.argument("memo_pdf", metavar="MEMO.pdf", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@_guard
+def verify(memo_pdf: Path) -> None:
+    """Re-compute MEMO.pdf from the case it carries and check every printed figure.
+
+    Exit 0 when every figure holds and the inputs match their fingerprint, 1 otherwise.
+    """
+    from app.pdfcase import MemoRecordError, verify_memo
+
+    try:
+        report = verify_memo(memo_pdf.read_bytes())
+    except MemoRecordError as exc:
+        _fail(f"{memo_pdf}: {exc}")
+    click.echo(report.text())
+    sys.exit(0 if report.ok else 1)
 
 
 @main.command()

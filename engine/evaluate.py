@@ -140,6 +140,10 @@ class Results:
     pricing: PricingResult | None
     cautions: tuple[Caution, ...]
     laws: dict[str, RecoveryLaw] = field(repr=False, compare=False)
+    # What-if layers, attached by engine.analysis.analyse (None after a plain evaluate):
+    sensitivity: Any = None          # engine.sensitivity.OneWaySensitivity
+    pd_grid: Any = None              # engine.sensitivity.PdGrid
+    scenarios: Any = None            # tuple[engine.scenarios.ScenarioResult, ...]
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data: the contract of ``evaluate --json`` plus every intermediate."""
@@ -347,7 +351,8 @@ def evaluate(case: Case) -> Results:
                 for index, f in enumerate(case.facilities)]
     laws = {item["exposure"].id: item["law"] for item in prepared}
     # One vectorised call for every facility's risk weight.
-    cap = irb_corporate_capital(pd=np.full(len(prepared), pd.pd),
+    # A PD that underflows to 0 is below every floor; the floor then sets the capital PD.
+    cap = irb_corporate_capital(pd=np.full(len(prepared), max(pd.pd, 1e-300)),
                                 lgd=np.array([item["downturn_lgd"] for item in prepared]),
                                 maturity_years=np.array([f.maturity_years for f in case.facilities]),
                                 annual_sales_eur_millions=case.capital.annual_sales_eur_millions,

@@ -1,0 +1,22 @@
+"""The full analysis: the base evaluation plus the what-if layers a committee asks about.
+
+``evaluate`` stays lean (a few milliseconds) for the workbench's instant what-ifs; ``analyse`` adds
+the one-way sensitivity table, the two-way PD grid and the named scenarios, each of which re-runs
+the engine on modified copies of the case.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+from engine.case import Case
+from engine.evaluate import Results, evaluate
+from engine.scenarios import evaluate_scenarios
+from engine.sensitivity import one_way_sensitivity, pd_grid
+
+
+def analyse(case: Case, base: Results | None = None) -> Results:
+    """Results of ``case`` with ``sensitivity``, ``pd_grid`` and ``scenarios`` filled in."""
+    results = base if base is not None else evaluate(case)
+    return replace(results, sensitivity=one_way_sensitivity(case, results),
+                   pd_grid=pd_grid(case, results), scenarios=evaluate_scenarios(case, results))
