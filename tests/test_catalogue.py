@@ -1,0 +1,284 @@
+"""A catalogue of bad inputs: each one must end in a CaseError that names the field, the value
+given and what is allowed (DESIGN.md section 5; the CLI prints the same paragraph).
+
+Each row mutates the minimal valid case (tests/conftest.py), writes it as a case file next to any
+data file it needs, then loads and evaluates it. Some mistakes can only be seen once the numbers
+are computed (a default recovery std against the supervisory mean, a master scale that does not
+close at 1), so evaluate() is part of the edge too.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import pytest
+import yaml
+
+from conftest import copy_data, minimal_case_dict, write_case
+from engine.errors import CaseError, show_value
+from engine.evaluate import evaluate
+from engine.loading import load_case
+
+Mutation = Callable[[Path], Path]
+
+
+def edit(change: Callable[[dict[str, Any]], None], name: str = "case.json") -> Mutation:
+    """A mutation of the case's data, written as JSON (so NaN and infinity survive the writing)."""
+    def mutate(folder: Path) -> Path:
+        data = minimal_case_dict()
+        change(data)
+        return write_case(folder, data, name)
+    return mutate
+
+
+def yaml_text(change: Callable[[str], str]) -> Mutation:
+    """A mutation of the case's YAML text (for mistakes a mapping cannot hold)."""
+    def mutate(folder: Path) -> Path:
+        path = folder / "case.yaml"
+        text = yaml.safe_dump(minimal_case_dict(), sort_keys=False)
+        path.write_text(change(text), encoding="utf-8")
+        return path
+    return mutate
+
+
+def statements_file(data_name: str) -> Mutation:
+    """The case reads its statements from a file of tests/data (copied next to the case)."""
+    def mutate(folder: Path) -> Path:
+        copy_data(folder, data_name)
+        data = minimal_case_dict()
+        data["statements"] = {"file": data_name}
+        return write_case(folder, data, "case.yaml")
+    return mutate
+
+
+def setter(*path: Any, value: Any) -> Callable[[dict[str, Any]], None]:
+    """Set data[path...] = value, creating mappings on the way."""
+    def change(data: dict[str, Any]) -> None:
+        node = data
+        for key in path[:-1]:
+            if isinstance(key, str) and key not in node:
+                node[key] = {}
+            node = node[key]
+        node[path[-1]] = value
+    return change
+
+
+def dropper(*path: Any) -> Callable[[dict[str, Any]], None]:
+    def change(data: dict[str, Any]) -> None:
+        node = data
+        for key in path[:-1]:
+            node = node[key]
+        del node[path[-1]]
+    return change
+
+
+def both(*changes: Callable[[dict[str, Any]], None]) -> Callable[[dict[str, Any]], None]:
+    def change(data: dict[str, Any]) -> None:
+        for c in changes:
+            c(data)
+    return change
+
+
+def _duplicate_facility(data: dict[str, Any]) -> None:
+    data["facilities"].append(dict(data["facilities"][0]))
+
+
+def _flat_assets(data: dict[str, Any]) -> None:
+    for row in data["statements"]:
+        row["total_assets"] = 100.0
+
+
+def _add_duplicate_name_key(text: str) -> str:
+    return text.replace("  name: Test Borrower\n", "  name: Test Borrower\n  name: Other Borrower\n")
+
+
+def _break_yaml(text: str) -> str:
+    # A second colon on the currency line: YAML forbids a mapping value there.
+    return text.replace("  currency: EUR\n", "  currency: EUR: x\n")
+
+
+def _currency_line(text: str) -> int:
+    return text.splitlines().index("  currency: EUR") + 1
+
+
+def _in_long_folder(name: str) -> Mutation:
+    """A case file several long folders deep: its full path is far longer than a short value."""
+    def mutate(folder: Path) -> Path:
+        deep = folder / ("annual_review_of_the_borrower_" * 2) / "working_papers_and_statements"
+        deep.mkdir(parents=True)
+        return write_case(deep, minimal_case_dict(), name)
+    return mutate
+
+
+_BASE_YAML = yaml.safe_dump(minimal_case_dict(), sort_keys=False)
+_BAD_YAML_LINE = _currency_line(_BASE_YAML)
+_DUP_KEY_LINE = _BASE_YAML.splitlines().index("  name: Test Borrower") + 2
+_MARKET = {"equity_value": 50.0, "equity_volatility": 0.4, "risk_free_rate": 0.02}
+
+# The largest recovery std of a beta law on [0, u] with mean m is sqrt(m (u - m)) (the variance
+# of a law on [0, u] with mean m is at most m (u - m), reached by the two-point law on {0, u};
+# Bhatia-Davis inequality). Messages print it to 4 decimals.
+_STD_LIMIT_06_08 = f"{math.sqrt(0.6 * (0.8 - 0.6)):.4f}"
+# Basel III final senior unsecured LGD 40 % (from memory) -> mean recovery 0.6 on [0, 1].
+_STD_LIMIT_DEFAULT = f"{math.sqrt(0.6 * 0.4):.4f}"
+
+# Each row: id, mutation, expected field path, fragment of the shown value, fragment of "allowed".
+CATALOGUE = [
+    ("unknown key with suggestion", edit(setter("borrower", "nmae", value="Test")),
+     "borrower.nmae", "'Test'", "did you mean 'name'?"),
+    ("unknown top-level key", edit(lambda d: d.update(facilites=[])),
+     "facilites", "[]", "did you mean 'facilities'?"),
+    ("unknown facility key", edit(setter("facilities", 0, "comitted", value=50.0)),
+     "facilities[0].comitted", "50.0", "did you mean 'committed'?"),
+    ("missing borrower name", edit(dropper("borrower", "name")),
+     "borrower.name", "empty (null)", "required"),
+    ("currency 'euro'", edit(setter("borrower", "currency", value="euro")),
+     "borrower.currency", "'euro'", "ISO 4217"),
+    ("duplicate years", edit(setter("statements", 2, "year", value=2020)),
+     "statements[2].year", "2020", "each year once"),
+    ("fractional year", edit(setter("statements", 2, "year", value=2019.5)),
+     "statements[2].year", "2019.5", "a whole number"),
+    ("NaN total assets in JSON", edit(setter("statements", 1, "total_assets", value=float("nan"))),
+     "statements[1].total_assets", "nan", "not NaN or infinity"),
+    ("infinite liabilities in JSON", edit(setter("statements", 1, "short_term_liabilities", value=float("inf"))),
+     "statements[1].short_term_liabilities", "inf", "not NaN or infinity"),
+    ("negative total assets", edit(setter("statements", 1, "total_assets", value=-5.0)),
+     "statements[1].total_assets", "-5.0", "from 0 (exclusive)"),
+    ("zero total assets", edit(setter("statements", 1, "total_assets", value=0.0)),
+     "statements[1].total_assets", "0.0", "from 0 (exclusive)"),
+    ("negative liabilities", edit(setter("statements", 3, "long_term_liabilities", value=-1.0)),
+     "statements[3].long_term_liabilities", "-1.0", "a number from 0 to"),
+    ("statements not a list", edit(setter("statements", value="none")),
+     "statements", "'none'", "a list"),
+    ("two years with estimated volatility", edit(lambda d: d.update(statements=d["statements"][:2])),
+     "statements", "2 year(s)", "at least three years"),
+    ("window larger than the statements", edit(setter("pd", "window_years", value=9)),
+     "pd.window_years", "9", "at most the 4 years"),
+    ("override without reason", edit(setter("pd", "override", value=0.02)),
+     "pd.override_reason", "empty (null)", "a non-empty reason"),
+    ("market method without market block", edit(setter("pd", "method", value="market")),
+     "pd.method", "'market'", "together with a market block"),
+    ("market block with zero equity", edit(both(setter("pd", "method", value="market"),
+                                                setter("market", value={**_MARKET, "equity_value": 0.0}))),
+     "market.equity_value", "0.0", "from 0 (exclusive)"),
+    ("infeasible recovery std gives the largest allowed",
+     edit(setter("facilities", 0, "recovery", value={"mean": 0.6, "std": 0.4, "upper": 0.8})),
+     "facilities[0].recovery.std", "0.4", f"below {_STD_LIMIT_06_08}"),
+    ("recovery mean above upper",
+     edit(setter("facilities", 0, "recovery", value={"mean": 0.95, "std": 0.1, "upper": 0.9})),
+     "facilities[0].recovery.mean", "0.95", "at most upper = 0.9"),
+    ("default recovery std too wide for the supervisory mean",
+     edit(setter("lgd", "default_recovery_std", value=0.5)),
+     "lgd.default_recovery_std", "0.5", f"below {_STD_LIMIT_DEFAULT}"),
+    ("duplicate facility ids", edit(_duplicate_facility),
+     "facilities[1].id", "'F1'", "a unique id"),
+    ("unknown facility kind", edit(setter("facilities", 0, "kind", value="overdraft")),
+     "facilities[0].kind", "'overdraft'", "'letter_of_credit'"),
+    ("unknown seniority", edit(setter("facilities", 0, "seniority", value="senior")),
+     "facilities[0].seniority", "'senior'", "'senior_unsecured'"),
+    ("ccf 1.5", edit(setter("facilities", 0, "ccf", value=1.5)),
+     "facilities[0].ccf", "1.5", "a number from 0 to 1"),
+    ("maturity 0", edit(setter("facilities", 0, "maturity_years", value=0)),
+     "facilities[0].maturity_years", "0", "from 0 (exclusive) to 50"),
+    ("drawn negative", edit(setter("facilities", 0, "drawn", value=-1.0)),
+     "facilities[0].drawn", "-1.0", "a number from 0 to"),
+    ("string where a number belongs", edit(setter("facilities", 0, "committed", value="fifty")),
+     "facilities[0].committed", "'fifty'", "a number"),
+    ("text for true/false", edit(setter("facilities", 0, "cancellable", value="yes")),
+     "facilities[0].cancellable", "'yes'", "true or false"),
+    ("collateral haircut 100 %",
+     edit(setter("facilities", 0, "collateral", value={"value": 10.0, "haircut": 1.0})),
+     "facilities[0].collateral.haircut", "1.0", "to 1 (exclusive)"),
+    ("no facilities", edit(setter("facilities", value=[])),
+     "facilities", "[]", "at least 1"),
+    ("default point of zero",
+     edit(setter("pd", "default_point", value={"short_term_share": 0.0, "long_term_share": 0.0})),
+     "pd.default_point", "0 EUR", "default point above 0"),
+    ("default point share above 1", edit(setter("pd", "default_point", value={"short_term_share": 1.2})),
+     "pd.default_point.short_term_share", "1.2", "a number from 0 to 1"),
+    ("asset volatility override 0", edit(setter("pd", "asset_volatility", value=0.0)),
+     "pd.asset_volatility", "0.0", "from 0 (exclusive) to 3"),
+    ("flat assets give a zero volatility estimate", edit(_flat_assets),
+     "pd.asset_volatility", "0.0", "above 0"),
+    ("horizon 0", edit(setter("pd", "horizon_years", value=0)),
+     "pd.horizon_years", "0", "from 0 (exclusive) to 30"),
+    ("master-scale row above 1",
+     edit(setter("pd", "master_scale", value=[{"grade": "A", "pd_upper": 1.5}])),
+     "pd.master_scale[0].pd_upper", "1.5", "from 0 (exclusive) to 1"),
+    ("master scale that does not reach 1",
+     edit(setter("pd", "master_scale", value=[{"grade": "A", "pd_upper": 0.01},
+                                              {"grade": "B", "pd_upper": 0.5}])),
+     "pd.master_scale", "'grade': 'A'", "must reach 1.0"),
+    ("ccf-by-grade row with ccf 2",
+     edit(setter("exposure", "ccf_by_grade", value=[{"grade": "A", "ccf": 2.0}])),
+     "exposure.ccf_by_grade[0].ccf", "2.0", "a number from 0 to 1"),
+    ("ccf-by-grade row with an unknown kind",
+     edit(setter("exposure", "ccf_by_grade", value=[{"grade": "A", "ccf": 0.5, "kind": "loan"}])),
+     "exposure.ccf_by_grade[0].kind", "'loan'", "'term_loan'"),
+    ("pd_floor out of range", edit(setter("capital", "pd_floor", value=0.5)),
+     "capital.pd_floor", "0.5", "from 1e-05 to 0.01"),
+    ("confidence 100 %", edit(setter("capital", "confidence", value=1.0)),
+     "capital.confidence", "1.0", "to 1 (exclusive)"),
+    ("unknown CCF standard", edit(setter("exposure", "ccf_standard", value="basel_iv")),
+     "exposure.ccf_standard", "'basel_iv'", "'basel_iii'"),
+    ("YAML duplicate key", yaml_text(_add_duplicate_name_key),
+     f"case.yaml, line {_DUP_KEY_LINE}", "'name'", "each key once"),
+    ("invalid YAML", yaml_text(_break_yaml),
+     f"case.yaml, line {_BAD_YAML_LINE}, column {len('  currency: EUR:')}",
+     "mapping values are not allowed", "valid YAML"),
+    ("statements file that does not exist", edit(setter("statements", value={"file": "missing.csv"}),
+                                                  name="case.yaml"),
+     "statements.file", "'missing.csv'", "a CSV or XLSX file that exists"),
+    ("statements CSV with a bad cell", statements_file("bad_cell.csv"),
+     "statements file bad_cell.csv, row 3, column total_assets", "'abc'", "a number such as"),
+    ("statements CSV with a misspelled column", statements_file("misspelled_header.csv"),
+     "statements file misspelled_header.csv, header", "'total_asets'", "did you mean 'total_assets'?"),
+    ("statements XLSX that is not a workbook", statements_file("broken.xlsx"),
+     "statements file broken.xlsx", "not a valid .xlsx", "an Excel 2007+ workbook"),
+    ("wrong ending deep in a long path", _in_long_folder("case.txt"),
+     "CASE", "case.txt", "ending in .yaml, .yml or .json"),
+]
+
+
+def test_catalogue_is_large_enough() -> None:
+    ids = [row[0] for row in CATALOGUE]
+    assert len(set(ids)) == len(ids) >= 25
+
+
+@pytest.mark.parametrize(("mutation", "field", "value_fragment", "allowed_fragment"),
+                         [pytest.param(*row[1:], id=row[0]) for row in CATALOGUE])
+def test_bad_input_is_named(tmp_path: Path, mutation: Mutation, field: str, value_fragment: str,
+                            allowed_fragment: str) -> None:
+    path = mutation(tmp_path)
+    with pytest.raises(CaseError) as caught:
+        evaluate(load_case(path))
+    error = caught.value
+    matches = [p for p in error.problems if p.field == field]
+    assert matches, f"no problem filed under {field!r}; got {error.fields}"
+    problem = matches[0]
+    assert value_fragment in show_value(problem.value), problem
+    assert allowed_fragment in problem.allowed, problem
+    # The one paragraph a user reads carries all three parts.
+    paragraph = error.paragraph()
+    assert field in paragraph and allowed_fragment in paragraph
+    assert "Traceback" not in paragraph and "\n" not in paragraph
+
+
+def test_the_minimal_case_itself_is_valid(tmp_path: Path) -> None:
+    # Guards the catalogue: every row's error must come from its mutation alone.
+    results = evaluate(load_case(write_case(tmp_path, minimal_case_dict())))
+    assert 0 < results.pd.pd < 1
+
+
+def test_several_mistakes_are_reported_together(tmp_path: Path) -> None:
+    data = minimal_case_dict()
+    data["borrower"]["currency"] = "euro"
+    data["facilities"][0]["ccf"] = 1.5
+    data["facilities"][0]["maturity_years"] = 0
+    with pytest.raises(CaseError) as caught:
+        load_case(write_case(tmp_path, data))
+    assert set(caught.value.fields) >= {"borrower.currency", "facilities[0].ccf",
+                                        "facilities[0].maturity_years"}
