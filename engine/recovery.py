@@ -107,7 +107,15 @@ class RecoveryLaw:
         if self.point_mass:
             out = np.full_like(q, self.mean())
         else:
-            out = self.floor + self.scale * special.betaincinv(self.alpha, self.beta, q)
+            z = special.betaincinv(self.alpha, self.beta, q)
+            # betaincinv gives NaN far in the left tail; there I_z(a, b) ~ z^a / (a B(a, b))
+            # (Abramowitz and Stegun 26.5.4, leading term), so z ~ (q a B(a, b))^(1/a).
+            if np.any(np.isnan(z)):
+                with np.errstate(divide="ignore"):
+                    tail = np.exp((np.log(q) + math.log(self.alpha)
+                                   + special.betaln(self.alpha, self.beta)) / self.alpha)
+                z = np.where(np.isnan(z) & (q > 0) & (q < 1e-100), tail, z)
+            out = self.floor + self.scale * z
         return float(out) if out.ndim == 0 else out
 
     def cdf(self, x):

@@ -140,12 +140,12 @@ def test_missing_case_file_exits_2(tmp_path: Path) -> None:
 
 def test_engine_bug_is_reported_without_traceback(monkeypatch) -> None:
     # An internal failure gets exit 3 and a short report, never a traceback on the user's screen.
-    import engine.evaluate
+    import engine.analysis
 
-    def broken(case):
+    def broken(case, base=None):
         raise ZeroDivisionError("float division by zero")
 
-    monkeypatch.setattr(engine.evaluate, "evaluate", broken)
+    monkeypatch.setattr(engine.analysis, "analyse", broken)
     monkeypatch.delenv("OBLIGOR_MEMO_DEBUG", raising=False)
     result = invoke("evaluate", str(SAMPLE_CASE))
     assert result.exit_code == 3

@@ -77,10 +77,6 @@ def test_lgd_stays_within_one_minus_upper_and_one(moments, quantiles) -> None:
         assert 1 - upper - tolerance <= lgd_at_q <= 1 + tolerance
 
 
-@pytest.mark.xfail(
-    reason="RecoveryLaw.ppf returns NaN far in the left tail: scipy.special.betaincinv gives NaN "
-           "below about 1e-200 (scipy 1.17); use the tail asymptote I_x(a, b) ~ x^a / (a B(a, b))",
-    strict=True)
 @pytest.mark.parametrize("q", [1e-200, 1e-308])
 def test_recovery_quantile_far_in_the_tail_is_finite(q) -> None:
     # Found by the property above when quantiles went down to the smallest floats.
