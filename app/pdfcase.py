@@ -65,7 +65,7 @@ def printed_figures(results: Any) -> dict[str, str]:
         "Regulatory capital": fmt.money(t.regulatory_capital, cur),
         "Loss quantile (VaR)": fmt.money(t.value_at_risk, cur),
         "Economic capital": fmt.money(t.economic_capital, cur),
-        "Lifetime EL": fmt.money(t.lifetime_expected_loss, cur),
+        "Lifetime EL": fmt.money(t.lifetime_expected_loss),           # table headed [currency]
     }
     if pd.asset_growth is not None:
         out["Asset growth"] = fmt.pct(pd.asset_growth)
@@ -99,7 +99,8 @@ def figures_record(results: Any, *, generated_at: str) -> bytes:
     record = {"format": RECORD_FORMAT, "engine_version": results.engine_version,
               "fingerprint": results.fingerprint, "generated_at": generated_at,
               "figures": printed_figures(results)}
-    return json.dumps(record, sort_keys=True, indent=1, ensure_ascii=True).encode("ascii")
+    # Insertion order is deterministic and follows the memo, which a reader of the file expects.
+    return json.dumps(record, indent=1, ensure_ascii=True).encode("ascii")
 
 
 def read_attachments(pdf: bytes) -> dict[str, bytes]:
@@ -107,6 +108,8 @@ def read_attachments(pdf: bytes) -> dict[str, bytes]:
     from pypdf import PdfReader
     from pypdf.errors import PdfReadError
 
+    if not pdf.startswith(b"%PDF-"):
+        raise MemoRecordError("The file is not a PDF (it does not start with %PDF-).")
     try:
         reader = PdfReader(io.BytesIO(pdf))
         found = reader.attachments

@@ -1,0 +1,347 @@
+"""The printed memo, read back from the PDF: figures in the right sections, safety, reproducibility.
+
+These tests render without charts (no browser); tests/test_memo_charts.py covers the charts.
+The PDF is read back with poppler's pdftotext and pypdf, independent of the renderer.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import io
+import json
+import re
+import shutil
+import subprocess
+from datetime import datetime, timezone
+from html.parser import HTMLParser
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from scipy.stats import norm
+
+from app import formatting as fmt
+
+pytestmark = pytest.mark.skipif(shutil.which("pdftotext") is None, reason="needs poppler-utils")
+
+ROOT = Path(__file__).resolve().parents[1]
+ARTIFACTS = ROOT / "test-artifacts"
+STAMP = datetime(2031, 5, 6, 7, 8, 9, tzinfo=timezone.utc)
+
+# Section headings as printed, in order; the text between two headings belongs to the first.
+HEADINGS = ["Summary", "1 The borrower and its accounts", "2 Probability of default",
+            "3 Exposure at default", "4 Recovery and loss given default", "5 Loss and capital",
+            "6 Pricing", "7 Sensitivities and scenarios", "8 Analyst's narrative", "9 Cautions",
+            "10 Methods and sources", "11 Sign-off", "Appendix Inputs and record"]
+
+HOSTILE = {
+    "script": "<script>alert('memo')</script>",
+    "img_file": '<img src="file:///etc/passwd">',
+    "img_http": '<img src="http://example.invalid/pixel.png">',
+    "jinja": "{{ 7 * 7 }} {% if true %}yes{% endif %}",
+    "css": "<style>body{display:none}</style><b>bold?</b> & \"quotes\" 'single'",
+}
+
+
+def pdf_text(pdf: bytes) -> str:
+    out = subprocess.run(["pdftotext", "-enc", "UTF-8", "-", "-"], input=pdf, capture_output=True,
+                         check=True)
+    # pdftotext may print the en-space of the headings as a plain space.
+    return out.stdout.decode("utf-8").replace("\u2002", " ")
+
+
+def sections(text: str) -> dict[str, str]:
+    """Split the memo's text at its headings (each heading is found once, in order)."""
+    found: dict[str, str] = {}
+    positions = []
+    start = 0
+    for heading in HEADINGS:
+        match = re.search(r"^" + re.escape(heading) + r"\s*$", text[start:], flags=re.M)
+        assert match is not None, f"heading {heading!r} not found in the memo text"
+        positions.append((heading, start + match.start()))
+        start += match.end()
+    for (heading, begin), (_, end) in zip(positions, positions[1:] + [("", len(text))]):
+        found[heading] = text[begin:end]
+    return found
+
+
+@pytest.fixture(scope="module")
+def sample_pdf(sample_results) -> bytes:
+    from app.memo import render_memo_pdf
+
+    pdf = render_memo_pdf(sample_results, charts=False, generated_at=STAMP)
+    ARTIFACTS.mkdir(exist_ok=True)
+    (ARTIFACTS / "memo_sample_no_charts.pdf").write_bytes(pdf)
+    return pdf
+
+
+@pytest.fixture(scope="module")
+def sample_sections(sample_pdf) -> dict[str, str]:
+    return sections(pdf_text(sample_pdf))
+
+
+def hostile_results(make_case):
+    from engine.case import parse_case
+    from engine.evaluate import evaluate
+
+    data = make_case()
+    data["borrower"]["name"] = "Acme <i>&amp;</i> Sons"
+    data["memo"] = {"prepared_by": HOSTILE["script"], "summary": HOSTILE["img_file"],
+                    "recommendation": HOSTILE["img_http"], "conditions": HOSTILE["jinja"],
+                    "request": HOSTILE["css"], "page_size": "Letter"}
+    data["facilities"][0]["description"] = "<a href='file:///etc/hosts'>link</a>"
+    return evaluate(parse_case(data))
+
+
+@pytest.fixture(scope="module")
+def hostile(make_case):
+    """The hostile case rendered once with a spy on every URL the renderer asks for."""
+    from app import memo
+
+    results = hostile_results(make_case)
+    asked: list[str] = []
+    real = memo.memo_fetcher
+
+    def spying_fetcher(allowed):
+        inner = real(allowed)
+        original = inner.fetch
+
+        def fetch(url, headers=None):
+            asked.append(url)
+            return original(url, headers)
+
+        inner.fetch = fetch
+        return inner
+
+    memo.memo_fetcher = spying_fetcher
+    try:
+        pdf = memo.render_memo_pdf(results, charts=False, generated_at=STAMP)
+    finally:
+        memo.memo_fetcher = real
+    return results, pdf, asked
+
+
+# --------------------------------------------------------------------------- figures in sections
+
+
+def test_summary_page_prints_the_key_figures(sample_results, sample_sections):
+    r, cur = sample_results, sample_results.case.borrower.currency
+    text = sample_sections["Summary"]
+    for value in (fmt.money(r.total.ead, cur), fmt.money(r.total.expected_loss, cur),
+                  fmt.pct(r.total.el_rate, 3), fmt.money(r.total.unexpected_loss, cur),
+                  fmt.money(r.total.rwa, cur), fmt.money(r.total.economic_capital, cur),
+                  fmt.pd_pct(r.pd.pd), fmt.pct(r.pricing.minimum_spread),
+                  fmt.pct(r.pricing.proposed_spread), r.case.borrower.name, r.case.memo.request[:40]):
+        assert value in text, value
+    assert f"{r.pd.grade} (PD band" in text
+
+
+def test_printed_pd_is_normal_tail_of_printed_distance_to_default(sample_results, sample_sections):
+    # Reference: scipy's normal survival function, PD = N(-DD) (Merton 1974).
+    r = sample_results
+    text = sample_sections["2 Probability of default"]
+    assert fmt.num(r.pd.distance_to_default, 3) in text
+    assert fmt.pd_pct(float(norm.sf(r.pd.distance_to_default))) in text
+    assert fmt.pd_pct(r.market.merton.pd) in text          # market cross-check
+    for cumulative in r.term_structure.cumulative:
+        assert fmt.pd_pct(cumulative) in text
+
+
+def test_exposure_section_prints_ead_recomputed_from_inputs(sample_results, sample_sections):
+    # EAD = drawn + CCF x max(committed - drawn, 0) (Basel standardised approach, CRE20).
+    text = sample_sections["3 Exposure at default"]
+    for given, f in zip(sample_results.case.facilities, sample_results.facilities):
+        ead = given.drawn + f.ccf * max(given.committed - given.drawn, 0.0)
+        assert fmt.money(ead) in text, f.id
+        assert f.ccf_source.split(":")[0][:30] in text.replace("\n", " ")
+
+
+def test_recovery_section_prints_moment_fitted_beta_parameters(sample_results, sample_sections):
+    # Method of moments on [0, upper]: m = mean/upper, v = (std/upper)^2, k = m(1-m)/v - 1.
+    text = sample_sections["4 Recovery and loss given default"]
+    for f in sample_results.facilities:
+        m, v = f.recovery_mean / f.recovery_upper, (f.recovery_std / f.recovery_upper) ** 2
+        k = m * (1 - m) / v - 1
+        assert fmt.num(m * k, 3) in text and fmt.num((1 - m) * k, 3) in text, f.id
+        assert fmt.pct(f.recovery_quantiles["q95"], 1) in text
+
+
+def test_loss_and_pricing_sections(sample_results, sample_sections):
+    loss = sample_sections["5 Loss and capital"]
+    for f in sample_results.facilities:
+        # EL = EAD x PD x LGD, recomputed here from the printed inputs' full-precision values.
+        assert fmt.money(f.ead * sample_results.pd.pd * f.lgd) in loss, f.id
+        for value in (fmt.money(f.unexpected_loss), fmt.pct(f.risk_weight, 1), fmt.money(f.rwa)):
+            assert value in loss, (f.id, value)
+    pricing = sample_sections["6 Pricing"]
+    assert fmt.pct(sample_results.pricing.raroc, 1) in pricing
+    assert fmt.money(sample_results.pricing.income) in pricing
+
+
+def test_financials_narrative_and_appendix(sample_results, sample_sections):
+    r = sample_results
+    fin = sample_sections["1 The borrower and its accounts"]
+    latest = r.case.statements[-1]
+    assert fmt.num(latest.total_assets / 1e6, 1) in fin             # table in [currency m]
+    assert all(fmt.num(z.score, 2) in fin for z in r.zscores if z.score is not None)
+    narrative = " ".join(sample_sections["8 Analyst's narrative"].split())
+    assert " ".join(r.case.memo.conditions.split()) in narrative
+    appendix = sample_sections["Appendix Inputs and record"]
+    assert r.fingerprint in appendix.replace("\n", "")
+    assert "2031-05-06 07:08:09 UTC" in appendix and r.engine_version in appendix
+
+
+def test_cautions_print_the_fixed_warnings_and_every_engine_caution(sample_results, sample_sections):
+    text = " ".join(sample_sections["9 Cautions"].split())
+    for phrase in ("not a credit decision", "credit policy", "supervisor", "qualified credit officer",
+                   "Structural-model assumptions", "Accounting values stand in for market values",
+                   "Short histories", "Recovery laws fitted to two moments"):
+        assert phrase in text, phrase
+    for caution in sample_results.cautions:
+        assert " ".join(caution.message.split()) in text
+
+
+def test_every_recorded_figure_is_printed(sample_pdf):
+    from app.pdfcase import FIGURES_FILE, read_attachments
+
+    text = " ".join(pdf_text(sample_pdf).split())
+    record = json.loads(read_attachments(sample_pdf)[FIGURES_FILE])
+    missing = [label for label, value in record["figures"].items() if value not in text]
+    assert missing == []
+
+
+def test_charts_left_out_are_marked_where_they_would_be(sample_results, sample_pdf):
+    from app.memo import chart_specs
+
+    text = " ".join(pdf_text(sample_pdf).split())
+    assert text.count("this memo was produced with --no-charts") == len(chart_specs(sample_results))
+
+
+# --------------------------------------------------------------------------- print quality
+
+
+def test_a4_pages_with_running_header_footer_and_metadata(sample_results, sample_pdf):
+    from pypdf import PdfReader
+
+    reader = PdfReader(io.BytesIO(sample_pdf))
+    box = reader.pages[0].mediabox
+    # A4 is 210 x 297 mm = 595.28 x 841.89 pt (ISO 216); 0.5 pt for rounding.
+    assert abs(float(box.width) - 595.28) < 0.5 and abs(float(box.height) - 841.89) < 0.5
+    pages = pdf_text(sample_pdf).split("\f")[:-1]
+    assert len(pages) == len(reader.pages)
+    for number, page in enumerate(pages, start=1):
+        assert sample_results.case.borrower.name in page
+        assert f"Page {number} of {len(pages)}" in page
+    meta = reader.metadata
+    assert meta.title == f"Credit memo: {sample_results.case.borrower.name}"
+    assert meta.author == sample_results.case.memo.prepared_by
+    assert sample_results.case.borrower.name in meta.subject
+
+
+def test_embedded_case_is_the_fingerprinted_input(sample_results, sample_pdf):
+    from app.pdfcase import CASE_FILE, read_attachments
+    from engine.case import case_to_dict
+
+    embedded = read_attachments(sample_pdf)[CASE_FILE]
+    # Reference: hashlib's SHA-256 over the canonical JSON, built here independently.
+    canonical = json.dumps(case_to_dict(sample_results.case), sort_keys=True, separators=(",", ":"),
+                           ensure_ascii=True).encode("ascii")
+    assert embedded == canonical
+    assert hashlib.sha256(embedded).hexdigest() == sample_results.fingerprint
+
+
+def test_unknown_page_size_is_refused_naming_the_argument(sample_results):
+    from app.memo import render_memo_pdf
+
+    with pytest.raises(ValueError, match=r"page_size: got 'Tabloid'; allowed: A4, Letter"):
+        render_memo_pdf(sample_results, charts=False, page_size="Tabloid")
+
+
+# --------------------------------------------------------------------------- safety
+
+
+def test_hostile_free_text_prints_as_typed_on_letter_paper(hostile):
+    from pypdf import PdfReader
+
+    results, pdf, _ = hostile
+    text = " ".join(pdf_text(pdf).split())
+    for value in HOSTILE.values():
+        assert " ".join(value.split()) in text, value
+    assert "Acme <i>&amp;</i> Sons" in text
+    assert "<a href='file:///etc/hosts'>link</a>" in text
+    # US Letter is 8.5 x 11 in = 612 x 792 pt.
+    box = PdfReader(io.BytesIO(pdf)).pages[0].mediabox
+    assert (round(float(box.width)), round(float(box.height))) == (612, 792)
+    (ARTIFACTS / "memo_hostile_letter.pdf").write_bytes(pdf)
+
+
+def test_hostile_text_makes_the_renderer_fetch_nothing(hostile):
+    _, _, asked = hostile
+    assert [u for u in asked if not u.startswith("data:")] == []
+
+
+def test_fetcher_refuses_files_and_network_and_serves_its_own_data():
+    import base64
+
+    from app.memo import memo_fetcher
+
+    ours = "data:image/svg+xml;base64," + base64.b64encode(b"<svg/>").decode("ascii")
+    fetcher = memo_fetcher({ours})
+    assert fetcher.fetch(ours).read() == b"<svg/>"
+    foreign = "data:text/html;base64," + base64.b64encode(b"<p>x</p>").decode("ascii")
+    for url in ("file:///etc/passwd", "http://example.invalid/x.png", "https://example.invalid/",
+                foreign, f"file://{ROOT / 'pyproject.toml'}"):
+        with pytest.raises(ValueError, match="refused"):
+            fetcher.fetch(url)
+
+
+class _TextOf(HTMLParser):
+    """Collects the text of the element with a given id (stdlib parser, independent of Jinja)."""
+
+    def __init__(self, wanted: str):
+        super().__init__(convert_charrefs=True)
+        self.wanted, self.depth, self.parts = wanted, 0, []
+
+    def handle_starttag(self, tag, attrs):
+        if self.depth:
+            self.depth += 1
+        elif dict(attrs).get("id") == self.wanted:
+            self.depth = 1
+
+    def handle_endtag(self, tag):
+        if self.depth:
+            self.depth -= 1
+
+    def handle_data(self, data):
+        if self.depth:
+            self.parts.append(data)
+
+
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(st.text(alphabet=st.characters(blacklist_categories=("Cs", "Cc")), min_size=1, max_size=80))
+def test_any_summary_text_reaches_the_html_as_text(sample_results, typed):
+    from app.memo import render_memo_html
+
+    case = sample_results.case
+    memo_text = case.memo.model_copy(update={"summary": typed, "recommendation": "", "conditions": ""})
+    results = dataclasses.replace(sample_results, case=case.model_copy(update={"memo": memo_text}))
+    html = render_memo_html(results, charts=False, generated_at=STAMP)
+    parser = _TextOf("narrative")
+    parser.feed(html)
+    assert typed in "".join(parser.parts)
+
+
+# --------------------------------------------------------------------------- reproducibility
+
+
+def test_same_case_and_time_give_identical_bytes(hostile, make_case):
+    from app.memo import render_memo_pdf
+    from pypdf import PdfReader
+
+    results, first, _ = hostile
+    again = render_memo_pdf(hostile_results(make_case), charts=False, generated_at=STAMP)
+    assert again == first
+    info = PdfReader(io.BytesIO(first)).metadata
+    assert info.creation_date is None and info.modification_date is None
