@@ -119,7 +119,7 @@ def test_default_point_moves_pd(server):
             page.get_by_role("link", name=name).click()
             page.get_by_role("heading", name=name).first.wait_for(timeout=20000)
             _settle(page)
-            page.screenshot(path=str(ARTIFACTS / f"{index:02d}_{name.split()[0].lower()}.png"),
+            page.screenshot(path=str(ARTIFACTS / f"{index:02d}_{name.split()[0].lower().strip(',-')}.png"),
                             full_page=True)
             assert not page.get_by_text("Traceback").count()
 
