@@ -208,9 +208,24 @@ def build_figures(results: Any) -> tuple[dict[str, Any], dict[str, str]]:
             # Half-width on paper: the legend wraps to one entry a line, so give it its own room
             # below the axis title instead of letting the two overlap.
             fig.update_layout(height=430, margin={"b": 135}, legend={"y": -0.28})
+        else:
+            _legend_room(fig)
         object.__setattr__(fig, "_memo_width", spec.width)
         figures[spec.key] = fig
     return figures, notes
+
+
+def _legend_room(fig: Any, extra: int = 30) -> None:
+    """Move a legend that sits under the plot a little lower: on paper a wrapped legend must
+    clear the axis title, which on screen the hover tools make less pressing."""
+    legend, margin = fig.layout.legend, fig.layout.margin
+    if legend.orientation != "h" or legend.y is None or legend.y >= 0:
+        return
+    height = int(fig.layout.height or 420)
+    bottom = int(margin.b if margin.b is not None else 80)
+    plot = height - int(margin.t if margin.t is not None else 60) - bottom
+    fig.update_layout(height=height + extra, margin={"b": bottom + extra},
+                      legend={"y": legend.y - extra / max(plot, 1) / 2})
 
 
 def _svg_data_uri(svg: str) -> str:
@@ -243,7 +258,7 @@ def _environment() -> Any:
                       undefined=StrictUndefined, trim_blocks=True, lstrip_blocks=True)
     env.filters.update({
         "money": fmt.money, "pct": fmt.pct, "pd_pct": fmt.pd_pct, "num": fmt.num, "years": fmt.years,
-        "mn": _in_millions, "label": _label, "yes_no": lambda v: "yes" if v else "no",
+        "mn": _in_millions, "label": _label, "by_unit": _by_unit, "yes_no": lambda v: "yes" if v else "no",
         "or_dash": lambda v: "—" if v in (None, "") else v,
     })
     return env
@@ -254,6 +269,37 @@ def _in_millions(value: float | None, decimals: int = 1) -> str:
     if value is None:
         return "—"
     return fmt.num(value / 1e6, decimals)
+
+
+def _by_unit(value: float | None, unit: str) -> str:
+    """A sensitivity input in its own unit: rates and shares as percentages, times in years."""
+    if value is None:
+        return "—"
+    if "year" in unit and "/" not in unit:
+        return fmt.years(value)
+    if unit in ("[fraction]", "[1/year]", "[1/sqrt(year)]"):
+        return fmt.pct(value)
+    return fmt.num(value, 4)
+
+
+def _grid_view(grid: Any, points: int = 7) -> dict[str, Any] | None:
+    """A readable excerpt of the two-way PD grid: evenly spaced rows and columns, the case's own
+    point always among them (the chart shows the whole grid)."""
+    if grid is None:
+        return None
+
+    def pick(values: tuple[float, ...], base: float) -> list[int]:
+        n = len(values)
+        chosen = {round(i * (n - 1) / (points - 1)) for i in range(points)} if n > points else set(range(n))
+        chosen.add(min(range(n), key=lambda i: abs(values[i] - base)))
+        return sorted(chosen)
+
+    xs, ys = pick(grid.x_values, grid.base_x), pick(grid.y_values, grid.base_y)
+    base_i = min(range(len(grid.x_values)), key=lambda i: abs(grid.x_values[i] - grid.base_x))
+    base_j = min(range(len(grid.y_values)), key=lambda j: abs(grid.y_values[j] - grid.base_y))
+    return {"x": [(grid.x_values[i], i == base_i) for i in xs],
+            "rows": [(grid.y_values[j], j == base_j, [(grid.pd[j][i], i == base_i and j == base_j) for i in xs])
+                     for j in ys]}
 
 
 def _label(code: str | None) -> str:
@@ -308,6 +354,7 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
         "r": results, "case": case, "memo": case.memo, "cur": case.borrower.currency,
         "figures": pdfcase.printed_figures(results), "market": getattr(results, "market", None),
         "sensitivity": getattr(results, "sensitivity", None), "scenarios": getattr(results, "scenarios", None),
+        "pd_grid": getattr(results, "pd_grid", None), "grid": _grid_view(getattr(results, "pd_grid", None)),
         "zscores": getattr(results, "zscores", ()), "zscore_history": getattr(results, "zscore_history", ()),
         "master_scale_source": getattr(results, "master_scale_source", ""),
         "charts": charts, "chart_notes": chart_notes, "charts_requested": charts_requested,

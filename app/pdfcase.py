@@ -91,6 +91,14 @@ def printed_figures(results: Any) -> dict[str, str]:
             out["Market-implied PD"] = fmt.pd_pct(market.merton.pd)
             out["Market distance to default"] = fmt.num(market.merton.distance_to_default, 3)
         out["Naive market PD"] = fmt.pd_pct(float(market.naive.pd))
+    for s in getattr(results, "scenarios", None) or ():
+        out[f"Scenario {s.name}: PD"] = fmt.pd_pct(s.figures.pd)
+        out[f"Scenario {s.name}: EL"] = fmt.money(s.figures.expected_loss)
+        out[f"Scenario {s.name}: RWA"] = fmt.money(s.figures.rwa)
+    sensitivity = getattr(results, "sensitivity", None)
+    for row in sensitivity.rows if sensitivity is not None else ():
+        out[f"Sensitivity {row.label}: EL low"] = fmt.money(row.el_low)
+        out[f"Sensitivity {row.label}: EL high"] = fmt.money(row.el_high)
     return out
 
 
@@ -190,7 +198,7 @@ def verify_memo(pdf: bytes) -> VerifyReport:
     """
     from engine import ENGINE_VERSION
     from engine.case import parse_case
-    from engine.evaluate import evaluate
+    from engine.analysis import analyse
 
     files = read_attachments(pdf)
     missing = [name for name in (CASE_FILE, FIGURES_FILE) if name not in files]
@@ -208,7 +216,8 @@ def verify_memo(pdf: bytes) -> VerifyReport:
     case = parse_case(case_data, source="embedded case")
     # Hash the bytes as embedded: re-serialising would hide edits to the stored text.
     embedded_hash = hashlib.sha256(files[CASE_FILE]).hexdigest()
-    results = evaluate(case)
+    # The full analysis, as the memo command prints it (scenarios and sensitivities included).
+    results = analyse(case)
     now = printed_figures(results)
     labels = list(recorded) + [label for label in now if label not in recorded]
     checks = tuple(FigureCheck(label, recorded.get(label), now.get(label)) for label in labels)

@@ -68,6 +68,14 @@ def sections(text: str) -> dict[str, str]:
 
 
 @pytest.fixture(scope="module")
+def sample_results(sample_case):
+    """The full analysis, as the memo command prints it (sensitivities and scenarios included)."""
+    from engine.analysis import analyse
+
+    return analyse(sample_case)
+
+
+@pytest.fixture(scope="module")
 def sample_pdf(sample_results) -> bytes:
     from app.memo import render_memo_pdf
 
@@ -178,6 +186,18 @@ def test_loss_and_pricing_sections(sample_results, sample_sections):
     pricing = sample_sections["6 Pricing"]
     assert fmt.pct(sample_results.pricing.raroc, 1) in pricing
     assert fmt.money(sample_results.pricing.income) in pricing
+
+
+def test_sensitivity_section_prints_scenarios_side_by_side(sample_results, sample_sections):
+    text = " ".join(sample_sections["7 Sensitivities and scenarios"].split())
+    for scenario in sample_results.scenarios:
+        assert scenario.name in text
+        for value in (fmt.pd_pct(scenario.figures.pd), fmt.money(scenario.figures.expected_loss),
+                      fmt.money(scenario.figures.rwa)):
+            assert value in text, (scenario.name, value)
+    for row in sample_results.sensitivity.rows:
+        assert fmt.money(row.el_low) in text and fmt.money(row.el_high) in text, row.label
+    assert fmt.pd_pct(sample_results.pd_grid.base_pd) in text
 
 
 def test_financials_narrative_and_appendix(sample_results, sample_sections):

@@ -1,0 +1,137 @@
+"""Charts in the memo: vector SVG from the workbench's figures through kaleido and a system Chromium.
+
+The sample memo is rendered once with charts; every page is saved as an image under
+test-artifacts/ for a person to look at. Skipped where no browser is installed.
+"""
+
+from __future__ import annotations
+
+import io
+import shutil
+import subprocess
+from datetime import datetime, timezone
+from pathlib import Path
+
+import pytest
+
+from app import memo
+
+ROOT = Path(__file__).resolve().parents[1]
+ARTIFACTS = ROOT / "test-artifacts"
+
+
+def _browser() -> str | None:
+    try:
+        return memo.find_browser()
+    except memo.ChartsUnavailable:
+        return None
+
+
+needs_browser = pytest.mark.skipif(_browser() is None or shutil.which("pdftoppm") is None,
+                                   reason="needs Chrome/Chromium and poppler-utils")
+
+
+@pytest.fixture(scope="module")
+def analysed(sample_case):
+    from engine.analysis import analyse
+
+    return analyse(sample_case)
+
+
+@pytest.fixture(scope="module")
+def charted_pdf(analysed) -> bytes:
+    exporter = memo.start_chart_exporter()
+    try:
+        pdf = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
+    finally:
+        pass  # kept running for the reuse test below; stopped by the last test
+    ARTIFACTS.mkdir(exist_ok=True)
+    (ARTIFACTS / "memo_sample.pdf").write_bytes(pdf)
+    for old in ARTIFACTS.glob("memo_sample-page-*.png"):
+        old.unlink()
+    subprocess.run(["pdftoppm", "-r", "60", "-png", "-", str(ARTIFACTS / "memo_sample-page")],
+                   input=pdf, check=True)
+    assert exporter.running
+    return pdf
+
+
+def _text(pdf: bytes) -> str:
+    out = subprocess.run(["pdftotext", "-", "-"], input=pdf, capture_output=True, check=True)
+    return " ".join(out.stdout.decode("utf-8").split())
+
+
+@needs_browser
+def test_charts_are_vector_text_not_pictures(charted_pdf, analysed):
+    # pdfimages lists raster images; vector SVG drawn by the renderer leaves the list empty.
+    listing = subprocess.run(["pdfimages", "-list", "-"], input=charted_pdf, capture_output=True,
+                             check=True).stdout.decode().splitlines()
+    assert len(listing) == 2, listing          # the two header lines only
+    text = _text(charted_pdf)
+    # Axis titles and chart titles come through as text, which only vector charts allow.
+    assert text.count("Recovery rate [% of EAD]") >= len(analysed.facilities)
+    assert "Asset trend" in text and "Total assets" in text
+
+
+@needs_browser
+def test_every_chart_drawn_or_its_absence_explained(charted_pdf, analysed):
+    figures, notes = memo.build_figures(analysed)
+    text = _text(charted_pdf)
+    assert "--no-charts" not in text
+    assert len(figures) + len(notes) == len(memo.chart_specs(analysed))
+    for note in notes.values():
+        assert " ".join(note.split())[:40] in text
+
+
+@needs_browser
+def test_page_images_saved_for_review(charted_pdf):
+    from pypdf import PdfReader
+
+    pages = len(PdfReader(io.BytesIO(charted_pdf)).pages)
+    assert len(list(ARTIFACTS.glob("memo_sample-page-*.png"))) == pages
+
+
+@needs_browser
+def test_running_exporter_is_reused_and_times_out_cleanly(charted_pdf, analysed):
+    exporter = memo.start_chart_exporter()
+    assert memo.start_chart_exporter() is exporter and exporter.running
+    figures, _ = memo.build_figures(analysed)
+    first = dict(list(figures.items())[:1])
+    svg = exporter.export_svg(first)
+    assert next(iter(svg.values())).lstrip().startswith("<svg")
+    exporter.timeout = 1e-4
+    with pytest.raises(memo.ChartsUnavailable, match="longer than"):
+        exporter.export_svg(first)
+    assert not exporter.running
+    memo.stop_chart_exporter()
+
+
+def test_missing_browser_names_the_fix(monkeypatch, tmp_path):
+    monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "no-such-browser"))
+    with pytest.raises(memo.ChartsUnavailable, match=r"BROWSER_PATH.*--no-charts"):
+        memo.find_browser()
+
+
+def test_browser_path_takes_precedence(monkeypatch, tmp_path):
+    fake = tmp_path / "chrome"
+    fake.write_text("#!/bin/sh\n")
+    fake.chmod(0o755)
+    monkeypatch.setenv("BROWSER_PATH", str(fake))
+    assert memo.find_browser() == str(fake)
+
+
+def test_no_usual_browser_names_the_fix(monkeypatch):
+    monkeypatch.delenv("BROWSER_PATH", raising=False)
+    monkeypatch.setattr(memo, "BROWSER_CANDIDATES", ("/nonexistent/chromium",))
+    with pytest.raises(memo.ChartsUnavailable, match=r"install Chromium.*--no-charts"):
+        memo.find_browser()
+
+
+def test_memo_command_without_browser_fails_with_the_fix(monkeypatch, tmp_path, sample_case_path):
+    from click.testing import CliRunner
+
+    from app.cli import main
+
+    monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "missing"))
+    result = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(tmp_path / "m.pdf")])
+    assert result.exit_code == 2
+    assert "--no-charts" in result.output and not (tmp_path / "m.pdf").exists()
