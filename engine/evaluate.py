@@ -17,56 +17,24 @@ from typing import Any
 import numpy as np
 
 from engine import ENGINE_VERSION
+from engine.capital import irb_corporate_capital
 from engine.case import Case, case_to_dict
 from engine.errors import CaseError, Caution
-from engine.capital import irb_corporate_capital
-from engine.market import MertonSolution, NaiveDD, naive_distance_to_default, solve_merton
-from engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
 from engine.exposure import facility_exposure, resolve_ccf
-from engine.lossdist import LossDistribution, loss_distribution
-from engine.pricing import PricingResult, price_borrower
 from engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
+from engine.lossdist import LossDistribution, loss_distribution
+from engine.pd_estimate import (MarketResult, PdResult, engine_error, estimate_pd, grade_pd,
+                                term_structure)
+from engine.pricing import PricingResult, price_borrower
 from engine.recovery import (RecoveryLaw, collateral_cover, downturn_lgd, recovery_law,
                              seniority_recovery_mean)
 from engine.statements import YearRatios, year_ratios
-from engine.structural import (PdTermStructure, balance_sheet_pd, constant_hazard_term_structure,
-                               structural_term_structure)
-from engine.trend import AssetTrend, fit_asset_trend
+from engine.structural import PdTermStructure
+from engine.trend import AssetTrend
 from engine.zscore import ZScore, altman_scores
 
-
-@dataclass(frozen=True)
-class PdResult:
-    """The PD in force and how it was reached. Rates [fraction], money [currency]."""
-
-    method: str                      # balance_sheet | market
-    measure: str                     # physical | risk_neutral
-    asset_value: float
-    asset_growth: float | None       # [1/year] (balance sheet)
-    asset_volatility: float          # [1/sqrt(year)]
-    asset_return: float              # drift used in DD [1/year]
-    default_point: float
-    short_term_share: float
-    long_term_share: float
-    horizon_years: float
-    distance_to_default: float
-    model_pd: float                  # the model's PD
-    pd: float                        # the PD in force (override where set)
-    overridden: bool
-    override_reason: str | None
-    grade: str | None
-    grade_lower: float | None        # band (lower, upper] of the grade
-    grade_upper: float | None
-
-
-@dataclass(frozen=True)
-class MarketResult:
-    """Market-implied PD (Merton 1974) and the naive cross-check (Bharath and Shumway 2008)."""
-
-    default_point: float             # the debt barrier D [currency]
-    merton: MertonSolution | None    # None when the solve failed (see message)
-    naive: NaiveDD
-    message: str                     # "" or why the Merton solve failed
+__all__ = ["Results", "FacilityResult", "Totals", "PdResult", "MarketResult", "evaluate", "estimate_pd",
+           "fingerprint"]
 
 
 @dataclass(frozen=True)
@@ -176,157 +144,6 @@ def fingerprint(case: Case) -> str:
     return hashlib.sha256(canonical.encode("ascii")).hexdigest()
 
 
-def _engine_error(field: str, exc: ValueError) -> CaseError:
-    """A step's ValueError ("path: got V; allowed: A") as a CaseError on that path (else ``field``)."""
-    text = str(exc)
-    head, _, rest = text.partition(": ")
-    if rest and " " not in head:
-        field, text = head, rest
-    value, allowed = "", text
-    if text.startswith("got "):
-        value_part, _, allowed_part = text[4:].partition("; allowed: ")
-        value = value_part.split(" as the ")[0].split(" (")[0]
-        allowed = allowed_part or text
-    elif "allowed: " in text:
-        allowed = text.split("allowed: ", 1)[1]
-    return CaseError.single(field, value, allowed)
-
-
-def estimate_pd(case: Case) -> tuple[AssetTrend | None, PdResult, MarketResult | None, list[Caution]]:
-    """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist."""
-    settings = case.pd
-    latest = case.statements[-1]
-    if settings.method == "market":
-        trend, cautions = None, []
-        try:
-            trend, _, _ = _balance_sheet(case)
-        except CaseError as exc:  # the trend is context only here: say why it is missing
-            cautions.append(Caution("trend.unavailable", "No asset trend: " + exc.problems[0].allowed,
-                                    "statements"))
-        market = _market(case, required=True)
-        m = market.merton
-        measure = settings.measure
-        drift = case.market.risk_free_rate
-        if measure == "physical":
-            drift = case.market.asset_drift if case.market.asset_drift is not None else (
-                trend.expected_return if trend is not None else None)
-            if drift is None:
-                raise CaseError.single("pd.measure", "physical", "risk_neutral, or physical together "
-                                       "with market.asset_drift or enough statements for a trend")
-            if case.market.asset_drift is None:
-                cautions.append(Caution("market.drift_from_trend", "The physical market PD uses the "
-                                        f"balance-sheet asset return ({drift:.2%}) as its drift.",
-                                        "market.asset_drift"))
-        result = PdResult(
-            method="market", measure=measure, asset_value=m.asset_value,
-            asset_growth=trend.growth_used if trend else None, asset_volatility=m.asset_volatility,
-            asset_return=drift, default_point=market.default_point,
-            short_term_share=settings.default_point.short_term_share,
-            long_term_share=settings.default_point.long_term_share, horizon_years=settings.horizon_years,
-            distance_to_default=m.distance_to_default if measure == "risk_neutral" else
-            (math.log(m.asset_value / market.default_point) + (drift - m.asset_volatility**2 / 2)
-             * settings.horizon_years) / (m.asset_volatility * math.sqrt(settings.horizon_years)),
-            model_pd=0.0, pd=0.0, overridden=False, override_reason=None,
-            grade=None, grade_lower=None, grade_upper=None)
-        from dataclasses import replace
-        from engine.structural import pd_from_distance
-
-        model_pd = pd_from_distance(result.distance_to_default)
-        result = replace(result, model_pd=model_pd, pd=model_pd)
-        return trend, *_with_override(settings, result, cautions), market
-    trend, bs, cautions = _balance_sheet(case)
-    result = PdResult(
-        method="balance_sheet", measure="physical", asset_value=bs.asset_value,
-        asset_growth=bs.asset_growth, asset_volatility=bs.asset_volatility,
-        asset_return=bs.asset_return, default_point=bs.default_point,
-        short_term_share=bs.short_term_share, long_term_share=bs.long_term_share,
-        horizon_years=bs.horizon_years, distance_to_default=bs.distance_to_default,
-        model_pd=bs.pd, pd=bs.pd, overridden=False, override_reason=None,
-        grade=None, grade_lower=None, grade_upper=None)
-    market = _market(case, required=False) if case.market is not None else None
-    if market is not None and market.message:
-        cautions.append(Caution("market.unsolved", market.message, "market"))
-    return trend, *_with_override(settings, result, cautions), market
-
-
-def _with_override(settings, result: PdResult, cautions: list[Caution]) -> tuple[PdResult, list[Caution]]:
-    from dataclasses import replace
-
-    if settings.override is None:
-        return result, cautions
-    cautions.append(Caution("pd.override", f"The analyst's PD of {settings.override:.4%} is used "
-                            f"instead of the model's {result.model_pd:.4%}. Reason: "
-                            f"{settings.override_reason}", "pd.override"))
-    return replace(result, pd=settings.override, overridden=True,
-                   override_reason=settings.override_reason), cautions
-
-
-def _market(case: Case, *, required: bool) -> MarketResult:
-    """Solve the Merton model with the balance-sheet default point as the debt barrier."""
-    mk = case.market
-    latest = case.statements[-1]
-    dp = (case.pd.default_point.short_term_share * latest.short_term_liabilities
-          + case.pd.default_point.long_term_share * latest.long_term_liabilities)
-    naive = naive_distance_to_default(equity_value=mk.equity_value, equity_volatility=mk.equity_volatility,
-                                      face_value_debt=dp, horizon_years=case.pd.horizon_years,
-                                      trailing_equity_return=mk.trailing_equity_return,
-                                      risk_free_rate=mk.risk_free_rate)
-    try:
-        merton = solve_merton(equity_value=mk.equity_value, equity_volatility=mk.equity_volatility,
-                              default_point=dp, risk_free_rate=mk.risk_free_rate,
-                              horizon_years=case.pd.horizon_years)
-        message = ""
-    except ValueError as exc:
-        if required:
-            raise CaseError.single("market", f"equity {mk.equity_value:g}, volatility "
-                                   f"{mk.equity_volatility:g}, default point {dp:g}",
-                                   f"inputs for which the Merton equations have a solution ({exc})") from None
-        merton, message = None, f"The Merton model could not be solved from the market data: {exc}"
-    return MarketResult(default_point=dp, merton=merton, naive=naive, message=message)
-
-
-def _balance_sheet(case: Case):
-    """Asset trend and balance-sheet PD; user-facing errors as CaseError."""
-    cautions: list[Caution] = []
-    settings = case.pd
-    latest = case.statements[-1]
-    trend = None
-    try:
-        trend = fit_asset_trend(years=[r.year for r in case.statements],
-                                total_assets=[r.total_assets for r in case.statements],
-                                window_years=settings.window_years,
-                                growth_override=settings.asset_growth,
-                                volatility_override=settings.asset_volatility)
-    except ValueError as exc:
-        raise _engine_error("statements", exc) from None
-    cautions.extend(trend.cautions)
-    try:
-        bs = balance_sheet_pd(asset_value=latest.total_assets, asset_growth=trend.growth_used,
-                              asset_volatility=trend.volatility_used,
-                              short_term_liabilities=latest.short_term_liabilities,
-                              long_term_liabilities=latest.long_term_liabilities,
-                              short_term_share=settings.default_point.short_term_share,
-                              long_term_share=settings.default_point.long_term_share,
-                              horizon_years=settings.horizon_years)
-    except ValueError as exc:
-        raise _engine_error("pd.default_point", exc) from None
-    return trend, bs, cautions
-
-
-def term_structure(case: Case, pd: PdResult) -> PdTermStructure:
-    """Cumulative PD for each year up to the longest facility maturity (at least the horizon)."""
-    longest = max([f.maturity_years for f in case.facilities] + [pd.horizon_years])
-    years = max(1, math.ceil(longest - 1e-9))
-    if pd.overridden:
-        return constant_hazard_term_structure(pd=pd.pd, horizon_years=pd.horizon_years, years=years,
-                                              basis="constant annual hazard from the override PD")
-    log_drift = pd.asset_return - pd.asset_volatility**2 / 2
-    return structural_term_structure(asset_value=pd.asset_value, default_point=pd.default_point,
-                                     log_drift=log_drift, asset_volatility=pd.asset_volatility,
-                                     years=years, basis=f"structural model ({pd.measure} drift), "
-                                     "default point held at today's value")
-
-
 def _lifetime_pd_share(ts: PdTermStructure, maturity_years: float) -> float:
     """Cumulative PD to maturity, interpolating the final part-year linearly in the marginal PD."""
     whole = int(math.floor(maturity_years + 1e-9))
@@ -342,7 +159,7 @@ def evaluate(case: Case) -> Results:
     cautions: list[Caution] = []
     trend, pd, pd_cautions, market = estimate_pd(case)
     cautions.extend(pd_cautions)
-    pd, scale_source = _graded(case, pd)
+    pd, scale_source = grade_pd(case, pd)
     ts = term_structure(case, pd)
     zscores, z_history, z_cautions = _zscores(case)
     cautions.extend(z_cautions)
@@ -448,20 +265,6 @@ def _prepare_facility(case: Case, index: int, f, grade: str | None,
             "downturn_lgd": downturn_lgd(law, method=dt.method, quantile=dt.quantile, add_on=dt.add_on)}
 
 
-def _graded(case: Case, pd: PdResult) -> tuple[PdResult, str]:
-    """Grade the PD in force on the case's master scale (or the illustrative default)."""
-    from dataclasses import replace
-
-    if case.pd.master_scale is not None:
-        scale = master_scale_from_rows([r.model_dump() for r in case.pd.master_scale])
-        source = "case file"
-    else:
-        scale, source = DEFAULT_MASTER_SCALE, "illustrative default"
-    # A PD that underflows to 0 belongs to the best grade (lower bounds are exclusive).
-    grade = assign_grade(max(pd.pd, 1e-300), scale)
-    return replace(pd, grade=grade.grade, grade_lower=grade.pd_lower, grade_upper=grade.pd_upper), source
-
-
 def _zscores(case: Case):
     """Altman Z-scores for the latest year, and the book-based variants for every year."""
     cautions: list[Caution] = []
@@ -478,7 +281,7 @@ def _zscores(case: Case):
         history = tuple((row.year, z.variant, z.score, z.zone)
                         for row in case.statements for z in scores(row, None) if z.score is not None)
     except ValueError as exc:
-        raise _engine_error("statements", exc) from None
+        raise engine_error("statements", exc) from None
     missing = sorted({m for z in latest for m in z.missing})
     if missing:
         cautions.append(Caution("zscore.missing", "Z-score variants not computed for lack of the "
