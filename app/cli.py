@@ -85,18 +85,22 @@ def evaluate(case: Path, as_json: bool) -> None:
 @_guard
 def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> None:
     """Write the credit memo for CASE as a PDF that carries its own inputs."""
-    from app.memo import ChartsUnavailable, render_memo_pdf
+    from app.memo import ChartsUnavailable, render_memo_pdf, start_chart_exporter, stop_chart_exporter
     from engine.analysis import analyse
     from engine.loading import load_case
 
-    results = analyse(load_case(case))
     if not output.parent.is_dir():
         _fail(f"-o/--output: got {str(output)!r}; allowed: a file in an existing folder "
               f"({str(output.parent)!r} does not exist).")
     try:
+        if not no_charts:
+            start_chart_exporter(wait=False)    # the browser starts while the case is analysed
+        results = analyse(load_case(case))
         pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size)
     except ChartsUnavailable as exc:
         _fail(f"The memo was not written: {exc}")
+    finally:
+        stop_chart_exporter()
     partial = output.with_name(output.name + ".partial")
     partial.write_bytes(pdf)
     partial.replace(output)

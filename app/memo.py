@@ -56,85 +56,96 @@ def find_browser() -> str:
 
 
 class ChartExporter:
-    """One Chromium (through kaleido) on a private event-loop thread, reused for many figures."""
+    """One Chromium (through kaleido) on a private event-loop thread, reused for many figures.
+
+    ``start(wait=False)`` launches the browser in the background, so its start-up overlaps the
+    analysis and the figure building; the first export waits for it.
+    """
 
     def __init__(self, *, browser_path: str | None = None, timeout: float = CHART_TIMEOUT_SECONDS,
-                 tabs: int = 2):
+                 tabs: int = 1):
         self.browser_path = browser_path or find_browser()
         self.timeout = timeout
         self.tabs = tabs
         self._loop: asyncio.AbstractEventLoop | None = None
         self._thread: threading.Thread | None = None
+        self._opening: Any = None            # concurrent.futures.Future of the open browser
         self._kaleido: Any = None
         self._lock = threading.Lock()
 
     @property
     def running(self) -> bool:
-        return self._kaleido is not None
+        """Started (or starting) and not closed."""
+        return self._opening is not None
 
-    def start(self) -> "ChartExporter":
-        if self.running:
-            return self
-        from kaleido import Kaleido, PageGenerator
+    def start(self, *, wait: bool = True) -> "ChartExporter":
+        if self._opening is None:
+            from kaleido import Kaleido, PageGenerator
 
-        loop = asyncio.new_event_loop()
-        self._loop = loop
-        self._thread = threading.Thread(target=loop.run_forever, name="memo-chart-exporter", daemon=True)
-        self._thread.start()
+            loop = asyncio.new_event_loop()
+            self._loop = loop
+            self._thread = threading.Thread(target=loop.run_forever, name="memo-chart-exporter",
+                                            daemon=True)
+            self._thread.start()
 
-        async def _open() -> Any:
-            # mathjax off: the default would load it from a CDN, and no chart needs TeX.
-            k = Kaleido(n=self.tabs, timeout=self.timeout, page_generator=PageGenerator(mathjax=False),
-                        path=self.browser_path)
-            await k.open()
-            return k
+            async def _open() -> Any:
+                # mathjax off: the default would load it from a CDN, and no chart needs TeX.
+                k = Kaleido(n=self.tabs, timeout=self.timeout,
+                            page_generator=PageGenerator(mathjax=False), path=self.browser_path)
+                await k.open()
+                return k
 
-        try:
-            self._kaleido = self._run(_open())
-        except BaseException as exc:
-            self.close()
-            raise ChartsUnavailable(f"Chromium at {self.browser_path} could not be started for chart "
-                                    f"export ({type(exc).__name__}: {exc}). Fix: {NO_CHART_FIX}.") from None
+            self._opening = asyncio.run_coroutine_threadsafe(_open(), loop)
+        if wait:
+            self._ready()
         return self
 
-    def _run(self, coroutine: Any) -> Any:
-        assert self._loop is not None
-        future = asyncio.run_coroutine_threadsafe(coroutine, self._loop)
-        try:
-            return future.result(timeout=self.timeout)
-        except TimeoutError:
-            future.cancel()
-            raise
+    def _ready(self) -> Any:
+        if self._kaleido is None:
+            try:
+                self._kaleido = self._opening.result(timeout=self.timeout)
+            except BaseException as exc:
+                self.close()
+                raise ChartsUnavailable(f"Chromium at {self.browser_path} could not be started for "
+                                        f"chart export ({type(exc).__name__}: {exc}). Fix: "
+                                        f"{NO_CHART_FIX}.") from None
+        return self._kaleido
 
     def export_svg(self, figures: dict[str, Any]) -> dict[str, str]:
         """Every figure as SVG text, in one browser session; the whole batch gets the timeout."""
-        if not self.running:
-            self.start()
-
-        async def _one(fig: Any) -> str:
-            opts = {"format": "svg", "width": int(getattr(fig, "_memo_width", 760)),
-                    "height": int(fig.layout.height or 420)}
-            data = await self._kaleido.calc_fig(fig, opts=opts)
-            return data.decode("utf-8") if isinstance(data, bytes) else str(data)
-
-        async def _all() -> dict[str, str]:
-            # The browser's tabs render concurrently; results come back in the figures' order.
-            svgs = await asyncio.gather(*(_one(fig) for fig in figures.values()))
-            return dict(zip(figures, svgs))
-
         with self._lock:
+            if self._opening is None:
+                self.start(wait=False)
+            kaleido = self._ready()
+
+            async def _one(fig: Any) -> str:
+                opts = {"format": "svg", "width": int(getattr(fig, "_memo_width", 760)),
+                        "height": int(fig.layout.height or 420)}
+                data = await kaleido.calc_fig(fig, opts=opts)
+                return data.decode("utf-8") if isinstance(data, bytes) else str(data)
+
+            async def _all() -> dict[str, str]:
+                # The browser's tabs render concurrently; results keep the figures' order.
+                svgs = await asyncio.gather(*(_one(fig) for fig in figures.values()))
+                return dict(zip(figures, svgs))
+
+            assert self._loop is not None
+            future = asyncio.run_coroutine_threadsafe(_all(), self._loop)
             try:
-                return self._run(_all())
+                return future.result(timeout=self.timeout)
             except TimeoutError:
+                future.cancel()
                 self.close()
                 raise ChartsUnavailable(f"Chart export took longer than {self.timeout:g} s and was "
                                         "stopped. Try again, or print with --no-charts.") from None
 
     def close(self) -> None:
-        loop, k = self._loop, self._kaleido
-        self._kaleido = None
-        if loop is not None and k is not None:
+        loop, opening = self._loop, self._opening
+        self._kaleido = self._opening = None
+        if loop is not None and opening is not None:
             try:
+                # A browser still starting is waited for, so that no Chromium is left behind.
+                k = opening.result(timeout=self.timeout)
                 asyncio.run_coroutine_threadsafe(k.close(), loop).result(timeout=10)
             except Exception:  # the browser may already be gone; the loop still has to stop
                 pass
@@ -149,11 +160,12 @@ class ChartExporter:
 _EXPORTER: ChartExporter | None = None
 
 
-def start_chart_exporter() -> ChartExporter:
-    """Start (once) the process-wide exporter; later memos reuse its browser."""
+def start_chart_exporter(*, wait: bool = True) -> ChartExporter:
+    """Start (once) the process-wide exporter; later memos reuse its browser. With
+    ``wait=False`` the browser starts in the background while the caller gets on with its work."""
     global _EXPORTER
     if _EXPORTER is None or not _EXPORTER.running:
-        _EXPORTER = ChartExporter().start()
+        _EXPORTER = ChartExporter().start(wait=wait)
     return _EXPORTER
 
 
@@ -208,24 +220,25 @@ def build_figures(results: Any) -> tuple[dict[str, Any], dict[str, str]]:
             # Half-width on paper: the legend wraps to one entry a line, so give it its own room
             # below the axis title instead of letting the two overlap.
             fig.update_layout(height=430, margin={"b": 135}, legend={"y": -0.28})
-        else:
-            _legend_room(fig)
         object.__setattr__(fig, "_memo_width", spec.width)
         figures[spec.key] = fig
     return figures, notes
 
 
-def _legend_room(fig: Any, extra: int = 30) -> None:
-    """Move a legend that sits under the plot a little lower: on paper a wrapped legend must
-    clear the axis title, which on screen the hover tools make less pressing."""
-    legend, margin = fig.layout.legend, fig.layout.margin
-    if legend.orientation != "h" or legend.y is None or legend.y >= 0:
-        return
-    height = int(fig.layout.height or 420)
-    bottom = int(margin.b if margin.b is not None else 80)
-    plot = height - int(margin.t if margin.t is not None else 60) - bottom
-    fig.update_layout(height=height + extra, margin={"b": bottom + extra},
-                      legend={"y": legend.y - extra / max(plot, 1) / 2})
+# A reprint after a narrative edit draws the same figures: reuse their SVG instead of the browser.
+_SVG_CACHE: dict[str, str] = {}
+_SVG_CACHE_SIZE = 64
+
+
+def _figure_key(fig: Any) -> str:
+    spec = fig.to_json() + f"|{getattr(fig, '_memo_width', 760)}|{_kaleido_version()}"
+    return hashlib.sha256(spec.encode("utf-8")).hexdigest()
+
+
+def _kaleido_version() -> str:
+    from importlib.metadata import version
+
+    return version("kaleido")
 
 
 def _svg_data_uri(svg: str) -> str:
@@ -234,16 +247,23 @@ def _svg_data_uri(svg: str) -> str:
 
 def export_charts(results: Any) -> tuple[dict[str, str], dict[str, str]]:
     """SVG data URIs for every chart, in one Chromium session; notes where a chart is absent."""
-    figures, notes = build_figures(results)
-    if not figures:
-        return {}, notes
     if _EXPORTER is not None and _EXPORTER.running:
-        svgs = _EXPORTER.export_svg(figures)
+        exporter, own = _EXPORTER, False
     else:
-        exporter = ChartExporter().start()
-        try:
-            svgs = exporter.export_svg(figures)
-        finally:
+        # Once per memo: the browser starts while the figures are being built.
+        exporter, own = ChartExporter().start(wait=False), True
+    try:
+        figures, notes = build_figures(results)
+        keys = {key: _figure_key(fig) for key, fig in figures.items()}
+        missing = {key: fig for key, fig in figures.items() if keys[key] not in _SVG_CACHE}
+        if missing:
+            for key, svg in exporter.export_svg(missing).items():
+                _SVG_CACHE[keys[key]] = svg
+        svgs = {key: _SVG_CACHE[keys[key]] for key in figures}
+        while len(_SVG_CACHE) > _SVG_CACHE_SIZE:
+            _SVG_CACHE.pop(next(iter(_SVG_CACHE)))
+    finally:
+        if own:
             exporter.close()
     return {key: _svg_data_uri(svg) for key, svg in svgs.items()}, notes
 

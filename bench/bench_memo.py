@@ -1,0 +1,104 @@
+"""Benchmark of the printed memo (not a test): cold start, warm exporter, peak memory.
+
+    .venv/bin/python bench/bench_memo.py [--runs 3] [--warm-runs 5]
+
+Cold: the console command ``obligor-memo memo`` in a fresh process (interpreter start-up,
+imports, the full analysis of the sample case, Chromium start-up, chart export, PDF written).
+Warm: one process keeps the chart exporter running (as the workbench does) and renders the memo
+again and again. Peak memory: the resident memory of the command and every process under it
+(Chromium's included), sampled every 50 ms.
+Targets: cold < 6 s, warm < 2 s, peak < 600 MB. Medians are printed.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+SAMPLE = ROOT / "sample_data" / "hollowmere.yaml"
+
+def _tree_rss_mb(pid: int) -> float:
+    """Proportional set size of a process and all its descendants (Chromium's helpers included);
+    shared pages count once in total, where a sum of resident sets would count them per process."""
+    total, stack = 0, [pid]
+    while stack:
+        p = stack.pop()
+        try:
+            with open(f"/proc/{p}/smaps_rollup") as f:
+                total += next(int(line.split()[1]) for line in f if line.startswith("Pss:"))
+            for task in Path(f"/proc/{p}/task").iterdir():
+                stack += [int(c) for c in (task / "children").read_text().split()]
+        except (OSError, StopIteration, ValueError):
+            continue
+    return total / 1024
+
+
+def cold(runs: int, out_pdf: Path) -> list[tuple[float, float]]:
+    """The console command itself, from process start to the PDF on disk; peak tree memory."""
+    command = [str(Path(sys.executable).parent / "obligor-memo"), "memo", str(SAMPLE), "-o", str(out_pdf)]
+    results = []
+    for _ in range(runs):
+        peak = 0.0
+        started = time.perf_counter()
+        proc = subprocess.Popen(command, cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+        while proc.poll() is None:
+            peak = max(peak, _tree_rss_mb(proc.pid))
+            time.sleep(0.05)
+        seconds = time.perf_counter() - started
+        if proc.returncode != 0:
+            raise SystemExit(f"memo command failed: {proc.stderr.read().decode()}")
+        results.append((seconds, peak))
+    return results
+
+
+def warm(runs: int) -> tuple[list[float], list[float], float]:
+    sys.path.insert(0, str(ROOT))
+    from app import memo
+    from engine.analysis import analyse
+    from engine.loading import load_case
+
+    results = analyse(load_case(SAMPLE))
+    t0 = time.perf_counter()
+    memo.start_chart_exporter()
+    start_seconds = time.perf_counter() - t0
+    memo.render_memo_pdf(results)            # first render also warms fonts and plotly
+    times, cached = [], []
+    for _ in range(runs):
+        memo._SVG_CACHE.clear()          # every figure goes through the browser again
+        t0 = time.perf_counter()
+        memo.render_memo_pdf(results)
+        times.append(time.perf_counter() - t0)
+        t0 = time.perf_counter()
+        memo.render_memo_pdf(results)    # a reprint with the same figures (e.g. a text edit)
+        cached.append(time.perf_counter() - t0)
+    memo.stop_chart_exporter()
+    return times, cached, start_seconds
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--runs", type=int, default=3, help="cold runs (fresh processes)")
+    parser.add_argument("--warm-runs", type=int, default=5)
+    args = parser.parse_args()
+    out_dir = ROOT / "bench" / "results"
+    out_dir.mkdir(parents=True, exist_ok=True)
+    runs = cold(args.runs, out_dir / "bench_memo.pdf")
+    print(f"cold: obligor-memo memo, start to PDF (median of {len(runs)}): "
+          f"{statistics.median(r[0] for r in runs):.2f} s   target < 6 s")
+    print(f"peak memory, command and browser together (median of peaks): "
+          f"{statistics.median(r[1] for r in runs):.0f} MB   target < 600 MB")
+    times, cached, start_seconds = warm(args.warm_runs)
+    print(f"chart exporter start: {start_seconds:.2f} s (once per process)")
+    print(f"warm render with the exporter running, every chart exported (median of {len(times)}): "
+          f"{statistics.median(times):.2f} s   target < 2 s")
+    print(f"warm reprint with unchanged figures (SVG reused; median of {len(cached)}): "
+          f"{statistics.median(cached):.2f} s")
+
+
+if __name__ == "__main__":
+    main()
