@@ -48,22 +48,33 @@ def new_figure() -> go.Figure:
     return go.Figure(layout={"template": "none"})
 
 
-def apply_layout(fig: go.Figure, *, title: str, x_title: str, y_title: str, height: int = 420,
-                 legend_below: bool = True) -> go.Figure:
-    """The shared look of every figure: white ground, light grid, legend under the plot."""
+def layout_dict(*, title: str, x_title: str, y_title: str, height: int = 420,
+                legend_below: bool = True) -> dict[str, Any]:
+    """The shared look of every figure as plain layout data: white ground, light grid, legend
+    under the plot. Figures built in one go.Figure(data, layout) call merge into this."""
     axis = {"showgrid": True, "gridcolor": GRID, "zeroline": False, "linecolor": STEEL,
             "ticks": "outside", "tickcolor": STEEL, "showline": True}
+    return {
+        "template": "none",
+        "title": {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 16, "color": INK}},
+        "font": {"family": FONT, "size": 12, "color": INK},
+        "paper_bgcolor": "white", "plot_bgcolor": "white", "height": height,
+        "margin": {"l": 70, "r": 30, "t": 60, "b": 120 if legend_below else 50},
+        "hoverlabel": {"font": {"family": FONT}},
+        "legend": ({"orientation": "h", "yanchor": "top", "y": -0.24, "xanchor": "left", "x": 0.0}
+                   if legend_below else {}),
+        "xaxis": {**axis, "title": {"text": x_title}}, "yaxis": {**axis, "title": {"text": y_title}},
+    }
+
+
+def apply_layout(fig: go.Figure, *, title: str, x_title: str, y_title: str, height: int = 420,
+                 legend_below: bool = True) -> go.Figure:
+    """The shared look of every figure (see layout_dict)."""
     # One update_layout call: separate axis updates cost more than building the traces.
-    fig.update_layout(
-        title={"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 16, "color": INK}},
-        font={"family": FONT, "size": 12, "color": INK},
-        paper_bgcolor="white", plot_bgcolor="white", height=height,
-        margin={"l": 70, "r": 30, "t": 60, "b": 120 if legend_below else 50},
-        hoverlabel={"font": {"family": FONT}},
-        legend=({"orientation": "h", "yanchor": "top", "y": -0.24, "xanchor": "left", "x": 0.0}
-                if legend_below else {}),
-        xaxis={**axis, "title": {"text": x_title}}, yaxis={**axis, "title": {"text": y_title}},
-    )
+    look = layout_dict(title=title, x_title=x_title, y_title=y_title, height=height,
+                       legend_below=legend_below)
+    del look["template"]
+    fig.update_layout(**look)
     return fig
 
 
@@ -320,40 +331,21 @@ def loss_distribution_figure(results: Any) -> go.Figure:
     return fig
 
 
-# --------------------------------------------------------------------------- sensitivity
-
-
-def sensitivity_figure(results: Any, *, measure: str = "pd") -> go.Figure:
-    """Tornado: the PD (or EL) after moving each input down and up by its step, around the base."""
-    sens = getattr(results, "sensitivity", None)
-    if sens is None:
-        raise ValueError("results.sensitivity: got None; allowed: results from an engine that "
-                         "computes the one-way sensitivity")
-    return _tornado(results, sens, measure)
-
-
-def pd_grid_figure(results: Any) -> go.Figure:
-    """Heat map of PD over long-term share of the default point x asset volatility."""
-    sens = getattr(results, "sensitivity", None)
-    grid = getattr(sens, "grid", None) if sens is not None else None
-    if grid is None:
-        raise ValueError("results.sensitivity.grid: got None; allowed: results from an engine that "
-                         "computes the two-way PD grid")
-    return _heat_map(results, grid)
-
-
-def _tornado(results: Any, sens: Any, measure: str) -> go.Figure:
-    raise ValueError("sensitivity: this engine's sensitivity result is not wired into the charts yet")
-
-
-def _heat_map(results: Any, grid: Any) -> go.Figure:
-    raise ValueError("sensitivity.grid: this engine's PD grid is not wired into the charts yet")
-
-
 FIGURES = {
     "asset_trend": asset_trend_figure,
     "liabilities": liabilities_figure,
     "term_structure": term_structure_figure,
     "exposure": exposure_figure,
     "loss_distribution": loss_distribution_figure,
+}
+
+# The what-if figures live in their own module (this one would pass 400 lines); the memo and the
+# pages find every figure here.
+from app.charts_whatif import pd_grid_figure, scenarios_figure, sensitivity_figure  # noqa: E402
+
+# Figures that need engine.analysis.analyse (sensitivity, PD grid, scenarios), not just evaluate.
+ANALYSIS_FIGURES = {
+    "sensitivity": sensitivity_figure,
+    "pd_grid": pd_grid_figure,
+    "scenarios": scenarios_figure,
 }

@@ -15,6 +15,7 @@ from pathlib import Path
 from app.state import WORKDIR_ENV, default_workdir
 
 WORKBENCH = Path(__file__).resolve().parent / "workbench.py"
+MAX_UPLOAD_MB = 2                  # Streamlit's unit is the megabyte
 
 
 def is_loopback(host: str) -> bool:
@@ -32,6 +33,9 @@ def streamlit_command(*, port: int, host: str) -> list[str]:
             "--server.headless", "true", "--server.address", host, "--server.port", str(port),
             "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none",
             "--server.runOnSave", "false", "--client.showErrorDetails", "none",
+            # The upload widget states this limit; the engine refuses statement files over
+            # engine.statements.MAX_FILE_BYTES (2,000,000 bytes) in any case.
+            "--server.maxUploadSize", str(MAX_UPLOAD_MB),
             "--client.toolbarMode", "minimal", "--global.developmentMode", "false",
             "--theme.base", "light", "--theme.primaryColor", "#b3612a"]
 

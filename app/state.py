@@ -153,34 +153,6 @@ def problems_at(problems: tuple[Problem, ...] | list[Problem], path: str) -> lis
             or p.field.startswith(path + "[")]
 
 
-# --------------------------------------------------------------------------- scenarios
-
-
-def apply_settings(raw: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-    """A copy of the case dict with a scenario's ``set`` applied.
-
-    Keys are case paths; ``facilities.<id>.<field>`` addresses a facility by its id. A recovery
-    mean set on a facility that had none keeps the case's default std on [0, 1].
-    """
-    out = copy.deepcopy(raw)
-    for key, value in settings.items():
-        parts = key.split(".")
-        if parts[0] == "facilities" and len(parts) >= 3:
-            ids = [f.get("id") for f in out.get("facilities", [])]
-            if parts[1] not in ids:
-                raise CaseError.single(f"scenario setting {key}", parts[1],
-                                       "the id of a facility in the case: " + ", ".join(map(str, ids)))
-            index = ids.index(parts[1])
-            rest = ".".join(parts[2:])
-            if parts[2] == "recovery" and out["facilities"][index].get("recovery") is None:
-                std = get_path(out, "lgd.default_recovery_std", 0.25)
-                out["facilities"][index]["recovery"] = {"mean": None, "std": std, "upper": 1.0}
-            out = set_path(out, f"facilities[{index}].{rest}", value)
-        else:
-            out = set_path(out, key, value)
-    return out
-
-
 # --------------------------------------------------------------------------- files
 
 

@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from app import charts
+from app import charts, charts_whatif
 from engine.evaluate import evaluate
 from engine.loading import load_case
 
@@ -150,9 +150,128 @@ def test_loss_curve_crosses_the_tail_level_at_var(results):
     assert ec.x[1] - ec.x[0] == pytest.approx(results.total.economic_capital / 1e6, rel=1e-9)
 
 
-def test_sensitivity_figures_say_what_is_missing(results):
-    if getattr(results, "sensitivity", None) is None:
-        with pytest.raises(ValueError, match="results.sensitivity"):
-            charts.sensitivity_figure(results)
-        with pytest.raises(ValueError, match="sensitivity"):
-            charts.pd_grid_figure(results)
+def test_what_if_figures_say_what_is_missing(results):
+    # A plain evaluate() carries no sensitivity, grid or scenarios: the message names the field.
+    assert results.sensitivity is None
+    with pytest.raises(ValueError, match="results.sensitivity"):
+        charts.sensitivity_figure(results)
+    with pytest.raises(ValueError, match="results.pd_grid"):
+        charts.pd_grid_figure(results)
+    with pytest.raises(ValueError, match="results.scenarios"):
+        charts.scenarios_figure(results)
+
+
+# --------------------------------------------------------------------------- what-if figures
+
+
+@pytest.fixture(scope="module")
+def analysed():
+    from engine.analysis import analyse
+
+    return analyse(load_case(SAMPLE))
+
+
+def test_what_if_figures_have_units_and_differ_by_more_than_colour(analysed):
+    for name, build in charts.ANALYSIS_FIGURES.items():
+        fig = build(analysed)
+        titles = [fig.layout.xaxis.title.text or "", fig.layout.yaxis.title.text or ""]
+        if name == "scenarios":
+            titles.append(fig.layout.xaxis2.title.text)
+        assert any("[" in t for t in titles), (name, titles)
+        looks = [(t.type, getattr(t, "mode", None), str(getattr(getattr(t, "marker", None), "symbol", None)),
+                  getattr(getattr(getattr(t, "marker", None), "pattern", None), "shape", None),
+                  getattr(getattr(t, "line", None), "dash", None), t.xaxis) for t in fig.data]
+        assert len(set(looks)) == len(looks), f"{name}: two series look alike in grayscale"
+
+
+@pytest.mark.parametrize("measure, scale, low, high", [("el", 1e6, "el_low", "el_high"),
+                                                       ("pd", 1.0, "pd_low", "pd_high")])
+def test_tornado_bar_ends_are_the_tables_values(analysed, measure, scale, low, high):
+    fig = charts.sensitivity_figure(analysed, measure=measure)
+    down, up = fig.data[0], fig.data[1]
+    table = {charts_whatif._row_label(r): r for r in analysed.sensitivity.rows}
+    base = (analysed.sensitivity.el_base if measure == "el" else analysed.sensitivity.pd_base) / scale
+    assert down.base == pytest.approx(base) and up.base == pytest.approx(base)
+    for label, dx, ux in zip(down.y, down.x, up.x):
+        row = table[label]
+        # Bar end = base + length: exactly the engine's value (rel 1e-12: float addition only).
+        assert down.base + dx == pytest.approx(getattr(row, low) / scale, rel=1e-12)
+        assert up.base + ux == pytest.approx(getattr(row, high) / scale, rel=1e-12)
+    swings = [abs(getattr(table[y], high) - getattr(table[y], low)) for y in down.y]
+    assert swings == sorted(swings)           # plotly's first row is the bottom: largest on top
+
+
+def test_tornado_labels_name_the_moved_input(analysed):
+    fig = charts.sensitivity_figure(analysed)
+    down, up = fig.data[0], fig.data[1]
+    rows = {charts_whatif._row_label(r): r for r in analysed.sensitivity.rows}
+    horizon = next(y for y in down.y if rows[y].assumption == "horizon_years")
+    i = list(down.y).index(horizon)
+    row = rows[horizon]
+    assert down.text[i] == f"{row.low_value:g} y" and up.text[i] == f"{row.high_value:g} y"
+    vol = next(y for y in down.y if rows[y].assumption == "asset_volatility")
+    j = list(down.y).index(vol)
+    assert up.text[j] == f"{rows[vol].high_value * 100:.1f} %"
+    assert "EUR m" in fig.layout.xaxis.title.text
+    with pytest.raises(ValueError, match="measure: got 'lgd'"):
+        charts.sensitivity_figure(analysed, measure="lgd")
+
+
+def test_tornado_row_whose_point_failed_shows_the_note(analysed):
+    sens = analysed.sensitivity
+    row = dataclasses.replace(sens.rows[0], el_high=None, pd_high=None,
+                              note="the up case does not validate: pd.horizon_years too long")
+    broken = dataclasses.replace(analysed, sensitivity=dataclasses.replace(sens, rows=(row,) + sens.rows[1:]))
+    fig = charts.sensitivity_figure(broken)
+    label = charts_whatif._row_label(row)
+    i = list(fig.data[1].y).index(label)
+    assert fig.data[1].x[i] is None and fig.data[1].text[i] == ""
+    assert any("does not validate" in a.text and a.y == label for a in fig.layout.annotations)
+
+
+def test_heat_map_z_is_the_grids_pd(analysed):
+    grid = analysed.pd_grid
+    fig = charts.pd_grid_figure(analysed)
+    heat = fig.data[0]
+    pd = np.array(grid.pd, dtype=float)
+    np.testing.assert_array_equal(np.asarray(heat.customdata, dtype=float), pd)
+    floor = charts_whatif.PD_COLOUR_FLOOR
+    np.testing.assert_allclose(10.0 ** np.asarray(heat.z), np.maximum(pd, floor), rtol=1e-12)
+    np.testing.assert_array_equal(heat.x, grid.x_values)
+    np.testing.assert_array_equal(heat.y, grid.y_values)
+    assert "volatility" in fig.layout.yaxis.title.text.lower() and "[" in fig.layout.yaxis.title.text
+    marker = fig.data[1]
+    assert (marker.x[0], marker.y[0]) == (grid.base_x, grid.base_y)
+
+
+def test_heat_map_cells_match_merton_distance_to_default_by_scipy(analysed):
+    """Balance-sheet PD = N(-DD), DD = (ln(V/DP) + g T) / (s sqrt T) (Merton 1974 on book assets,
+    log drift g), recomputed with scipy's normal law for a few cells of the drawn grid."""
+    grid, p = analysed.pd_grid, analysed.pd
+    heat = charts.pd_grid_figure(analysed).data[0]
+    latest = analysed.case.statements[-1]
+    for iy, ix in ((0, 0), (10, 10), (20, 15), (5, 20)):
+        s, b = grid.y_values[iy], grid.x_values[ix]
+        dp = p.short_term_share * latest.short_term_liabilities + b * latest.long_term_liabilities
+        dd = (np.log(p.asset_value / dp) + p.asset_growth * p.horizon_years) / (s * np.sqrt(p.horizon_years))
+        # rel 1e-9 in the log: two routes to the same normal tail.
+        assert heat.z[iy][ix] == pytest.approx(np.log10(max(stats.norm.sf(dd), charts_whatif.PD_COLOUR_FLOOR)),
+                                               rel=1e-9)
+
+
+def test_heat_map_log_scale_ticks_are_decades(analysed):
+    bar = charts.pd_grid_figure(analysed).data[0].colorbar
+    vals = np.asarray(bar.tickvals)
+    assert np.allclose(vals, np.round(vals)) and len(vals) >= 2
+    assert bar.ticktext[0].startswith("\u2264")   # the floor is an "at most", not an exact PD
+
+
+def test_scenarios_figure_shows_the_engines_scenarios(analysed):
+    fig = charts.scenarios_figure(analysed)
+    pd_dots, el_dots = fig.data[1], fig.data[3]
+    names = ["Base case"] + [s.name for s in analysed.scenarios]
+    assert list(pd_dots.y) == names and list(el_dots.y) == names
+    assert list(pd_dots.x) == [analysed.pd.pd] + [s.figures.pd for s in analysed.scenarios]
+    np.testing.assert_allclose(el_dots.x, [analysed.total.expected_loss / 1e6]
+                               + [s.figures.expected_loss / 1e6 for s in analysed.scenarios], rtol=1e-12)
+    assert "EUR m" in fig.layout.xaxis2.title.text

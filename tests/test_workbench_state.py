@@ -98,17 +98,6 @@ def test_plain_turns_numpy_and_nan_into_json_values():
     json.dumps(out, allow_nan=False)
 
 
-def test_scenario_settings_address_facilities_by_id(sample):
-    out = state.apply_settings(sample, {"facilities.RCF-1.ccf": 1.0, "pd.default_point.long_term_share": 1.0,
-                                        "facilities.GTE-SF.recovery.mean": 0.5})
-    assert out["facilities"][1]["ccf"] == 1.0
-    assert out["pd"]["default_point"]["long_term_share"] == 1.0
-    assert out["facilities"][3]["recovery"] == {"mean": 0.5, "std": 0.25, "upper": 1.0}
-    assert parse_case(out)  # still a valid case
-    with pytest.raises(CaseError, match="NOPE"):
-        state.apply_settings(sample, {"facilities.NOPE.ccf": 1.0})
-
-
 def test_broken_uploads_raise_case_errors_not_exceptions():
     with pytest.raises(CaseError):
         state.case_dict_from_upload(b"\xff\xfe\x00", "case.yaml")

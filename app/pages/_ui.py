@@ -50,6 +50,24 @@ def evaluate_dict(data: dict[str, Any]) -> tuple[Any | None, tuple[Problem, ...]
         return None, (), f"{type(exc).__name__}: {exc}"
 
 
+@st.cache_resource(max_entries=32, show_spinner=False)
+def _analyse_cached(key: str, _case: Any) -> Any:
+    # ``key`` is the case's fingerprint (SHA-256 of its canonical JSON): the case itself is
+    # not hashed by Streamlit, and Results is frozen, so sharing one object is safe.
+    from engine.analysis import analyse
+    from engine.evaluate import evaluate
+
+    return analyse(_case, evaluate(_case))
+
+
+def analysed(case: Any) -> Any:
+    """engine.analysis.analyse of a validated case (sensitivity, PD grid, scenarios), cached by
+    the case's fingerprint. Raises CaseError when a saved scenario does not validate."""
+    from engine.evaluate import fingerprint
+
+    return _analyse_cached(fingerprint(case), case)
+
+
 # --------------------------------------------------------------------------- session
 
 

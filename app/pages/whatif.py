@@ -1,7 +1,10 @@
-"""Step 6: what-if controls on top of the case, sensitivities, and named scenarios side by side.
+"""Step 6: what-if controls on top of the case, its sensitivities, and named scenarios side by side.
 
-The what-if settings are an overlay (case path -> value) kept beside the case: they change
-nothing until saved as a named scenario, and they are autosaved with the session.
+The what-if settings are an overlay in the engine's scenario format (dotted path -> value, see
+engine/scenarios.py) kept beside the case: they change nothing until saved as a named scenario,
+and they are autosaved with the session. The engine applies and validates them
+(``apply_overrides``) and computes everything shown (``analyse``); this page only lays out and
+formats.
 """
 
 from __future__ import annotations
@@ -9,10 +12,11 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from app import charts, state
+from app import charts
 from app.formatting import millions, num, pct
 from app.pages import _ui
 from engine.errors import CaseError
+from engine.scenarios import apply_overrides, headline_delta, headline_figures
 
 base_results = _ui.header("What-if and scenarios",
                           "Move an assumption and see every number move; save what you want to keep "
@@ -21,16 +25,25 @@ ss = st.session_state
 cur = _ui.currency()
 if base_results is None:
     st.stop()
-valid = ss.valid
+base_case = base_results.case
 overlay: dict = dict(ss.whatif)
+WHERE = "what-if"
 
 
-def _set(path: str, key: str) -> None:
+# --------------------------------------------------------------------------- controls
+
+
+def _set(paths: dict[str, object], key: str) -> None:
+    """Store one control; ``paths`` are companion values that must travel with it (a recovery
+    block the case lacks needs its std and upper as well as the mean)."""
     settings = dict(st.session_state.whatif)
     value = st.session_state[key]
+    path = next(iter(paths))
     if value is None:
-        settings.pop(path, None)
+        for p in paths:
+            settings.pop(p, None)
     else:
+        settings.update({p: v for p, v in paths.items() if v is not None})
         settings[path] = value
     _ui.set_whatif(settings)
 
@@ -40,116 +53,209 @@ def _reset() -> None:
     _ui.set_whatif({})
 
 
-def control(label: str, path: str, base_value, *, where, step: float, fmt: str, optional: bool = False,
-            placeholder: str | None = None) -> None:
+def control(label: str, path: str, base_value, *, where, step: float, fmt: str, lowest: float | None = None,
+            highest: float | None = None, placeholder: str | None = None, help: str | None = None,
+            companions: dict[str, object] | None = None) -> None:
     key = f"w{ss.get('wgen', 0)}:{ss.gen}:{path}"
     value = overlay.get(path, base_value)
     where.number_input(label, value=None if value is None else float(value), step=step, format=fmt, key=key,
-                       placeholder=placeholder, on_change=_set, args=(path, key))
+                       min_value=lowest, max_value=highest, placeholder=placeholder, help=help,
+                       on_change=_set, args=({path: None, **(companions or {})}, key))
 
 
-st.subheader("What-if controls")
 p = base_results.pd
+given = base_case.pd
+market = p.method == "market"
+st.subheader("What-if controls")
+st.caption("Each control starts at the value in use in the case. Nothing changes in the case until you "
+           "save the settings as a named scenario.")
 c = st.columns(4)
 control("Short-term share of the default point", "pd.default_point.short_term_share", p.short_term_share,
-        where=c[0], step=0.05, fmt="%.2f")
+        where=c[0], step=0.05, fmt="%.2f", lowest=0.0, highest=1.0,
+        help="Default point = short-term share x short-term liabilities + long-term share x long-term "
+             "liabilities [fraction]; 1.0 is common practice.")
 control("Long-term share of the default point", "pd.default_point.long_term_share", p.long_term_share,
-        where=c[1], step=0.05, fmt="%.2f")
-control("Asset volatility [1/sqrt(year)]", "pd.asset_volatility", state.get_path(valid, "pd.asset_volatility"),
-        where=c[2], step=0.01, fmt="%.4f", placeholder=f"estimate {pct(p.asset_volatility)}")
-control("Asset growth [1/year]", "pd.asset_growth", state.get_path(valid, "pd.asset_growth"),
-        where=c[3], step=0.01, fmt="%.4f", placeholder=f"estimate {pct(p.asset_growth)}")
+        where=c[1], step=0.05, fmt="%.2f", lowest=0.0, highest=1.0,
+        help="[fraction]; 0.5 is common practice.")
+if market:
+    control("Equity volatility [1/sqrt(year)]", "market.equity_volatility", base_case.market.equity_volatility,
+            where=c[2], step=0.01, fmt="%.4f", lowest=0.0001, highest=5.0,
+            help="The market method solves asset value and volatility from the equity market.")
+else:
+    control("Asset volatility [1/sqrt(year)]", "pd.asset_volatility", given.asset_volatility,
+            where=c[2], step=0.01, fmt="%.4f", lowest=0.0001, highest=3.0,
+            placeholder=f"estimate {pct(p.asset_volatility)}",
+            help=f"Empty: the estimate from the statements ({pct(p.asset_volatility)}).")
+control("Asset growth [1/year]", "pd.asset_growth", given.asset_growth, where=c[3], step=0.01, fmt="%.4f",
+        lowest=-1.0, highest=1.0,
+        placeholder=f"estimate {pct(p.asset_growth)}" if p.asset_growth is not None else "estimate",
+        help="Empty: the slope of the log-linear asset trend.")
 c = st.columns(4)
-control("Horizon [years]", "pd.horizon_years", p.horizon_years, where=c[0], step=0.5, fmt="%.2f")
+control("Horizon [years]", "pd.horizon_years", p.horizon_years, where=c[0], step=0.5, fmt="%.2f",
+        lowest=0.01, highest=30.0)
 ids = [f.id for f in base_results.facilities]
 chosen = c[1].selectbox("Facility for CCF and recovery", ids, key="whatif_facility")
 fac = next(f for f in base_results.facilities if f.id == chosen)
-control(f"CCF of {chosen} [fraction]", f"facilities.{chosen}.ccf", fac.ccf, where=c[2], step=0.05, fmt="%.2f")
+has_block = next(f for f in base_case.facilities if f.id == chosen).recovery is not None
+control(f"CCF of {chosen} [fraction]", f"facilities.{chosen}.ccf", fac.ccf, where=c[2], step=0.05, fmt="%.2f",
+        lowest=0.0, highest=1.0)
 control(f"Recovery mean of {chosen} [fraction]", f"facilities.{chosen}.recovery.mean", fac.recovery_mean,
-        where=c[3], step=0.05, fmt="%.3f")
-st.button("Clear the what-if settings", on_click=_reset, icon=":material/undo:")
+        where=c[3], step=0.05, fmt="%.3f", lowest=0.0, highest=fac.recovery_upper,
+        companions=None if has_block else {f"facilities.{chosen}.recovery.std": fac.recovery_std,
+                                           f"facilities.{chosen}.recovery.upper": fac.recovery_upper},
+        help=f"Mean of the unsecured recovery law (std {pct(fac.recovery_std, 1)}, upper "
+             f"{pct(fac.recovery_upper, 0)}).")
+st.button("Clear the what-if settings", on_click=_reset, icon=":material/undo:", disabled=not overlay)
+if overlay:
+    st.caption("What-if settings: " + ", ".join(f"`{k}` = {v:g}" if isinstance(v, float) else f"`{k}` = {v}"
+                                                 for k, v in overlay.items()))
 
-problems: tuple = ()
+
+# --------------------------------------------------------------------------- what-if results
+
+whatif = None
 try:
-    trial = state.apply_settings(valid, overlay)
-    whatif_results, problems, internal = _ui.evaluate_dict(trial)
+    # The saved scenarios are left out of the what-if case: they are compared with the base below.
+    trial = apply_overrides(base_case, overlay, where=WHERE).model_copy(update={"scenarios": []})
+    whatif = _ui.analysed(trial)
 except CaseError as exc:
-    whatif_results, problems, internal = None, exc.problems, None
-for problem in problems:
-    st.error(_ui.problem_text(problem) + " The base case is unchanged.", icon=":material/error:")
-if internal:
-    st.error(f"The engine could not compute this what-if (internal error: {internal}).")
-shown = whatif_results or base_results
+    for problem in exc.problems:
+        st.error(_ui.problem_text(problem) + " The figures below are the base case's.", icon=":material/error:")
+except Exception as exc:  # an engine bug must not reach the screen as a traceback
+    st.error(f"The engine could not compute this what-if (internal error: {type(exc).__name__}: {exc}).")
+
+base_head = headline_figures(base_results)
+head = headline_figures(whatif) if whatif is not None else base_head
+delta = headline_delta(head, base_head)
 
 
-def _measures(r) -> dict[str, str]:
-    out = {"PD in force": _ui.pd_text(r.pd.pd), "Grade": r.pd.grade or "n/a",
-           "Distance to default": num(r.pd.distance_to_default, 2),
-           "Default point": millions(r.pd.default_point, cur), "EAD": millions(r.total.ead, cur),
-           "Expected loss": millions(r.total.expected_loss, cur),
-           "Unexpected loss": millions(r.total.unexpected_loss, cur),
-           "Economic capital": millions(r.total.economic_capital, cur), "RWA": millions(r.total.rwa, cur)}
-    out["RAROC"] = pct(r.pricing.raroc, 1) if r.pricing else "n/a"
-    out["Minimum spread"] = pct(r.pricing.minimum_spread, 3) if r.pricing else "n/a"
-    return out
+def _signed_money(value: float | None) -> str | None:
+    if value is None or value == 0:
+        return None
+    return ("+" if value > 0 else "-") + millions(abs(value), cur)
 
 
-m = st.columns(4)
-m[0].metric("What-if PD", _ui.pd_text(shown.pd.pd), help=f"Base {_ui.pd_text(p.pd)}")
-m[1].metric("What-if EL", millions(shown.total.expected_loss, cur),
-            help=f"Base {millions(base_results.total.expected_loss, cur)}")
-m[2].metric("What-if economic capital", millions(shown.total.economic_capital, cur))
-m[3].metric("What-if RAROC", pct(shown.pricing.raroc, 1) if shown.pricing else "n/a")
+def _signed_rate(value: float | None, decimals: int = 2) -> str | None:
+    if value is None or value == 0:
+        return None
+    return f"{value * 100:+.{decimals}f} pp"
+
+
+st.subheader("Before and after" if overlay else "The case as it stands (move a control to compare)")
+m = st.columns(6)
+figures = (
+    ("PD in force", _ui.pd_text(head.pd), _ui.pd_text(base_head.pd), _signed_rate(delta.pd, 4), "inverse"),
+    ("Expected loss", millions(head.expected_loss, cur), millions(base_head.expected_loss, cur),
+     _signed_money(delta.expected_loss), "inverse"),
+    ("Unexpected loss", millions(head.unexpected_loss, cur), millions(base_head.unexpected_loss, cur),
+     _signed_money(delta.unexpected_loss), "inverse"),
+    ("RWA", millions(head.rwa, cur), millions(base_head.rwa, cur), _signed_money(delta.rwa), "inverse"),
+    ("Economic capital", millions(head.economic_capital, cur), millions(base_head.economic_capital, cur),
+     _signed_money(delta.economic_capital), "inverse"),
+    ("RAROC", pct(head.raroc, 1), pct(base_head.raroc, 1), _signed_rate(delta.raroc, 1), "normal"),
+)
+for where, (label, after, before, change, colour) in zip(m, figures):
+    where.metric(label, after, delta=change, delta_color=colour, help=f"Base case: {before}")
+st.caption(f"Grade {base_head.grade or 'n/a'} \u2192 {head.grade or 'n/a'}; distance to default "
+           f"{num(base_head.distance_to_default, 2)} \u2192 {num(head.distance_to_default, 2)}; default point "
+           f"{millions(base_head.default_point, cur)} \u2192 {millions(head.default_point, cur)}; EAD "
+           f"{millions(base_head.ead, cur)} \u2192 {millions(head.ead, cur)}.")
+
+shown = whatif if whatif is not None else _ui.analysed(base_case.model_copy(update={"scenarios": []}))
+st.subheader("Sensitivities of the what-if case" if overlay and whatif is not None else "Sensitivities of the case")
 left, right = st.columns(2)
+measure = right.radio("Tornado measure", ("el", "pd"), horizontal=True, key="whatif_measure",
+                      format_func={"el": "Expected loss", "pd": "PD in force"}.get)
 with left:
-    _ui.chart(st, charts.asset_trend_figure(shown), key="whatif_trend")
+    _ui.chart(st, charts.pd_grid_figure(shown), key="whatif_pd_grid")
 with right:
-    _ui.chart(st, charts.loss_distribution_figure(shown), key="whatif_loss")
+    _ui.chart(st, charts.sensitivity_figure(shown, measure=measure), key="whatif_tornado")
+notes = list(shown.sensitivity.notes) + [n for row in shown.sensitivity.rows if row.note
+                                         for n in [f"{row.label}: {row.note}"]]
+if notes:
+    with st.expander(f"Notes on the sensitivities ({len(notes)})"):
+        for note in notes:
+            st.markdown(f"- {note}")
 
-if getattr(base_results, "sensitivity", None) is not None:
-    st.subheader("Sensitivities of the case")
-    left, right = st.columns(2)
-    for where, builder, key in ((left, charts.sensitivity_figure, "tornado"),
-                                (right, charts.pd_grid_figure, "pd_grid")):
-        try:
-            _ui.chart(where, builder(base_results), key=key)
-        except ValueError as exc:
-            where.caption(str(exc))
+
+# --------------------------------------------------------------------------- named scenarios
 
 st.divider()
-st.subheader("Save as a named scenario")
+st.subheader("Save the what-if settings as a named scenario")
 
 
-def _save_scenario(name_key: str, text_key: str) -> None:
+def _save_scenario(name_key: str, text_key: str, case) -> None:
     name = (st.session_state.get(name_key) or "").strip()
-    raw = st.session_state.raw
-    scenarios = list(raw.get("scenarios") or [])
-    scenarios.append({"name": name, "description": st.session_state.get(text_key) or "",
-                      "set": dict(st.session_state.whatif)})
-    _ui.commit(state.set_path(raw, "scenarios", scenarios))
+    settings = dict(st.session_state.whatif)
+    existing = [str(s.get("name", "")) for s in (st.session_state.raw.get("scenarios") or [])]
+    if not name:
+        ss.scenario_message = ("error", "**Name**: got an empty name; allowed: 1 to 60 characters.")
+        return
+    if name.casefold() in (e.casefold() for e in existing):
+        ss.scenario_message = ("error", f"**Name**: got {name!r}, which a saved scenario already has; "
+                                        "allowed: a name not yet used (saved: " + ", ".join(existing) + ").")
+        return
+    try:  # the engine holds the settings to the case's rules before anything is written
+        apply_overrides(case, settings, where=f"scenario '{name}'")
+    except CaseError as exc:
+        ss.scenario_message = ("error", " ".join(_ui.problem_text(x) for x in exc.problems))
+        return
+    scenarios = list(st.session_state.raw.get("scenarios") or [])
+    scenarios.append({"name": name, "description": st.session_state.get(text_key) or "", "set": settings})
+    _ui.commit(_ui.state.set_path(st.session_state.raw, "scenarios", scenarios))
+    ss.scenario_message = ("success", f"Saved scenario {name!r} into the case.")
+
+
+def _delete_scenario(key: str) -> None:
+    name = st.session_state.get(key)
+    scenarios = [s for s in (st.session_state.raw.get("scenarios") or []) if s.get("name") != name]
+    _ui.commit(_ui.state.set_path(st.session_state.raw, "scenarios", scenarios))
+    ss.scenario_message = ("success", f"Deleted scenario {name!r}.")
 
 
 c = st.columns([1, 2, 1])
 name_key, text_key = f"scn_name{ss.gen}", f"scn_text{ss.gen}"
-c[0].text_input("Name", key=name_key)
+c[0].text_input("Name", key=name_key, max_chars=60)
 c[1].text_input("Description", key=text_key)
-c[2].button("Save scenario", on_click=_save_scenario, args=(name_key, text_key), disabled=not overlay,
+c[2].button("Save scenario", on_click=_save_scenario, args=(name_key, text_key, base_case), disabled=not overlay,
             help="Saves the current what-if settings into the case." if overlay else "Move a control first.")
+if ss.get("scenario_message"):
+    kind, text = ss.scenario_message
+    (st.error if kind == "error" else st.success)(text)
+    ss.scenario_message = None
 _ui.show_problems("scenarios")
 
 st.subheader("Scenarios side by side")
-columns = {"Base case": _measures(base_results)}
-if overlay:
-    columns["What-if (unsaved)"] = _measures(whatif_results) if whatif_results else {}
-for scenario in (valid.get("scenarios") or []):
-    try:
-        r, found, _ = _ui.evaluate_dict(state.apply_settings(valid, scenario.get("set") or {}))
-    except CaseError as exc:
-        r, found = None, exc.problems
-    columns[scenario["name"]] = _measures(r) if r else {"PD in force": "invalid: " + "; ".join(
-        f"{x.field} {x.allowed}" for x in found)}
-table = pd.DataFrame(columns).fillna("")
-st.dataframe(table, width="stretch")
-for scenario in (valid.get("scenarios") or []):
-    settings = ", ".join(f"{k} = {v}" for k, v in (scenario.get("set") or {}).items())
-    st.caption(f"**{scenario['name']}**: {scenario.get('description') or ''} ({settings})")
+try:
+    compared = _ui.analysed(base_case).scenarios
+except CaseError as exc:
+    compared = ()
+    st.error("A saved scenario does not apply to this case: " + " ".join(_ui.problem_text(x) for x in exc.problems))
+
+
+def _row(name: str, f, d) -> dict[str, str]:
+    return {"Scenario": name, "PD in force": _ui.pd_text(f.pd), "\u0394 PD": _signed_rate(d.pd, 4) or "",
+            "Grade": f.grade or "n/a", "Expected loss": millions(f.expected_loss, cur),
+            "\u0394 EL": _signed_money(d.expected_loss) or "", "Unexpected loss": millions(f.unexpected_loss, cur),
+            "RWA": millions(f.rwa, cur), "\u0394 RWA": _signed_money(d.rwa) or "",
+            "Economic capital": millions(f.economic_capital, cur),
+            "\u0394 EC": _signed_money(d.economic_capital) or "", "RAROC": pct(f.raroc, 1),
+            "\u0394 RAROC": _signed_rate(d.raroc, 1) or ""}
+
+
+rows = [_row("Base case", base_head, headline_delta(base_head, base_head))]
+if overlay and whatif is not None:
+    rows.append(_row("What-if (unsaved)", head, delta))
+rows += [_row(s.name, s.figures, s.delta) for s in compared]
+st.dataframe(pd.DataFrame(rows).set_index("Scenario"), width="stretch")
+if compared:
+    _ui.chart(st, charts.scenarios_figure(_ui.analysed(base_case)), key="scenarios")
+    for s in compared:
+        settings = ", ".join(f"`{k}` = {v}" for k, v in s.overrides)
+        st.caption(f"**{s.name}**: {s.description or '(no description)'} ({settings})")
+    c = st.columns([2, 1, 1])
+    del_key = f"scn_delete{ss.gen}"
+    c[0].selectbox("Scenario to delete", [s.name for s in compared], key=del_key)
+    c[1].button("Delete scenario", on_click=_delete_scenario, args=(del_key,), icon=":material/delete:")
+else:
+    st.caption("No saved scenarios yet.")
