@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import difflib
 import math
+import re
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
@@ -130,6 +131,8 @@ class Recovery(_Model):
     def _feasible(self) -> "Recovery":
         if self.mean > self.upper:
             raise _FieldError("mean", self.mean, f"a recovery mean at most upper = {self.upper:g}")
+        if 0 < self.std < 1e-6:
+            raise _FieldError("std", self.std, "0 (a fixed recovery) or at least 0.000001")
         m = self.mean / self.upper
         limit = self.upper * math.sqrt(m * (1 - m))
         if self.std > 0 and self.std >= limit:
@@ -183,6 +186,13 @@ class LgdSettings(_Model):
     standard: Standard = "basel_iii"
     default_recovery_std: Annotated[float, Field(ge=0, le=0.5)] = 0.25
     downturn: Downturn = Downturn()
+
+    @model_validator(mode="after")
+    def _not_vanishing(self) -> "LgdSettings":
+        if 0 < self.default_recovery_std < 1e-6:
+            raise _FieldError("default_recovery_std", self.default_recovery_std,
+                              "0 (fixed recoveries) or at least 0.000001")
+        return self
 
 
 # --------------------------------------------------------------------------- capital, pricing
@@ -354,6 +364,8 @@ def _path(loc: tuple[Any, ...]) -> str:
     for part in loc:
         if isinstance(part, int):
             out += f"[{part}]"
+        elif not re.fullmatch(r"[A-Za-z0-9_\-]+", str(part)):
+            out += f"[{str(part)!r}]"  # blanks, control or odd characters stay visible
         else:
             out += ("." if out else "") + str(part)
     return out

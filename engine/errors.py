@@ -10,22 +10,25 @@ objects carried in the results, shown by the workbench and printed in the memo.
 
 from __future__ import annotations
 
+import reprlib
 from dataclasses import dataclass
 from typing import Any
 
 _MAX_VALUE_CHARS = 80
+_SHORT_REPR = reprlib.Repr()  # Python 3.11 has no keyword constructor
+_SHORT_REPR.maxlevel, _SHORT_REPR.maxlist, _SHORT_REPR.maxtuple = 2, 4, 4
+_SHORT_REPR.maxdict, _SHORT_REPR.maxset = 4, 4
+_SHORT_REPR.maxstring = _SHORT_REPR.maxother = _MAX_VALUE_CHARS
 
 
 def show_value(value: Any) -> str:
     """A short, unambiguous rendering of a user's value for a message."""
-    if isinstance(value, str):
-        text = repr(value)
-    elif isinstance(value, float):
-        text = repr(value)
+    if isinstance(value, (str, float, int, bool)):
+        text = repr(value) if len(str(value)) <= 10 * _MAX_VALUE_CHARS else repr(str(value)[:_MAX_VALUE_CHARS])
     elif value is None:
         text = "empty (null)"
-    else:
-        text = repr(value)
+    else:  # containers: a bounded rendering, never the whole (possibly huge, shared) structure
+        text = _SHORT_REPR.repr(value)
     if len(text) > _MAX_VALUE_CHARS:
         # Keep both ends: the end of a path (the file name) matters as much as its start.
         keep = (_MAX_VALUE_CHARS - 3) // 2

@@ -282,6 +282,11 @@ def _zscores(case: Case):
                         for row in case.statements for z in scores(row, None) if z.score is not None)
     except ValueError as exc:
         raise engine_error("statements", exc) from None
+    unscored = [z.variant for z in latest if z.score is None and not z.missing]
+    if unscored:
+        cautions.append(Caution("zscore.not_finite", f"{', '.join(unscored)} not computed: the "
+                                "ratios of the latest year are too extreme to give a finite score.",
+                                "statements"))
     missing = sorted({m for z in latest for m in z.missing})
     if missing:
         cautions.append(Caution("zscore.missing", "Z-score variants not computed for lack of the "

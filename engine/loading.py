@@ -29,6 +29,9 @@ class _StrictLoader(yaml.SafeLoader):
 def _mapping_without_duplicates(loader: yaml.SafeLoader, node: yaml.MappingNode, deep: bool = False):
     seen: dict[Any, int] = {}
     for key_node, _ in node.value:
+        if not isinstance(key_node, yaml.ScalarNode):
+            raise _Refused(key_node.start_mark.line + 1, "a key that is a list or mapping",
+                           "plain keys (text) only")
         key = loader.construct_object(key_node, deep=deep)
         if key in seen:
             raise _DuplicateKey(key, key_node.start_mark.line + 1, seen[key])
@@ -36,11 +39,26 @@ def _mapping_without_duplicates(loader: yaml.SafeLoader, node: yaml.MappingNode,
     return loader.construct_mapping(node, deep=deep)
 
 
+class _Refused(Exception):
+    def __init__(self, line: int, what: str, allowed: str):
+        self.line, self.what, self.allowed = line, what, allowed
+
+
 class _DuplicateKey(Exception):
     def __init__(self, key: Any, line: int, first: int):
         self.key, self.line, self.first = key, line, first
 
 
+def _compose_without_aliases(self, parent, index):
+    # Anchors and aliases let a few bytes stand for huge shared structures; a case never needs them.
+    if self.check_event(yaml.AliasEvent):
+        event = self.peek_event()
+        raise _Refused(event.start_mark.line + 1, f"an alias (*{event.anchor})",
+                       "plain values: YAML anchors and aliases are not used in case files")
+    return yaml.composer.Composer.compose_node(self, parent, index)
+
+
+_StrictLoader.compose_node = _compose_without_aliases
 _StrictLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _mapping_without_duplicates)
 # YAML 1.1 reads 1e6 as text; accept the scientific notation people write.
 _StrictLoader.add_implicit_resolver(
@@ -59,11 +77,20 @@ def parse_text(text: str, name: str) -> Any:
     if name.lower().endswith(".json"):
         try:
             return json.loads(text, object_pairs_hook=_json_pairs)
+        except RecursionError:
+            raise CaseError.single(name, "nesting too deep", "a case nested a few levels deep",
+                                   "case file") from None
         except json.JSONDecodeError as exc:
             raise CaseError.single(f"{name}, line {exc.lineno}, column {exc.colno}", exc.msg,
                                    "valid JSON", "case file") from None
     try:
         return yaml.load(text, Loader=_StrictLoader)  # noqa: S506 - _StrictLoader is a SafeLoader
+    except RecursionError:
+        raise CaseError.single(name, "nesting too deep", "a case nested a few levels deep",
+                               "case file") from None
+    except _Refused as refused:
+        raise CaseError.single(f"{name}, line {refused.line}", refused.what, refused.allowed,
+                               "case file") from None
     except _DuplicateKey as dup:
         raise CaseError.single(f"{name}, line {dup.line}", dup.key,
                                f"each key once in a mapping (first given on line {dup.first})",

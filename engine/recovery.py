@@ -166,6 +166,8 @@ def recovery_law(*, mean: float, std: float, upper: float = 1.0, collateral_cove
         raise ValueError(f"collateral cover: got {collateral_cover!r}; allowed: 0 to 1")
     if not (0 <= mean <= upper <= 1):
         raise ValueError(f"recovery.mean: got {mean!r}; allowed: 0 to upper = {upper:g}")
+    if std < 1e-9 and std != 0:
+        raise ValueError(f"recovery.std: got {std!r}; allowed: 0 (a fixed recovery) or at least 1e-9")
     if std == 0 or mean in (0.0, upper):
         if std != 0:
             raise ValueError(f"recovery.std: got {std!r}; allowed: 0 when the mean is {mean:g} "

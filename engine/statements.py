@@ -84,7 +84,13 @@ def _rows_from_csv(data: bytes, name: str) -> list[list[Any]]:
         delimiter = dialect.delimiter
     except csv.Error:
         delimiter = ","
-    return [row for row in csv.reader(io.StringIO(text), delimiter=delimiter)]
+    reader = csv.reader(io.StringIO(text), delimiter=delimiter)
+    try:
+        return [row for row in reader]
+    except csv.Error as exc:
+        raise CaseError.single(f"statements file {name}, line {reader.line_num}", str(exc),
+                               "a plain table of numbers (cells of ordinary length, quotes closed)",
+                               "statements file") from None
 
 
 def _rows_from_xlsx(data: bytes, name: str, sheet: str | None) -> list[list[Any]]:
@@ -148,16 +154,25 @@ def read_statement_table(data: bytes, name: str, *, sheet: str | None = None,
     if not rows:
         raise CaseError.single(f"statements file {name}", "no rows",
                                "a header row and at least one year", "statements file")
-    header = [_header_key(c) for c in rows[0]]
+    typed = ["" if c is None else str(c).strip() for c in rows[0]]
+    header = [_header_key(c) for c in typed]
     problems: list[Problem] = []
-    unknown = [h for h in header if h and h not in ALL_COLUMNS]
+    first_at: dict[str, int] = {}
+    for position, key in enumerate(header, start=1):
+        if not key:
+            continue
+        if key in first_at:
+            problems.append(Problem(f"statements file {name}, header, column {position}", typed[position - 1],
+                                    f"each column once ({key} is also column {first_at[key]})"))
+        first_at.setdefault(key, position)
+    unknown = [(h, t) for h, t in zip(header, typed) if h and h not in ALL_COLUMNS]
     if unknown:
         import difflib
 
-        for h in unknown:
+        for h, t in unknown:
             near = difflib.get_close_matches(h, ALL_COLUMNS, n=1, cutoff=0.6)
             hint = f" (did you mean '{near[0]}'?)" if near else ""
-            problems.append(Problem(f"statements file {name}, header", h,
+            problems.append(Problem(f"statements file {name}, header", t,
                                     f"a known column{hint}: {', '.join(ALL_COLUMNS)}"))
     for needed in REQUIRED_COLUMNS:
         if needed not in header:
@@ -181,6 +196,10 @@ def read_statement_table(data: bytes, name: str, *, sheet: str | None = None,
             except ValueError:
                 problems.append(Problem(f"statements file {name}, row {r_index}, column {key}", cell,
                                         "a number such as 1234.5 or 1,234.5"))
+                continue
+            if value is not None and key != "year" and not math.isfinite(value):
+                problems.append(Problem(f"statements file {name}, row {r_index}, column {key}", cell,
+                                        "a finite number (this one is too large for the computer)"))
                 continue
             if value is None:
                 if key in REQUIRED_COLUMNS:
@@ -233,7 +252,7 @@ def year_ratios(rows: list[Any]) -> tuple[YearRatios, ...]:
             equity_ratio=(row.book_equity / row.total_assets) if row.book_equity is not None else None,
             ebit_margin=(row.ebit / row.sales) if (row.ebit is not None and row.sales) else None,
             return_on_assets=(row.ebit / row.total_assets) if row.ebit is not None else None,
-            asset_growth=(math.log(row.total_assets / previous.total_assets)
+            asset_growth=(math.log(row.total_assets) - math.log(previous.total_assets)
                           if previous is not None else None),
         ))
         previous = row

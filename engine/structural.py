@@ -43,7 +43,7 @@ def distance_to_default(*, asset_value, default_point, asset_return, asset_volat
                          f"(got asset value {v!r}, default point {dp!r})")
     if np.any(s <= 0) or np.any(t <= 0):
         raise ValueError(f"asset volatility and horizon must be above 0 (got {s!r}, {t!r})")
-    dd = (np.log(v / dp) + (np.asarray(asset_return, dtype=float) - s**2 / 2) * t) / (s * np.sqrt(t))
+    dd = (np.log(v) - np.log(dp) + (np.asarray(asset_return, dtype=float) - s**2 / 2) * t) / (s * np.sqrt(t))
     return float(dd) if dd.ndim == 0 else dd
 
 
@@ -111,7 +111,7 @@ def structural_term_structure(*, asset_value: float, default_point: float, log_d
     (g on the balance sheet; r - s^2/2 risk-neutral in the market model). The default point is held
     at today's value: a simplification stated in the memo's cautions."""
     t = np.arange(1, years + 1, dtype=float)
-    dd = (math.log(asset_value / default_point) + log_drift * t) / (asset_volatility * np.sqrt(t))
+    dd = (math.log(asset_value) - math.log(default_point) + log_drift * t) / (asset_volatility * np.sqrt(t))
     cumulative = np.asarray(pd_from_distance(dd))
     return _from_cumulative(t, np.maximum.accumulate(cumulative), basis)
 

@@ -127,6 +127,11 @@ def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years
         raise ValueError("pd.asset_volatility: got 0.0 as the estimate (total assets changed by the "
                          "same log amount every year); allowed: a volatility above 0: set "
                          "pd.asset_volatility")
+    if vol_estimate is not None and vol_estimate > 3 and volatility_override is None:
+        raise ValueError(f"pd.asset_volatility: got {vol_estimate:.4g} as the estimate from the "
+                         "statements; allowed: an estimate up to 3 (300 % a year); swings this wide "
+                         "make the structural model meaningless: review the statements or set "
+                         "pd.asset_volatility")
     for fit, label in ((log_fit, "log-linear"), (level_fit, "straight-line")):
         if fit.r_squared is not None and fit.r_squared < 0.5 and fit.n >= 3:
             cautions.append(Caution("trend.weak_fit", f"The {label} asset trend explains little "

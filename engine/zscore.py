@@ -213,6 +213,14 @@ def altman_scores(
     return tuple(_score_variant(variant, columns) for variant in _VARIANTS)
 
 
+def _ratio(numerator: float, denominator: float) -> float:
+    """numerator / denominator, inf (not an exception) when the quotient overflows."""
+    try:
+        return numerator / denominator
+    except OverflowError:
+        return math.copysign(math.inf, numerator) * math.copysign(1.0, denominator)
+
+
 def _score_variant(variant: _Variant, columns: Mapping[str, float | None]) -> ZScore:
     definitions = dict(_RATIO_COLUMNS)
     definitions["X4"] = (variant.equity_column, "total_liabilities")
@@ -224,15 +232,21 @@ def _score_variant(variant: _Variant, columns: Mapping[str, float | None]) -> ZS
         ratio_definitions[ratio] = f"{numerator} / {denominator}"
         absent = [c for c in (numerator, denominator) if columns[c] is None]
         missing.extend(c for c in absent if c not in missing)
-        components[ratio] = None if absent else columns[numerator] / columns[denominator]
+        components[ratio] = None if absent else _ratio(columns[numerator], columns[denominator])
     coefficients = dict(variant.coefficients)
     score: float | None = None
     zone: Zone | None = None
-    if not missing:
-        score = math.fsum(coefficients[r] * components[r] for r in coefficients)
-        zone = altman_zone(
-            score=score, distress_below=variant.distress_below, safe_above=variant.safe_above
-        )
+    if not missing and all(math.isfinite(components[r]) for r in coefficients):
+        try:
+            score = math.fsum(coefficients[r] * components[r] for r in coefficients)
+        except OverflowError:  # finite terms whose sum is not: no meaningful score
+            score = None
+        if score is not None and math.isfinite(score):
+            zone = altman_zone(
+                score=score, distress_below=variant.distress_below, safe_above=variant.safe_above
+            )
+        else:
+            score = None
     return ZScore(
         variant=variant.name,
         score=score,

@@ -7,9 +7,7 @@ escapes: no other exception type, no traceback, no NaN or infinity.
 
 Cases are generated two ways: mutations of valid cases (the sample borrower with its statements
 inlined, and the minimal case) and random structures. Runs are derandomised so CI is
-reproducible. A handful of defects are known and pinned by strict xfail tests at the end of the
-file; the fuzz loops recognise exactly those (exception type and the function that raised it)
-so that a new kind of failure still fails the run.
+reproducible. Defects the fuzzing once found are reproduced by tests at the end of the file.
 """
 
 from __future__ import annotations
@@ -19,7 +17,6 @@ import json
 import math
 import tempfile
 import time
-import traceback
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -32,7 +29,7 @@ from hypothesis import strategies as st
 
 from conftest import SAMPLE_CASE, minimal_case_dict
 from engine.case import parse_case
-from engine.errors import CaseError, Problem
+from engine.errors import CaseError
 from engine.evaluate import evaluate
 from engine.loading import load_case_text, parse_text, resolve_statements
 
@@ -194,29 +191,6 @@ def random_cases(draw: st.DrawFn) -> Any:
 # ------------------------------------------------------------------ the contract
 
 
-def _known_defect(exc: BaseException) -> str | None:
-    """The name of the pinned defect this exception is, or None for a new failure."""
-    functions = {frame.name for frame in traceback.extract_tb(exc.__traceback__)}
-    if isinstance(exc, RecursionError) and "parse_text" in functions:
-        return "deep nesting in case text"
-    if isinstance(exc, TypeError) and "_mapping_without_duplicates" in functions:
-        return "YAML key that is a list or mapping"
-    if isinstance(exc, ZeroDivisionError) and "beta_parameters_from_moments" in functions:
-        return "recovery std whose square underflows"
-    if isinstance(exc, ValueError) and functions & {"year_ratios", "structural_term_structure"}:
-        return "log of an asset ratio that underflows to 0"
-    if isinstance(exc, OverflowError) and "_score_variant" in functions:
-        return "Z-score sum that overflows"
-    if isinstance(exc, ValueError) and "balance_sheet_pd_grid" in functions:
-        return "PD grid around an estimated volatility above 10"
-    return None
-
-
-def _blank_key_problem(problem: Problem) -> bool:
-    """The pinned defect of an unknown key made only of blanks: the field prints as nothing."""
-    return not problem.field.strip() and problem.allowed.startswith("no such key")
-
-
 # The documented keys of ``evaluate --json`` that are numbers: each must be a finite number.
 CONTRACT_NUMBERS = {
     "pd": ("asset_value", "asset_volatility", "default_point", "pd", "horizon_years"),
@@ -235,30 +209,21 @@ def _assert_finite_contract(results: Any) -> None:
 
 
 def check_contract(make: Callable[[], Any], run: Callable[[Any], Any] = evaluate,
-                   tolerate_known: bool = True) -> str:
+                   tolerate_known: bool = False) -> str:
     """Run one input through validation and evaluation; assert the contract; say what happened.
 
-    Returns "accepted", "rejected" or "known: <defect>" (only while ``tolerate_known``).
+    Returns "accepted" or "rejected"; any other exception fails the test. (``tolerate_known`` is
+    kept for the call sites: the defects it once tolerated are fixed and tested below.)
     """
     try:
         results = run(make())
     except CaseError as exc:
         assert exc.problems, "a CaseError with no problems"
-        known = ""
         for problem in exc.problems:
             assert isinstance(problem.allowed, str) and problem.allowed.strip(), problem
-            assert isinstance(problem.field, str) and problem.field, problem
-            if tolerate_known and _blank_key_problem(problem):
-                known = "known: unknown key made of blanks"
-                continue
-            assert problem.field.strip(), problem
+            assert isinstance(problem.field, str) and problem.field.strip(), problem
         assert exc.paragraph()
-        return known or "rejected"
-    except Exception as exc:  # noqa: BLE001 - anything else breaks the contract, unless pinned
-        defect = _known_defect(exc)
-        if defect is None or not tolerate_known:
-            raise
-        return "known: " + defect
+        return "rejected"
     _assert_finite_contract(results)
     return "accepted"
 
@@ -346,7 +311,6 @@ _CLI_DIR = Path(tempfile.mkdtemp(prefix="obligor-fuzz-"))
 @given(data=mutated_cases(max_mutations=2), as_yaml=st.booleans())
 def test_command_line_exits_0_or_2_without_traceback(data: dict[str, Any], as_yaml: bool) -> None:
     from app.cli import main
-    from engine.analysis import analyse
 
     path = _CLI_DIR / ("case.yaml" if as_yaml else "case.json")
     if as_yaml:
@@ -355,9 +319,6 @@ def test_command_line_exits_0_or_2_without_traceback(data: dict[str, Any], as_ya
         path.write_text(json.dumps(data, allow_nan=True), encoding="utf-8")
     result = CliRunner().invoke(main, ["evaluate", str(path), "--json"])
     assert "Traceback" not in result.output
-    if result.exit_code == 3 and check_contract(lambda: parse_case(data), run=analyse).startswith("known"):
-        _tally("cli", "known defect (exit 3)")
-        return
     assert result.exit_code in (0, 2), (result.exit_code, result.output[-2000:])
     if result.exit_code == 0:
         json.loads(result.stdout, parse_constant=lambda token: pytest.fail(f"{token} in JSON"))
@@ -407,10 +368,8 @@ def test_fuzz_reached_both_outcomes() -> None:
             assert counts.get("accepted", 0) > 0 and counts.get("rejected", 0) > 0, (name, counts)
 
 
-# ------------------------------------------------------------------ pinned defects (strict xfail)
-# Each reproduces one failure the fuzzing found; the fix is named in the reason. When a fix
-# lands the test passes, strict xfail fails the run, and the matching branch of _known_defect
-# (or _blank_key_problem) is to be removed with the marker.
+# ------------------------------------------------------------------ defects the fuzzing found
+# Each reproduces one failure the fuzzing once found, now fixed; they guard against its return.
 
 
 def _strict(reason: str) -> pytest.MarkDecorator:
@@ -424,8 +383,6 @@ def _minimal_with(**changes: Any) -> Callable[[], Any]:
     return lambda: parse_case(doc)
 
 
-@_strict("engine/loading.py parse_text lets RecursionError escape from json.loads and yaml.load; "
-         "catch it there and raise CaseError naming the file ('nesting too deep')")
 @pytest.mark.parametrize("text, name", [("[" * 100_000 + "]" * 100_000, "c.json"),
                                         ("[" * 3_000 + "]" * 3_000, "c.yaml"),
                                         ("a: " + "{b: " * 3_000 + "1" + "}" * 3_000, "c.yaml")])
@@ -435,8 +392,6 @@ def test_deeply_nested_text_is_refused_with_a_message(text: str, name: str) -> N
     assert any(name in field for field in caught.value.fields)
 
 
-@_strict("engine/loading.py _mapping_without_duplicates: 'key in seen' raises TypeError for a "
-         "YAML complex key (a list or mapping); refuse non-scalar keys with a CaseError first")
 @pytest.mark.parametrize("text", ["? [a, b]\n: 1\n", "borrower:\n  ? {a: 1}\n  : 1\n"])
 def test_yaml_key_that_is_a_list_or_mapping_is_refused(text: str) -> None:
     with pytest.raises(CaseError) as caught:
@@ -444,32 +399,21 @@ def test_yaml_key_that_is_a_list_or_mapping_is_refused(text: str) -> None:
     assert all(field.strip() for field in caught.value.fields)
 
 
-@_strict("engine/recovery.py beta_parameters_from_moments divides by (std/upper)**2, which "
-         "underflows to 0 for std below ~1e-162; treat such a std as 0 (a point mass) in "
-         "recovery_law, or have the schema ask for std 0 or at least 1e-9")
 def test_recovery_std_whose_square_underflows() -> None:
     check_contract(_minimal_with(facilities__0__recovery={"mean": 0.5, "std": 1e-170}),
                    tolerate_known=False)
 
 
-@_strict("engine/statements.py year_ratios: math.log(TA_t / TA_t-1) fails when the ratio "
-         "underflows to 0; use math.log(TA_t) - math.log(TA_t-1)")
 def test_total_assets_that_collapse_by_300_orders_of_magnitude() -> None:
     check_contract(_minimal_with(statements__2__total_assets=1e15, statements__3__total_assets=1e-310,
                                  pd={"asset_volatility": 0.2, "asset_growth": 0.0}), tolerate_known=False)
 
 
-@_strict("engine/structural.py structural_term_structure: math.log(asset_value / default_point) "
-         "fails when the ratio underflows to 0 (balance_sheet_pd uses np.log and gets PD 1); "
-         "use math.log(asset_value) - math.log(default_point)")
 def test_tiny_assets_against_the_default_point() -> None:
     check_contract(_minimal_with(statements__3__total_assets=5e-324,
                                  pd={"asset_volatility": 0.2, "asset_growth": 0.0}), tolerate_known=False)
 
 
-@_strict("engine/zscore.py _score_variant: math.fsum raises OverflowError when the weighted "
-         "ratios are finite but their sum is not; give score None (with a caution) when a "
-         "component or the sum is not finite")
 def test_z_score_whose_sum_overflows() -> None:
     doc = copy.deepcopy(SAMPLE)
     doc["statements"][-1].update(total_assets=1e-300, sales=1e15)
@@ -477,8 +421,6 @@ def test_z_score_whose_sum_overflows() -> None:
     check_contract(lambda: parse_case(doc), tolerate_known=False)
 
 
-@_strict("engine/case.py _path prints a key as it is, so an unknown key made of blanks or "
-         "control characters gives an invisible field; quote such keys, e.g. [' ']")
 @pytest.mark.parametrize("key", [" ", "\x1c", "\xa0\x0c", "\t"])
 def test_unknown_blank_key_is_visible_in_the_field(key: str) -> None:
     doc = minimal_case_dict()
@@ -488,17 +430,16 @@ def test_unknown_blank_key_is_visible_in_the_field(key: str) -> None:
     assert all(field.strip() for field in caught.value.fields), caught.value.fields
 
 
-@_strict("engine/sensitivity.py pd_grid centres the volatility axis on the estimate and "
-         "balance_sheet_pd_grid refuses volatilities above 10 with a bare ValueError, so a case "
-         "that evaluates fails in the full analysis (CLI exit 3); clip the axis to (0, 10] in "
-         "pd_grid (with a note), or cap the estimated volatility with a CaseError naming statements")
 def test_full_analysis_of_statements_with_wild_swings() -> None:
     from engine.analysis import analyse
 
     make = _minimal_with(statements__0__total_assets=1.0, statements__1__total_assets=1e15,
                          statements__2__total_assets=1.0, statements__3__total_assets=1e15)
-    assert check_contract(make) == "accepted"  # the plain evaluation copes
-    check_contract(make, run=analyse, tolerate_known=False)
+    # An estimated asset volatility beyond 300 % a year is refused at evaluation, naming the field.
+    with pytest.raises(CaseError) as caught:
+        evaluate(make())
+    assert caught.value.fields == ("pd.asset_volatility",)
+    assert check_contract(make, run=analyse, tolerate_known=False) == "rejected"
 
 
 def _alias_bomb(levels: int) -> str:
@@ -508,10 +449,6 @@ def _alias_bomb(levels: int) -> str:
     return "\n".join(lines + [f"borrower: {{name: *a{levels - 1}, currency: EUR}}", ""])
 
 
-@_strict("engine/errors.py show_value calls repr() on the whole value before cutting it to 80 "
-         "characters, so a YAML alias bomb (shared lists, cheap to load) costs 9**levels in the "
-         "message; 300 bytes take seconds and 400 bytes take minutes. Render with reprlib.Repr "
-         "(maxlevel 2, maxlist/maxdict 4, maxstring 80); optionally refuse aliases in _StrictLoader")
 def test_yaml_alias_bomb_is_refused_quickly() -> None:
     text = _alias_bomb(7)
     assert len(text) < 500

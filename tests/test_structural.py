@@ -61,7 +61,7 @@ def test_distance_to_default_uses_mu_minus_half_variance() -> None:
     v, dp, mu, s, t = 150.0, 100.0, 0.08, 0.2, 2.0
     expected = (math.log(1.5) + (0.08 - 0.02) * 2.0) / (0.2 * math.sqrt(2.0))
     assert distance_to_default(asset_value=v, default_point=dp, asset_return=mu, asset_volatility=s,
-                               horizon_years=t) == pytest.approx(expected, rel=1e-15)
+                               horizon_years=t) == pytest.approx(expected, rel=1e-13)
 
 
 def test_distance_to_default_broadcasts() -> None:
@@ -69,7 +69,8 @@ def test_distance_to_default_broadcasts() -> None:
     dd = distance_to_default(asset_value=values, default_point=100.0, asset_return=0.05,
                              asset_volatility=0.2, horizon_years=1.0)
     expected = (np.log(values / 100.0) + (0.05 - 0.02)) / 0.2
-    np.testing.assert_allclose(dd, expected, rtol=1e-15)
+    # ln V - ln DP (kept finite when V/DP underflows) and ln(V/DP) differ in the last bits.
+    np.testing.assert_allclose(dd, expected, rtol=1e-13)
     np.testing.assert_allclose(pd_from_distance(dd), stats.norm.cdf(-expected), rtol=1e-12)
 
 

@@ -175,9 +175,6 @@ def test_accented_header_is_refused_as_an_unknown_column(encoding: str) -> None:
          "a known column")
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "engine/statements.py read_statement_table reports the normalised header key ('b_n_fice') as "
-    "the value; keep the header cell as typed for the message and match on the key"))
 def test_accented_header_is_shown_as_typed() -> None:
     data = _csv(*ROWS, header=HEADER + ",Bénéfice").encode("cp1252")
     assert _refused(data, "accents.csv").problems[0].value == "Bénéfice"
@@ -268,26 +265,15 @@ def test_a_fractional_year_in_a_workbook() -> None:
     _one(_refused(_xlsx(rows), "s.xlsx"), "statements file s.xlsx, row 3, column year", "a whole year")
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "engine/statements.py _rows_from_csv lets csv.Error ('field larger than field limit') escape "
-    "for a cell over 131,072 characters; catch csv.Error there and raise CaseError naming the file "
-    "and the reader's line number"))
 def test_a_cell_longer_than_the_csv_field_limit() -> None:
     _refused(_csv(*ROWS[:3], "2024," + "1" * 200_000 + ",80,30").encode(), "s.csv")
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "engine/statements.py read_statement_table keeps the last of two columns with the same header "
-    "(the first value is silently dropped); refuse a repeated header naming both positions"))
 def test_a_column_given_twice_is_refused() -> None:
     header = HEADER + ",total_assets"
     _refused(_csv("2024,120,80,30,999", header=header).encode(), "s.csv")
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "engine/statements.py parse_number turns '1e400' into inf and returns it; the schema then names "
-    "statements[3].total_assets without the file, row and column. Refuse a non-finite number in "
-    "parse_number's caller with the cell's place"))
 def test_a_number_too_large_for_a_float_is_refused_in_the_table() -> None:
     _refused(_csv(*ROWS[:3], "2024,1e400,80,30").encode(), "s.csv")
 
