@@ -16,6 +16,7 @@ import asyncio
 import base64
 import hashlib
 import os
+import re
 import threading
 from dataclasses import dataclass
 from datetime import datetime, timezone
@@ -31,6 +32,7 @@ BROWSER_CANDIDATES = ("/usr/bin/chromium", "/usr/bin/chromium-browser", "/usr/bi
 CHART_TIMEOUT_SECONDS = 60.0
 PAGE_SIZES = {"A4": "A4", "Letter": "letter"}
 # Any fixed instant works; a PDF reader shows it as the document date, so it is stated plainly.
+_NESTED_IMAGE = re.compile(r'<image[^>]*?href="(data:image/png;base64,[A-Za-z0-9+/=]+)"')
 FIXED_PDF_DATE = datetime(2000, 1, 1, tzinfo=timezone.utc)
 NO_CHART_FIX = ("install Chromium (for example 'apt-get install chromium'), or set BROWSER_PATH to "
                 "a Chrome or Chromium executable, or print without charts with --no-charts")
@@ -401,7 +403,16 @@ def _prepare(results: Any, *, charts: bool, page_size: str | None,
     view = build_view(results, charts=svgs, chart_notes=notes, charts_requested=charts,
                       generated_at=text_stamp, page_size=size)
     html = _environment().get_template("memo.html").render(**view)
-    return html, size, text_stamp, set(svgs.values())
+    return html, size, text_stamp, _allowed_uris(svgs)
+
+
+def _allowed_uris(data_uris: dict[str, str]) -> set[str]:
+    """Our chart URIs, plus the bitmaps plotly itself embeds in them (a heatmap's cells)."""
+    allowed = set(data_uris.values())
+    for uri in data_uris.values():
+        svg = base64.b64decode(uri.partition(",")[2]).decode("utf-8")
+        allowed.update(_NESTED_IMAGE.findall(svg))
+    return allowed
 
 
 def _page_size(results: Any, page_size: str | None) -> str:
