@@ -21,7 +21,7 @@ import numpy as np
 import plotly.graph_objects as go
 
 from app.charts import COPPER, INK, MILLION, STEEL, _currency, _money_axis, layout_dict
-from app.formatting import millions, num, pct, pd_pct
+from app.formatting import millions, money, num, pct, pd_pct
 
 MEASURES = ("el", "pd")
 # PDs below this are drawn in the lightest colour (log10 of 0 has no place on the scale); the
@@ -80,7 +80,9 @@ def sensitivity_figure(results: Any, *, measure: str = "el") -> go.Figure:
     sens = getattr(results, "sensitivity", None)
     if sens is None:
         raise ValueError("results.sensitivity: got None; allowed: results of engine.analysis.analyse")
-    scale = MILLION if measure == "el" else 1.0
+    # EL below a million reads in thousands: "0.013" of a million is no figure to read off.
+    peak = max([sens.el_base] + [v for r in sens.rows for v in (r.el_low, r.el_high) if v is not None])
+    scale = (MILLION if peak >= MILLION else 1e3) if measure == "el" else 1.0
     rows = sorted(sens.rows, key=lambda r: -_swing(r, measure))   # stable: ties keep the engine's order
     rows = rows[::-1]                                             # plotly draws the first row at the bottom
     labels = [_row_label(r) for r in rows]
@@ -117,13 +119,14 @@ def sensitivity_figure(results: Any, *, measure: str = "el") -> go.Figure:
             annotations.append({"y": label, "x": base_value, "xref": "x", "yref": "y", "showarrow": False,
                                 "text": f"no effect on the {'EL' if measure == 'el' else 'PD'}",
                                 "xanchor": "left", "xshift": 8, "font": {"size": 10, "color": STEEL}})
-    base_text = (millions(sens.el_base, _currency(results)) if measure == "el" else pd_pct(sens.pd_base))
+    base_text = (_value_text(sens.el_base, "el", results) if measure == "el" else pd_pct(sens.pd_base))
     traces.append({"type": "scatter", "x": [base_value, base_value],
                    "y": [labels[0], labels[-1]] if labels else [0, 1], "mode": "lines",
                    "name": f"Base {base_text}", "line": {"color": INK, "width": 2, "dash": "dash"},
                    "hoverinfo": "skip"})
     what = "Expected loss" if measure == "el" else "PD in force"
-    unit = _money_axis(results) if measure == "el" else "[%]"
+    unit = ((_money_axis(results) if scale == MILLION else f"[{_currency(results)} k]") if measure == "el"
+            else "[%]")
     title = f"One-way sensitivity of the {what.lower() if measure == 'el' else 'PD in force'}"
     if sens.pd_overridden:
         title += " (PD overridden: model inputs move the model PD only)"
@@ -144,7 +147,9 @@ def _swing(row: Any, measure: str) -> float:
 def _value_text(value: float | None, measure: str, results: Any) -> str:
     if value is None:
         return "not computed"
-    return millions(value, _currency(results)) if measure == "el" else pd_pct(value)
+    if measure == "pd":
+        return pd_pct(value)
+    return millions(value, _currency(results)) if abs(value) >= MILLION else money(value, _currency(results))
 
 
 def _short(note: str, limit: int = 90) -> str:
@@ -171,7 +176,9 @@ def _padded_axis(rows: list[Any], measure: str, scale: float, base_value: float)
 
 
 def _decimals(step: float) -> int:
-    return max(0, -math.floor(math.log10(step)) + (0 if step >= 1 else 1)) if step < 1 else 0
+    """Decimals that write the tick step exactly (0.02 -> 2, 0.025 -> 3, 5 -> 0)."""
+    text = f"{step:.6f}".rstrip("0").rstrip(".")
+    return len(text.split(".")[1]) if "." in text else 0
 
 
 # --------------------------------------------------------------------------- PD heat map

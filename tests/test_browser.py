@@ -123,6 +123,30 @@ def test_default_point_moves_pd(server):
                             full_page=True)
             assert not page.get_by_text("Traceback").count()
 
+        # What-if: a control moves the PD metric and redraws the heat map and tornado.
+        page.get_by_role("link", name="What-if and scenarios").click()
+        page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=20000)
+        _settle(page)
+        before = _metric(page, "PD in force")
+        # The case's share is 1.00 after the edit above; the what-if lightens it.
+        box = page.get_by_role("spinbutton", name="Long-term share of the default point")
+        box.fill("0.30")
+        box.press("Enter")
+        page.wait_for_function(
+            "(old) => [...document.querySelectorAll('[data-testid=\"stMetric\"]')]"
+            ".some(m => m.innerText.includes('PD in force') && !m.innerText.includes(old))",
+            arg=before, timeout=15000)
+        _settle(page)
+        page.locator(".js-plotly-plot").nth(1).wait_for(timeout=15000)
+        # Streamlit scrolls inside its own container: a tall window shows the whole page.
+        page.set_viewport_size({"width": 1500, "height": 3400})
+        _settle(page)
+        page.screenshot(path=str(ARTIFACTS / "10_whatif_moved.png"), full_page=True)
+        page.set_viewport_size({"width": 1500, "height": 1100})
+        assert page.get_by_text("Model PD by default point and volatility").count()
+        assert page.get_by_text("One-way sensitivity of the expected loss").count()
+        assert not page.get_by_text("Traceback").count()
+
         # The autosave keeps what was typed: a fresh load of the same address restores it.
         page.reload(wait_until="networkidle")
         page.get_by_role("link", name="Asset trend and PD").click()

@@ -184,10 +184,12 @@ def test_what_if_figures_have_units_and_differ_by_more_than_colour(analysed):
         assert len(set(looks)) == len(looks), f"{name}: two series look alike in grayscale"
 
 
-@pytest.mark.parametrize("measure, scale, low, high", [("el", 1e6, "el_low", "el_high"),
-                                                       ("pd", 1.0, "pd_low", "pd_high")])
-def test_tornado_bar_ends_are_the_tables_values(analysed, measure, scale, low, high):
+@pytest.mark.parametrize("measure, low, high", [("el", "el_low", "el_high"), ("pd", "pd_low", "pd_high")])
+def test_tornado_bar_ends_are_the_tables_values(analysed, measure, low, high):
     fig = charts.sensitivity_figure(analysed, measure=measure)
+    title = fig.layout.xaxis.title.text
+    # The axis says its unit: money in EUR thousands or millions, PD as a fraction shown in %.
+    scale = {"[EUR m]": 1e6, "[EUR k]": 1e3, "[%]": 1.0}[title[title.index("["):]]
     down, up = fig.data[0], fig.data[1]
     table = {charts_whatif._row_label(r): r for r in analysed.sensitivity.rows}
     base = (analysed.sensitivity.el_base if measure == "el" else analysed.sensitivity.pd_base) / scale
@@ -212,7 +214,9 @@ def test_tornado_labels_name_the_moved_input(analysed):
     vol = next(y for y in down.y if rows[y].assumption == "asset_volatility")
     j = list(down.y).index(vol)
     assert up.text[j] == f"{rows[vol].high_value * 100:.1f} %"
-    assert "EUR m" in fig.layout.xaxis.title.text
+    # The sample's EL moves below EUR 1m: the axis reads in thousands, the base in whole euros.
+    assert fig.layout.xaxis.title.text == "Expected loss [EUR k]"
+    assert fig.data[2].name == f"Base EUR {analysed.total.expected_loss:,.0f}"
     with pytest.raises(ValueError, match="measure: got 'lgd'"):
         charts.sensitivity_figure(analysed, measure="lgd")
 

@@ -13,7 +13,7 @@ import pandas as pd
 import streamlit as st
 
 from app import charts
-from app.formatting import millions, num, pct
+from app.formatting import millions, money, num, pct
 from app.pages import _ui
 from engine.errors import CaseError
 from engine.scenarios import apply_overrides, headline_delta, headline_figures
@@ -129,10 +129,18 @@ head = headline_figures(whatif) if whatif is not None else base_head
 delta = headline_delta(head, base_head)
 
 
+def _amount(value: float | None) -> str:
+    """Millions with two decimals, but whole units below a million: a small EL or a capital
+    of zero must not read as "EUR 0.00m"."""
+    if value is None:
+        return "n/a"
+    return millions(value, cur) if abs(value) >= 1e6 else money(value, cur)
+
+
 def _signed_money(value: float | None) -> str | None:
     if value is None or value == 0:
         return None
-    return ("+" if value > 0 else "-") + millions(abs(value), cur)
+    return ("+" if value > 0 else "-") + _amount(abs(value))
 
 
 def _signed_rate(value: float | None, decimals: int = 2) -> str | None:
@@ -145,17 +153,19 @@ st.subheader("Before and after" if overlay else "The case as it stands (move a c
 m = st.columns(6)
 figures = (
     ("PD in force", _ui.pd_text(head.pd), _ui.pd_text(base_head.pd), _signed_rate(delta.pd, 4), "inverse"),
-    ("Expected loss", millions(head.expected_loss, cur), millions(base_head.expected_loss, cur),
+    ("Expected loss", _amount(head.expected_loss), _amount(base_head.expected_loss),
      _signed_money(delta.expected_loss), "inverse"),
-    ("Unexpected loss", millions(head.unexpected_loss, cur), millions(base_head.unexpected_loss, cur),
+    ("Unexpected loss", _amount(head.unexpected_loss), _amount(base_head.unexpected_loss),
      _signed_money(delta.unexpected_loss), "inverse"),
-    ("RWA", millions(head.rwa, cur), millions(base_head.rwa, cur), _signed_money(delta.rwa), "inverse"),
-    ("Economic capital", millions(head.economic_capital, cur), millions(base_head.economic_capital, cur),
+    ("RWA", _amount(head.rwa), _amount(base_head.rwa), _signed_money(delta.rwa), "inverse"),
+    ("Economic capital", _amount(head.economic_capital), _amount(base_head.economic_capital),
      _signed_money(delta.economic_capital), "inverse"),
     ("RAROC", pct(head.raroc, 1), pct(base_head.raroc, 1), _signed_rate(delta.raroc, 1), "normal"),
 )
 for where, (label, after, before, change, colour) in zip(m, figures):
     where.metric(label, after, delta=change, delta_color=colour, help=f"Base case: {before}")
+    if overlay:
+        where.caption(f"base case {before}")
 st.caption(f"Grade {base_head.grade or 'n/a'} \u2192 {head.grade or 'n/a'}; distance to default "
            f"{num(base_head.distance_to_default, 2)} \u2192 {num(head.distance_to_default, 2)}; default point "
            f"{millions(base_head.default_point, cur)} \u2192 {millions(head.default_point, cur)}; EAD "
@@ -163,9 +173,10 @@ st.caption(f"Grade {base_head.grade or 'n/a'} \u2192 {head.grade or 'n/a'}; dist
 
 shown = whatif if whatif is not None else _ui.analysed(base_case.model_copy(update={"scenarios": []}))
 st.subheader("Sensitivities of the what-if case" if overlay and whatif is not None else "Sensitivities of the case")
-left, right = st.columns(2)
-measure = right.radio("Tornado measure", ("el", "pd"), horizontal=True, key="whatif_measure",
-                      format_func={"el": "Expected loss", "pd": "PD in force"}.get)
+measure = st.radio("Tornado measure", ("el", "pd"), horizontal=True, key="whatif_measure",
+                   format_func={"el": "Expected loss", "pd": "PD in force"}.get)
+# The tornado's row labels are long: it gets the wider column so its bars keep their length.
+left, right = st.columns([2, 3])
 with left:
     _ui.chart(st, charts.pd_grid_figure(shown), key="whatif_pd_grid")
 with right:
@@ -235,10 +246,10 @@ except CaseError as exc:
 
 def _row(name: str, f, d) -> dict[str, str]:
     return {"Scenario": name, "PD in force": _ui.pd_text(f.pd), "\u0394 PD": _signed_rate(d.pd, 4) or "",
-            "Grade": f.grade or "n/a", "Expected loss": millions(f.expected_loss, cur),
-            "\u0394 EL": _signed_money(d.expected_loss) or "", "Unexpected loss": millions(f.unexpected_loss, cur),
-            "RWA": millions(f.rwa, cur), "\u0394 RWA": _signed_money(d.rwa) or "",
-            "Economic capital": millions(f.economic_capital, cur),
+            "Grade": f.grade or "n/a", "Expected loss": _amount(f.expected_loss),
+            "\u0394 EL": _signed_money(d.expected_loss) or "", "Unexpected loss": _amount(f.unexpected_loss),
+            "RWA": _amount(f.rwa), "\u0394 RWA": _signed_money(d.rwa) or "",
+            "Economic capital": _amount(f.economic_capital),
             "\u0394 EC": _signed_money(d.economic_capital) or "", "RAROC": pct(f.raroc, 1),
             "\u0394 RAROC": _signed_rate(d.raroc, 1) or ""}
 
