@@ -154,14 +154,19 @@ def _lifetime_pd_share(ts: PdTermStructure, maturity_years: float) -> float:
     return total
 
 
-def evaluate(case: Case) -> Results:
-    """Run every step on a validated case. User mistakes surface as CaseError, never tracebacks."""
+def evaluate(case: Case, *, detail: bool = True) -> Results:
+    """Run every step on a validated case. User mistakes surface as CaseError, never tracebacks.
+
+    ``detail=False`` is for loops that read only the headline figures (sensitivities): it skips
+    the Z-scores, the market cross-check of a balance-sheet PD and the charted loss curve; every
+    headline figure (PD, EAD, EL, UL, RWA, VaR, economic capital, RAROC) is the same.
+    """
     cautions: list[Caution] = []
-    trend, pd, pd_cautions, market = estimate_pd(case)
+    trend, pd, pd_cautions, market = estimate_pd(case, cross_check=detail)
     cautions.extend(pd_cautions)
     pd, scale_source = grade_pd(case, pd)
     ts = term_structure(case, pd)
-    zscores, z_history, z_cautions = _zscores(case)
+    zscores, z_history, z_cautions = _zscores(case) if detail else ((), (), [])
     cautions.extend(z_cautions)
 
     prepared = [_prepare_facility(case, index, f, pd.grade, cautions)
@@ -206,7 +211,7 @@ def evaluate(case: Case) -> Results:
     dist = loss_distribution(pd=pd.pd, exposures=[f.ead for f in facilities],
                              recovery_laws=[laws[f.id] for f in facilities],
                              confidence=case.capital.confidence, join=case.capital.recovery_join,
-                             n_curve=121)
+                             n_curve=121 if detail else 2)
     if dist.capital_floored:
         cautions.append(Caution("capital.economic_floor", "Economic capital is floored at zero: the "
                                 f"PD in force ({pd.pd:.4%}) is at or below 1 - confidence "

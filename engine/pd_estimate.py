@@ -71,8 +71,10 @@ def engine_error(field: str, exc: ValueError) -> CaseError:
     return CaseError.single(field, value, allowed)
 
 
-def estimate_pd(case: Case) -> tuple[AssetTrend | None, PdResult, MarketResult | None, list[Caution]]:
-    """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist."""
+def estimate_pd(case: Case, *, cross_check: bool = True
+                ) -> tuple[AssetTrend | None, PdResult, MarketResult | None, list[Caution]]:
+    """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist
+    (``cross_check=False`` skips the market cross-check when the PD does not come from it)."""
     settings = case.pd
     if settings.method == "market":
         trend, cautions = None, []
@@ -118,7 +120,7 @@ def estimate_pd(case: Case) -> tuple[AssetTrend | None, PdResult, MarketResult |
         horizon_years=bs.horizon_years, distance_to_default=bs.distance_to_default,
         model_pd=bs.pd, pd=bs.pd, overridden=False, override_reason=None,
         grade=None, grade_lower=None, grade_upper=None)
-    market = _market(case, required=False) if case.market is not None else None
+    market = _market(case, required=False) if (case.market is not None and cross_check) else None
     if market is not None and market.message:
         cautions.append(Caution("market.unsolved", market.message, "market"))
     return trend, *_with_override(settings, result, cautions), market

@@ -159,3 +159,15 @@ def test_window_changes_the_estimate(make_case) -> None:
     assets = np.array([112.0, 104.0, 120.0])
     assert results.trend.years == (2021, 2022, 2023)
     assert results.pd.asset_volatility == pytest.approx(np.std(np.diff(np.log(assets)), ddof=1), rel=1e-12)
+
+
+def test_light_evaluation_gives_the_same_headline_figures(sample_case) -> None:
+    # detail=False (used inside sensitivity loops) may skip only what no headline figure reads.
+    full = evaluate(sample_case)
+    light = evaluate(sample_case, detail=False)
+    assert light.pd == full.pd
+    assert light.total == full.total
+    assert light.facilities == full.facilities
+    assert light.pricing == full.pricing
+    assert light.term_structure == full.term_structure
+    assert light.zscores == () and light.market is None
