@@ -19,7 +19,7 @@ from engine.case import Case, parse_case
 from engine.errors import CaseError, Problem
 from engine.statements import read_statement_table
 
-MAX_CASE_BYTES = 5_000_000
+MAX_CASE_BYTES = 2_000_000  # the workbench upload limit is the same (2 MB)
 
 
 class _StrictLoader(yaml.SafeLoader):

@@ -55,11 +55,13 @@ with left:
     st.button("Open the sample borrower", on_click=_open_sample, icon=":material/restart_alt:",
               help="Replaces the case in this session with the invented sample borrower.")
     st.file_uploader("Open a case file (YAML or JSON)", type=["yaml", "yml", "json"],
+                     help="A case file saved by this workbench or written by hand; at most 2 MB.",
                      key=f"case_upload{ss.gen}", on_change=_open_case_file, args=(f"case_upload{ss.gen}",))
     st.file_uploader("Replace the statements from a table (CSV or XLSX)", type=["csv", "xlsx"],
                      key=f"stmt_upload{ss.gen}", on_change=_upload_statements,
                      args=(f"stmt_upload{ss.gen}",),
-                     help="Columns: " + ", ".join(COLUMNS) + ". One row per financial year.")
+                     help="Columns: " + ", ".join(COLUMNS) + ". One row per financial year; at most "
+                          "200 years and 2 MB. Formulas are not evaluated: paste values.")
     if ss.get("upload_error"):
         st.error(ss.upload_error + " The case in the workbench is unchanged.", icon=":material/error:")
 with right:
