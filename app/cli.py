@@ -92,10 +92,11 @@ def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> No
     if not output.parent.is_dir():
         _fail(f"-o/--output: got {str(output)!r}; allowed: a file in an existing folder "
               f"({str(output.parent)!r} does not exist).")
+    loaded = load_case(case)                   # a bad case fails before any browser starts
     try:
         if not no_charts:
             start_chart_exporter(wait=False)    # the browser starts while the case is analysed
-        results = analyse(load_case(case))
+        results = analyse(loaded)
         pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size)
     except ChartsUnavailable as exc:
         _fail(f"The memo was not written: {exc}")

@@ -92,8 +92,10 @@ class ChartExporter:
 
             async def _open() -> Any:
                 # mathjax off: the default would load it from a CDN, and no chart needs TeX.
+                # Extensions off: fewer browser processes, less memory, nothing loaded from outside.
                 k = Kaleido(n=self.tabs, timeout=self.timeout,
-                            page_generator=PageGenerator(mathjax=False), path=self.browser_path)
+                            page_generator=PageGenerator(mathjax=False), path=self.browser_path,
+                            enable_extensions=False)
                 await k.open()
                 return k
 
