@@ -27,8 +27,13 @@ def _browser() -> str | None:
         return None
 
 
-needs_browser = pytest.mark.skipif(_browser() is None or shutil.which("pdftoppm") is None,
-                                   reason="needs Chrome/Chromium and poppler-utils")
+_skip = pytest.mark.skipif(_browser() is None or shutil.which("pdftoppm") is None,
+                           reason="needs Chrome/Chromium and poppler-utils")
+
+
+def needs_browser(test):
+    """Drives a real Chromium and renders the full memo once per module: a few seconds."""
+    return pytest.mark.browser(pytest.mark.slow(_skip(test)))
 
 
 @pytest.fixture(scope="module")
