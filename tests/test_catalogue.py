@@ -18,6 +18,7 @@ import pytest
 import yaml
 
 from conftest import copy_data, minimal_case_dict, write_case
+from engine.analysis import analyse
 from engine.errors import CaseError, show_value
 from engine.evaluate import evaluate
 from engine.loading import load_case
@@ -240,6 +241,53 @@ CATALOGUE = [
      "statements file broken.xlsx", "not a valid .xlsx", "an Excel 2007+ workbook"),
     ("wrong ending deep in a long path", _in_long_folder("case.txt"),
      "CASE", "case.txt", "ending in .yaml, .yml or .json"),
+    # ---- keys of the credit-depth steps (market PD, grades, LGD, capital, pricing, what-ifs)
+    ("PD measure unknown", edit(setter("pd", "measure", value="real_world")),
+     "pd.measure", "'real_world'", "'risk_neutral' or 'physical'"),
+    ("market asset drift 500 %", edit(setter("market", value={**_MARKET, "asset_drift": 5.0})),
+     "market.asset_drift", "5.0", "a number from -1 to 1"),
+    ("equity volatility 700 %", edit(setter("market", value={**_MARKET, "equity_volatility": 7.0})),
+     "market.equity_volatility", "7.0", "from 0 (exclusive) to 5"),
+    ("downturn method unknown", edit(setter("lgd", "downturn", "method", value="severe")),
+     "lgd.downturn.method", "'severe'", "'none', 'quantile' or 'add_on'"),
+    ("downturn quantile below the median", edit(setter("lgd", "downturn", "quantile", value=0.3)),
+     "lgd.downturn.quantile", "0.3", "a number from 0.5 to 1 (exclusive)"),
+    ("downturn add-on of 80 points", edit(setter("lgd", "downturn", "add_on", value=0.8)),
+     "lgd.downturn.add_on", "0.8", "a number from 0 to 0.5"),
+    ("recovery join unknown", edit(setter("capital", "recovery_join", value="gaussian")),
+     "capital.recovery_join", "'gaussian'", "'comonotonic' or 'independent'"),
+    ("annual sales of zero", edit(setter("capital", "annual_sales_eur_millions", value=0)),
+     "capital.annual_sales_eur_millions", "0", "from 0 (exclusive)"),
+    ("scaling factor as a number", edit(setter("capital", "scaling_factor", value=1.06)),
+     "capital.scaling_factor", "1.06", "true or false"),
+    ("pricing without a proposed spread", edit(setter("pricing", value={"hurdle_rate": 0.12})),
+     "pricing.proposed_spread", "null", "a value (this key is required)"),
+    ("hurdle rate typed as a percentage", edit(setter("pricing", value={"proposed_spread": 0.02,
+                                                                         "hurdle_rate": 12})),
+     "pricing.hurdle_rate", "12", "a number from 0 to 1"),
+    ("capital basis unknown", edit(setter("pricing", value={"proposed_spread": 0.02,
+                                                             "capital_basis": "book"})),
+     "pricing.capital_basis", "'book'", "'economic' or 'regulatory'"),
+    ("sensitivity step of zero", edit(setter("sensitivity", "steps", value={"ccf": 0})),
+     "sensitivity.steps.ccf", "0", "from 0 (exclusive) to 1"),
+    ("grid axis that runs backwards",
+     edit(setter("sensitivity", "long_term_share_axis", value={"start": 0.8, "stop": 0.2})),
+     "sensitivity.long_term_share_axis.stop", "0.2", "a value above start = 0.8"),
+    ("scenario names twice", edit(setter("scenarios", value=[{"name": "Stress", "set": {}},
+                                                             {"name": "Stress", "set": {}}])),
+     "scenarios[1].name", "'Stress'", "a unique scenario name"),
+    ("scenario sets an unknown path",
+     edit(setter("scenarios", value=[{"name": "Stress", "set": {"pd.asset_grwth": -0.05}}])),
+     "scenarios[0].set['pd.asset_grwth']", "-0.05", "pd.asset_growth"),
+    ("scenario moves a share out of range",
+     edit(setter("scenarios", value=[{"name": "Stress",
+                                       "set": {"pd.default_point.long_term_share": 1.5}}])),
+     "scenarios[0].set['pd.default_point.long_term_share']", "1.5", "a number from 0 to 1"),
+    ("memo page size A3", edit(setter("memo", "page_size", value="A3")),
+     "memo.page_size", "'A3'", "'A4' or 'Letter'"),
+    ("negative collateral value",
+     edit(setter("facilities", 0, "collateral", value={"value": -5.0, "haircut": 0.2})),
+     "facilities[0].collateral.value", "-5.0", "a number from 0 to"),
 ]
 
 
@@ -254,7 +302,7 @@ def test_bad_input_is_named(tmp_path: Path, mutation: Mutation, field: str, valu
                             allowed_fragment: str) -> None:
     path = mutation(tmp_path)
     with pytest.raises(CaseError) as caught:
-        evaluate(load_case(path))
+        analyse(load_case(path))  # the command line's path: scenarios are checked here too
     error = caught.value
     matches = [p for p in error.problems if p.field == field]
     assert matches, f"no problem filed under {field!r}; got {error.fields}"
