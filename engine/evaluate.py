@@ -79,7 +79,8 @@ class Totals:
     ead: float
     expected_loss: float
     el_rate: float                   # EL / EAD [fraction]
-    unexpected_loss: float
+    unexpected_loss: float           # std of the borrower's loss, recoveries joined as the case says
+    unexpected_loss_sum: float       # sum of the facilities' ULs (the perfect-correlation figure)
     lifetime_expected_loss: float
     rwa: float
     regulatory_capital: float        # sum K x EAD (= 8 % of RWA without the scaling factor)
@@ -221,7 +222,9 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
         ead=total_ead, expected_loss=total_el, el_rate=total_el / total_ead if total_ead > 0 else 0.0,
         unexpected_loss=borrower_unexpected_loss(
             eads=[f.ead for f in facilities], lgds=[f.lgd for f in facilities],
-            lgd_stds=[f.lgd_std for f in facilities], pd=pd.pd, join=case.capital.recovery_join),
+            lgd_stds=[f.lgd_std for f in facilities], pd=pd.pd, join=case.capital.recovery_join,
+            laws=[laws[f.id] for f in facilities]),
+        unexpected_loss_sum=sum(f.unexpected_loss for f in facilities),
         lifetime_expected_loss=sum(f.lifetime_expected_loss for f in facilities),
         rwa=sum(f.rwa for f in facilities),
         regulatory_capital=sum(f.regulatory_capital for f in facilities),

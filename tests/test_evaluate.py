@@ -25,12 +25,23 @@ def test_totals_equal_sums(sample_results) -> None:
     assert t.economic_capital == pytest.approx(max(t.value_at_risk - t.expected_loss, 0.0), rel=1e-9)
 
 
-def test_borrower_ul_is_the_comonotonic_formula(sample_results) -> None:
+def test_borrower_ul_is_the_exact_comonotonic_std(sample_results) -> None:
     f, pd = sample_results.facilities, sample_results.pd.pd
-    # sqrt(PD (sum EAD sigma)^2 + (sum EAD LGD)^2 PD (1 - PD)): one default event, recoveries comonotonic.
-    expected = math.sqrt(pd * sum(x.ead * x.lgd_std for x in f) ** 2
-                         + sum(x.ead * x.lgd for x in f) ** 2 * pd * (1 - pd))
-    assert sample_results.total.unexpected_loss == pytest.approx(expected, rel=1e-12)
+    # var(L) = PD E[S^2] - (PD E[S])^2 with S(U) = sum EAD (1 - F^-1(U)): E[S^2] by adaptive
+    # quadrature (scipy.integrate.quad) of the same quantile functions, independently of the engine's
+    # fixed Gauss-Legendre rule.
+    from scipy import integrate
+
+    laws = [sample_results.laws[x.id] for x in f]
+    second = integrate.quad(lambda u: sum(x.ead * (1 - float(law.ppf(u))) for x, law in zip(f, laws)) ** 2,
+                            0, 1, epsrel=1e-11, limit=400)[0]
+    mean = sum(x.ead * x.lgd for x in f)
+    expected = math.sqrt(pd * second - (pd * mean) ** 2)
+    assert sample_results.total.unexpected_loss == pytest.approx(expected, rel=1e-8)
+    # Below the bound with perfectly correlated LGDs, sqrt(PD (sum EAD sigma)^2 + E[S]^2 PD (1 - PD)).
+    bound = math.sqrt(pd * sum(x.ead * x.lgd_std for x in f) ** 2 + mean ** 2 * pd * (1 - pd))
+    assert sample_results.total.unexpected_loss <= bound * (1 + 1e-12)
+    assert sample_results.total.unexpected_loss_sum == pytest.approx(sum(x.unexpected_loss for x in f))
     # Never below the largest single facility's UL, never above their sum.
     assert max(x.unexpected_loss for x in f) <= sample_results.total.unexpected_loss
     assert sample_results.total.unexpected_loss <= sum(x.unexpected_loss for x in f) * (1 + 1e-12)

@@ -80,6 +80,11 @@ def test_borrower_ul_matches_a_simulation(join) -> None:
     ul = borrower_unexpected_loss(eads=eads, lgds=[law.lgd for law in laws],
                                   lgd_stds=[law.std() for law in laws], pd=pd, join=join)
     assert np.std(loss) == pytest.approx(ul, rel=0.02)
+    # With the laws, the comonotonic std is exact (quadrature) rather than the correlation-one bound.
+    exact = borrower_unexpected_loss(eads=eads, lgds=[law.lgd for law in laws],
+                                     lgd_stds=[law.std() for law in laws], pd=pd, join=join, laws=laws)
+    assert np.std(loss) == pytest.approx(exact, rel=0.01)
+    assert exact <= ul * (1 + 1e-12)
     assert np.mean(loss) == pytest.approx(sum(e * pd * law.lgd for e, law in zip(eads, laws)), rel=0.02)
 
 
