@@ -4,48 +4,10 @@ figure change, never an exception; bad input gives a message and keeps the rest 
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
-import pytest
 from streamlit.testing.v1 import AppTest
 
-from app.state import WORKDIR_ENV
-
-WORKBENCH = str(Path(__file__).resolve().parent.parent / "app" / "workbench.py")
-
-
-@pytest.fixture()
-def app(tmp_path, monkeypatch):
-    monkeypatch.setenv(WORKDIR_ENV, str(tmp_path))
-    at = AppTest.from_file(WORKBENCH, default_timeout=30)
-    at.run()
-    assert not at.exception
-    return at
-
-
-def _open(at: AppTest, page: str) -> AppTest:
-    at.switch_page(f"pages/{page}.py")
-    at.run()
-    assert not at.exception, [e.value for e in at.exception]
-    return at
-
-
-def _specs(at: AppTest) -> list[str]:
-    return [chart.proto.spec for chart in at.get("plotly_chart")]
-
-
-def _number(at: AppTest, label: str):
-    found = [w for w in at.number_input if w.label == label]
-    assert found, f"no number field labelled {label!r}"
-    return found[0]
-
-
-def _metric(at: AppTest, label: str) -> str:
-    return next(m.value for m in at.metric if m.label == label)
-
-
-def _errors(at: AppTest) -> str:
-    return " ".join(e.value for e in at.error)
+from workbench_support import WORKBENCH, _errors, _metric, _number, _open, _specs, app  # noqa: F401
 
 
 def test_opens_on_the_sample_borrower_with_the_caution(app):
