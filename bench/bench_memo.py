@@ -58,7 +58,7 @@ def cold(runs: int, out_pdf: Path) -> list[tuple[float, float]]:
 
 def warm(runs: int) -> tuple[list[float], list[float], float]:
     sys.path.insert(0, str(ROOT))
-    from app import memo
+    from app import memo, memo_charts
     from engine.analysis import analyse
     from engine.loading import load_case
 
@@ -69,7 +69,7 @@ def warm(runs: int) -> tuple[list[float], list[float], float]:
     memo.render_memo_pdf(results)            # first render also warms fonts and plotly
     times, cached = [], []
     for _ in range(runs):
-        memo._SVG_CACHE.clear()          # every figure goes through the browser again
+        memo_charts._SVG_CACHE.clear()          # every figure goes through the browser again
         t0 = time.perf_counter()
         memo.render_memo_pdf(results)
         times.append(time.perf_counter() - t0)

@@ -112,8 +112,8 @@ def hostile(make_case):
     asked: list[str] = []
     real = memo.memo_fetcher
 
-    def spying_fetcher(allowed):
-        inner = real(allowed)
+    def spying_fetcher(allowed, charts=None):
+        inner = real(allowed, charts)
         original = inner.fetch
 
         def fetch(url, headers=None):

@@ -36,6 +36,13 @@ def needs_browser(test):
     return pytest.mark.browser(pytest.mark.slow(_skip(test)))
 
 
+@pytest.fixture(scope="module", autouse=True)
+def _no_browser_left_running():
+    """Whatever a test does, the process-wide browser is stopped when the module ends."""
+    yield
+    memo.stop_chart_exporter()
+
+
 @pytest.fixture(scope="module")
 def analysed(sample_case):
     from engine.analysis import analyse
@@ -130,7 +137,9 @@ def test_browser_path_takes_precedence(monkeypatch, tmp_path):
 
 def test_no_usual_browser_names_the_fix(monkeypatch):
     monkeypatch.delenv("BROWSER_PATH", raising=False)
-    monkeypatch.setattr(memo, "BROWSER_CANDIDATES", ("/nonexistent/chromium",))
+    from app import memo_charts
+
+    monkeypatch.setattr(memo_charts, "BROWSER_CANDIDATES", ("/nonexistent/chromium",))
     with pytest.raises(memo.ChartsUnavailable, match=r"install Chromium.*--no-charts"):
         memo.find_browser()
 
@@ -141,6 +150,7 @@ def test_memo_command_without_browser_fails_with_the_fix(monkeypatch, tmp_path, 
     from app.cli import main
 
     monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "missing"))
+    memo.stop_chart_exporter()        # a browser kept by an earlier test would hide the fault
     result = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(tmp_path / "m.pdf")])
     assert result.exit_code == 2
     assert "--no-charts" in result.output and not (tmp_path / "m.pdf").exists()

@@ -1,0 +1,488 @@
+"""The memo's charts: the workbench's plotly figures as vector SVG, drawn by a system Chromium.
+
+One Chromium (driven through kaleido) runs on a private event-loop thread and is reused for many
+figures; :func:`start_chart_exporter` keeps one per process, so a workbench that started it prints
+a memo without waiting for a browser. Everything that can go wrong with the browser (missing,
+hanging, crashing at start or half-way) ends in :class:`ChartsUnavailable`, whose message names
+the fix, within the timeout, and with the browser's whole process group killed: no orphans.
+
+Speed and memory choices, each measured on the sample memo (12 charts, 2 cores):
+
+- kaleido reloads its page (4.6 MB of plotly.js) after every figure; within one batch the page is
+  reused and reloaded once afterwards, in the background: 2.5 s -> about 1.2 s per memo;
+- Chromium runs with one renderer process and in-process GPU code (fewer processes, less memory);
+- the figures print in the memo's own font (DejaVu Sans): WeasyPrint then finds the font at once
+  instead of walking a fallback list for every label (PDF writing 1.1 s -> 0.3 s).
+"""
+
+from __future__ import annotations
+
+import asyncio
+import base64
+import hashlib
+import os
+import signal
+import threading
+import time
+from dataclasses import dataclass
+from typing import Any, Callable
+
+BROWSER_CANDIDATES = ("/usr/bin/chromium", "/usr/bin/chromium-browser", "/usr/bin/google-chrome")
+TIMEOUT_VARIABLE = "OBLIGOR_MEMO_CHART_TIMEOUT"
+DEFAULT_TIMEOUT_SECONDS = 30.0
+MAX_TIMEOUT_SECONDS = 600.0
+PRINT_FONT = "DejaVu Sans"
+NO_CHART_FIX = ("install Chromium (for example 'apt-get install chromium'), or set BROWSER_PATH to "
+                "a Chrome or Chromium executable, or print without charts with --no-charts")
+# Fewer browser processes: one renderer for every tab, GPU code inside the browser process.
+# The old-space cap bounds the renderer's heap; a memo's figures need a few tens of MB.
+BROWSER_FLAGS = ("--renderer-process-limit=1", "--in-process-gpu", "--disable-extensions",
+                 "--js-flags=--max-old-space-size=192", "--disable-features=Translate,MediaRouter")
+
+
+class ChartsUnavailable(RuntimeError):
+    """Charts were asked for but cannot be drawn; the message names the fix."""
+
+
+def chart_timeout() -> float:
+    """Seconds allowed for the browser to start, and again for one batch of figures [s].
+
+    From the environment variable OBLIGOR_MEMO_CHART_TIMEOUT when set, else 30 s.
+    """
+    text = os.environ.get(TIMEOUT_VARIABLE)
+    if text is None or not text.strip():
+        return DEFAULT_TIMEOUT_SECONDS
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if not 0 < value <= MAX_TIMEOUT_SECONDS:
+        raise ChartsUnavailable(f"{TIMEOUT_VARIABLE}: got {text!r}; allowed: a number of seconds "
+                                f"greater than 0 and at most {MAX_TIMEOUT_SECONDS:g}.")
+    return value
+
+
+def find_browser() -> str:
+    """BROWSER_PATH if set, else the first usual install path; raise naming the fix."""
+    chosen = os.environ.get("BROWSER_PATH")
+    if chosen:
+        if os.path.isfile(chosen) and os.access(chosen, os.X_OK):
+            return chosen
+        raise ChartsUnavailable(f"BROWSER_PATH is set to {chosen!r}, which is not an executable "
+                                f"file. Charts need a Chrome or Chromium browser: {NO_CHART_FIX}.")
+    for path in BROWSER_CANDIDATES:
+        if os.path.isfile(path) and os.access(path, os.X_OK):
+            return path
+    raise ChartsUnavailable("No Chrome or Chromium browser was found (looked at BROWSER_PATH and "
+                            f"{', '.join(BROWSER_CANDIDATES)}). Charts need one: {NO_CHART_FIX}.")
+
+
+def process_group_members(group: int) -> list[int]:
+    """Live process ids in a process group (Linux /proc); the browser runs in its own group."""
+    members = []
+    for entry in os.listdir("/proc"):
+        if not entry.isdigit():
+            continue
+        try:
+            with open(f"/proc/{entry}/stat", "rb") as f:
+                fields = f.read().rsplit(b")", 1)[1].split()
+        except OSError:
+            continue
+        # fields[0] is the state, fields[2] the process group; zombies are already dead.
+        if int(fields[2]) == group and fields[0] != b"Z":
+            members.append(int(entry))
+    return members
+
+
+def _kill_group(group: int | None) -> None:
+    if group is None:
+        return
+    try:
+        os.killpg(group, signal.SIGKILL)
+    except (ProcessLookupError, PermissionError):
+        pass
+
+
+def _browser_classes() -> tuple[type, type]:
+    """kaleido's browser with our flags, and without its page reload after every figure."""
+    from choreographer.browsers.chromium import Chromium
+    from kaleido import Kaleido
+
+    class PrintChromium(Chromium):
+        def get_cli(self) -> list[str]:
+            return [*super().get_cli(), *BROWSER_FLAGS]
+
+    class BatchKaleido(Kaleido):
+        async def _return_kaleido_tab(self, tab: Any) -> None:
+            # kaleido reloads plotly.js after each figure (60 % of the time of one figure);
+            # the exporter reloads once after the whole batch instead.
+            await self.tabs_ready.put(tab)
+
+    if not hasattr(Kaleido, "_return_kaleido_tab"):
+        BatchKaleido = Kaleido    # another kaleido version: keep its own, slower, behaviour
+    return PrintChromium, BatchKaleido
+
+
+class ChartExporter:
+    """One Chromium (through kaleido) on a private event-loop thread, reused for many figures.
+
+    ``start(wait=False)`` launches the browser in the background, so its start-up overlaps the
+    analysis and the figure building; the first export waits for it. ``timeout`` [s] bounds the
+    start-up and, separately, each batch of figures; past it the browser is killed.
+    """
+
+    def __init__(self, *, browser_path: str | None = None, timeout: float | None = None,
+                 tabs: int = 1):
+        if timeout is not None and not 0 < timeout <= MAX_TIMEOUT_SECONDS:
+            raise ValueError(f"timeout: got {timeout!r}; allowed: 0 < timeout <= {MAX_TIMEOUT_SECONDS:g} s")
+        if not 1 <= tabs <= 8:
+            raise ValueError(f"tabs: got {tabs!r}; allowed: 1 to 8")
+        self.browser_path = browser_path or find_browser()
+        self.timeout = chart_timeout() if timeout is None else timeout
+        self.tabs = tabs
+        self._loop: asyncio.AbstractEventLoop | None = None
+        self._thread: threading.Thread | None = None
+        self._opening: Any = None            # concurrent.futures.Future of the open browser
+        self._kaleido: Any = None            # the open browser, once ready
+        self._browser: Any = None            # the browser object from the moment it is created
+        self._refresh: Any = None            # the background page reload after a batch
+        self._lock = threading.RLock()
+
+    @property
+    def running(self) -> bool:
+        """Started (or starting) and not closed."""
+        return self._opening is not None
+
+    @property
+    def process_group(self) -> int | None:
+        """The browser's process group id (its launcher starts a new session), once launched."""
+        process = getattr(self._browser, "subprocess", None)
+        return None if process is None else process.pid
+
+    def start(self, *, wait: bool = True) -> "ChartExporter":
+        with self._lock:
+            if self._opening is None:
+                from kaleido import PageGenerator
+
+                chromium, kaleido_class = _browser_classes()
+                loop = asyncio.new_event_loop()
+                # A browser killed on purpose leaves failed tasks behind: nothing to print.
+                loop.set_exception_handler(lambda _loop, _context: None)
+                self._loop = loop
+                self._thread = threading.Thread(target=loop.run_forever, name="memo-chart-exporter",
+                                                daemon=True)
+                self._thread.start()
+
+                async def _open() -> Any:
+                    # mathjax off: the default would load it from a CDN, and no chart needs TeX.
+                    browser = kaleido_class(n=self.tabs, timeout=self.timeout,
+                                            page_generator=PageGenerator(mathjax=False),
+                                            path=self.browser_path, browser_cls=chromium)
+                    self._browser = browser
+                    await browser.open()
+                    return browser
+
+                self._opening = asyncio.run_coroutine_threadsafe(_open(), loop)
+        if wait:
+            self._ready()
+        return self
+
+    def _ready(self) -> Any:
+        if self._kaleido is None:
+            opening = self._opening
+            try:
+                if opening is None:
+                    raise RuntimeError("the exporter was closed")
+                self._kaleido = opening.result(timeout=self.timeout)
+            except BaseException as exc:
+                reason = (f"it did not answer within {self.timeout:g} s" if _is_timeout(exc)
+                          else f"{type(exc).__name__}: {' '.join(str(exc).split())[:300]}")
+                self.close(force=True)
+                raise ChartsUnavailable(f"Chromium at {self.browser_path} could not be started for "
+                                        f"chart export ({reason}). Fix: {NO_CHART_FIX}.") from None
+        return self._kaleido
+
+    def export_svg(self, figures: dict[str, Any]) -> dict[str, str]:
+        """Every figure as SVG text, in one browser session; the whole batch gets the timeout."""
+        with self._lock:
+            if self._opening is None:
+                self.start(wait=False)
+            started = time.monotonic()
+            kaleido = self._ready()
+            loop = self._loop
+            assert loop is not None
+
+            async def _one(fig: Any) -> str:
+                opts = {"format": "svg", "width": int(getattr(fig, "_memo_width", 760)),
+                        "height": int(fig.layout.height or 420)}
+                data = await kaleido.calc_fig(fig, opts=opts)
+                return data.decode("utf-8") if isinstance(data, bytes) else str(data)
+
+            async def _all() -> dict[str, str]:
+                refresh = self._refresh
+                if refresh is not None:
+                    await asyncio.wrap_future(refresh)
+                svgs = await asyncio.gather(*(_one(fig) for fig in figures.values()))
+                return dict(zip(figures, svgs))
+
+            future = asyncio.run_coroutine_threadsafe(_all(), loop)
+            remaining = max(self.timeout - (time.monotonic() - started), 1e-3)
+            try:
+                svgs = future.result(timeout=remaining)
+            except BaseException as exc:
+                future.cancel()
+                self.close(force=True)
+                if _is_timeout(exc):
+                    raise ChartsUnavailable(f"Chart export took longer than {self.timeout:g} s and "
+                                            f"was stopped. Try again, raise {TIMEOUT_VARIABLE}, or "
+                                            "print with --no-charts.") from None
+                raise ChartsUnavailable(f"The browser failed while drawing the charts ("
+                                        f"{type(exc).__name__}: {' '.join(str(exc).split())[:300]}). "
+                                        f"Try again, or {NO_CHART_FIX}.") from None
+            self._refresh = asyncio.run_coroutine_threadsafe(self._reload_tabs(kaleido), loop)
+            return svgs
+
+    async def _reload_tabs(self, kaleido: Any) -> None:
+        """A fresh page for the next batch, while the caller lays out this one."""
+        try:
+            tabs = [await kaleido.tabs_ready.get() for _ in range(kaleido.tabs_ready.qsize())]
+            try:
+                await asyncio.gather(*(tab.reload() for tab in tabs))
+            finally:
+                for tab in tabs:
+                    await kaleido.tabs_ready.put(tab)
+        except Exception:  # a stale page still draws; the next failure is reported by export_svg
+            pass
+
+    def close(self, *, force: bool = False) -> None:
+        """Close the browser and stop the thread. ``force`` kills the browser's process group
+        first (it hangs or has failed); otherwise it is asked to quit and killed if it lingers."""
+        with self._lock:
+            loop, browser, group = self._loop, self._browser, self.process_group
+            self._kaleido = self._opening = self._browser = self._refresh = None
+            self._loop = None
+            if force:
+                _kill_group(group)
+            if loop is not None and browser is not None:
+                try:
+                    # Tidies the pipes and temporary folders; quick when the browser is dead.
+                    asyncio.run_coroutine_threadsafe(browser.close(), loop).result(
+                        timeout=2 if force else 10)
+                except BaseException:
+                    pass
+            _kill_group(group)       # whatever still runs in the browser's group
+            if loop is not None:
+                async def _cancel_rest() -> None:
+                    tasks = [t for t in asyncio.all_tasks() if t is not asyncio.current_task()]
+                    for task in tasks:
+                        task.cancel()
+                    await asyncio.wait(tasks, timeout=1) if tasks else None
+
+                try:
+                    asyncio.run_coroutine_threadsafe(_cancel_rest(), loop).result(timeout=2)
+                except BaseException:
+                    pass
+                loop.call_soon_threadsafe(loop.stop)
+                if self._thread is not None:
+                    self._thread.join(timeout=5)
+                if not loop.is_running():
+                    loop.close()
+            self._thread = None
+
+
+def _is_timeout(exc: BaseException) -> bool:
+    import concurrent.futures
+
+    return isinstance(exc, (TimeoutError, asyncio.TimeoutError, concurrent.futures.TimeoutError))
+
+
+_EXPORTER: ChartExporter | None = None
+_EXPORTER_LOCK = threading.Lock()
+
+
+def start_chart_exporter(*, wait: bool = True) -> ChartExporter:
+    """Start (once) the process-wide exporter; later memos reuse its browser. With
+    ``wait=False`` the browser starts in the background while the caller gets on with its work."""
+    global _EXPORTER
+    with _EXPORTER_LOCK:
+        if _EXPORTER is None or not _EXPORTER.running:
+            _EXPORTER = ChartExporter().start(wait=False)
+        exporter = _EXPORTER
+    if wait:
+        exporter._ready()
+    return exporter
+
+
+def stop_chart_exporter() -> None:
+    global _EXPORTER
+    with _EXPORTER_LOCK:
+        exporter, _EXPORTER = _EXPORTER, None
+    if exporter is not None:
+        exporter.close()
+
+
+def running_exporter() -> ChartExporter | None:
+    exporter = _EXPORTER
+    return exporter if exporter is not None and exporter.running else None
+
+
+# --------------------------------------------------------------------------- figures
+
+
+@dataclass(frozen=True)
+class ChartSpec:
+    key: str
+    builder: str                 # function name in app.charts
+    args: tuple[Any, ...] = ()
+    width: int = 760             # export width [px]; the page scales it to the column
+
+
+def chart_specs(results: Any) -> list[ChartSpec]:
+    """The memo's charts in the order the memo prints them (the first are drawn first)."""
+    specs = [ChartSpec("asset_trend", "asset_trend_figure"), ChartSpec("liabilities", "liabilities_figure"),
+             ChartSpec("term_structure", "term_structure_figure"), ChartSpec("exposure", "exposure_figure")]
+    specs += [ChartSpec(f"recovery:{f.id}", "recovery_figure", (f.id,), width=520) for f in results.facilities]
+    specs += [ChartSpec("loss_distribution", "loss_distribution_figure"),
+              ChartSpec("sensitivity", "sensitivity_figure"), ChartSpec("pd_grid", "pd_grid_figure")]
+    return specs
+
+
+def build_figures(results: Any) -> tuple[dict[str, Any], dict[str, str]]:
+    """The workbench's figures for this memo, and a note for each one that cannot be built."""
+    from app import charts
+
+    figures: dict[str, Any] = {}
+    notes: dict[str, str] = {}
+    for spec in chart_specs(results):
+        builder: Callable[..., Any] | None = getattr(charts, spec.builder, None)
+        if builder is None:
+            notes[spec.key] = f"This chart is not available in this version ({spec.builder} is missing)."
+            continue
+        try:
+            fig = builder(results, *spec.args)
+        except ValueError as exc:  # the results lack what this chart draws: say so on the page
+            notes[spec.key] = f"This chart could not be drawn: {exc}."
+            continue
+        if fig is None:
+            notes[spec.key] = "No chart: the results hold nothing to draw here."
+            continue
+        # The memo's own font: the same letters as the text, and no font fallback per label.
+        fig.update_layout(paper_bgcolor="white", plot_bgcolor="white", font_family=PRINT_FONT)
+        if spec.width < 700:
+            # Half-width on paper: the legend wraps to one entry a line, so give it its own room
+            # below the axis title instead of letting the two overlap.
+            fig.update_layout(height=430, margin={"b": 135}, legend={"y": -0.28})
+        object.__setattr__(fig, "_memo_width", spec.width)
+        figures[spec.key] = fig
+    return figures, notes
+
+
+# A reprint after a narrative edit draws the same figures: reuse their SVG instead of the browser.
+_SVG_CACHE: dict[str, str] = {}
+_SVG_CACHE_SIZE = 64
+_CACHE_LOCK = threading.Lock()
+
+
+def figure_key(fig: Any) -> str:
+    spec = fig.to_json() + f"|{getattr(fig, '_memo_width', 760)}|{_kaleido_version()}"
+    return hashlib.sha256(spec.encode("utf-8")).hexdigest()
+
+
+def _kaleido_version() -> str:
+    from importlib.metadata import version
+
+    return version("kaleido")
+
+
+def svg_data_uri(svg: str) -> str:
+    return "data:image/svg+xml;base64," + base64.b64encode(svg.encode("utf-8")).decode("ascii")
+
+
+def export_figures(figures: dict[str, Any], *, exporter: ChartExporter | None = None) -> dict[str, str]:
+    """SVG text of each figure: from the cache, else drawn by ``exporter`` (or the process-wide
+    one when running, else a browser started and closed for this call)."""
+    keys = {key: figure_key(fig) for key, fig in figures.items()}
+    with _CACHE_LOCK:
+        missing = {key: fig for key, fig in figures.items() if keys[key] not in _SVG_CACHE}
+    if missing:
+        own = None
+        chosen = exporter or running_exporter()
+        if chosen is None:
+            chosen = own = ChartExporter().start(wait=False)
+        try:
+            drawn = chosen.export_svg(missing)
+        finally:
+            if own is not None:
+                own.close()
+        with _CACHE_LOCK:
+            for key, svg in drawn.items():
+                _SVG_CACHE[keys[key]] = svg
+            while len(_SVG_CACHE) > _SVG_CACHE_SIZE:
+                _SVG_CACHE.pop(next(iter(_SVG_CACHE)))
+    with _CACHE_LOCK:
+        return {key: _SVG_CACHE[keys[key]] for key in figures}
+
+
+def export_charts(results: Any) -> tuple[dict[str, str], dict[str, str]]:
+    """SVG data URIs for every chart, in one Chromium session; notes where a chart is absent."""
+    own = None if running_exporter() is not None else ChartExporter().start(wait=False)
+    try:
+        # The browser (if started here) comes up while the figures are being built.
+        figures, notes = build_figures(results)
+        svgs = export_figures(figures, exporter=own)
+    finally:
+        if own is not None:
+            own.close()
+    return {key: svg_data_uri(svg) for key, svg in svgs.items()}, notes
+
+
+class ChartJob:
+    """The memo's figures, built now and drawn in the background while the memo is laid out.
+
+    The browser (started here unless the process-wide one runs) comes up while the figures are
+    built; the SVGs are then drawn on a worker thread, so the page layout waits only when it
+    reaches its first chart. :meth:`svgs` gives the result or raises :class:`ChartsUnavailable`.
+    """
+
+    def __init__(self, results: Any):
+        import concurrent.futures
+
+        own = None if running_exporter() is not None else ChartExporter().start(wait=False)
+        try:
+            self.figures, self.notes = build_figures(results)
+        except BaseException:
+            if own is not None:
+                own.close(force=True)
+            raise
+        exporter = own or running_exporter()
+        self._timeout = exporter.timeout if exporter is not None else chart_timeout()
+        self._future: concurrent.futures.Future[dict[str, str]] = concurrent.futures.Future()
+        self._thread = threading.Thread(target=self._draw, args=(own,), name="memo-chart-job",
+                                        daemon=True)
+        self._thread.start()
+
+    def _draw(self, own: ChartExporter | None) -> None:
+        try:
+            self._future.set_result(export_figures(self.figures, exporter=own))
+        except BaseException as exc:
+            self._future.set_exception(exc)
+        finally:
+            if own is not None:
+                own.close()
+
+    def svgs(self) -> dict[str, str]:
+        """Every drawn figure's SVG text by chart key."""
+        try:
+            # The exporter bounds its own waits (start, batch, close); this is a last backstop.
+            return self._future.result(timeout=2 * self._timeout + 30)
+        except ChartsUnavailable:
+            raise
+        except BaseException as exc:
+            if _is_timeout(exc):
+                raise ChartsUnavailable(f"Chart export did not finish within {2 * self._timeout + 30:g} s. "
+                                        f"Try again, or print with --no-charts.") from None
+            raise
+
+    def finish(self) -> None:
+        """Wait for the worker (and the browser it may have started) to finish."""
+        self._thread.join(timeout=2 * self._timeout + 30)
