@@ -18,6 +18,7 @@ Speed and memory choices, each measured on the sample memo (12 charts, 2 cores):
 from __future__ import annotations
 
 import asyncio
+import atexit
 import base64
 import hashlib
 import os
@@ -195,11 +196,15 @@ class ChartExporter:
                     raise RuntimeError("the exporter was closed")
                 self._kaleido = opening.result(timeout=self.timeout)
             except BaseException as exc:
-                reason = (f"it did not answer within {self.timeout:g} s" if _is_timeout(exc)
-                          else f"{type(exc).__name__}: {' '.join(str(exc).split())[:300]}")
+                if _is_timeout(exc):
+                    reason = f"it did not answer within {self.timeout:g} s"
+                    fix = f"on a busy machine raise {TIMEOUT_VARIABLE} (seconds); otherwise {NO_CHART_FIX}"
+                else:
+                    reason = f"{type(exc).__name__}: {' '.join(str(exc).split())[:300]}"
+                    fix = NO_CHART_FIX
                 self.close(force=True)
                 raise ChartsUnavailable(f"Chromium at {self.browser_path} could not be started for "
-                                        f"chart export ({reason}). Fix: {NO_CHART_FIX}.") from None
+                                        f"chart export ({reason}). Fix: {fix}.") from None
         return self._kaleido
 
     def export_svg(self, figures: dict[str, Any]) -> dict[str, str]:
@@ -267,7 +272,7 @@ class ChartExporter:
                 try:
                     # Tidies the pipes and temporary folders; quick when the browser is dead.
                     asyncio.run_coroutine_threadsafe(browser.close(), loop).result(
-                        timeout=2 if force else 10)
+                        timeout=1 if force else 10)
                 except BaseException:
                     pass
             _kill_group(group)       # whatever still runs in the browser's group
@@ -307,6 +312,9 @@ def start_chart_exporter(*, wait: bool = True) -> ChartExporter:
     with _EXPORTER_LOCK:
         if _EXPORTER is None or not _EXPORTER.running:
             _EXPORTER = ChartExporter().start(wait=False)
+            # A server or test process that exits without stopping it leaves no browser behind.
+            atexit.unregister(stop_chart_exporter)
+            atexit.register(stop_chart_exporter)
         exporter = _EXPORTER
     if wait:
         exporter._ready()

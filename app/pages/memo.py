@@ -3,12 +3,77 @@
 from __future__ import annotations
 
 import importlib
+import os
 import re
+from typing import Any
 
 import streamlit as st
 
 from app import state
 from app.pages import _ui
+
+PRESTART_VARIABLE = "OBLIGOR_MEMO_CHART_PRESTART"
+
+
+def _memo_module() -> Any | None:
+    try:
+        return importlib.import_module("app.memo")
+    except Exception:  # the renderer's own dependencies (WeasyPrint, kaleido) may be missing
+        return None
+
+
+@st.cache_resource(show_spinner=False)
+def _chart_browser_started() -> bool:
+    """Once per server: the chart browser starts in the background, so memos print warm.
+    A failure is not cached (st.cache_resource keeps only returned values): the next visit
+    tries again, and the print button reports the reason."""
+    memo_module = _memo_module()
+    if memo_module is None:
+        return False
+    memo_module.start_chart_exporter(wait=False)
+    return True
+
+
+def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
+    ss = st.session_state
+    ss.memo_chart_problem = None
+    try:
+        with st.spinner("Printing the memo..." if charts else "Printing the memo without charts..."):
+            full = _ui.analysed(results.case)
+            ss.memo_pdf = (results.fingerprint, memo_module.render_memo_pdf(full, charts=charts), charts)
+    except memo_module.ChartsUnavailable as exc:
+        ss.memo_chart_problem = str(exc)
+    except Exception as exc:  # the renderer's failure must not reach the screen raw
+        st.error(f"The memo could not be printed ({type(exc).__name__}: {exc}). Your inputs are kept.")
+
+
+def _memo_print_panel(results: Any, stem: str) -> None:
+    ss = st.session_state
+    memo_module = _memo_module()
+    if memo_module is None or results is None:
+        st.caption("The PDF memo appears here once the memo renderer is installed and the case is valid.")
+        return
+    if os.environ.get(PRESTART_VARIABLE, "1") != "0":
+        try:
+            _chart_browser_started()
+        except Exception:  # reported when the memo is printed, with the fix
+            pass
+    if st.button("Print the memo (PDF)", icon=":material/picture_as_pdf:", key="memo_print"):
+        _print(memo_module, results, charts=True)
+    if ss.get("memo_chart_problem"):
+        st.error(f"The charts could not be drawn, so no memo was printed. {ss.memo_chart_problem} "
+                 "Here, you can also print the memo without charts: each chart's place then "
+                 "carries a note.", icon=":material/error:")
+        if st.button("Print the memo without charts", key="memo_print_plain"):
+            _print(memo_module, results, charts=False)
+    pdf = ss.get("memo_pdf")
+    if pdf and pdf[0] == results.fingerprint:
+        label = "Download the PDF memo" if pdf[2] else "Download the PDF memo (without charts)"
+        st.download_button(label, pdf[1], file_name=f"{stem}_memo.pdf", mime="application/pdf",
+                           icon=":material/download:", key="memo_download")
+    elif pdf:
+        st.caption("The case changed since the memo was printed: print it again.")
+
 
 results = _ui.header("Memo and files",
                      "Write the narrative as it should print; download the case file to archive "
@@ -43,22 +108,4 @@ with right:
         st.download_button("Download the case file (JSON)", state.case_file_text(ss.raw, "json"),
                            file_name=f"{stem}.json", mime="application/json")
 
-    try:
-        render = getattr(importlib.import_module("app.memo"), "render_memo_pdf", None)
-    except Exception:  # the memo module is optional until it lands
-        render = None
-    if render is None or results is None:
-        st.caption("The PDF memo appears here once the memo renderer is installed and the case is valid.")
-    else:
-        if st.button("Prepare the PDF memo", icon=":material/picture_as_pdf:"):
-            try:
-                with st.spinner("Rendering the memo..."):
-                    ss.memo_pdf = (results.fingerprint, render(results))
-            except Exception as exc:  # the renderer's failure must not reach the screen raw
-                st.error(f"The memo could not be rendered ({type(exc).__name__}: {exc}).")
-        pdf = ss.get("memo_pdf")
-        if pdf and pdf[0] == results.fingerprint:
-            st.download_button("Download the PDF memo", pdf[1], file_name=f"{stem}_memo.pdf",
-                               mime="application/pdf", icon=":material/download:")
-        elif pdf:
-            st.caption("The case changed since the PDF was prepared: prepare it again.")
+    _memo_print_panel(results, stem)

@@ -1,0 +1,170 @@
+"""Browser faults while printing the memo: missing, hanging, crashing at once, dying after start.
+
+Each fault must end, within a short timeout, in exit code 2 and one paragraph naming the fix
+(the command line) or an on-screen message with a way to print without charts (the workbench);
+never a traceback, and never a browser process left behind. The fake browsers are small shell
+scripts; each writes its process group id to a file so the test can check that the whole group
+is gone afterwards. Timeouts are shortened through OBLIGOR_MEMO_CHART_TIMEOUT.
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import time
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from app import memo, memo_charts
+from app.cli import main
+
+SHORT_TIMEOUT = "1"     # seconds: long enough for a script to start, short enough for the suite
+
+HANG = "sleep 600\n"
+CRASH_AT_ONCE = "exit 1\n"
+START_THEN_DIE = "sleep 0.5\nexit 1\n"
+FAKES = {"hanging": HANG, "crashing at once": CRASH_AT_ONCE, "starting then dying": START_THEN_DIE}
+
+
+def fake_browser(folder: Path, body: str) -> Path:
+    """An executable that records its process group (field 5 of /proc/PID/stat), then ``body``."""
+    script = folder / "fake-chromium"
+    script.write_text("#!/bin/sh\n"
+                      f"cut -d' ' -f5 /proc/$$/stat > '{folder / 'pgid'}'\n" + body)
+    script.chmod(0o755)
+    return script
+
+
+def assert_group_gone(folder: Path) -> None:
+    pgid_file = folder / "pgid"
+    if not pgid_file.exists():            # the script never ran (missing) or died before writing
+        return
+    group = int(pgid_file.read_text().split()[0])
+    deadline = time.monotonic() + 3       # the kernel reaps a killed group within moments
+    while memo_charts.process_group_members(group) and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert memo_charts.process_group_members(group) == [], f"browser processes left in group {group}"
+
+
+@pytest.fixture(autouse=True)
+def _short_timeout(monkeypatch):
+    monkeypatch.setenv(memo_charts.TIMEOUT_VARIABLE, SHORT_TIMEOUT)
+    memo.stop_chart_exporter()
+    yield
+    memo.stop_chart_exporter()
+
+
+def run_memo(tmp_path: Path, sample_case_path: Path):
+    out = tmp_path / "m.pdf"
+    started = time.monotonic()
+    result = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(out)])
+    return result, out, time.monotonic() - started
+
+
+@pytest.mark.parametrize("kind", sorted(FAKES))
+def test_memo_command_reports_a_faulty_browser(kind, tmp_path, monkeypatch, sample_case_path):
+    monkeypatch.setenv("BROWSER_PATH", str(fake_browser(tmp_path, FAKES[kind])))
+    result, out, seconds = run_memo(tmp_path, sample_case_path)
+    assert result.exit_code == 2, result.output
+    assert "Traceback" not in result.output and not out.exists()
+    assert "could not be started" in result.output and "--no-charts" in result.output
+    # The start-up timeout plus a bounded clean-up; a hang must not take the default 30 s.
+    assert seconds < 2 * float(SHORT_TIMEOUT) + 8
+    assert_group_gone(tmp_path)
+
+
+def test_memo_command_reports_a_missing_browser(tmp_path, monkeypatch, sample_case_path):
+    monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "no-such-chromium"))
+    result, out, _ = run_memo(tmp_path, sample_case_path)
+    assert result.exit_code == 2 and not out.exists()
+    assert "BROWSER_PATH" in result.output and "apt-get install chromium" in result.output
+    assert "Traceback" not in result.output
+
+
+def test_memo_command_without_charts_needs_no_browser(tmp_path, monkeypatch, sample_case_path):
+    monkeypatch.setenv("BROWSER_PATH", str(fake_browser(tmp_path, HANG)))
+    out = tmp_path / "m.pdf"
+    result = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(out), "--no-charts"])
+    assert result.exit_code == 0, result.output
+    assert out.read_bytes().startswith(b"%PDF-")
+    assert not (tmp_path / "pgid").exists()       # the fake browser was never started
+
+
+@pytest.mark.parametrize("text", ["0", "-3", "soon", "1e9"])
+def test_bad_timeout_setting_names_the_variable(text, monkeypatch):
+    monkeypatch.setenv(memo_charts.TIMEOUT_VARIABLE, text)
+    with pytest.raises(memo.ChartsUnavailable, match=f"{memo_charts.TIMEOUT_VARIABLE}.*{text!r}"):
+        memo_charts.chart_timeout()
+
+
+@pytest.mark.browser
+@pytest.mark.slow
+@pytest.mark.skipif(not os.path.exists("/usr/bin/chromium"), reason="needs a real Chromium")
+def test_browser_killed_after_start_is_reported_and_cleaned_up(sample_case, monkeypatch):
+    """A real browser that dies between two memos: the next export says so and leaves nothing."""
+    from engine.evaluate import evaluate
+
+    monkeypatch.setenv(memo_charts.TIMEOUT_VARIABLE, "60")     # a real start-up on a busy machine
+
+    exporter = memo.start_chart_exporter()
+    group = exporter.process_group
+    assert group is not None and memo_charts.process_group_members(group)
+    os.killpg(group, signal.SIGKILL)          # as an out-of-memory kill would
+    figures, _ = memo.build_figures(evaluate(sample_case))
+    with pytest.raises(memo.ChartsUnavailable, match="Try again|could not be started"):
+        exporter.export_svg(dict(list(figures.items())[:1]))
+    assert not exporter.running and memo_charts.process_group_members(group) == []
+    assert memo_charts.running_exporter() is None      # the next memo starts a fresh browser
+
+
+# --------------------------------------------------------------------------- workbench
+
+
+def _memo_page(tmp_path: Path, monkeypatch):
+    from streamlit.testing.v1 import AppTest
+
+    from app.state import WORKDIR_ENV
+
+    monkeypatch.setenv(WORKDIR_ENV, str(tmp_path / "work"))
+    at = AppTest.from_file(str(Path(__file__).resolve().parent.parent / "app" / "workbench.py"),
+                           default_timeout=60)
+    at.run()
+    at.switch_page("pages/memo.py")
+    at.run()
+    assert not at.exception
+    return at
+
+
+def _button(at, label: str):
+    found = [b for b in at.button if b.label == label]
+    assert found, f"no button {label!r}: {[b.label for b in at.button]}"
+    return found[0]
+
+
+def _downloads(at) -> list:
+    return [d for d in at.get("download_button") if "PDF memo" in d.proto.label]
+
+
+@pytest.mark.parametrize("kind", ["missing", pytest.param("hanging", marks=pytest.mark.slow)])
+def test_memo_page_reports_the_fault_and_prints_without_charts(kind, tmp_path, monkeypatch):
+    if kind == "missing":
+        monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "no-such-chromium"))
+    else:
+        monkeypatch.setenv("BROWSER_PATH", str(fake_browser(tmp_path, HANG)))
+    at = _memo_page(tmp_path, monkeypatch)
+    _button(at, "Print the memo (PDF)").click().run()
+    assert not at.exception
+    message = " ".join(e.value for e in at.error)
+    assert "charts could not be drawn" in message and "without charts" in message
+    assert not _downloads(at)
+    # The page stays usable: the narrative still edits, and the memo prints without charts.
+    [w for w in at.text_input if w.label == "Reviewed by"][0].set_value("R. Second").run()
+    assert at.session_state["raw"]["memo"]["reviewed_by"] == "R. Second"
+    _button(at, "Print the memo without charts").click().run()
+    assert not at.exception
+    assert [d.proto.label for d in _downloads(at)] == ["Download the PDF memo (without charts)"]
+    assert at.session_state["memo_pdf"][1].startswith(b"%PDF-")
+    memo.stop_chart_exporter()
+    assert_group_gone(tmp_path)
