@@ -26,7 +26,22 @@ from app.memo_charts import (BROWSER_CANDIDATES, NO_CHART_FIX, ChartExporter, Ch
                              ChartJob, export_charts, find_browser, start_chart_exporter,
                              stop_chart_exporter)
 
-TEMPLATES_DIR = Path(__file__).resolve().parent.parent / "templates"
+def find_templates() -> Path:
+    """The memo's templates: the repository's templates/ beside app/ (a checkout or an editable
+    install), else the copy a wheel installs under <prefix>/share/obligor-memo/templates."""
+    import sys
+
+    candidates = [Path(__file__).resolve().parent.parent / "templates",
+                  Path(sys.prefix) / "share" / "obligor-memo" / "templates",
+                  Path(sys.base_prefix) / "share" / "obligor-memo" / "templates"]
+    for folder in candidates:
+        if (folder / "memo.html").is_file():
+            return folder
+    raise FileNotFoundError("The memo templates (memo.html) were not found; looked in "
+                            + ", ".join(str(c) for c in candidates) + ". Reinstall obligor-memo.")
+
+
+TEMPLATES_DIR = find_templates()
 ASSETS_DIR = Path(__file__).resolve().parent / "assets" / "memo"
 PAGE_SIZES = {"A4": "A4", "Letter": "letter"}
 # Any fixed instant works; a PDF reader shows it as the document date, so it is stated plainly.
