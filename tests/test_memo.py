@@ -365,3 +365,19 @@ def test_same_case_and_time_give_identical_bytes(hostile, make_case):
     assert again == first
     info = PdfReader(io.BytesIO(first)).metadata
     assert info.creation_date is None and info.modification_date is None
+
+
+def test_appendix_inputs_read_back_as_the_case(sample_results, make_case, sample_sections):
+    """The appendix prints the inputs as YAML; PyYAML reading it back gives the case exactly
+    (statements excepted: they are the table above it), hostile free text included."""
+    import yaml
+
+    from app import memo
+    from engine.case import case_to_dict
+
+    for results in (sample_results, hostile_results(make_case)):
+        data = case_to_dict(results.case)
+        expected = {k: v for k, v in data.items() if k != "statements"}
+        assert yaml.safe_load(memo.inputs_yaml(data)) == expected
+    appendix = sample_sections["Appendix Inputs and record"]
+    assert "confidence: 0.999" in appendix and "kind: term_loan" in appendix
