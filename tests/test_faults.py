@@ -52,6 +52,8 @@ def assert_group_gone(folder: Path) -> None:
 def _short_timeout(monkeypatch):
     monkeypatch.setenv(memo_charts.TIMEOUT_VARIABLE, SHORT_TIMEOUT)
     memo.stop_chart_exporter()
+    # Figures drawn by earlier tests would be reused without any browser, hiding the fault.
+    monkeypatch.setattr(memo_charts, "_SVG_CACHE", {})
     yield
     memo.stop_chart_exporter()
 
