@@ -208,7 +208,19 @@ class ChartExporter:
         return self._kaleido
 
     def export_svg(self, figures: dict[str, Any]) -> dict[str, str]:
-        """Every figure as SVG text, in one browser session; the whole batch gets the timeout."""
+        """Every figure as SVG text, in one browser session; the whole batch gets the timeout.
+
+        A page that fails while drawing (a script error in a busy browser, seen rarely) is given
+        one more try in a freshly started browser; a timeout or a failed start is not retried.
+        """
+        try:
+            return self._export_once(figures)
+        except ChartsUnavailable as exc:
+            if not str(exc).startswith(_DRAWING_FAILED):
+                raise
+            return self._export_once(figures)
+
+    def _export_once(self, figures: dict[str, Any]) -> dict[str, str]:
         with self._lock:
             if self._opening is None:
                 self.start(wait=False)
@@ -241,7 +253,7 @@ class ChartExporter:
                     raise ChartsUnavailable(f"Chart export took longer than {self.timeout:g} s and "
                                             f"was stopped. Try again, raise {TIMEOUT_VARIABLE}, or "
                                             "print with --no-charts.") from None
-                raise ChartsUnavailable(f"The browser failed while drawing the charts ("
+                raise ChartsUnavailable(f"{_DRAWING_FAILED} ("
                                         f"{type(exc).__name__}: {' '.join(str(exc).split())[:300]}). "
                                         f"Try again, or {NO_CHART_FIX}.") from None
             self._refresh = asyncio.run_coroutine_threadsafe(self._reload_tabs(kaleido), loop)
@@ -293,6 +305,9 @@ class ChartExporter:
                 if not loop.is_running():
                     loop.close()
             self._thread = None
+
+
+_DRAWING_FAILED = "The browser failed while drawing the charts"
 
 
 def _is_timeout(exc: BaseException) -> bool:

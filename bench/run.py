@@ -168,9 +168,44 @@ ITEMS = {"evaluate": item_evaluate, "grid": item_grid, "sensitivity": item_sensi
 # --------------------------------------------------------------------------- orchestration
 
 
+def _tree_rss_mb(root: int) -> float:
+    """Memory of a process and all its descendants (Chromium included): the sum of their
+    proportional set sizes (Pss, /proc/PID/smaps_rollup), which shares pages used by several
+    processes among them instead of counting them once per process as plain RSS would."""
+    parents: dict[int, int] = {}
+    for entry in os.listdir("/proc"):
+        if not entry.isdigit():
+            continue
+        try:
+            with open(f"/proc/{entry}/stat", "rb") as handle:
+                parents[int(entry)] = int(handle.read().rsplit(b")", 1)[1].split()[1])
+        except (OSError, IndexError, ValueError):
+            continue
+    members, frontier = {root}, [root]
+    while frontier:
+        current = frontier.pop()
+        for pid, parent in parents.items():
+            if parent == current and pid not in members:
+                members.add(pid)
+                frontier.append(pid)
+    total_kb = 0
+    for pid in members:
+        try:
+            with open(f"/proc/{pid}/smaps_rollup") as handle:
+                for line in handle:
+                    if line.startswith("Pss:"):
+                        total_kb += int(line.split()[1])
+                        break
+        except (OSError, ValueError):
+            continue
+    return total_kb / 1024
+
+
 def _run_child(argv: list[str], timeout: float) -> tuple[float, float, int, str]:
-    """Wall seconds, peak RSS in MB, exit code and stdout of one child process."""
+    """Wall seconds, peak memory in MB (the larger of the child's own max RSS and the sampled sum
+    over its process tree), exit code and stdout of one child process."""
     start = time.perf_counter()
+    tree_peak = 0.0
     with tempfile.TemporaryFile() as out, tempfile.TemporaryFile() as err:
         proc = subprocess.Popen(argv, cwd=ROOT, stdout=out, stderr=err)
         deadline = start + timeout
@@ -182,14 +217,15 @@ def _run_child(argv: list[str], timeout: float) -> tuple[float, float, int, str]
                 proc.kill()
                 pid, status, usage = os.wait4(proc.pid, 0)
                 break
-            time.sleep(0.005)
+            tree_peak = max(tree_peak, _tree_rss_mb(proc.pid))
+            time.sleep(0.1)
         wall = time.perf_counter() - start
         out.seek(0)
         err.seek(0)
         text = out.read().decode("utf-8", "replace")
         if os.waitstatus_to_exitcode(status) != 0:
             text += err.read().decode("utf-8", "replace")[-400:]
-    return wall, usage.ru_maxrss / 1024, os.waitstatus_to_exitcode(status), text
+    return wall, max(usage.ru_maxrss / 1024, tree_peak), os.waitstatus_to_exitcode(status), text
 
 
 def _item(name: str, quick: bool) -> dict:

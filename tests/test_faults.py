@@ -104,8 +104,9 @@ def test_bad_timeout_setting_names_the_variable(text, monkeypatch):
 @pytest.mark.browser
 @pytest.mark.slow
 @pytest.mark.skipif(not os.path.exists("/usr/bin/chromium"), reason="needs a real Chromium")
-def test_browser_killed_after_start_is_reported_and_cleaned_up(sample_case, monkeypatch):
-    """A real browser that dies between two memos: the next export says so and leaves nothing."""
+def test_browser_killed_after_start_is_replaced_once_and_cleaned_up(sample_case, monkeypatch):
+    """A real browser that dies between two memos: the next export starts one fresh browser (a
+    single retry), draws, and leaves nothing of the dead one behind."""
     from engine.evaluate import evaluate
 
     monkeypatch.setenv(memo_charts.TIMEOUT_VARIABLE, "60")     # a real start-up on a busy machine
@@ -115,10 +116,28 @@ def test_browser_killed_after_start_is_reported_and_cleaned_up(sample_case, monk
     assert group is not None and memo_charts.process_group_members(group)
     os.killpg(group, signal.SIGKILL)          # as an out-of-memory kill would
     figures, _ = memo.build_figures(evaluate(sample_case))
-    with pytest.raises(memo.ChartsUnavailable, match="Try again|could not be started"):
-        exporter.export_svg(dict(list(figures.items())[:1]))
-    assert not exporter.running and memo_charts.process_group_members(group) == []
-    assert memo_charts.running_exporter() is None      # the next memo starts a fresh browser
+    try:
+        svgs = exporter.export_svg(dict(list(figures.items())[:1]))
+        assert all(svg.lstrip().startswith("<svg") for svg in svgs.values())
+        assert memo_charts.process_group_members(group) == []
+        assert exporter.running and exporter.process_group != group
+    finally:
+        memo.stop_chart_exporter()
+        exporter.close(force=True)
+
+
+def test_a_browser_that_keeps_failing_is_reported_after_one_retry(monkeypatch):
+    """Two drawing failures in a row end in the message naming the fix (no endless retries)."""
+    calls = []
+
+    def failing(self, figures):
+        calls.append(1)
+        raise memo.ChartsUnavailable(memo_charts._DRAWING_FAILED + " (test). Try again.")
+
+    monkeypatch.setattr(memo_charts.ChartExporter, "_export_once", failing)
+    with pytest.raises(memo.ChartsUnavailable, match="Try again"):
+        memo_charts.ChartExporter(browser_path="/bin/true").export_svg({})
+    assert len(calls) == 2
 
 
 # --------------------------------------------------------------------------- workbench
