@@ -212,7 +212,7 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
     dist = loss_distribution(pd=pd.pd, exposures=[f.ead for f in facilities],
                              recovery_laws=[laws[f.id] for f in facilities],
                              confidence=case.capital.confidence, join=case.capital.recovery_join,
-                             n_curve=81 if detail else 2)
+                             n_curve=61 if detail else 2)
     if dist.capital_floored:
         cautions.append(Caution("capital.economic_floor", "Economic capital is floored at zero: the "
                                 f"PD in force ({pd.pd:.4%}) is at or below 1 - confidence "
