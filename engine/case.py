@@ -11,13 +11,12 @@ times in years [years].
 
 from __future__ import annotations
 
-import difflib
 import math
-import re
 from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
+from engine.case_errors import CaseProblems, FieldError, problems_from_validation
 from engine.errors import CaseError, Problem
 
 FacilityKind = Literal["bond", "term_loan", "revolver", "guarantee", "letter_of_credit"]
@@ -105,14 +104,14 @@ class PdSettings(_Model):
             try:
                 master_scale_from_rows([row.model_dump() for row in self.master_scale])
             except ValueError as exc:
-                raise _FieldError("master_scale", [r.model_dump() for r in self.master_scale],
+                raise FieldError("master_scale", [r.model_dump() for r in self.master_scale],
                                   str(exc)) from None
         return self
 
     @model_validator(mode="after")
     def _override_needs_reason(self) -> "PdSettings":
         if self.override is not None and not (self.override_reason or "").strip():
-            raise _FieldError("override_reason", self.override_reason,
+            raise FieldError("override_reason", self.override_reason,
                               "a non-empty reason whenever pd.override is set")
         return self
 
@@ -130,9 +129,9 @@ class Recovery(_Model):
     @model_validator(mode="after")
     def _feasible(self) -> "Recovery":
         if self.mean > self.upper:
-            raise _FieldError("mean", self.mean, f"a recovery mean at most upper = {self.upper:g}")
+            raise FieldError("mean", self.mean, f"a recovery mean at most upper = {self.upper:g}")
         if 0 < self.std < 1e-6:
-            raise _FieldError("std", self.std, "0 (a fixed recovery) or at least 0.000001")
+            raise FieldError("std", self.std, "0 (a fixed recovery) or at least 0.000001")
         m = self.mean / self.upper
         limit = self.upper * math.sqrt(m * (1 - m))
         if self.std > 0 and self.std >= limit:
@@ -141,7 +140,7 @@ class Recovery(_Model):
             if limit == 0:
                 allowed = (f"std 0: a mean of {self.mean:g} on [0, {self.upper:g}] "
                            "leaves no room for spread")
-            raise _FieldError("std", self.std, allowed)
+            raise FieldError("std", self.std, allowed)
         return self
 
 
@@ -190,7 +189,7 @@ class LgdSettings(_Model):
     @model_validator(mode="after")
     def _not_vanishing(self) -> "LgdSettings":
         if 0 < self.default_recovery_std < 1e-6:
-            raise _FieldError("default_recovery_std", self.default_recovery_std,
+            raise FieldError("default_recovery_std", self.default_recovery_std,
                               "0 (fixed recoveries) or at least 0.000001")
         return self
 
@@ -240,7 +239,7 @@ class GridAxis(_Model):
     @model_validator(mode="after")
     def _ordered(self) -> "GridAxis":
         if self.stop <= self.start:
-            raise _FieldError("stop", self.stop, f"a value above start = {self.start:g}")
+            raise FieldError("stop", self.stop, f"a value above start = {self.start:g}")
         return self
 
 
@@ -294,7 +293,7 @@ class Case(_Model):
         seen: dict[int, int] = {}
         for index, row in enumerate(rows):
             if row.year in seen:
-                raise _FieldError(f"[{index}].year", row.year,
+                raise FieldError(f"[{index}].year", row.year,
                                   f"each year once (year {row.year} also in row {seen[row.year]})")
             seen[row.year] = index
         return sorted(rows, key=lambda r: r.year)
@@ -338,166 +337,11 @@ class Case(_Model):
             if name in names[:index]:
                 problems.append(Problem(f"scenarios[{index}].name", name, "a unique scenario name"))
         if problems:
-            raise _CaseProblems(problems)
+            raise CaseProblems(problems)
         return self
 
 
-# --------------------------------------------------------------------------- errors and parsing
-
-
-class _FieldError(ValueError):
-    """Raised inside validators: a sub-field path relative to the model being validated."""
-
-    def __init__(self, field: str, value: Any, allowed: str):
-        self.field, self.value, self.allowed = field, value, allowed
-        super().__init__(f"{field}|{allowed}")
-
-
-class _CaseProblems(ValueError):
-    def __init__(self, problems: list[Problem]):
-        self.problems = problems
-        super().__init__("; ".join(p.sentence() for p in problems))
-
-
-def _path(loc: tuple[Any, ...]) -> str:
-    out = ""
-    for part in loc:
-        if isinstance(part, int):
-            out += f"[{part}]"
-        elif not re.fullmatch(r"[A-Za-z0-9_\-]+", str(part)):
-            out += f"[{str(part)!r}]"  # blanks, control or odd characters stay visible
-        else:
-            out += ("." if out else "") + str(part)
-    return out
-
-
-def _model_at(loc: tuple[Any, ...]) -> type[BaseModel] | None:
-    """The pydantic model class that owns the last key of ``loc`` (walking from Case)."""
-    import typing
-
-    model: Any = Case
-    for part in loc[:-1]:
-        if isinstance(part, int):
-            continue
-        if not (isinstance(model, type) and issubclass(model, BaseModel)):
-            return None
-        field = model.model_fields.get(str(part))
-        if field is None:
-            return None
-        model = _unwrap_model(field.annotation, typing)
-    return model if isinstance(model, type) and issubclass(model, BaseModel) else None
-
-
-def _unwrap_model(annotation: Any, typing: Any) -> Any:
-    origin = typing.get_origin(annotation)
-    if origin is None:
-        return annotation
-    for arg in typing.get_args(annotation):
-        found = _unwrap_model(arg, typing)
-        if isinstance(found, type) and issubclass(found, BaseModel):
-            return found
-    return None
-
-
-def _allowed_for(error: dict[str, Any]) -> str:
-    kind = error["type"]
-    ctx = error.get("ctx") or {}
-    if kind == "extra_forbidden":
-        owner = _model_at(tuple(error["loc"]))
-        keys = sorted(owner.model_fields) if owner else []
-        near = difflib.get_close_matches(str(error["loc"][-1]), keys, n=1, cutoff=0.6)
-        hint = f" (did you mean '{near[0]}'?)" if near else ""
-        return f"no such key{hint}; the keys allowed here are {', '.join(keys)}"
-    if kind == "missing":
-        return "a value (this key is required)"
-    if kind in ("greater_than", "greater_than_equal", "less_than", "less_than_equal"):
-        return _range_text(error)
-    if kind == "finite_number":
-        return "a finite number (not NaN or infinity)"
-    if kind in ("float_type", "float_parsing"):
-        return "a number"
-    if kind in ("int_type", "int_parsing", "int_from_float"):
-        return "a whole number"
-    if kind in ("string_type",):
-        return "text"
-    if kind == "bool_type":
-        return "true or false"
-    if kind == "literal_error":
-        return "one of " + str(ctx.get("expected", ""))
-    if kind == "string_pattern_mismatch":
-        return "a three-letter ISO 4217 code in capitals, e.g. EUR, USD, CHF"
-    if kind in ("string_too_short", "too_short"):
-        return f"at least {ctx.get('min_length', 1)} item(s)/character(s)"
-    if kind in ("string_too_long", "too_long"):
-        return f"at most {ctx.get('max_length')} item(s)/character(s)"
-    if kind in ("list_type",):
-        return "a list"
-    if kind in ("model_type", "model_attributes_type", "dict_type"):
-        return "a mapping of keys to values"
-    return error.get("msg", "a valid value")
-
-
-def _range_text(error: dict[str, Any]) -> str:
-    """Combine the field's bounds into one range, reading them off the schema when possible."""
-    owner = _model_at(tuple(error["loc"]))
-    key = error["loc"][-1]
-    if owner is not None and str(key) in owner.model_fields:
-        low = high = None
-        low_open = high_open = False
-        for meta in _bound_metadata(owner.model_fields[str(key)]):
-            if getattr(meta, "ge", None) is not None:
-                low = meta.ge
-            if getattr(meta, "gt", None) is not None:
-                low, low_open = meta.gt, True
-            if getattr(meta, "le", None) is not None:
-                high = meta.le
-            if getattr(meta, "lt", None) is not None:
-                high, high_open = meta.lt, True
-        if low is not None and high is not None:
-            return (f"a number from {low:g}{' (exclusive)' if low_open else ''} "
-                    f"to {high:g}{' (exclusive)' if high_open else ''}")
-    return error.get("msg", "a number in range").replace("Input should be ", "a number ")
-
-
-def _bound_metadata(field: Any) -> list[Any]:
-    """Constraint metadata of a field, looking inside ``Annotated[...] | None`` as well."""
-    import typing
-
-    found = list(field.metadata)
-    if not found:
-        for arg in typing.get_args(field.annotation):
-            for extra in getattr(arg, "__metadata__", ()):
-                found.extend(getattr(extra, "metadata", [extra]))
-    return found
-
-
-def problems_from_validation(exc: ValidationError, prefix: str = "") -> list[Problem]:
-    problems: list[Problem] = []
-    for error in exc.errors(include_url=False):
-        loc = tuple(error["loc"])
-        original = (error.get("ctx") or {}).get("error")
-        if isinstance(original, _CaseProblems):
-            for p in original.problems:
-                problems.append(Problem(_join(prefix, _join(_path(loc), p.field)), p.value, p.allowed))
-            continue
-        if isinstance(original, _FieldError):
-            field = original.field
-            path = _path(loc) + (field if field.startswith("[") else ("." + field if loc else field))
-            problems.append(Problem(_join(prefix, path), original.value, original.allowed))
-            continue
-        value = error.get("input")
-        if error["type"] == "missing":
-            value = None
-        problems.append(Problem(_join(prefix, _path(loc)) or "case", value, _allowed_for(error)))
-    return problems
-
-
-def _join(prefix: str, path: str) -> str:
-    if not prefix:
-        return path
-    if not path:
-        return prefix
-    return prefix + (path if path.startswith("[") else "." + path)
+# --------------------------------------------------------------------------- parsing
 
 
 def parse_case(data: Any, source: str = "case") -> Case:
@@ -508,7 +352,7 @@ def parse_case(data: Any, source: str = "case") -> Case:
     try:
         return Case.model_validate(data)
     except ValidationError as exc:
-        raise CaseError(problems_from_validation(exc), source=source) from None
+        raise CaseError(problems_from_validation(Case, exc), source=source) from None
 
 
 def case_to_dict(case: Case) -> dict[str, Any]:
