@@ -20,12 +20,11 @@ from scipy.stats import lognorm, norm
 from engine.market import (
     MertonBatch,
     MertonSolution,
-    NaiveDD,
     merton_equity_value,
-    naive_distance_to_default,
     solve_merton,
     solve_merton_many,
 )
+from engine.naive_dd import NaiveDD, naive_distance_to_default
 
 # ---------------------------------------------------------------- reference code
 # Written from the textbook formulas with scipy.stats.norm, sharing nothing with
