@@ -18,31 +18,31 @@ def _open_sample() -> None:
     _ui.replace_case(state.sample_case_dict(), "Opened the sample borrower.")
 
 
-def _open_case_file(key: str) -> None:
+def _read_upload(key: str, reader):
+    """The uploaded file read by ``reader``, or None with the message kept for the page."""
     upload = st.session_state.get(key)
     if upload is None:
-        return
+        return None, None
     try:
-        raw = state.case_dict_from_upload(upload.getvalue(), upload.name)
+        data = reader(upload.getvalue(), upload.name)
     except CaseError as exc:
         st.session_state.upload_error = exc.paragraph()
-        return
+        return None, None
     st.session_state.upload_error = None
-    _ui.replace_case(raw, f"Opened {upload.name}.")
+    return data, upload.name
+
+
+def _open_case_file(key: str) -> None:
+    raw, name = _read_upload(key, state.case_dict_from_upload)
+    if raw is not None:
+        _ui.replace_case(raw, f"Opened {name}.")
 
 
 def _upload_statements(key: str) -> None:
-    upload = st.session_state.get(key)
-    if upload is None:
-        return
-    try:
-        rows = state.statements_from_upload(upload.getvalue(), upload.name)
-    except CaseError as exc:
-        st.session_state.upload_error = exc.paragraph()
-        return
-    st.session_state.upload_error = None
-    raw = state.set_path(st.session_state.raw, "statements", rows)
-    _ui.replace_case(raw, f"Read {len(rows)} year(s) of statements from {upload.name}.")
+    rows, name = _read_upload(key, state.statements_from_upload)
+    if rows is not None:
+        raw = state.set_path(st.session_state.raw, "statements", rows)
+        _ui.replace_case(raw, f"Read {len(rows)} year(s) of statements from {name}.")
 
 
 _ui.header("Borrower and statements",
