@@ -13,11 +13,13 @@ generation time (and the record that repeats it) differs between two runs on the
 from __future__ import annotations
 
 import base64
+import gc
 import hashlib
 import re
+from contextlib import contextmanager
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Any
+from typing import Any, Iterator
 
 from app import formatting as fmt
 from app import pdfcase
@@ -238,11 +240,27 @@ def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
                    created=FIXED_PDF_DATE, modified=FIXED_PDF_DATE, url_fetcher=fetcher),
     ]
     identifier = hashlib.sha256(results.fingerprint.encode("ascii")).hexdigest()[:32].encode("ascii")
-    document = HTML(string=html, base_url=ASSETS_DIR.as_uri() + "/", url_fetcher=fetcher)
-    laid_out = document.render(stylesheets=sheets)
+    with _old_objects_set_aside():
+        document = HTML(string=html, base_url=ASSETS_DIR.as_uri() + "/", url_fetcher=fetcher)
+        laid_out = document.render(stylesheets=sheets)
     if charts is not None:
         charts.svgs()        # a chart the layout could not fetch: raise why, print nothing
-    return laid_out.write_pdf(attachments=attachments, pdf_identifier=identifier, **WRITE_OPTIONS)
+    with _old_objects_set_aside():
+        return laid_out.write_pdf(attachments=attachments, pdf_identifier=identifier, **WRITE_OPTIONS)
+
+
+@contextmanager
+def _old_objects_set_aside() -> Iterator[None]:
+    """The layout builds tens of thousands of long-lived boxes, which keeps triggering full
+    garbage collections; each one would walk every object the process already holds (plotly's
+    figure classes alone are a large heap). Frozen objects are skipped by the collector, so only
+    the memo's own objects are scanned: layout 1.8 s -> 1.3 s of CPU on the sample memo.
+    Everything is handed back to the collector afterwards; nothing is kept alive longer."""
+    gc.freeze()
+    try:
+        yield
+    finally:
+        gc.unfreeze()
 
 
 # Fonts subset (the PDF stays small), no hinting (not needed on paper), images as they are.
@@ -259,7 +277,8 @@ def render_memo_pdf(results: Any, *, charts: bool = True, page_size: str | None 
     """
     size = _page_size(results, page_size)
     stamp = _stamp(generated_at)
-    job = ChartJob(results) if charts else None
+    with _old_objects_set_aside():       # plotly's figure building makes many objects too
+        job = ChartJob(results) if charts else None
     try:
         placeholders = {key: f"{CHART_SCHEME}{i}" for i, key in enumerate(job.figures)} if job else {}
         html = _html(results, charts=placeholders, notes=job.notes if job else {},
