@@ -233,8 +233,8 @@ class ChartExporter:
             assert loop is not None
 
             async def _one(fig: Any) -> str:
-                opts = {"format": "svg", "width": int(getattr(fig, "_memo_width", 760)),
-                        "height": int(fig.layout.height or 420)}
+                width, height = figure_size(fig)
+                opts = {"format": "svg", "width": width, "height": height}
                 data = await kaleido.calc_fig(fig, opts=opts)
                 return data.decode("utf-8") if isinstance(data, bytes) else str(data)
 
@@ -311,6 +311,11 @@ class ChartExporter:
 
 
 _DRAWING_FAILED = "The browser failed while drawing the charts"
+
+
+def figure_size(fig: Any) -> tuple[int, int]:
+    """Width and height [px] a figure is exported at (the SVG's own size)."""
+    return int(getattr(fig, "_memo_width", 760)), int(fig.layout.height or 420)
 
 
 def _is_timeout(exc: BaseException) -> bool:
@@ -616,6 +621,10 @@ class ChartJob:
         finally:
             if own is not None:
                 own.close()
+
+    def done(self) -> bool:
+        """The drawing has finished (well or not); :meth:`svgs` will not wait."""
+        return self._future.done()
 
     def svgs(self) -> dict[str, str]:
         """Every drawn figure's SVG text by chart key."""

@@ -111,3 +111,56 @@ def test_slimmed_chart_prints_pixel_identical(tmp_path):
     assert ImageChops.difference(before, Image.new("RGB", before.size, "white")).getbbox()  # drawn
     assert before.size == after.size
     assert ImageChops.difference(before, after).getbbox() is None
+
+
+class _SlowCharts:
+    """Stands in for a chart job whose drawing finishes only after the layout has begun."""
+
+    def __init__(self, svgs: dict[str, str], sizes: dict[str, tuple[int, int]], *, done_at_start: bool):
+        import plotly.graph_objects as go
+
+        self._svgs = svgs
+        self.figures = {}
+        for key, (width, height) in sizes.items():
+            fig = go.Figure(layout={"height": height})
+            object.__setattr__(fig, "_memo_width", width)
+            self.figures[key] = fig
+        self._done = done_at_start
+        self.waited = 0
+
+    def done(self) -> bool:
+        return self._done
+
+    def svgs(self) -> dict[str, str]:
+        self.waited += 1
+        self._done = True
+        return self._svgs
+
+
+def _chart(width: int, height: int) -> str:
+    return PLOT_LIKE.replace('width="300" height="200"', f'width="{width}" height="{height}"').replace(
+        'viewBox="0 0 300 200"', f'viewBox="0 0 {width} {height}"')
+
+
+@pytest.mark.parametrize("drawn_size", [(300, 200), (310, 200)])
+def test_layout_before_the_charts_are_drawn_prints_the_same_pdf(drawn_size, sample_case):
+    """Laying out around same-size stand-ins and swapping the drawing in afterwards gives the
+    very PDF bytes of a layout made with the drawn charts; a drawing of another size than its
+    stand-in is laid out again (the second case), so it still matches."""
+    from app import memo
+    from engine.evaluate import evaluate
+
+    results = evaluate(sample_case)
+    html = ("<body><p>before</p><img src='memo-chart:0' style='width: 100%'>"
+            "<p>between</p><img src='memo-chart:1' style='width: 50%'><p>after</p></body>")
+    svgs = {"a": _chart(*drawn_size), "b": _chart(300, 200)}
+    sizes = {"a": (300, 200), "b": (300, 200)}
+
+    def pdf(charts: _SlowCharts) -> bytes:
+        return memo.html_to_pdf(html, results=results, page_size="A4", generated_at="2031-01-02",
+                                allowed_data_uris=set(), charts=charts)
+
+    early = _SlowCharts(svgs, sizes, done_at_start=False)
+    ready = _SlowCharts(svgs, sizes, done_at_start=True)
+    assert pdf(early) == pdf(ready)
+    assert early.waited >= 1
