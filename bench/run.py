@@ -141,20 +141,29 @@ def item_workbench(quick: bool) -> dict:
 
 
 def item_memo_warm(quick: bool) -> dict:
-    from app.memo import render_memo_pdf
-    from engine.evaluate import evaluate
+    """The memo when the chart exporter is already running (as the workbench starts it):
+    charts drawn anew each time (the SVG cache emptied), and a reprint of unchanged charts."""
+    from app import memo, memo_charts
+    from engine.analysis import analyse
     from engine.loading import load_case
 
-    results = evaluate(load_case(SAMPLE))
-    start = time.perf_counter()
-    render_memo_pdf(results)  # starts the chart exporter once
-    first = time.perf_counter() - start
-    times = []
-    for _ in range(2 if quick else 5):
-        start = time.perf_counter()
-        render_memo_pdf(results)
-        times.append(time.perf_counter() - start)
-    return {"first_s": first, "warm_median_s": statistics.median(times), "target_warm_s": 2}
+    results = analyse(load_case(SAMPLE))
+    memo.start_chart_exporter(wait=True)
+    try:
+        memo.render_memo_pdf(results)                 # warm-up: fonts, templates, first page load
+        drawn, reprint = [], []
+        for _ in range(2 if quick else 5):
+            memo_charts._SVG_CACHE.clear()
+            start = time.perf_counter()
+            memo.render_memo_pdf(results)
+            drawn.append(time.perf_counter() - start)
+            start = time.perf_counter()
+            memo.render_memo_pdf(results)
+            reprint.append(time.perf_counter() - start)
+    finally:
+        memo.stop_chart_exporter()
+    return {"warm_charts_drawn_s": statistics.median(drawn), "warm_reprint_s": statistics.median(reprint),
+            "target_warm_s": 2}
 
 
 ITEMS = {"evaluate": item_evaluate, "grid": item_grid, "sensitivity": item_sensitivity,
