@@ -33,12 +33,10 @@ class MemoRecordError(ValueError):
 
 
 def canonical_case_json(results: Any) -> bytes:
-    """The case exactly as fingerprinted: sorted keys, compact separators, ASCII."""
-    from engine.case import case_to_dict
+    """The case exactly as fingerprinted (engine.evaluate.canonical_case_json)."""
+    from engine.evaluate import canonical_case_json as canonical
 
-    text = json.dumps(case_to_dict(results.case), sort_keys=True, separators=(",", ":"),
-                      ensure_ascii=True)
-    return text.encode("ascii")
+    return canonical(results.case)
 
 
 def printed_figures(results: Any) -> dict[str, str]:

@@ -140,9 +140,15 @@ def _plain(value: Any) -> Any:
     return value
 
 
+def canonical_case_json(case: Case) -> bytes:
+    """The case as fingerprinted (and embedded in the memo): sorted keys, compact, ASCII."""
+    text = json.dumps(case_to_dict(case), sort_keys=True, separators=(",", ":"), ensure_ascii=True)
+    return text.encode("ascii")
+
+
 def fingerprint(case: Case) -> str:
-    canonical = json.dumps(case_to_dict(case), sort_keys=True, separators=(",", ":"), ensure_ascii=True)
-    return hashlib.sha256(canonical.encode("ascii")).hexdigest()
+    """SHA-256 of :func:`canonical_case_json`."""
+    return hashlib.sha256(canonical_case_json(case)).hexdigest()
 
 
 def _lifetime_pd_share(ts: PdTermStructure, maturity_years: float) -> float:

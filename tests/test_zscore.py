@@ -30,7 +30,7 @@ def by_name(results):
 
 # Coefficients as published (recalled from memory; widely reprinted, e.g. Altman and
 # Hotchkiss, Corporate Financial Distress and Bankruptcy, 3rd ed., 2006). Exact match:
-# these are transcriptions, not computations.
+# these are the published constants copied as printed, not computed values.
 COEFFICIENTS = [
     # Altman (1968), Journal of Finance 23(4): 1.2, 1.4, 3.3, 0.6, 1.0 (ratios as fractions).
     ("Z (1968)", {"X1": 1.2, "X2": 1.4, "X3": 3.3, "X4": 0.6, "X5": 1.0}),

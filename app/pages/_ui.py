@@ -13,7 +13,7 @@ from typing import Any, Callable
 import streamlit as st
 
 from app import state
-from app.formatting import num, pd_pct
+from app.formatting import num
 from engine.errors import CaseError, Problem, show_value
 
 CAUTION = ("Model estimate for a qualified credit officer, not a credit decision. The "
@@ -247,10 +247,6 @@ def toggle_field(label: str, path: str, *, where: Any = None, help: str | None =
     where.checkbox(label, value=bool(state.get_path(st.session_state.raw, path, False)), key=key,
                    help=help, on_change=_store, args=(path, key))
     show_problems(path, where)
-
-
-def pd_text(value: float | None) -> str:
-    return pd_pct(value)
 
 
 def rows_of(items: Any) -> list[dict[str, Any]]:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import streamlit as st
 
 from app import charts
-from app.formatting import millions, num, pct, years
+from app.formatting import millions, num, pct, pd_pct, years
 from app.pages import _ui
 
 results = _ui.header("Asset trend and PD",
@@ -52,7 +52,7 @@ with chart:
     p = results.pd
     m = st.columns(5)
     m[0].metric("Distance to default", num(p.distance_to_default, 2))
-    m[1].metric("PD in force", _ui.pd_text(p.pd), help="The override where one is set, else the model's.")
+    m[1].metric("PD in force", pd_pct(p.pd), help="The override where one is set, else the model's.")
     m[2].metric("Grade", p.grade or "n/a")
     m[3].metric("Default point", millions(p.default_point, cur))
     m[4].metric("Asset value", millions(p.asset_value, cur))
@@ -64,7 +64,7 @@ with chart:
         fits[2].metric("Expected asset return", pct(trend.expected_return))
         fits[3].metric("Window", years(trend.window_years))
     if p.overridden:
-        st.warning(f"Model PD {_ui.pd_text(p.model_pd)} replaced by the analyst's {_ui.pd_text(p.pd)}: "
+        st.warning(f"Model PD {pd_pct(p.model_pd)} replaced by the analyst's {pd_pct(p.pd)}: "
                    f"{p.override_reason}")
     for caution in results.cautions:
         if caution.code.startswith(("trend", "pd", "statements", "market", "grade")):
@@ -87,8 +87,8 @@ if market is not None:
     cols[0].metric("Asset value (Merton)", millions(merton.asset_value, cur) if merton else "n/a")
     cols[1].metric("Asset volatility (Merton)", pct(merton.asset_volatility) if merton else "n/a")
     cols[2].metric("Distance to default (Merton)", num(merton.distance_to_default, 2) if merton else "n/a")
-    cols[3].metric("PD (Merton)", _ui.pd_text(merton.pd) if merton else "n/a")
-    cols[4].metric("PD (naive cross-check)", _ui.pd_text(float(market.naive.pd)),
+    cols[3].metric("PD (Merton)", pd_pct(merton.pd) if merton else "n/a")
+    cols[4].metric("PD (naive cross-check)", pd_pct(float(market.naive.pd)),
                    help=f"Naive DD {num(float(market.naive.distance_to_default), 2)}; drift from "
                         f"{market.naive.drift_source.replace('_', ' ')}")
     if market.message:

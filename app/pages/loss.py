@@ -6,7 +6,7 @@ import pandas as pd
 import streamlit as st
 
 from app import charts, state
-from app.formatting import millions, money, pct
+from app.formatting import millions, money, pct, pd_pct
 from app.pages import _ui
 
 results = _ui.header("Loss, capital and pricing",
@@ -18,12 +18,12 @@ if results is None:
     st.stop()
 
 t = results.total
-rows = [{"facility": f.id, f"EAD [{cur}]": money(f.ead), "PD": _ui.pd_text(f.capital_pd),
+rows = [{"facility": f.id, f"EAD [{cur}]": money(f.ead), "PD": pd_pct(f.capital_pd),
          "LGD": pct(f.lgd, 1), "downturn LGD": pct(f.downturn_lgd, 1), f"EL [{cur}]": money(f.expected_loss),
          f"UL [{cur}]": money(f.unexpected_loss), "M [years]": f"{f.capital_maturity:g}",
          "RW": pct(f.risk_weight, 1), f"RWA [{cur}]": money(f.rwa),
          f"capital K x EAD [{cur}]": money(f.regulatory_capital)} for f in results.facilities]
-rows.append({"facility": "Total", f"EAD [{cur}]": money(t.ead), "PD": _ui.pd_text(results.pd.pd),
+rows.append({"facility": "Total", f"EAD [{cur}]": money(t.ead), "PD": pd_pct(results.pd.pd),
              "LGD": "", "downturn LGD": "", f"EL [{cur}]": money(t.expected_loss),
              f"UL [{cur}]": money(t.unexpected_loss), "M [years]": "",
              "RW": "", f"RWA [{cur}]": money(t.rwa),

@@ -13,7 +13,7 @@ import pandas as pd
 import streamlit as st
 
 from app import charts
-from app.formatting import millions, money, num, pct
+from app.formatting import millions, money, num, pct, pd_pct
 from app.pages import _ui
 from engine.errors import CaseError
 from engine.scenarios import apply_overrides, headline_delta, headline_figures
@@ -152,7 +152,7 @@ def _signed_rate(value: float | None, decimals: int = 2) -> str | None:
 st.subheader("Before and after" if overlay else "The case as it stands (move a control to compare)")
 m = st.columns(6)
 figures = (
-    ("PD in force", _ui.pd_text(head.pd), _ui.pd_text(base_head.pd), _signed_rate(delta.pd, 4), "inverse"),
+    ("PD in force", pd_pct(head.pd), pd_pct(base_head.pd), _signed_rate(delta.pd, 4), "inverse"),
     ("Expected loss", _amount(head.expected_loss), _amount(base_head.expected_loss),
      _signed_money(delta.expected_loss), "inverse"),
     ("Unexpected loss", _amount(head.unexpected_loss), _amount(base_head.unexpected_loss),
@@ -245,7 +245,7 @@ except CaseError as exc:
 
 
 def _row(name: str, f, d) -> dict[str, str]:
-    return {"Scenario": name, "PD in force": _ui.pd_text(f.pd), "\u0394 PD": _signed_rate(d.pd, 4) or "",
+    return {"Scenario": name, "PD in force": pd_pct(f.pd), "\u0394 PD": _signed_rate(d.pd, 4) or "",
             "Grade": f.grade or "n/a", "Expected loss": _amount(f.expected_loss),
             "\u0394 EL": _signed_money(d.expected_loss) or "", "Unexpected loss": _amount(f.unexpected_loss),
             "RWA": _amount(f.rwa), "\u0394 RWA": _signed_money(d.rwa) or "",
