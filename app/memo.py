@@ -15,7 +15,6 @@ from __future__ import annotations
 import base64
 import gc
 import hashlib
-import re
 from contextlib import contextmanager
 from datetime import datetime, timezone
 from pathlib import Path
@@ -47,7 +46,6 @@ TEMPLATES_DIR = find_templates()
 ASSETS_DIR = Path(__file__).resolve().parent / "assets" / "memo"
 PAGE_SIZES = {"A4": "A4", "Letter": "letter"}
 # Any fixed instant works; a PDF reader shows it as the document date, so it is stated plainly.
-_NESTED_IMAGE = re.compile(r'<image[^>]*?href="(data:image/png;base64,[A-Za-z0-9+/=]+)"')
 FIXED_PDF_DATE = datetime(2000, 1, 1, tzinfo=timezone.utc)
 
 
@@ -147,6 +145,8 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
         "zscores": getattr(results, "zscores", ()), "zscore_history": getattr(results, "zscore_history", ()),
         "master_scale_source": getattr(results, "master_scale_source", ""),
         "charts": charts, "chart_notes": chart_notes, "charts_requested": charts_requested,
+        "chart_ids": {key: CHART_ANCHOR.format(src[len(CHART_SCHEME):]) for key, src in charts.items()
+                      if src.startswith(CHART_SCHEME)},
         "spread_note": spread_note, "generated_at": generated_at, "page_size": page_size,
         "statement_keys": statement_keys, "statement_rows": case_data["statements"],
         "inputs_yaml": inputs_yaml(case_data), "window_years": window,
@@ -186,39 +186,24 @@ def _page_size(results: Any, page_size: str | None) -> str:
 # --------------------------------------------------------------------------- PDF
 
 CHART_SCHEME = "memo-chart:"
+CHART_ANCHOR = "memo-chart-{}"       # the id of chart N's box in the HTML
 
 
-def memo_fetcher(allowed_data_uris: set[str], charts: ChartJob | None = None, *,
-                 early_layout: bool = False) -> Any:
-    """A WeasyPrint fetcher that serves only our own data: URIs, the package's asset files and
-    the charts of ``charts`` (``memo-chart:N``, waiting for the drawing when it is not done;
-    with ``early_layout``, serving a same-size empty stand-in instead, see :func:`html_to_pdf`)."""
+def memo_fetcher(allowed_data_uris: set[str], chart_sizes: list[tuple[int, int]] | None = None) -> Any:
+    """A WeasyPrint fetcher that serves only our own data: URIs, the package's asset files and,
+    for ``memo-chart:N``, an empty SVG of chart N's size (``chart_sizes``): the layout keeps each
+    chart's place; the chart itself is put there after writing (:mod:`app.chart_pages`)."""
     from weasyprint.urls import URLFetcher, URLFetcherResponse
 
     allowed = set(allowed_data_uris)
-    chart_keys = list(charts.figures) if charts is not None else []
+    sizes = list(chart_sizes or [])
 
     class MemoFetcher(URLFetcher):
-        placeholders: dict[str, str] = {}       # chart URL -> the stand-in served for it
-
-        def chart_svg(self, url: str) -> str:
-            svg = charts.svgs()[chart_keys[int(url[len(CHART_SCHEME):])]]
-            # plotly embeds a heatmap's cells as a bitmap inside the SVG: allow that one.
-            allowed.update(_NESTED_IMAGE.findall(svg))
-            return svg
-
         def fetch(self, url: str, headers: Any = None) -> URLFetcherResponse:
-            if charts is not None and url.startswith(CHART_SCHEME):
+            if url.startswith(CHART_SCHEME):
                 index = url[len(CHART_SCHEME):]
-                if index.isdigit() and int(index) < len(chart_keys):
-                    if early_layout and not charts.done():
-                        # Still drawing: an empty SVG of the chart's own size holds its place,
-                        # so the layout need not wait; the drawing replaces it before writing.
-                        width, height = figure_size(charts.figures[chart_keys[int(index)]])
-                        svg = _stand_in(width, height)
-                        self.placeholders[url] = svg
-                    else:
-                        svg = self.chart_svg(url)
+                if index.isdigit() and int(index) < len(sizes):
+                    svg = _stand_in(*sizes[int(index)])
                     return URLFetcherResponse(url, svg.encode("utf-8"), {"Content-Type": "image/svg+xml"})
             if url in allowed:
                 head, _, payload = url.partition(",")
@@ -238,18 +223,20 @@ def memo_fetcher(allowed_data_uris: set[str], charts: ChartJob | None = None, *,
 def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
                 allowed_data_uris: set[str], url_fetcher: Any = None,
                 charts: ChartJob | None = None) -> bytes:
-    """Lay out and write the PDF; a failed chart drawing raises :class:`ChartsUnavailable`.
+    """Lay out and write the PDF, then put each chart in its place; a failed chart drawing
+    raises :class:`ChartsUnavailable`.
 
-    With ``charts`` still drawing, the layout does not wait: each chart's place is held by an
-    empty SVG of the chart's own size, and the drawing is put in that image before the PDF is
-    written (the same bytes as a layout made with the drawings; a drawing of another size is
-    laid out again). On the sample memo's first print this hides the layout (about 1.5 s)
-    behind the browser's start: 6.9 s -> 6.0 s from process start to PDF."""
+    The layout never waits for the charts: ``<img src="memo-chart:N" id="memo-chart-N">`` is laid
+    out as an empty image of chart N's own size, and chart N's PDF page (drawn meanwhile from its
+    SVG, off this thread) is placed in that box after writing. The charts are vector forms, as
+    they would be had WeasyPrint drawn the SVG itself, which cost about 0.6 s of this thread's
+    time on the sample memo."""
     from weasyprint import CSS, HTML, Attachment
 
-    early = url_fetcher is None and charts is not None and not charts.done()
-    fetcher = url_fetcher or (memo_fetcher(allowed_data_uris, charts, early_layout=True) if early
-                              else memo_fetcher(allowed_data_uris, charts))
+    from app import chart_pages
+
+    sizes = [figure_size(fig) for fig in charts.figures.values()] if charts is not None else []
+    fetcher = url_fetcher or memo_fetcher(allowed_data_uris, sizes)
     css = (TEMPLATES_DIR / "memo.css").read_text(encoding="utf-8")
     sheets = [CSS(string=css, url_fetcher=fetcher),
               CSS(string=f"@page {{ size: {PAGE_SIZES[page_size]}; }}", url_fetcher=fetcher)]
@@ -262,18 +249,20 @@ def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
                    created=FIXED_PDF_DATE, modified=FIXED_PDF_DATE, url_fetcher=fetcher),
     ]
     identifier = hashlib.sha256(results.fingerprint.encode("ascii")).hexdigest()[:32].encode("ascii")
-    images: dict[str, Any] = {}
     with _old_objects_set_aside():
         document = HTML(string=html, base_url=ASSETS_DIR.as_uri() + "/", url_fetcher=fetcher)
-        laid_out = document.render(stylesheets=sheets, cache=images)
-    if charts is not None:
-        charts.svgs()        # a chart the layout could not fetch: raise why, print nothing
-    if early and fetcher.placeholders and not _put_charts_in_place(images, fetcher):
-        # A drawing of another size than its stand-in: lay out again with the real charts.
-        return html_to_pdf(html, results=results, page_size=page_size, generated_at=generated_at,
-                           allowed_data_uris=allowed_data_uris, charts=charts)
-    with _old_objects_set_aside():
-        return laid_out.write_pdf(attachments=attachments, pdf_identifier=identifier, **WRITE_OPTIONS)
+        laid_out = document.render(stylesheets=sheets)
+        anchors = [CHART_ANCHOR.format(i) for i in range(len(sizes))]
+        placements = chart_pages.chart_placements(laid_out, anchors)
+        data = laid_out.write_pdf(attachments=attachments, pdf_identifier=identifier, **WRITE_OPTIONS)
+    if charts is None or not placements:
+        return data
+    pages = charts.pages()       # waits for the drawing; raises why it failed, printing nothing
+    try:
+        return chart_pages.place_charts(data, list(placements.values()), pages)
+    except chart_pages.ChartPagesError as exc:
+        raise ChartsUnavailable(f"The charts could not be placed in the memo ({exc}). "
+                                "Try again, or print with --no-charts.") from None
 
 
 @contextmanager
@@ -295,27 +284,6 @@ def _stand_in(width: int, height: int) -> str:
             f'viewBox="0 0 {width} {height}"/>')
 
 
-def _put_charts_in_place(images: dict[str, Any], fetcher: Any) -> bool:
-    """Swap each stand-in's drawing for the chart's, in the laid-out document (the boxes keep
-    the image object, only what it draws changes). False, and nothing is trusted, when a chart
-    is not exactly its stand-in's size or this WeasyPrint keeps its images another way."""
-    from xml.etree import ElementTree
-
-    swaps = []
-    for url, stand_in in fetcher.placeholders.items():
-        image = images.get(url)
-        svg = fetcher.chart_svg(url)
-        root = ElementTree.fromstring(svg.encode("utf-8"))
-        sized = {key: root.get(key) for key in ("width", "height", "viewBox")}
-        if image is None or not hasattr(image, "_svg") or not hasattr(image, "_context") or \
-                sized != {key: ElementTree.fromstring(stand_in).get(key) for key in sized}:
-            return False
-        swaps.append((image, type(image)(root, url, fetcher, image._context)))
-    for image, drawn in swaps:
-        image._svg = drawn._svg
-    return True
-
-
 # Fonts subset (the PDF stays small), no hinting (not needed on paper), images as they are.
 WRITE_OPTIONS: dict[str, Any] = {"full_fonts": False, "hinting": False, "optimize_images": False}
 
@@ -325,8 +293,8 @@ def render_memo_pdf(results: Any, *, charts: bool = True, page_size: str | None 
     """The memo as PDF bytes. Raises :class:`ChartsUnavailable` (naming the fix) when charts are
     asked for and no browser can draw them; ``charts=False`` prints a note in each chart's place.
 
-    The charts are drawn by the browser while this thread writes the HTML and WeasyPrint parses
-    it and applies the stylesheet; the layout waits only when it reaches the first chart.
+    The charts are drawn by the browser, and made into PDF pages, while this thread writes the
+    HTML and WeasyPrint lays it out and writes it; they are then placed in their boxes.
     """
     size = _page_size(results, page_size)
     stamp = _stamp(generated_at)

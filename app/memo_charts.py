@@ -502,14 +502,26 @@ class ChartJob:
             raise
         exporter = own or running_exporter()
         self._timeout = exporter.timeout if exporter is not None else chart_timeout()
-        self._future: concurrent.futures.Future[dict[str, str]] = concurrent.futures.Future()
+        self._future: concurrent.futures.Future[tuple[dict[str, str], bytes]] = concurrent.futures.Future()
         self._thread = threading.Thread(target=self._draw, args=(own,), name="memo-chart-job",
                                         daemon=True)
         self._thread.start()
 
     def _draw(self, own: ChartExporter | None) -> None:
+        from app.chart_pages import ChartPagesError, charts_pdf
+
         try:
-            self._future.set_result(export_figures(self.figures, exporter=own))
+            svgs = export_figures(self.figures, exporter=own)
+            if own is not None:
+                own.close()       # the browser is not needed for the PDF pages
+                own = None
+            try:
+                pages = charts_pdf([svgs[key] for key in self.figures], timeout=self._timeout)
+            except ChartPagesError as exc:
+                raise ChartsUnavailable(f"The charts were drawn but could not be made into PDF pages "
+                                        f"({exc}). Fix: install librsvg2-bin (rsvg-convert), or set "
+                                        f"OBLIGOR_MEMO_SVG_CONVERTER=none, or print with --no-charts.") from None
+            self._future.set_result((svgs, pages))
         except BaseException as exc:
             self._future.set_exception(exc)
         finally:
@@ -522,17 +534,24 @@ class ChartJob:
 
     def svgs(self) -> dict[str, str]:
         """Every drawn figure's SVG text by chart key."""
+        return self._result()[0]
+
+    def pages(self) -> bytes:
+        """The charts as one PDF, a page per figure in the order of :attr:`figures`."""
+        return self._result()[1]
+
+    def _result(self) -> tuple[dict[str, str], bytes]:
         try:
             # The exporter bounds its own waits (start, batch, close); this is a last backstop.
-            return self._future.result(timeout=2 * self._timeout + 30)
+            return self._future.result(timeout=3 * self._timeout + 30)
         except ChartsUnavailable:
             raise
         except BaseException as exc:
             if _is_timeout(exc):
-                raise ChartsUnavailable(f"Chart export did not finish within {2 * self._timeout + 30:g} s. "
+                raise ChartsUnavailable(f"Chart export did not finish within {3 * self._timeout + 30:g} s. "
                                         f"Try again, or print with --no-charts.") from None
             raise
 
     def finish(self) -> None:
         """Wait for the worker (and the browser it may have started) to finish."""
-        self._thread.join(timeout=2 * self._timeout + 30)
+        self._thread.join(timeout=3 * self._timeout + 30)

@@ -3,14 +3,15 @@
 #   bash scripts/install.sh          # the application
 #   bash scripts/install.sh --test   # the application and the test tools
 # System packages (Debian/Ubuntu): Pango for the PDF (WeasyPrint), Chromium for chart export
-# (kaleido) and the browser tests, poppler-utils for reading PDFs back in the tests.
+# (kaleido) and the browser tests, librsvg2-bin (rsvg-convert) to turn the chart SVGs into PDF
+# pages quickly, poppler-utils for reading PDFs back in the tests.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
 EXTRA=""
 if [[ "${1:-}" == "--test" ]]; then EXTRA="[test]"; fi
 
-SYSTEM_PACKAGES=(chromium poppler-utils libpango-1.0-0 libpangoft2-1.0-0 fonts-dejavu-core)
+SYSTEM_PACKAGES=(chromium librsvg2-bin poppler-utils libpango-1.0-0 libpangoft2-1.0-0 fonts-dejavu-core)
 
 missing=()
 for pkg in "${SYSTEM_PACKAGES[@]}"; do

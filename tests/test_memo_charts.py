@@ -154,3 +154,28 @@ def test_memo_command_without_browser_fails_with_the_fix(monkeypatch, tmp_path, 
     result = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(tmp_path / "m.pdf")])
     assert result.exit_code == 2
     assert "--no-charts" in result.output and not (tmp_path / "m.pdf").exists()
+
+
+@needs_browser
+def test_same_case_prints_the_same_bytes_with_charts(charted_pdf, analysed):
+    """Charts drawn anew (no SVG or page cache) and placed again: not one byte differs."""
+    from app import chart_pages, memo_charts
+
+    memo_charts._SVG_CACHE.clear()
+    chart_pages._PAGES_CACHE.clear()
+    again = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
+    assert again == charted_pdf
+
+
+@needs_browser
+def test_charts_that_cannot_become_pages_name_the_fix(charted_pdf, analysed, monkeypatch, tmp_path):
+    from app import chart_pages
+
+    script = tmp_path / "broken-convert"
+    script.write_text("#!/bin/sh\necho 'out of memory' >&2\nexit 1\n")
+    script.chmod(0o755)
+    monkeypatch.setenv(chart_pages.CONVERTER_VARIABLE, str(script))
+    with pytest.raises(memo.ChartsUnavailable) as caught:
+        memo.render_memo_pdf(analysed)
+    message = str(caught.value)
+    assert "out of memory" in message and "librsvg2-bin" in message and "--no-charts" in message
