@@ -85,23 +85,29 @@ def evaluate(case: Path, as_json: bool) -> None:
 @_guard
 def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> None:
     """Write the credit memo for CASE as a PDF that carries its own inputs."""
-    from app.memo import ChartsUnavailable, render_memo_pdf, start_chart_exporter, stop_chart_exporter
-    from engine.analysis import analyse
-    from engine.loading import load_case
+    from app.memo_charts import ChartExporter, ChartsUnavailable
 
     if not output.parent.is_dir():
         _fail(f"-o/--output: got {str(output)!r}; allowed: a file in an existing folder "
               f"({str(output.parent)!r} does not exist).")
-    loaded = load_case(case)                   # a bad case fails before any browser starts
+    browser = None
     try:
         if not no_charts:
-            start_chart_exporter(wait=False)    # the browser starts while the case is analysed
-        results = analyse(loaded)
-        pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size)
+            # The browser is the slowest part of a cold memo, so it starts first, while the case
+            # is read and analysed (a bad case still fails at once and closes it); the memo
+            # closes it as soon as the charts are drawn, before the PDF is written.
+            browser = ChartExporter().start(wait=False)
+        from app.memo import render_memo_pdf
+        from engine.analysis import analyse
+        from engine.loading import load_case
+
+        results = analyse(load_case(case))
+        pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size, exporter=browser)
     except ChartsUnavailable as exc:
         _fail(f"The memo was not written: {exc}")
     finally:
-        stop_chart_exporter()
+        if browser is not None:
+            browser.close()
     partial = output.with_name(output.name + ".partial")
     partial.write_bytes(pdf)
     partial.replace(output)

@@ -289,9 +289,10 @@ WRITE_OPTIONS: dict[str, Any] = {"full_fonts": False, "hinting": False, "optimiz
 
 
 def render_memo_pdf(results: Any, *, charts: bool = True, page_size: str | None = None,
-                    generated_at: datetime | None = None) -> bytes:
+                    generated_at: datetime | None = None, exporter: ChartExporter | None = None) -> bytes:
     """The memo as PDF bytes. Raises :class:`ChartsUnavailable` (naming the fix) when charts are
     asked for and no browser can draw them; ``charts=False`` prints a note in each chart's place.
+    ``exporter``: a browser started for this memo alone, closed once its charts are drawn.
 
     The charts are drawn by the browser, and made into PDF pages, while this thread writes the
     HTML and WeasyPrint lays it out and writes it; they are then placed in their boxes.
@@ -299,7 +300,7 @@ def render_memo_pdf(results: Any, *, charts: bool = True, page_size: str | None 
     size = _page_size(results, page_size)
     stamp = _stamp(generated_at)
     with _old_objects_set_aside():       # plotly's figure building makes many objects too
-        job = ChartJob(results) if charts else None
+        job = ChartJob(results, exporter=exporter) if charts else None
     try:
         placeholders = {key: f"{CHART_SCHEME}{i}" for i, key in enumerate(job.figures)} if job else {}
         html = _html(results, charts=placeholders, notes=job.notes if job else {},
@@ -309,3 +310,5 @@ def render_memo_pdf(results: Any, *, charts: bool = True, page_size: str | None 
     finally:
         if job is not None:
             job.finish()     # the browser this memo started is closed before returning
+        elif exporter is not None:
+            exporter.close()

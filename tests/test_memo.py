@@ -160,8 +160,8 @@ def test_printed_pd_is_normal_tail_of_printed_distance_to_default(sample_results
 def test_exposure_section_prints_ead_recomputed_from_inputs(sample_results, sample_sections):
     # EAD = drawn + CCF x max(committed - drawn, 0) (Basel standardised approach, CRE20).
     text = sample_sections["3 Exposure at default"]
-    for given, f in zip(sample_results.case.facilities, sample_results.facilities):
-        ead = given.drawn + f.ccf * max(given.committed - given.drawn, 0.0)
+    for entered, f in zip(sample_results.case.facilities, sample_results.facilities):
+        ead = entered.drawn + f.ccf * max(entered.committed - entered.drawn, 0.0)
         assert fmt.money(ead) in text, f.id
         assert f.ccf_source.split(":")[0][:30] in text.replace("\n", " ")
 

@@ -179,3 +179,43 @@ def test_charts_that_cannot_become_pages_name_the_fix(charted_pdf, analysed, mon
         memo.render_memo_pdf(analysed)
     message = str(caught.value)
     assert "out of memory" in message and "librsvg2-bin" in message and "--no-charts" in message
+
+
+def test_partial_plotly_bundle_is_used_only_at_the_full_bundles_version(monkeypatch, tmp_path):
+    from app import memo_charts
+
+    assert memo_charts.bundle_version(memo_charts.PARTIAL_BUNDLE) is not None
+    assert memo_charts.plotly_bundle() == str(memo_charts.PARTIAL_BUNDLE)
+    other = tmp_path / "plotly-cartesian.min.js"
+    other.write_text("/**\n* plotly.js (cartesian - minified) v0.0.1\n*/\nvar Plotly = {};\n")
+    monkeypatch.setattr(memo_charts, "PARTIAL_BUNDLE", other)
+    assert memo_charts.plotly_bundle() is None          # kaleido's default: plotly.py's full bundle
+    monkeypatch.setattr(memo_charts, "PARTIAL_BUNDLE", tmp_path / "absent.js")
+    assert memo_charts.plotly_bundle() is None
+
+
+@needs_browser
+def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analysed, monkeypatch, tmp_path):
+    """Every figure of the sample memo (scatter, bar with patterns, heatmap, shapes and
+    annotations), drawn with each bundle and rasterised by poppler: not one pixel differs."""
+    from PIL import Image, ImageChops
+
+    from app import chart_pages, memo_charts
+
+    figures, _ = memo.build_figures(analysed)
+    pictures = {}
+    for name, bundle in (("partial", str(memo_charts.PARTIAL_BUNDLE)), ("full", None)):
+        monkeypatch.setattr(memo_charts, "plotly_bundle", lambda b=bundle: b)
+        exporter = memo_charts.ChartExporter().start()
+        try:
+            svgs = exporter.export_svg(figures)
+        finally:
+            exporter.close()
+        pdf = tmp_path / f"{name}.pdf"
+        pdf.write_bytes(chart_pages.charts_pdf([memo_charts.slim_svg(svgs[key]) for key in figures]))
+        subprocess.run(["pdftoppm", "-r", "50", "-png", str(pdf), str(tmp_path / name)], check=True)
+        pictures[name] = sorted(tmp_path.glob(f"{name}-*.png"))
+    assert len(pictures["partial"]) == len(pictures["full"]) == len(figures)
+    for partial, full in zip(pictures["partial"], pictures["full"]):
+        a, b = Image.open(partial).convert("RGB"), Image.open(full).convert("RGB")
+        assert a.size == b.size and ImageChops.difference(a, b).getbbox() is None, partial.name
