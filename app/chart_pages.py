@@ -170,33 +170,39 @@ def chart_placements(document: Any, anchors: Sequence[str]) -> dict[str, Placeme
 
 
 def place_charts(memo_pdf: bytes, placements: Sequence[Placement], charts: bytes) -> bytes:
-    """The memo with each chart page drawn, as a vector form XObject, into its box.
+    """The memo with each chart page drawn, as a vector form XObject, into its box."""
+    from app.memo_parts import LaidOut, assemble
 
-    Resource names are fixed (``/MemoChartN``), so the same memo gives the same bytes."""
-    import pikepdf
+    part = LaidOut(memo_pdf, 0, {p.chart_page: (p.page, p.box) for p in placements})
+    return assemble([part], running=None, charts=charts)
 
-    with pikepdf.open(io.BytesIO(memo_pdf)) as pdf, pikepdf.open(io.BytesIO(charts)) as source:
-        if len(source.pages) < max((p.chart_page for p in placements), default=-1) + 1:
-            raise ChartPagesError(f"the charts PDF has {len(source.pages)} pages, fewer than the charts to place")
-        drawn: dict[int, list[bytes]] = {}
-        for placement in placements:
-            page = pdf.pages[placement.page]
-            chart = source.pages[placement.chart_page]
-            form = pdf.copy_foreign(chart.as_form_xobject())
-            name = pikepdf.Name(f"/MemoChart{placement.chart_page}")
-            page.add_resource(form, pikepdf.Name.XObject, name)
-            left, bottom, right, top = (float(v) for v in chart.mediabox)
-            page_top = float(page.mediabox[3])
-            x1, y1, x2, y2 = (c * CSS_PX_IN_PT for c in placement.box)
-            sx, sy = (x2 - x1) / (right - left), (y2 - y1) / (top - bottom)
-            e, f = x1 - left * sx, page_top - y2 - bottom * sy
-            drawn.setdefault(placement.page, []).append(
-                f"q {sx:.6f} 0 0 {sy:.6f} {e:.4f} {f:.4f} cm {name} Do Q\n".encode("ascii"))
-        for number, operators in drawn.items():
-            page = pdf.pages[number]
-            page.contents_add(b"q\n", prepend=True)      # the page's own state ends before ours
-            page.contents_add(b"Q\n" + b"".join(operators))
-        out = io.BytesIO()
-        pdf.save(out, deterministic_id=True, fix_metadata_version=False, compress_streams=True,
-                 object_stream_mode=pikepdf.ObjectStreamMode.generate)
-        return out.getvalue()
+
+def as_form(pdf: Any, source_page: Any) -> Any:
+    """A page of another PDF as a form XObject of ``pdf`` (copied once; usable on many pages)."""
+    return pdf.copy_foreign(source_page.as_form_xobject())
+
+
+def form_operators(pdf: Any, page: Any, form: Any, box: tuple[float, float, float, float] | None,
+                   name: Any) -> bytes:
+    """Register ``form`` (see :func:`as_form`) as the resource ``name`` of ``page`` and return
+    the operators that draw it into ``box`` (CSS px from the page's top left), or over the
+    whole page when ``box`` is None. Fixed names keep the bytes the same from run to run."""
+    page.add_resource(form, "/XObject", name)
+    left, bottom, right, top = (float(v) for v in form.BBox)
+    if box is None:
+        x1, y2 = float(page.mediabox[0]), float(page.mediabox[1])
+        sx = (float(page.mediabox[2]) - x1) / (right - left)
+        sy = (float(page.mediabox[3]) - y2) / (top - bottom)
+        e, f = x1 - left * sx, y2 - bottom * sy
+    else:
+        page_top = float(page.mediabox[3])
+        x1, y1, x2, y2 = (c * CSS_PX_IN_PT for c in box)
+        sx, sy = (x2 - x1) / (right - left), (y2 - y1) / (top - bottom)
+        e, f = x1 - left * sx, page_top - y2 - bottom * sy
+    return f"q {sx:.6f} 0 0 {sy:.6f} {e:.4f} {f:.4f} cm {name} Do Q\n".encode("ascii")
+
+
+def append_drawing(page: Any, operators: Sequence[bytes]) -> None:
+    """Draw after the page's own content, from a clean graphics state."""
+    page.contents_add(b"q\n", prepend=True)      # the page's own state ends before ours
+    page.contents_add(b"Q\n" + b"".join(operators))

@@ -27,6 +27,7 @@ from app.memo_charts import (BROWSER_CANDIDATES, NO_CHART_FIX, ChartExporter, Ch
                              ChartsUnavailable, build_figures, chart_specs, chart_timeout,
                              ChartJob, export_charts, figure_size, find_browser, start_chart_exporter,
                              stop_chart_exporter)
+from app.memo_parts import start_layout_worker, stop_layout_worker  # noqa: F401
 
 def find_templates() -> Path:
     """The memo's templates: the repository's templates/ beside app/ (a checkout or an editable
@@ -234,16 +235,14 @@ def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
     out as an empty image of chart N's own size, and chart N's PDF page (drawn meanwhile from its
     SVG, off this thread) is placed in that box after writing. The charts are vector forms, as
     they would be had WeasyPrint drawn the SVG itself, which cost about 0.6 s of this thread's
-    time on the sample memo."""
-    from weasyprint import CSS, HTML, Attachment
+    time on the sample memo. With a layout worker running (:mod:`app.memo_parts`), the second
+    part of the memo is laid out there at the same time as the first part here."""
+    from weasyprint import Attachment
 
-    from app import chart_pages
+    from app import chart_pages, memo_parts
 
     sizes = [figure_size(fig) for fig in charts.figures.values()] if charts is not None else []
     fetcher = url_fetcher or memo_fetcher(allowed_data_uris, sizes)
-    css = (TEMPLATES_DIR / "memo.css").read_text(encoding="utf-8")
-    sheets = [CSS(string=css, url_fetcher=fetcher),
-              CSS(string=f"@page {{ size: {PAGE_SIZES[page_size]}; }}", url_fetcher=fetcher)]
     attachments = [
         Attachment(string=pdfcase.canonical_case_json(results).decode("ascii"), name=pdfcase.CASE_FILE,
                    description="The case this memo was computed from (canonical JSON)",
@@ -253,17 +252,31 @@ def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
                    created=FIXED_PDF_DATE, modified=FIXED_PDF_DATE, url_fetcher=fetcher),
     ]
     identifier = hashlib.sha256(results.fingerprint.encode("ascii")).hexdigest()[:32].encode("ascii")
-    with _old_objects_set_aside():
-        document = HTML(string=html, base_url=ASSETS_DIR.as_uri() + "/", url_fetcher=fetcher)
-        laid_out = document.render(stylesheets=sheets)
-        anchors = [CHART_ANCHOR.format(i) for i in range(len(sizes))]
-        placements = chart_pages.chart_placements(laid_out, anchors)
-        data = laid_out.write_pdf(attachments=attachments, pdf_identifier=identifier, **WRITE_OPTIONS)
-    if charts is None or not placements:
-        return data
-    pages = charts.pages()       # waits for the drawing; raises why it failed, printing nothing
+    record = {"attachments": attachments, "pdf_identifier": identifier}
+    worker = memo_parts.ready_worker() if url_fetcher is None and not allowed_data_uris else None
+    halves = memo_parts.split_html(html) if worker is not None else None
+    running = None
+    if halves is None:
+        parts = [memo_parts.lay_out(html, chart_sizes=sizes, page_size=page_size, running=True,
+                                    fetcher=fetcher, write_options=record)]
+    else:
+        pending = worker.submit(halves[1], chart_sizes=sizes, page_size=page_size)
+        first = memo_parts.lay_out(halves[0], chart_sizes=sizes, page_size=page_size, running=False,
+                                   fetcher=fetcher, write_options=record)
+        try:
+            second = pending.result()
+        except RuntimeError:        # the worker failed or is gone: the second part is laid out here
+            second = memo_parts.lay_out(halves[1], chart_sizes=sizes, page_size=page_size, running=False,
+                                        fetcher=fetcher)
+        parts = [first, second]
+        running = memo_parts.running_pages(pages=first.pages + second.pages, borrower=results.case.borrower.name,
+                                           fingerprint=results.fingerprint[:16], page_size=page_size)
+    placed = any(part.placements for part in parts)
+    if running is None and (charts is None or not placed):
+        return parts[0].pdf
+    pages = charts.pages() if charts is not None and placed else None   # waits; raises why not
     try:
-        return chart_pages.place_charts(data, list(placements.values()), pages)
+        return memo_parts.assemble(parts, running=running, charts=pages)
     except chart_pages.ChartPagesError as exc:
         raise ChartsUnavailable(f"The charts could not be placed in the memo ({exc}). "
                                 "Try again, or print with --no-charts.") from None

@@ -219,3 +219,36 @@ def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analys
     for partial, full in zip(pictures["partial"], pictures["full"]):
         a, b = Image.open(partial).convert("RGB"), Image.open(full).convert("RGB")
         assert a.size == b.size and ImageChops.difference(a, b).getbbox() is None, partial.name
+
+
+@needs_browser
+def test_memo_laid_out_in_parts_with_charts_matches_one_piece(charted_pdf, analysed, tmp_path):
+    """The workbench's way (layout worker running): same pages of text, same pixels, charts in
+    both parts of the memo."""
+    import time
+
+    from PIL import Image, ImageChops
+
+    from app import memo_parts
+
+    worker = memo_parts.start_layout_worker()
+    try:
+        deadline = time.monotonic() + 60
+        while not worker.ready() and time.monotonic() < deadline:
+            time.sleep(0.05)
+        in_parts = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
+    finally:
+        memo_parts.stop_layout_worker()
+    assert in_parts != charted_pdf          # really laid out in parts (another file structure)
+    pages = {}
+    for name, pdf in (("parts", in_parts), ("one", charted_pdf)):
+        text = subprocess.run(["pdftotext", "-layout", "-", "-"], input=pdf, capture_output=True,
+                              check=True).stdout.decode()
+        (tmp_path / f"{name}.pdf").write_bytes(pdf)
+        subprocess.run(["pdftoppm", "-r", "40", "-png", str(tmp_path / f"{name}.pdf"), str(tmp_path / name)],
+                       check=True)
+        pages[name] = (text.split("\f"), sorted(tmp_path.glob(f"{name}-*.png")))
+    assert pages["parts"][0] == pages["one"][0]
+    assert len(pages["parts"][1]) == len(pages["one"][1])
+    for a, b in zip(pages["parts"][1], pages["one"][1]):
+        assert ImageChops.difference(Image.open(a).convert("RGB"), Image.open(b).convert("RGB")).getbbox() is None, a.name

@@ -24,13 +24,14 @@ def _memo_module() -> Any | None:
 
 @st.cache_resource(show_spinner=False)
 def _chart_browser_started() -> bool:
-    """Once per server: the chart browser starts in the background, so memos print warm.
-    A failure is not cached (st.cache_resource keeps only returned values): the next visit
-    tries again, and the print button reports the reason."""
+    """Once per server: the chart browser and the layout worker start in the background, so
+    memos print warm. A failure is not cached (st.cache_resource keeps only returned values):
+    the next visit tries again, and the print button reports the reason."""
     memo_module = _memo_module()
     if memo_module is None:
         return False
     memo_module.start_chart_exporter(wait=False)
+    memo_module.start_layout_worker()
     return True
 
 
