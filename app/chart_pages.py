@@ -17,7 +17,6 @@ identifier computed from its content, so the same case prints the same bytes.
 from __future__ import annotations
 
 import hashlib
-import io
 import os
 import re
 import shutil

@@ -52,6 +52,7 @@ def analysed(sample_case):
 
 @pytest.fixture(scope="module")
 def charted_pdf(analysed) -> bytes:
+    memo.stop_layout_worker()      # one piece (a worker left by another module would split it)
     exporter = memo.start_chart_exporter()
     try:
         pdf = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
