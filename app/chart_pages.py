@@ -115,6 +115,8 @@ def _with_weasyprint(svgs: Sequence[str]) -> bytes:
     from weasyprint import HTML
     from weasyprint.urls import URLFetcher, URLFetcherResponse
 
+    from app.memo import memo_fetcher
+
     body = []
     for i, svg in enumerate(svgs):
         root = ElementTree.fromstring(svg.encode("utf-8"))
@@ -122,19 +124,15 @@ def _with_weasyprint(svgs: Sequence[str]) -> bytes:
         body.append(f'<div style="page: c{i}"><img src="chart:{i}" style="display: block; '
                     f'width: {width}px; height: {height}px"></div>'
                     f'<style>@page c{i} {{ size: {width}px {height}px; margin: 0 }}</style>')
-    allowed = {url for svg in svgs for url in _REFERENCE.findall(svg) if url.startswith("data:")}
+    # The memo's own fetcher serves the bitmaps inline in the charts and refuses anything else.
+    inline = memo_fetcher({url for svg in svgs for url in _REFERENCE.findall(svg) if url.startswith("data:")})
 
     class Fetcher(URLFetcher):
         def fetch(self, url: str, headers: Any = None) -> URLFetcherResponse:
-            import base64
-
             if url.startswith("chart:"):
                 return URLFetcherResponse(url, svgs[int(url[6:])].encode("utf-8"),
                                           {"Content-Type": "image/svg+xml"})
-            if url in allowed:
-                return URLFetcherResponse(url, base64.b64decode(url.partition(",")[2]),
-                                          {"Content-Type": "image/png"})
-            raise ValueError(f"refused to fetch {url[:80]!r}")
+            return inline.fetch(url, headers)
 
     html = "<html><body style='margin: 0'>" + "".join(body) + "</body></html>"
     return HTML(string=html, url_fetcher=Fetcher(fail_on_errors=False)).write_pdf()
@@ -153,9 +151,10 @@ class Placement:
     chart_page: int
 
 
-def chart_placements(document: Any, anchors: Sequence[str]) -> dict[str, Placement]:
+def chart_placements(document: Any, anchors: Sequence[str]) -> list[Placement]:
     """The laid-out box of every element whose id is in ``anchors`` (WeasyPrint's public
-    ``Page.anchors``: id -> (x1, y1, x2, y2) in CSS px). An id that is absent is left out."""
+    ``Page.anchors``: id -> (x1, y1, x2, y2) in CSS px); chart N is ``anchors[N]``. An id that
+    is absent is left out."""
     wanted = {name: i for i, name in enumerate(anchors)}
     found: dict[str, Placement] = {}
     for number, page in enumerate(document.pages):
@@ -165,15 +164,14 @@ def chart_placements(document: Any, anchors: Sequence[str]) -> dict[str, Placeme
                     raise ChartPagesError("this WeasyPrint version does not report box sizes "
                                           "(Page.anchors); obligor-memo needs WeasyPrint 70 or later")
                 found[name] = Placement(number, tuple(float(c) for c in corners), wanted[name])
-    return found
+    return list(found.values())
 
 
 def place_charts(memo_pdf: bytes, placements: Sequence[Placement], charts: bytes) -> bytes:
     """The memo with each chart page drawn, as a vector form XObject, into its box."""
     from app.memo_parts import LaidOut, assemble
 
-    part = LaidOut(memo_pdf, 0, {p.chart_page: (p.page, p.box) for p in placements})
-    return assemble([part], running=None, charts=charts)
+    return assemble([LaidOut(memo_pdf, 0, list(placements))], running=None, charts=charts)
 
 
 def as_form(pdf: Any, source_page: Any) -> Any:

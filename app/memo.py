@@ -1,8 +1,10 @@
-"""The printed credit memo: results -> HTML (Jinja2) -> PDF (WeasyPrint), charts as vector SVG.
+"""The printed credit memo: results -> HTML (Jinja2) -> PDF (WeasyPrint), charts as vector forms.
 
 The charts are the workbench's own plotly figures (:mod:`app.charts`), exported to SVG through
-kaleido and a system Chromium. Chromium starts once per memo (every figure goes through one
-session) or once per process when the workbench keeps :func:`start_chart_exporter` running.
+kaleido and a system Chromium, made PDF pages and placed in their boxes after layout
+(:mod:`app.chart_pages`). Chromium starts once per memo (every figure goes through one session)
+or once per process when the workbench keeps :func:`start_chart_exporter` running; the layout
+itself may run in two parts at once (:mod:`app.memo_parts`).
 
 Safety: Jinja2 autoescapes and fails on any undefined name; WeasyPrint fetches nothing except
 the data: URIs this module generated and files inside the package's own asset folder.
@@ -127,6 +129,11 @@ def inputs_yaml(case_data: dict[str, Any]) -> str:
                           width=56, indent=2)
 
 
+def short_fingerprint(results: Any) -> str:
+    """The inputs' fingerprint as the running footer and the summary page print it."""
+    return results.fingerprint[:16]
+
+
 def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, str],
                charts_requested: bool, generated_at: str, page_size: str) -> dict[str, Any]:
     """Everything the template prints; small display values only, the engine computes the rest."""
@@ -155,7 +162,7 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
         "spread_note": spread_note, "generated_at": generated_at, "page_size": page_size,
         "statement_keys": statement_keys, "statement_rows": case_data["statements"],
         "inputs_yaml": inputs_yaml(case_data), "window_years": window,
-        "fingerprint_short": results.fingerprint[:16],
+        "fingerprint_short": short_fingerprint(results),
         "author": case.memo.prepared_by or "obligor-memo",
     }
 
@@ -270,7 +277,7 @@ def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
                                         fetcher=fetcher)
         parts = [first, second]
         running = memo_parts.running_pages(pages=first.pages + second.pages, borrower=results.case.borrower.name,
-                                           fingerprint=results.fingerprint[:16], page_size=page_size)
+                                           fingerprint=short_fingerprint(results), page_size=page_size)
     placed = any(part.placements for part in parts)
     if running is None and (charts is None or not placed):
         return parts[0].pdf

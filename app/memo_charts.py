@@ -506,8 +506,9 @@ class ChartJob:
     """The memo's figures, built now and drawn in the background while the memo is laid out.
 
     The browser (started here unless the process-wide one runs, and only if a figure is not in
-    the SVG cache) comes up while the figures are built; the SVGs are then drawn on a worker thread, so the page layout waits only when it
-    reaches its first chart. :meth:`svgs` gives the result or raises :class:`ChartsUnavailable`.
+    the SVG cache) comes up while the figures are built; on a worker thread the SVGs are then
+    drawn and made one PDF of pages, while the memo is laid out. :meth:`svgs` and :meth:`pages`
+    give the result or raise :class:`ChartsUnavailable`.
     """
 
     def __init__(self, results: Any, *, exporter: ChartExporter | None = None):

@@ -27,20 +27,21 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, BinaryIO, Sequence
 
+from app.chart_pages import Placement
+
 PART_BREAK = "<!-- memo-part-break -->"
 _BODY = re.compile(r"<body[^>]*>")
-CSS_PX_IN_PT = 0.75
 
 
 @dataclass
 class LaidOut:
     """One laid-out and written part: its PDF, its page count, where its charts' boxes are
-    (chart index -> (page, (x1, y1, x2, y2) in CSS px)) and its outline (label, page, x, y
-    [pt, from the bottom left], open, children)."""
+    (pages counted within the part) and its outline (label, page, x, y [pt, from the bottom
+    left], open, children)."""
 
     pdf: bytes
     pages: int
-    placements: dict[int, tuple[int, tuple[float, float, float, float]]] = field(default_factory=dict)
+    placements: list[Placement] = field(default_factory=list)
     bookmarks: list[Any] = field(default_factory=list)
 
 
@@ -79,10 +80,10 @@ def lay_out(html: str, *, chart_sizes: Sequence[tuple[int, int]], page_size: str
         document = HTML(string=html, base_url=ASSETS_DIR.as_uri() + "/", url_fetcher=fetcher)
         laid_out = document.render(stylesheets=_sheets(page_size, fetcher, running=running))
         anchors = [CHART_ANCHOR.format(i) for i in range(len(chart_sizes))]
-        found = chart_pages.chart_placements(laid_out, anchors)
-        bookmarks = _plain_bookmarks(laid_out.make_bookmark_tree(scale=CSS_PX_IN_PT, transform_pages=True))
+        placements = chart_pages.chart_placements(laid_out, anchors)
+        bookmarks = _plain_bookmarks(laid_out.make_bookmark_tree(scale=chart_pages.CSS_PX_IN_PT,
+                                                                 transform_pages=True))
         data = laid_out.write_pdf(**{**WRITE_OPTIONS, **(write_options or {})})
-    placements = {p.chart_page: (p.page, p.box) for p in found.values()}
     return LaidOut(data, len(laid_out.pages), placements, bookmarks)
 
 
@@ -161,13 +162,13 @@ def assemble(parts: Sequence[LaidOut], *, running: Running | None, charts: bytes
             source = pikepdf.open(io.BytesIO(charts))
             extra.append(source)
             for part, offset in zip(parts, offsets):
-                for chart, (number, box) in sorted(part.placements.items()):
+                for placement in sorted(part.placements, key=lambda p: p.chart_page):
+                    chart, number = placement.chart_page, offset + placement.page
                     if chart >= len(source.pages):
                         raise chart_pages.ChartPagesError(
                             f"the charts PDF has {len(source.pages)} pages, fewer than the charts to place")
-                    page = pdf.pages[offset + number]
-                    operators.setdefault(offset + number, []).append(chart_pages.form_operators(
-                        pdf, page, chart_pages.as_form(pdf, source.pages[chart]), box,
+                    operators.setdefault(number, []).append(chart_pages.form_operators(
+                        pdf, pdf.pages[number], chart_pages.as_form(pdf, source.pages[chart]), placement.box,
                         pikepdf.Name(f"/MemoChart{chart}")))
         for number, ops in operators.items():
             chart_pages.append_drawing(pdf.pages[number], ops)
@@ -239,7 +240,8 @@ def serve(requests: BinaryIO, answers: BinaryIO) -> None:
             part = lay_out(payload.decode("utf-8"), chart_sizes=[tuple(s) for s in header["sizes"]],
                            page_size=header["page_size"], running=False)
             _write_message(answers, {"ok": True, "pages": part.pages, "bookmarks": part.bookmarks,
-                                     "placements": {str(k): v for k, v in part.placements.items()}}, part.pdf)
+                                     "placements": [[p.page, list(p.box), p.chart_page] for p in part.placements]},
+                           part.pdf)
         except Exception as exc:  # reported to the caller, which lays the part out itself
             _write_message(answers, {"ok": False, "error": f"{type(exc).__name__}: {exc}"[:500]})
 
@@ -316,7 +318,7 @@ class PendingPart:
             if not header.get("ok"):
                 raise RuntimeError(header.get("error", "the layout worker failed"))
             self._result = LaidOut(payload, int(header["pages"]),
-                                   {int(k): (v[0], tuple(v[1])) for k, v in header["placements"].items()},
+                                   [Placement(page, tuple(box), chart) for page, box, chart in header["placements"]],
                                    header["bookmarks"])
         except BaseException as exc:
             self._error = exc
@@ -337,8 +339,9 @@ _WORKER: LayoutWorker | None = None
 _WORKER_LOCK = threading.Lock()
 
 
-def start_layout_worker() -> LayoutWorker:
-    """Start (once per process) the worker that lays out the second part of each memo."""
+def start_layout_worker(*, wait: bool = False) -> LayoutWorker:
+    """Start (once per process) the worker that lays out the second part of each memo. With
+    ``wait``, return once it has warmed up (or failed to, within its timeout)."""
     import atexit
 
     global _WORKER
@@ -347,7 +350,10 @@ def start_layout_worker() -> LayoutWorker:
             _WORKER = LayoutWorker()
             atexit.unregister(stop_layout_worker)
             atexit.register(stop_layout_worker)
-        return _WORKER
+        worker = _WORKER
+    if wait:
+        worker._ready.wait(worker.timeout)
+    return worker
 
 
 def stop_layout_worker(worker: LayoutWorker | None = None) -> None:

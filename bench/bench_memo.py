@@ -70,9 +70,7 @@ def warm(runs: int) -> tuple[list[float], list[float], float]:
     results = analyse(load_case(SAMPLE))
     t0 = time.perf_counter()
     memo.start_chart_exporter()                 # as the workbench does: the chart browser and
-    worker = memo.start_layout_worker()         # the layout worker, started in the background
-    while not worker.ready():
-        time.sleep(0.01)
+    memo.start_layout_worker(wait=True)         # the layout worker, started in the background
     start_seconds = time.perf_counter() - t0
     memo.render_memo_pdf(results)            # first render also warms fonts and plotly
     times, cached = [], []

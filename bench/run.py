@@ -149,9 +149,7 @@ def item_memo_warm(quick: bool) -> dict:
 
     results = analyse(load_case(SAMPLE))
     memo.start_chart_exporter(wait=True)        # as the workbench does: the chart browser and
-    worker = memo.start_layout_worker()         # the layout worker
-    while not worker.ready():
-        time.sleep(0.01)
+    memo.start_layout_worker(wait=True)         # the layout worker
     try:
         memo.render_memo_pdf(results)                 # warm-up: fonts, templates, first page load
         drawn, reprint = [], []

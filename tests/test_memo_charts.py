@@ -226,17 +226,12 @@ def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analys
 def test_memo_laid_out_in_parts_with_charts_matches_one_piece(charted_pdf, analysed, tmp_path):
     """The workbench's way (layout worker running): same pages of text, same pixels, charts in
     both parts of the memo."""
-    import time
-
     from PIL import Image, ImageChops
 
     from app import memo_parts
 
-    worker = memo_parts.start_layout_worker()
+    memo_parts.start_layout_worker(wait=True)
     try:
-        deadline = time.monotonic() + 60
-        while not worker.ready() and time.monotonic() < deadline:
-            time.sleep(0.05)
         in_parts = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
     finally:
         memo_parts.stop_layout_worker()

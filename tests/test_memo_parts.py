@@ -10,7 +10,6 @@ from __future__ import annotations
 import io
 import shutil
 import subprocess
-import time
 from datetime import datetime, timezone
 
 import pytest
@@ -23,10 +22,7 @@ needs_poppler = pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="nee
 
 @pytest.fixture(scope="module")
 def worker():
-    started = memo_parts.start_layout_worker()
-    deadline = time.monotonic() + 60
-    while not started.ready() and time.monotonic() < deadline:
-        time.sleep(0.05)
+    started = memo_parts.start_layout_worker(wait=True)
     assert started.ready(), "the layout worker did not start"
     yield started
     memo_parts.stop_layout_worker()
