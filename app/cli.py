@@ -85,7 +85,7 @@ def evaluate(case: Path, as_json: bool) -> None:
 @_guard
 def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> None:
     """Write the credit memo for CASE as a PDF that carries its own inputs."""
-    from app.memo_charts import ChartExporter, ChartsUnavailable
+    from app.chart_browser import ChartExporter, ChartsUnavailable
 
     if not output.parent.is_dir():
         _fail(f"-o/--output: got {str(output)!r}; allowed: a file in an existing folder "

@@ -25,10 +25,10 @@ from typing import Any, Iterator
 
 from app import formatting as fmt
 from app import pdfcase
-from app.memo_charts import (BROWSER_CANDIDATES, NO_CHART_FIX, ChartExporter, ChartSpec,  # noqa: F401
-                             ChartsUnavailable, build_figures, chart_specs, chart_timeout,
-                             ChartJob, export_charts, figure_size, find_browser, start_chart_exporter,
-                             stop_chart_exporter)
+from app.chart_browser import (BROWSER_CANDIDATES, NO_CHART_FIX, ChartExporter,  # noqa: F401
+                               ChartsUnavailable, chart_timeout, figure_size, find_browser,
+                               start_chart_exporter, stop_chart_exporter)
+from app.memo_charts import ChartJob, ChartSpec, build_figures, chart_specs, export_charts  # noqa: F401
 from app.memo_parts import start_layout_worker, stop_layout_worker  # noqa: F401
 
 def find_templates() -> Path:

@@ -138,9 +138,9 @@ def test_browser_path_takes_precedence(monkeypatch, tmp_path):
 
 def test_no_usual_browser_names_the_fix(monkeypatch):
     monkeypatch.delenv("BROWSER_PATH", raising=False)
-    from app import memo_charts
+    from app import chart_browser
 
-    monkeypatch.setattr(memo_charts, "BROWSER_CANDIDATES", ("/nonexistent/chromium",))
+    monkeypatch.setattr(chart_browser, "BROWSER_CANDIDATES", ("/nonexistent/chromium",))
     with pytest.raises(memo.ChartsUnavailable, match=r"install Chromium.*--no-charts"):
         memo.find_browser()
 
@@ -183,16 +183,16 @@ def test_charts_that_cannot_become_pages_name_the_fix(charted_pdf, analysed, mon
 
 
 def test_partial_plotly_bundle_is_used_only_at_the_full_bundles_version(monkeypatch, tmp_path):
-    from app import memo_charts
+    from app import chart_browser
 
-    assert memo_charts.bundle_version(memo_charts.PARTIAL_BUNDLE) is not None
-    assert memo_charts.plotly_bundle() == str(memo_charts.PARTIAL_BUNDLE)
+    assert chart_browser.bundle_version(chart_browser.PARTIAL_BUNDLE) is not None
+    assert chart_browser.plotly_bundle() == str(chart_browser.PARTIAL_BUNDLE)
     other = tmp_path / "plotly-cartesian.min.js"
     other.write_text("/**\n* plotly.js (cartesian - minified) v0.0.1\n*/\nvar Plotly = {};\n")
-    monkeypatch.setattr(memo_charts, "PARTIAL_BUNDLE", other)
-    assert memo_charts.plotly_bundle() is None          # kaleido's default: plotly.py's full bundle
-    monkeypatch.setattr(memo_charts, "PARTIAL_BUNDLE", tmp_path / "absent.js")
-    assert memo_charts.plotly_bundle() is None
+    monkeypatch.setattr(chart_browser, "PARTIAL_BUNDLE", other)
+    assert chart_browser.plotly_bundle() is None          # kaleido's default: plotly.py's full bundle
+    monkeypatch.setattr(chart_browser, "PARTIAL_BUNDLE", tmp_path / "absent.js")
+    assert chart_browser.plotly_bundle() is None
 
 
 @needs_browser
@@ -201,13 +201,13 @@ def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analys
     annotations), drawn with each bundle and rasterised by poppler: not one pixel differs."""
     from PIL import Image, ImageChops
 
-    from app import chart_pages, memo_charts
+    from app import chart_browser, chart_pages, memo_charts
 
     figures, _ = memo.build_figures(analysed)
     pictures = {}
-    for name, bundle in (("partial", str(memo_charts.PARTIAL_BUNDLE)), ("full", None)):
-        monkeypatch.setattr(memo_charts, "plotly_bundle", lambda b=bundle: b)
-        exporter = memo_charts.ChartExporter().start()
+    for name, bundle in (("partial", str(chart_browser.PARTIAL_BUNDLE)), ("full", None)):
+        monkeypatch.setattr(chart_browser, "plotly_bundle", lambda b=bundle: b)
+        exporter = chart_browser.ChartExporter().start()
         try:
             svgs = exporter.export_svg(figures)
         finally:
