@@ -13,6 +13,7 @@ import sys
 from pathlib import Path
 
 import click
+from obligor_memo.app import settings
 
 EXIT_USER_ERROR = 2
 EXIT_INTERNAL = 3
@@ -29,7 +30,7 @@ def _guard(func):
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
-        from engine.errors import CaseError
+        from obligor_memo.engine.errors import CaseError
 
         try:
             return func(*args, **kwargs)
@@ -40,7 +41,7 @@ def _guard(func):
         except (KeyboardInterrupt, BrokenPipeError):
             sys.exit(130)
         except Exception as exc:  # an engine bug: short report; traceback only on request
-            if os.environ.get("OBLIGOR_MEMO_DEBUG"):
+            if settings.current().debug:
                 raise
             _fail(f"obligor-memo hit an internal error ({type(exc).__name__}: {exc}). This is a "
                   "bug, not a problem with your input; set OBLIGOR_MEMO_DEBUG=1 to see the details "
@@ -60,16 +61,16 @@ def main() -> None:
 @_guard
 def evaluate(case: Path, as_json: bool) -> None:
     """Validate CASE (YAML or JSON) and compute EAD, PD, LGD, EL and the rest."""
-    from engine.analysis import analyse
-    from engine.loading import load_case
+    from obligor_memo.engine.analysis import analyse
+    from obligor_memo.engine.loading import load_case
 
     results = analyse(load_case(case))
     if as_json:
-        from app.report import contract_json
+        from obligor_memo.app.present.report import contract_json
 
         click.echo(json.dumps(contract_json(results), indent=2, allow_nan=False))
     else:
-        from app.report import summary_text
+        from obligor_memo.app.present.report import summary_text
 
         click.echo(summary_text(results))
 
@@ -85,7 +86,7 @@ def evaluate(case: Path, as_json: bool) -> None:
 @_guard
 def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> None:
     """Write the credit memo for CASE as a PDF that carries its own inputs."""
-    from app.chart_browser import ChartExporter, ChartsUnavailable
+    from obligor_memo.app.memo.chart_browser import ChartExporter, ChartsUnavailable
 
     if not output.parent.is_dir():
         _fail(f"-o/--output: got {str(output)!r}; allowed: a file in an existing folder "
@@ -97,9 +98,9 @@ def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> No
             # is read and analysed (a bad case still fails at once and closes it); the memo
             # closes it as soon as the charts are drawn, before the PDF is written.
             browser = ChartExporter().start(wait=False)
-        from app.memo import render_memo_pdf
-        from engine.analysis import analyse
-        from engine.loading import load_case
+        from obligor_memo.app.memo import render_memo_pdf
+        from obligor_memo.engine.analysis import analyse
+        from obligor_memo.engine.loading import load_case
 
         results = analyse(load_case(case))
         pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size, exporter=browser)
@@ -122,7 +123,7 @@ def verify(memo_pdf: Path) -> None:
 
     Exit 0 when every figure holds and the inputs match their fingerprint, 1 otherwise.
     """
-    from app.pdfcase import MemoRecordError, verify_memo
+    from obligor_memo.app.memo.record import MemoRecordError, verify_memo
 
     try:
         report = verify_memo(memo_pdf.read_bytes())
@@ -140,7 +141,7 @@ def verify(memo_pdf: Path) -> None:
               help="Folder for autosaved cases (default: ~/.obligor-memo).")
 def app(port: int, host: str, workdir: Path | None) -> None:
     """Start the workbench in the browser (Streamlit), on the sample borrower."""
-    from app.serve import serve
+    from obligor_memo.app.workbench.serve import serve
 
     sys.exit(serve(port=port, host=host, workdir=workdir))
 

@@ -63,19 +63,20 @@ def cold(runs: int, out_pdf: Path) -> list[tuple[float, float]]:
 
 def warm(runs: int) -> tuple[list[float], list[float], float]:
     sys.path.insert(0, str(ROOT))
-    from app import chart_pages, memo, memo_charts
-    from engine.analysis import analyse
-    from engine.loading import load_case
+    from obligor_memo.app.memo import chart_pages
+    from obligor_memo.app import memo
+    from obligor_memo.app.memo import figures as memo_figures
+    from obligor_memo.engine.analysis import analyse
+    from obligor_memo.engine.loading import load_case
 
     results = analyse(load_case(SAMPLE))
     t0 = time.perf_counter()
     memo.start_chart_exporter()                 # as the workbench does: the chart browser and
-    memo.start_layout_worker(wait=True)         # the layout worker, started in the background
     start_seconds = time.perf_counter() - t0
     memo.render_memo_pdf(results)            # first render also warms fonts and plotly
     times, cached = [], []
     for _ in range(runs):
-        memo_charts._SVG_CACHE.clear()          # every figure goes through the browser again
+        memo_figures._SVG_CACHE.clear()          # every figure goes through the browser again
         chart_pages._PAGES_CACHE.clear()        # and through the SVG-to-PDF converter
         t0 = time.perf_counter()
         memo.render_memo_pdf(results)
@@ -84,7 +85,6 @@ def warm(runs: int) -> tuple[list[float], list[float], float]:
         memo.render_memo_pdf(results)    # a reprint with the same figures (e.g. a text edit)
         cached.append(time.perf_counter() - t0)
     memo.stop_chart_exporter()
-    memo.stop_layout_worker()
     return times, cached, start_seconds
 
 

@@ -30,7 +30,7 @@ def main() -> int:
     from streamlit.testing.v1 import AppTest
 
     start = time.perf_counter()
-    at = AppTest.from_file(str(ROOT / "app" / "workbench.py"), default_timeout=60)
+    at = AppTest.from_file(str(ROOT / "app" / "workbench" / "main.py"), default_timeout=60)
     at.run()
     first = time.perf_counter() - start
     assert not at.exception, [e.value for e in at.exception]

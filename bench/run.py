@@ -22,7 +22,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_data" / "hollowmere.yaml"
 PYTHON = sys.executable
-CLI = [PYTHON, "-m", "app.cli"]
+CLI = [PYTHON, "-m", "obligor_memo.app.cli"]
 
 
 # --------------------------------------------------------------------------- items (run in a child)
@@ -40,17 +40,17 @@ def _median_ms(func, repeats: int, warmup: int = 2) -> float:
 
 
 def item_evaluate(quick: bool) -> dict:
-    from engine.evaluate import evaluate
-    from engine.loading import load_case
+    from obligor_memo.engine.evaluate import evaluate
+    from obligor_memo.engine.loading import load_case
 
     case = load_case(SAMPLE)
     return {"median_ms": _median_ms(lambda: evaluate(case), 50 if quick else 500), "target_ms": 5}
 
 
 def item_grid(quick: bool) -> dict:
-    from engine.evaluate import evaluate
-    from engine.loading import load_case
-    from engine.sensitivity import pd_grid
+    from obligor_memo.engine.evaluate import evaluate
+    from obligor_memo.engine.loading import load_case
+    from obligor_memo.engine.sensitivity import pd_grid
 
     case = load_case(SAMPLE)
     base = evaluate(case)
@@ -60,9 +60,9 @@ def item_grid(quick: bool) -> dict:
 
 
 def item_sensitivity(quick: bool) -> dict:
-    from engine.evaluate import evaluate
-    from engine.loading import load_case
-    from engine.sensitivity import one_way_sensitivity
+    from obligor_memo.engine.evaluate import evaluate
+    from obligor_memo.engine.loading import load_case
+    from obligor_memo.engine.sensitivity import one_way_sensitivity
 
     case = load_case(SAMPLE)
     base = evaluate(case)
@@ -74,7 +74,7 @@ def item_market(quick: bool) -> dict:
     from scipy import optimize
     from scipy.stats import norm
 
-    from engine.market import solve_merton_many
+    from obligor_memo.engine.market import solve_merton_many
 
     n = 100_000
     rng = np.random.default_rng(20261201)
@@ -120,7 +120,7 @@ def item_workbench(quick: bool) -> dict:
     os.environ.setdefault("OBLIGOR_MEMO_WORKDIR", tempfile.mkdtemp(prefix="om-bench-"))
     os.environ.setdefault("OBLIGOR_MEMO_CHART_PRESTART", "0")  # measure the page, not Chromium
     start = time.perf_counter()
-    at = AppTest.from_file(str(ROOT / "app" / "workbench.py"), default_timeout=60)
+    at = AppTest.from_file(str(ROOT / "app" / "workbench" / "main.py"), default_timeout=60)
     at.run()
     first = time.perf_counter() - start
     if at.exception:
@@ -143,18 +143,19 @@ def item_workbench(quick: bool) -> dict:
 def item_memo_warm(quick: bool) -> dict:
     """The memo when the chart exporter is already running (as the workbench starts it):
     charts drawn anew each time (the SVG cache emptied), and a reprint of unchanged charts."""
-    from app import chart_pages, memo, memo_charts
-    from engine.analysis import analyse
-    from engine.loading import load_case
+    from obligor_memo.app.memo import chart_pages
+    from obligor_memo.app import memo
+    from obligor_memo.app.memo import figures as memo_figures
+    from obligor_memo.engine.analysis import analyse
+    from obligor_memo.engine.loading import load_case
 
     results = analyse(load_case(SAMPLE))
     memo.start_chart_exporter(wait=True)        # as the workbench does: the chart browser and
-    memo.start_layout_worker(wait=True)         # the layout worker
     try:
         memo.render_memo_pdf(results)                 # warm-up: fonts, templates, first page load
         drawn, reprint = [], []
         for _ in range(2 if quick else 5):
-            memo_charts._SVG_CACHE.clear()
+            memo_figures._SVG_CACHE.clear()
             chart_pages._PAGES_CACHE.clear()
             start = time.perf_counter()
             memo.render_memo_pdf(results)
@@ -164,7 +165,6 @@ def item_memo_warm(quick: bool) -> dict:
             reprint.append(time.perf_counter() - start)
     finally:
         memo.stop_chart_exporter()
-        memo.stop_layout_worker()
     return {"warm_charts_drawn_s": statistics.median(drawn), "warm_reprint_s": statistics.median(reprint),
             "target_warm_s": 2}
 

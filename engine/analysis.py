@@ -9,10 +9,10 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from engine.case import Case
-from engine.evaluate import Results, evaluate
-from engine.scenarios import evaluate_scenarios
-from engine.sensitivity import one_way_sensitivity, pd_grid
+from obligor_memo.engine.case import Case
+from obligor_memo.engine.evaluate import Results, evaluate
+from obligor_memo.engine.scenarios import evaluate_scenarios
+from obligor_memo.engine.sensitivity import one_way_sensitivity, pd_grid
 
 
 def analyse(case: Case, base: Results | None = None) -> Results:

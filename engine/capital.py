@@ -34,7 +34,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.special import ndtr, ndtri  # standard normal CDF and its inverse (as scipy.stats.norm)
 
-from engine import ENGINE_VERSION
+from obligor_memo.engine import ENGINE_VERSION
 
 FloatOrArray = Union[float, NDArray[np.float64]]
 BoolOrArray = Union[bool, NDArray[np.bool_]]

@@ -16,8 +16,8 @@ from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
-from engine.case_errors import CaseProblems, FieldError, problems_from_validation
-from engine.errors import CaseError, Problem
+from obligor_memo.engine.case_errors import CaseProblems, FieldError, problems_from_validation
+from obligor_memo.engine.errors import CaseError, Problem
 
 FacilityKind = Literal["bond", "term_loan", "revolver", "guarantee", "letter_of_credit"]
 Seniority = Literal["senior_secured", "senior_unsecured", "subordinated"]
@@ -99,7 +99,7 @@ class PdSettings(_Model):
     @model_validator(mode="after")
     def _valid_master_scale(self) -> "PdSettings":
         if self.master_scale is not None:
-            from engine.grading import master_scale_from_rows
+            from obligor_memo.engine.grading import master_scale_from_rows
 
             try:
                 master_scale_from_rows([row.model_dump() for row in self.master_scale])

@@ -14,7 +14,7 @@ from typing import Any
 
 from pydantic import BaseModel, ValidationError
 
-from engine.errors import Problem
+from obligor_memo.engine.errors import Problem
 
 
 class FieldError(ValueError):

@@ -16,22 +16,22 @@ from typing import Any
 
 import numpy as np
 
-from engine import ENGINE_VERSION
-from engine.capital import irb_corporate_capital
-from engine.case import Case, case_to_dict
-from engine.errors import CaseError, Caution
-from engine.exposure import facility_exposure, resolve_ccf
-from engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
-from engine.lossdist import LossDistribution, loss_distribution
-from engine.pd_estimate import (MarketResult, PdResult, engine_error, estimate_pd, grade_pd,
+from obligor_memo.engine import ENGINE_VERSION
+from obligor_memo.engine.capital import irb_corporate_capital
+from obligor_memo.engine.case import Case, case_to_dict
+from obligor_memo.engine.errors import CaseError, Caution
+from obligor_memo.engine.exposure import facility_exposure, resolve_ccf
+from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
+from obligor_memo.engine.lossdist import LossDistribution, loss_distribution
+from obligor_memo.engine.pd_estimate import (MarketResult, PdResult, engine_error, estimate_pd, grade_pd,
                                 term_structure)
-from engine.pricing import PricingResult, price_borrower
-from engine.recovery import (RecoveryLaw, collateral_cover, downturn_lgd, recovery_law,
+from obligor_memo.engine.pricing import PricingResult, price_borrower
+from obligor_memo.engine.recovery import (RecoveryLaw, collateral_cover, downturn_lgd, recovery_law,
                              seniority_recovery_mean)
-from engine.statements import YearRatios, year_ratios
-from engine.structural import PdTermStructure
-from engine.trend import AssetTrend
-from engine.zscore import ZScore, altman_scores
+from obligor_memo.engine.statements import YearRatios, year_ratios
+from obligor_memo.engine.structural import PdTermStructure
+from obligor_memo.engine.trend import AssetTrend
+from obligor_memo.engine.zscore import ZScore, altman_scores
 
 __all__ = ["Results", "FacilityResult", "Totals", "PdResult", "MarketResult", "evaluate", "estimate_pd",
            "fingerprint"]

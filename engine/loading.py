@@ -15,9 +15,9 @@ from typing import Any
 
 import yaml
 
-from engine.case import Case, parse_case
-from engine.errors import CaseError, Problem
-from engine.statements import read_statement_table
+from obligor_memo.engine.case import Case, parse_case
+from obligor_memo.engine.errors import CaseError, Problem
+from obligor_memo.engine.statements import read_statement_table
 
 MAX_CASE_BYTES = 2_000_000  # the workbench upload limit is the same (2 MB)
 

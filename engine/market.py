@@ -25,7 +25,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy import special
 
-from engine import ENGINE_VERSION
+from obligor_memo.engine import ENGINE_VERSION
 
 Measure = Literal["risk_neutral", "physical"]
 FloatArray = NDArray[np.float64]

@@ -14,8 +14,8 @@ import numpy as np
 from numpy.typing import ArrayLike
 from scipy import special
 
-from engine import ENGINE_VERSION
-from engine.market import FloatArray, _checked, _scalar_or_frozen
+from obligor_memo.engine import ENGINE_VERSION
+from obligor_memo.engine.market import FloatArray, _checked, _scalar_or_frozen
 
 @dataclass(frozen=True, eq=False)
 class NaiveDD:

@@ -12,14 +12,14 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from engine.case import Case
-from engine.errors import CaseError, Caution
-from engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
-from engine.market import MertonSolution, solve_merton
-from engine.naive_dd import NaiveDD, naive_distance_to_default
-from engine.structural import (PdTermStructure, balance_sheet_pd, constant_hazard_term_structure,
+from obligor_memo.engine.case import Case
+from obligor_memo.engine.errors import CaseError, Caution
+from obligor_memo.engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
+from obligor_memo.engine.market import MertonSolution, solve_merton
+from obligor_memo.engine.naive_dd import NaiveDD, naive_distance_to_default
+from obligor_memo.engine.structural import (PdTermStructure, balance_sheet_pd, constant_hazard_term_structure,
                                pd_from_distance, structural_term_structure)
-from engine.trend import AssetTrend, fit_asset_trend
+from obligor_memo.engine.trend import AssetTrend, fit_asset_trend
 
 
 @dataclass(frozen=True)

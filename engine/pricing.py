@@ -22,7 +22,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from engine import ENGINE_VERSION
+from obligor_memo.engine import ENGINE_VERSION
 
 
 @dataclass(frozen=True)

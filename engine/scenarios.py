@@ -34,9 +34,9 @@ from typing import Any
 
 from pydantic import BaseModel
 
-from engine.case import Case, Facility, ScenarioValue, case_to_dict, parse_case
-from engine.errors import CaseError, Problem
-from engine.evaluate import Results, evaluate
+from obligor_memo.engine.case import Case, Facility, ScenarioValue, case_to_dict, parse_case
+from obligor_memo.engine.errors import CaseError, Problem
+from obligor_memo.engine.evaluate import Results, evaluate
 
 _FROZEN_SECTIONS = ("statements", "scenarios")
 

@@ -29,12 +29,12 @@ from typing import Any
 
 import numpy as np
 
-from engine.case import Case, GridAxis
-from engine.errors import CaseError
-from engine.evaluate import PdResult, Results, estimate_pd, evaluate
-from engine.market import solve_merton_many
-from engine.scenarios import apply_overrides, checked_base
-from engine.structural import distance_to_default, pd_from_distance
+from obligor_memo.engine.case import Case, GridAxis
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.evaluate import PdResult, Results, estimate_pd, evaluate
+from obligor_memo.engine.market import solve_merton_many
+from obligor_memo.engine.scenarios import apply_overrides, checked_base
+from obligor_memo.engine.structural import distance_to_default, pd_from_distance
 
 ASSUMPTIONS = ("short_term_share", "long_term_share", "asset_growth", "asset_volatility",
                "horizon_years", "ccf", "recovery_mean")

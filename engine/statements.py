@@ -15,7 +15,7 @@ import zipfile
 from dataclasses import dataclass
 from typing import Any
 
-from engine.errors import CaseError, Problem
+from obligor_memo.engine.errors import CaseError, Problem
 
 MAX_FILE_BYTES = 2_000_000
 MAX_ROWS = 200

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from engine.errors import Caution
+from obligor_memo.engine.errors import Caution
 
 
 @dataclass(frozen=True)

@@ -76,13 +76,13 @@ def make_case() -> Callable[[], dict[str, Any]]:
 
 @pytest.fixture(scope="session")
 def sample_case():
-    from engine.loading import load_case
+    from obligor_memo.engine.loading import load_case
 
     return load_case(SAMPLE_CASE)
 
 
 @pytest.fixture(scope="session")
 def sample_results(sample_case):
-    from engine.evaluate import evaluate
+    from obligor_memo.engine.evaluate import evaluate
 
     return evaluate(sample_case)

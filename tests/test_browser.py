@@ -34,7 +34,7 @@ def _free_port() -> int:
 def server(tmp_path_factory):
     port = _free_port()
     workdir = tmp_path_factory.mktemp("workdir")
-    code = ("import sys; from app.serve import serve; "
+    code = ("import sys; from obligor_memo.app.workbench.serve import serve; "
             f"sys.exit(serve(port={port}, host='127.0.0.1', workdir=r'{workdir}'))")
     proc = subprocess.Popen([sys.executable, "-c", code], cwd=ROOT, stdout=subprocess.PIPE,
                             stderr=subprocess.STDOUT, start_new_session=True)

@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 from scipy.optimize import brentq
 from scipy.stats import norm
 
-from engine.capital import (
+from obligor_memo.engine.capital import (
     BASEL_II_PD_FLOOR,
     BASEL_SCALING_FACTOR,
     IrbCapital,

@@ -8,8 +8,8 @@ import json
 import pydantic
 import pytest
 
-from engine.case import Case, case_to_dict, parse_case
-from engine.errors import CaseError, Caution, Problem, show_value
+from obligor_memo.engine.case import Case, case_to_dict, parse_case
+from obligor_memo.engine.errors import CaseError, Caution, Problem, show_value
 
 
 def test_minimal_case_gets_the_documented_defaults(make_case) -> None:

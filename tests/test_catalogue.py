@@ -18,10 +18,10 @@ import pytest
 import yaml
 
 from conftest import copy_data, minimal_case_dict, write_case
-from engine.analysis import analyse
-from engine.errors import CaseError, show_value
-from engine.evaluate import evaluate
-from engine.loading import load_case
+from obligor_memo.engine.analysis import analyse
+from obligor_memo.engine.errors import CaseError, show_value
+from obligor_memo.engine.evaluate import evaluate
+from obligor_memo.engine.loading import load_case
 
 Mutation = Callable[[Path], Path]
 

@@ -13,7 +13,8 @@ import subprocess
 
 import pytest
 
-from app import chart_pages
+from obligor_memo.app.memo import chart_pages
+from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
 from tests.test_memo_svg import PLOT_LIKE
 
 needs_poppler = pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="needs poppler-utils")
@@ -69,8 +70,8 @@ def test_each_chart_lands_in_the_box_the_layout_gave_it(converter, monkeypatch, 
     pixels of the printed page sit where WeasyPrint laid the boxes out, to a pixel."""
     from weasyprint import HTML
 
-    from app import memo
-    from engine.evaluate import evaluate
+    from obligor_memo.app import memo
+    from obligor_memo.engine.evaluate import evaluate
 
     if converter == "rsvg" and shutil.which("rsvg-convert") is None:
         pytest.skip("needs librsvg2-bin")
@@ -81,11 +82,11 @@ def test_each_chart_lands_in_the_box_the_layout_gave_it(converter, monkeypatch, 
             "<p>after</p></body>")
     sizes = [(300, 200), (400, 100)]
     job = _Drawn([_solid(300, 200, "rgb(0,0,255)"), _solid(400, 100, "rgb(255,0,0)")], sizes)
-    pdf = memo.html_to_pdf(html, results=evaluate(sample_case), page_size="A4", generated_at="2031-01-02",
+    pdf = render.html_to_pdf(html, results=evaluate(sample_case), page_size="A4", generated_at="2031-01-02",
                            allowed_data_uris=set(), charts=job)
     # The boxes as WeasyPrint lays out the same HTML with the same stand-ins [CSS px].
-    laid_out = HTML(string=html, url_fetcher=memo.memo_fetcher(set(), sizes)).render(
-        stylesheets=[memo.TEMPLATES_DIR / "memo.css"])
+    laid_out = HTML(string=html, url_fetcher=fetch.memo_fetcher(set(), sizes)).render(
+        stylesheets=[templates.TEMPLATES_DIR / "memo.css"])
     anchors = laid_out.pages[0].anchors
     page = _raster(pdf, tmp_path, "placed")
     for anchor, colour in (("memo-chart-0", (0, 0, 255)), ("memo-chart-1", (255, 0, 0))):
@@ -172,4 +173,4 @@ def test_too_few_chart_pages_is_an_error_not_a_blank_box():
     memo_pdf = HTML(string="<p>x</p>").write_pdf()
     charts = HTML(string="<p>one page</p>").write_pdf()
     with pytest.raises(chart_pages.ChartPagesError, match="fewer than the charts"):
-        chart_pages.place_charts(memo_pdf, [chart_pages.Placement(0, (0, 0, 10, 10), 3)], charts)
+        layout.place_charts(layout.LaidOut(memo_pdf, 1, [chart_pages.Placement(0, (0, 0, 10, 10), 3)]), charts)

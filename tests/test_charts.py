@@ -10,9 +10,11 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from app import charts, charts_whatif
-from engine.evaluate import evaluate
-from engine.loading import load_case
+from obligor_memo.app import charts
+
+from obligor_memo.app.charts import whatif as charts_whatif
+from obligor_memo.engine.evaluate import evaluate
+from obligor_memo.engine.loading import load_case
 
 SAMPLE = Path(__file__).resolve().parent.parent / "sample_data" / "hollowmere.yaml"
 
@@ -166,7 +168,7 @@ def test_what_if_figures_say_what_is_missing(results):
 
 @pytest.fixture(scope="module")
 def analysed():
-    from engine.analysis import analyse
+    from obligor_memo.engine.analysis import analyse
 
     return analyse(load_case(SAMPLE))
 

@@ -24,8 +24,8 @@ CONTRACT = {
 _MODULES_PROBE = (
     "import sys, json\n"
     "from click.testing import CliRunner\n"
-    "import app.cli\n"
-    f"result = CliRunner().invoke(app.cli.main, ['evaluate', {str(SAMPLE_CASE)!r}, '--json'])\n"
+    "import obligor_memo.app.cli\n"
+    f"result = CliRunner().invoke(obligor_memo.app.cli.main, ['evaluate', {str(SAMPLE_CASE)!r}, '--json'])\n"
     "assert result.exit_code == 0, result.output\n"
     "json.loads(result.output)\n"
     "print(json.dumps(sorted({m.split('.')[0] for m in sys.modules})))\n"
@@ -34,7 +34,7 @@ _MODULES_PROBE = (
 
 def _command() -> list[str]:
     script = VENV_BIN / "obligor-memo"
-    return [str(script)] if script.exists() else [sys.executable, "-m", "app.cli"]
+    return [str(script)] if script.exists() else [sys.executable, "-m", "obligor_memo.app.cli"]
 
 
 @pytest.fixture(scope="module")
@@ -71,7 +71,7 @@ def invoke(*args: str):
     """In-process run through click's test runner (same code path, no interpreter start)."""
     from click.testing import CliRunner
 
-    from app.cli import main
+    from obligor_memo.app.cli import main
 
     return CliRunner().invoke(main, list(args))
 
@@ -140,12 +140,12 @@ def test_missing_case_file_exits_2(tmp_path: Path) -> None:
 
 def test_engine_bug_is_reported_without_traceback(monkeypatch) -> None:
     # An internal failure gets exit 3 and a short report, never a traceback on the user's screen.
-    import engine.analysis
+    from obligor_memo.engine import analysis as engine_analysis
 
     def broken(case, base=None):
         raise ZeroDivisionError("float division by zero")
 
-    monkeypatch.setattr(engine.analysis, "analyse", broken)
+    monkeypatch.setattr(engine_analysis, "analyse", broken)
     monkeypatch.delenv("OBLIGOR_MEMO_DEBUG", raising=False)
     result = invoke("evaluate", str(SAMPLE_CASE))
     assert result.exit_code == 3

@@ -19,8 +19,8 @@ from pathlib import Path
 
 import pytest
 
-from app.state import autosave_path, new_case_id, restore
-from engine.case import parse_case
+from obligor_memo.app.workbench.state import autosave_path, new_case_id, restore
+from obligor_memo.engine.case import parse_case
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -28,7 +28,7 @@ WRITER = textwrap.dedent("""
     import sys, copy
     from pathlib import Path
     sys.path.insert(0, sys.argv[3])
-    from app.state import autosave, sample_case_dict
+    from obligor_memo.app.workbench.state import autosave, sample_case_dict
     workdir, case_id = Path(sys.argv[1]), sys.argv[2]
     base = sample_case_dict()
     base["memo"]["summary"] = "x" * 19_000
@@ -74,7 +74,7 @@ def test_autosave_survives_sigkill_during_writes(tmp_path: Path) -> None:
 
 def test_two_cases_in_one_folder_never_mix(tmp_path: Path) -> None:
     """Two sessions (two case ids) saving into one working folder keep their own inputs."""
-    from app.state import autosave, sample_case_dict
+    from obligor_memo.app.workbench.state import autosave, sample_case_dict
 
     first, second = new_case_id(), new_case_id()
     a, b = sample_case_dict(), sample_case_dict()

@@ -10,9 +10,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from engine.case import case_to_dict, parse_case
-from engine.evaluate import evaluate
-from engine.loss import borrower_unexpected_loss
+from obligor_memo.engine.case import case_to_dict, parse_case
+from obligor_memo.engine.evaluate import evaluate
+from obligor_memo.engine.loss import borrower_unexpected_loss
 
 
 def test_totals_equal_sums(sample_results) -> None:

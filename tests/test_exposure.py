@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from engine.exposure import ccf_preset, exposure_at_default, facility_exposure, resolve_ccf
+from obligor_memo.engine.exposure import ccf_preset, exposure_at_default, facility_exposure, resolve_ccf
 
 
 @pytest.mark.parametrize(("drawn", "committed", "ccf", "expected"), [

@@ -17,8 +17,11 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from app import memo, memo_charts
-from app.cli import main
+from obligor_memo.app import memo
+
+from obligor_memo.app.memo import figures as memo_figures
+from obligor_memo.app.cli import main
+from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
 
 SHORT_TIMEOUT = "1"     # seconds: long enough for a script to start, short enough for the suite
 
@@ -43,17 +46,17 @@ def assert_group_gone(folder: Path) -> None:
         return
     group = int(pgid_file.read_text().split()[0])
     deadline = time.monotonic() + 3       # the kernel reaps a killed group within moments
-    while memo_charts.process_group_members(group) and time.monotonic() < deadline:
+    while chart_browser.process_group_members(group) and time.monotonic() < deadline:
         time.sleep(0.05)
-    assert memo_charts.process_group_members(group) == [], f"browser processes left in group {group}"
+    assert chart_browser.process_group_members(group) == [], f"browser processes left in group {group}"
 
 
 @pytest.fixture(autouse=True)
 def _short_timeout(monkeypatch):
-    monkeypatch.setenv(memo_charts.TIMEOUT_VARIABLE, SHORT_TIMEOUT)
+    monkeypatch.setenv(chart_browser.TIMEOUT_VARIABLE, SHORT_TIMEOUT)
     memo.stop_chart_exporter()
     # Figures drawn by earlier tests would be reused without any browser, hiding the fault.
-    monkeypatch.setattr(memo_charts, "_SVG_CACHE", {})
+    monkeypatch.setattr(memo_figures, "_SVG_CACHE", {})
     yield
     memo.stop_chart_exporter()
 
@@ -96,9 +99,9 @@ def test_memo_command_without_charts_needs_no_browser(tmp_path, monkeypatch, sam
 
 @pytest.mark.parametrize("text", ["0", "-3", "soon", "1e9"])
 def test_bad_timeout_setting_names_the_variable(text, monkeypatch):
-    monkeypatch.setenv(memo_charts.TIMEOUT_VARIABLE, text)
-    with pytest.raises(memo.ChartsUnavailable, match=f"{memo_charts.TIMEOUT_VARIABLE}.*{text!r}"):
-        memo_charts.chart_timeout()
+    monkeypatch.setenv(chart_browser.TIMEOUT_VARIABLE, text)
+    with pytest.raises(memo.ChartsUnavailable, match=f"{chart_browser.TIMEOUT_VARIABLE}.*{text!r}"):
+        chart_browser.chart_timeout()
 
 
 @pytest.mark.browser
@@ -107,19 +110,19 @@ def test_bad_timeout_setting_names_the_variable(text, monkeypatch):
 def test_browser_killed_after_start_is_replaced_once_and_cleaned_up(sample_case, monkeypatch):
     """A real browser that dies between two memos: the next export starts one fresh browser (a
     single retry), draws, and leaves nothing of the dead one behind."""
-    from engine.evaluate import evaluate
+    from obligor_memo.engine.evaluate import evaluate
 
-    monkeypatch.setenv(memo_charts.TIMEOUT_VARIABLE, "60")     # a real start-up on a busy machine
+    monkeypatch.setenv(chart_browser.TIMEOUT_VARIABLE, "60")     # a real start-up on a busy machine
 
     exporter = memo.start_chart_exporter()
     group = exporter.process_group
-    assert group is not None and memo_charts.process_group_members(group)
+    assert group is not None and chart_browser.process_group_members(group)
     os.killpg(group, signal.SIGKILL)          # as an out-of-memory kill would
-    figures, _ = memo.build_figures(evaluate(sample_case))
+    built, _ = memo_figures.build_figures(evaluate(sample_case))
     try:
-        svgs = exporter.export_svg(dict(list(figures.items())[:1]))
+        svgs = exporter.export_svg(dict(list(built.items())[:1]))
         assert all(svg.lstrip().startswith("<svg") for svg in svgs.values())
-        assert memo_charts.process_group_members(group) == []
+        assert chart_browser.process_group_members(group) == []
         assert exporter.running and exporter.process_group != group
     finally:
         memo.stop_chart_exporter()
@@ -132,11 +135,11 @@ def test_a_browser_that_keeps_failing_is_reported_after_one_retry(monkeypatch):
 
     def failing(self, figures):
         calls.append(1)
-        raise memo.ChartsUnavailable(memo_charts._DRAWING_FAILED + " (test). Try again.")
+        raise memo.ChartsUnavailable(chart_browser._DRAWING_FAILED + " (test). Try again.")
 
-    monkeypatch.setattr(memo_charts.ChartExporter, "_export_once", failing)
+    monkeypatch.setattr(chart_browser.ChartExporter, "_export_once", failing)
     with pytest.raises(memo.ChartsUnavailable, match="Try again"):
-        memo_charts.ChartExporter(browser_path="/bin/true").export_svg({})
+        chart_browser.ChartExporter(browser_path="/bin/true").export_svg({})
     assert len(calls) == 2
 
 
@@ -146,13 +149,13 @@ def test_a_browser_that_keeps_failing_is_reported_after_one_retry(monkeypatch):
 def _memo_page(tmp_path: Path, monkeypatch):
     from streamlit.testing.v1 import AppTest
 
-    from app.state import WORKDIR_ENV
+    from obligor_memo.app.workbench.state import WORKDIR_ENV
 
     monkeypatch.setenv(WORKDIR_ENV, str(tmp_path / "work"))
-    at = AppTest.from_file(str(Path(__file__).resolve().parent.parent / "app" / "workbench.py"),
+    at = AppTest.from_file(str(Path(__file__).resolve().parent.parent / "app" / "workbench" / "main.py"),
                            default_timeout=60)
     at.run()
-    at.switch_page("pages/memo.py")
+    at.switch_page("steps/memo.py")
     at.run()
     assert not at.exception
     return at

@@ -28,10 +28,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from conftest import SAMPLE_CASE, minimal_case_dict
-from engine.case import parse_case
-from engine.errors import CaseError
-from engine.evaluate import evaluate
-from engine.loading import load_case_text, parse_text, resolve_statements
+from obligor_memo.engine.case import parse_case
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.evaluate import evaluate
+from obligor_memo.engine.loading import load_case_text, parse_text, resolve_statements
 
 FUZZ = settings(derandomize=True, deadline=None, database=None,
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
@@ -310,7 +310,7 @@ _CLI_DIR = Path(tempfile.mkdtemp(prefix="obligor-fuzz-"))
 @settings(FUZZ, max_examples=80)
 @given(data=mutated_cases(max_mutations=2), as_yaml=st.booleans())
 def test_command_line_exits_0_or_2_without_traceback(data: dict[str, Any], as_yaml: bool) -> None:
-    from app.cli import main
+    from obligor_memo.app.cli import main
 
     path = _CLI_DIR / ("case.yaml" if as_yaml else "case.json")
     if as_yaml:
@@ -337,7 +337,7 @@ _ODD_PATHS = ["", ".", "..", "pd", "pd..override", "facilities", "facilities.*",
 
 @st.composite
 def scenario_cases(draw: st.DrawFn) -> dict[str, Any]:
-    from engine.scenarios import valid_paths
+    from obligor_memo.engine.scenarios import valid_paths
 
     doc = minimal_case_dict()
     valid = list(valid_paths(parse_case(doc)))
@@ -352,7 +352,7 @@ def scenario_cases(draw: st.DrawFn) -> dict[str, Any]:
 @settings(FUZZ, max_examples=200)
 @given(data=scenario_cases())
 def test_scenarios_in_the_full_analysis_evaluate_or_name_the_field(data: dict[str, Any]) -> None:
-    from engine.analysis import analyse
+    from obligor_memo.engine.analysis import analyse
 
     _tally("scenarios", check_contract(lambda: parse_case(data), run=analyse))
 
@@ -431,7 +431,7 @@ def test_unknown_blank_key_is_visible_in_the_field(key: str) -> None:
 
 
 def test_full_analysis_of_statements_with_wild_swings() -> None:
-    from engine.analysis import analyse
+    from obligor_memo.engine.analysis import analyse
 
     make = _minimal_with(statements__0__total_assets=1.0, statements__1__total_assets=1e15,
                          statements__2__total_assets=1.0, statements__3__total_assets=1e15)

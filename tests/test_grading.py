@@ -10,7 +10,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from engine.grading import (
+from obligor_memo.engine.grading import (
     DEFAULT_GRADE_RATIO,
     DEFAULT_MASTER_SCALE,
     Grade,

@@ -53,7 +53,7 @@ def test_importing_every_engine_module_loads_no_forbidden_package() -> None:
     probe = (
         "import importlib, json, sys\n"
         f"for name in {MODULES!r}:\n"
-        "    importlib.import_module('engine.' + name)\n"
+        "    importlib.import_module('obligor_memo.engine.' + name)\n"
         "print(json.dumps(sorted({m.split('.')[0] for m in sys.modules})))\n"
     )
     done = subprocess.run([sys.executable, "-c", probe], cwd=ROOT, capture_output=True, text=True, timeout=60)

@@ -10,9 +10,9 @@ import pytest
 import yaml
 
 from conftest import DATA, SAMPLE_CASE, SAMPLE_STATEMENTS, copy_data, write_case
-from engine.case import parse_case
-from engine.errors import CaseError
-from engine.loading import load_case, load_case_text, parse_text
+from obligor_memo.engine.case import parse_case
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.loading import load_case, load_case_text, parse_text
 
 
 def test_yaml_and_json_of_the_same_data_give_the_same_case(tmp_path: Path, make_case) -> None:

@@ -9,8 +9,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
-from engine.recovery import recovery_law
+from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
+from obligor_memo.engine.recovery import recovery_law
 
 
 def test_published_el_and_ul_example() -> None:

@@ -11,7 +11,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import integrate, optimize, stats
 
-from engine.lossdist import LossDistribution, loss_distribution, monte_carlo_loss
+from obligor_memo.engine.lossdist import LossDistribution, loss_distribution, monte_carlo_loss
 
 
 @dataclass(frozen=True)
@@ -391,7 +391,7 @@ def test_monte_carlo_loss_validates_and_is_reproducible():
 def test_closed_form_tail_integral_of_recovery_laws_matches_quadrature():
     """engine.recovery.RecoveryLaw.ppf_integral (the beta law's first incomplete moment) gives the
     same expected shortfall as adaptive quadrature (scipy.integrate.quad) of the quantile function."""
-    from engine.recovery import recovery_law
+    from obligor_memo.engine.recovery import recovery_law
 
     laws = [recovery_law(mean=0.55, std=0.22, collateral_cover=0.3), recovery_law(mean=0.6, std=0.25),
             recovery_law(mean=0.2, std=0.18, upper=0.9), recovery_law(mean=0.4, std=0.0)]

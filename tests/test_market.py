@@ -17,14 +17,14 @@ from hypothesis import strategies as st
 from scipy import integrate, optimize
 from scipy.stats import lognorm, norm
 
-from engine.market import (
+from obligor_memo.engine.market import (
     MertonBatch,
     MertonSolution,
     merton_equity_value,
     solve_merton,
     solve_merton_many,
 )
-from engine.naive_dd import NaiveDD, naive_distance_to_default
+from obligor_memo.engine.naive_dd import NaiveDD, naive_distance_to_default
 
 # ---------------------------------------------------------------- reference code
 # Written from the textbook formulas with scipy.stats.norm, sharing nothing with

@@ -22,7 +22,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.stats import norm
 
-from app import formatting as fmt
+from obligor_memo.app.present import formatting as fmt
+from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
 
 pytestmark = pytest.mark.skipif(shutil.which("pdftotext") is None, reason="needs poppler-utils")
 
@@ -70,14 +71,14 @@ def sections(text: str) -> dict[str, str]:
 @pytest.fixture(scope="module")
 def sample_results(sample_case):
     """The full analysis, as the memo command prints it (sensitivities and scenarios included)."""
-    from engine.analysis import analyse
+    from obligor_memo.engine.analysis import analyse
 
     return analyse(sample_case)
 
 
 @pytest.fixture(scope="module")
 def sample_pdf(sample_results) -> bytes:
-    from app.memo import render_memo_pdf
+    from obligor_memo.app.memo import render_memo_pdf
 
     pdf = render_memo_pdf(sample_results, charts=False, generated_at=STAMP)
     ARTIFACTS.mkdir(exist_ok=True)
@@ -91,8 +92,8 @@ def sample_sections(sample_pdf) -> dict[str, str]:
 
 
 def hostile_results(make_case):
-    from engine.case import parse_case
-    from engine.evaluate import evaluate
+    from obligor_memo.engine.case import parse_case
+    from obligor_memo.engine.evaluate import evaluate
 
     data = make_case()
     data["borrower"]["name"] = "Acme <i>&amp;</i> Sons"
@@ -106,11 +107,11 @@ def hostile_results(make_case):
 @pytest.fixture(scope="module")
 def hostile(make_case):
     """The hostile case rendered once with a spy on every URL the renderer asks for."""
-    from app import memo
+    from obligor_memo.app import memo
 
     results = hostile_results(make_case)
     asked: list[str] = []
-    real = memo.memo_fetcher
+    real = fetch.memo_fetcher
 
     def spying_fetcher(allowed, charts=None):
         inner = real(allowed, charts)
@@ -123,11 +124,11 @@ def hostile(make_case):
         inner.fetch = fetch
         return inner
 
-    memo.memo_fetcher = spying_fetcher
+    fetch.memo_fetcher = spying_fetcher
     try:
         pdf = memo.render_memo_pdf(results, charts=False, generated_at=STAMP)
     finally:
-        memo.memo_fetcher = real
+        fetch.memo_fetcher = real
     return results, pdf, asked
 
 
@@ -224,7 +225,7 @@ def test_cautions_print_the_fixed_warnings_and_every_engine_caution(sample_resul
 
 
 def test_every_recorded_figure_is_printed(sample_pdf):
-    from app.pdfcase import FIGURES_FILE, read_attachments
+    from obligor_memo.app.memo.record import FIGURES_FILE, read_attachments
 
     text = " ".join(pdf_text(sample_pdf).split())
     record = json.loads(read_attachments(sample_pdf)[FIGURES_FILE])
@@ -233,7 +234,7 @@ def test_every_recorded_figure_is_printed(sample_pdf):
 
 
 def test_charts_left_out_are_marked_where_they_would_be(sample_results, sample_pdf):
-    from app.memo import chart_specs
+    from obligor_memo.app.memo.figures import chart_specs
 
     text = " ".join(pdf_text(sample_pdf).split())
     assert text.count("this memo was produced with --no-charts") == len(chart_specs(sample_results))
@@ -261,8 +262,8 @@ def test_a4_pages_with_running_header_footer_and_metadata(sample_results, sample
 
 
 def test_embedded_case_is_the_fingerprinted_input(sample_results, sample_pdf):
-    from app.pdfcase import CASE_FILE, read_attachments
-    from engine.case import case_to_dict
+    from obligor_memo.app.memo.record import CASE_FILE, read_attachments
+    from obligor_memo.engine.case import case_to_dict
 
     embedded = read_attachments(sample_pdf)[CASE_FILE]
     # Reference: hashlib's SHA-256 over the canonical JSON, built here independently.
@@ -273,7 +274,7 @@ def test_embedded_case_is_the_fingerprinted_input(sample_results, sample_pdf):
 
 
 def test_unknown_page_size_is_refused_naming_the_argument(sample_results):
-    from app.memo import render_memo_pdf
+    from obligor_memo.app.memo import render_memo_pdf
 
     with pytest.raises(ValueError, match=r"page_size: got 'Tabloid'; allowed: A4, Letter"):
         render_memo_pdf(sample_results, charts=False, page_size="Tabloid")
@@ -305,7 +306,7 @@ def test_hostile_text_makes_the_renderer_fetch_nothing(hostile):
 def test_fetcher_refuses_files_and_network_and_serves_its_own_data():
     import base64
 
-    from app.memo import memo_fetcher
+    from obligor_memo.app.memo.fetch import memo_fetcher
 
     ours = "data:image/svg+xml;base64," + base64.b64encode(b"<svg/>").decode("ascii")
     fetcher = memo_fetcher({ours})
@@ -342,7 +343,7 @@ class _TextOf(HTMLParser):
 @settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(st.text(alphabet=st.characters(blacklist_categories=("Cs", "Cc")), min_size=1, max_size=80))
 def test_any_summary_text_reaches_the_html_as_text(sample_results, typed):
-    from app.memo import render_memo_html
+    from obligor_memo.app.memo import render_memo_html
 
     case = sample_results.case
     memo_text = case.memo.model_copy(update={"summary": typed, "recommendation": "", "conditions": ""})
@@ -357,7 +358,7 @@ def test_any_summary_text_reaches_the_html_as_text(sample_results, typed):
 
 
 def test_same_case_and_time_give_identical_bytes(hostile, make_case):
-    from app.memo import render_memo_pdf
+    from obligor_memo.app.memo import render_memo_pdf
     from pypdf import PdfReader
 
     results, first, _ = hostile
@@ -372,12 +373,12 @@ def test_appendix_inputs_read_back_as_the_case(sample_results, make_case, sample
     (statements excepted: they are the table above it), hostile free text included."""
     import yaml
 
-    from app import memo
-    from engine.case import case_to_dict
+    from obligor_memo.app import memo
+    from obligor_memo.engine.case import case_to_dict
 
     for results in (sample_results, hostile_results(make_case)):
         data = case_to_dict(results.case)
         expected = {k: v for k, v in data.items() if k != "statements"}
-        assert yaml.safe_load(memo.inputs_yaml(data)) == expected
+        assert yaml.safe_load(view.inputs_yaml(data)) == expected
     appendix = sample_sections["Appendix Inputs and record"]
     assert "confidence: 0.999" in appendix and "kind: term_loan" in appendix

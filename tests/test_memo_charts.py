@@ -14,7 +14,9 @@ from pathlib import Path
 
 import pytest
 
-from app import memo
+from obligor_memo.app import memo
+from obligor_memo.app.memo import figures as memo_figures
+from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
 
 ROOT = Path(__file__).resolve().parents[1]
 ARTIFACTS = ROOT / "test-artifacts"
@@ -22,7 +24,7 @@ ARTIFACTS = ROOT / "test-artifacts"
 
 def _browser() -> str | None:
     try:
-        return memo.find_browser()
+        return chart_browser.find_browser()
     except memo.ChartsUnavailable:
         return None
 
@@ -45,14 +47,13 @@ def _no_browser_left_running():
 
 @pytest.fixture(scope="module")
 def analysed(sample_case):
-    from engine.analysis import analyse
+    from obligor_memo.engine.analysis import analyse
 
     return analyse(sample_case)
 
 
 @pytest.fixture(scope="module")
 def charted_pdf(analysed) -> bytes:
-    memo.stop_layout_worker()      # one piece (a worker left by another module would split it)
     exporter = memo.start_chart_exporter()
     try:
         pdf = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
@@ -77,7 +78,7 @@ def _text(pdf: bytes) -> str:
 def test_charts_are_vector_text_not_pictures(charted_pdf, analysed):
     # pdfimages lists raster images; vector SVG leaves none, except the cell image plotly itself
     # embeds for a heatmap (one per heatmap trace).
-    figures, _ = memo.build_figures(analysed)
+    figures, _ = memo_figures.build_figures(analysed)
     heatmaps = sum(trace.type == "heatmap" for fig in figures.values() for trace in fig.data)
     listing = subprocess.run(["pdfimages", "-list", "-"], input=charted_pdf, capture_output=True,
                              check=True).stdout.decode().splitlines()
@@ -91,10 +92,10 @@ def test_charts_are_vector_text_not_pictures(charted_pdf, analysed):
 
 @needs_browser
 def test_every_chart_drawn_or_its_absence_explained(charted_pdf, analysed):
-    figures, notes = memo.build_figures(analysed)
+    figures, notes = memo_figures.build_figures(analysed)
     text = _text(charted_pdf)
     assert "--no-charts" not in text
-    assert len(figures) + len(notes) == len(memo.chart_specs(analysed))
+    assert len(figures) + len(notes) == len(memo_figures.chart_specs(analysed))
     for note in notes.values():
         assert " ".join(note.split())[:40] in text
 
@@ -111,7 +112,7 @@ def test_page_images_saved_for_review(charted_pdf):
 def test_running_exporter_is_reused_and_times_out_cleanly(charted_pdf, analysed):
     exporter = memo.start_chart_exporter()
     assert memo.start_chart_exporter() is exporter and exporter.running
-    figures, _ = memo.build_figures(analysed)
+    figures, _ = memo_figures.build_figures(analysed)
     first = dict(list(figures.items())[:1])
     svg = exporter.export_svg(first)
     assert next(iter(svg.values())).lstrip().startswith("<svg")
@@ -125,7 +126,7 @@ def test_running_exporter_is_reused_and_times_out_cleanly(charted_pdf, analysed)
 def test_missing_browser_names_the_fix(monkeypatch, tmp_path):
     monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "no-such-browser"))
     with pytest.raises(memo.ChartsUnavailable, match=r"BROWSER_PATH.*--no-charts"):
-        memo.find_browser()
+        chart_browser.find_browser()
 
 
 def test_browser_path_takes_precedence(monkeypatch, tmp_path):
@@ -133,22 +134,22 @@ def test_browser_path_takes_precedence(monkeypatch, tmp_path):
     fake.write_text("#!/bin/sh\n")
     fake.chmod(0o755)
     monkeypatch.setenv("BROWSER_PATH", str(fake))
-    assert memo.find_browser() == str(fake)
+    assert chart_browser.find_browser() == str(fake)
 
 
 def test_no_usual_browser_names_the_fix(monkeypatch):
     monkeypatch.delenv("BROWSER_PATH", raising=False)
-    from app import chart_browser
+    from obligor_memo.app.memo import chart_browser
 
     monkeypatch.setattr(chart_browser, "BROWSER_CANDIDATES", ("/nonexistent/chromium",))
     with pytest.raises(memo.ChartsUnavailable, match=r"install Chromium.*--no-charts"):
-        memo.find_browser()
+        chart_browser.find_browser()
 
 
 def test_memo_command_without_browser_fails_with_the_fix(monkeypatch, tmp_path, sample_case_path):
     from click.testing import CliRunner
 
-    from app.cli import main
+    from obligor_memo.app.cli import main
 
     monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "missing"))
     memo.stop_chart_exporter()        # a browser kept by an earlier test would hide the fault
@@ -160,9 +161,10 @@ def test_memo_command_without_browser_fails_with_the_fix(monkeypatch, tmp_path, 
 @needs_browser
 def test_same_case_prints_the_same_bytes_with_charts(charted_pdf, analysed):
     """Charts drawn anew (no SVG or page cache) and placed again: not one byte differs."""
-    from app import chart_pages, memo_charts
+    from obligor_memo.app.memo import chart_pages
+    from obligor_memo.app.memo import figures as memo_figures
 
-    memo_charts._SVG_CACHE.clear()
+    memo_figures._SVG_CACHE.clear()
     chart_pages._PAGES_CACHE.clear()
     again = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
     assert again == charted_pdf
@@ -170,7 +172,7 @@ def test_same_case_prints_the_same_bytes_with_charts(charted_pdf, analysed):
 
 @needs_browser
 def test_charts_that_cannot_become_pages_name_the_fix(charted_pdf, analysed, monkeypatch, tmp_path):
-    from app import chart_pages
+    from obligor_memo.app.memo import chart_pages
 
     script = tmp_path / "broken-convert"
     script.write_text("#!/bin/sh\necho 'out of memory' >&2\nexit 1\n")
@@ -183,7 +185,7 @@ def test_charts_that_cannot_become_pages_name_the_fix(charted_pdf, analysed, mon
 
 
 def test_partial_plotly_bundle_is_used_only_at_the_full_bundles_version(monkeypatch, tmp_path):
-    from app import chart_browser
+    from obligor_memo.app.memo import chart_browser
 
     assert chart_browser.bundle_version(chart_browser.PARTIAL_BUNDLE) is not None
     assert chart_browser.plotly_bundle() == str(chart_browser.PARTIAL_BUNDLE)
@@ -201,9 +203,13 @@ def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analys
     annotations), drawn with each bundle and rasterised by poppler: not one pixel differs."""
     from PIL import Image, ImageChops
 
-    from app import chart_browser, chart_pages, memo_charts
+    from obligor_memo.app.memo import chart_browser
 
-    figures, _ = memo.build_figures(analysed)
+    from obligor_memo.app.memo import chart_pages
+
+    from obligor_memo.app.memo import figures as memo_figures
+
+    figures, _ = memo_figures.build_figures(analysed)
     pictures = {}
     for name, bundle in (("partial", str(chart_browser.PARTIAL_BUNDLE)), ("full", None)):
         monkeypatch.setattr(chart_browser, "plotly_bundle", lambda b=bundle: b)
@@ -213,7 +219,7 @@ def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analys
         finally:
             exporter.close()
         pdf = tmp_path / f"{name}.pdf"
-        pdf.write_bytes(chart_pages.charts_pdf([memo_charts.slim_svg(svgs[key]) for key in figures]))
+        pdf.write_bytes(chart_pages.charts_pdf([svg_slim.slim_svg(svgs[key]) for key in figures]))
         subprocess.run(["pdftoppm", "-r", "50", "-png", str(pdf), str(tmp_path / name)], check=True)
         pictures[name] = sorted(tmp_path.glob(f"{name}-*.png"))
     assert len(pictures["partial"]) == len(pictures["full"]) == len(figures)
@@ -222,29 +228,3 @@ def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analys
         assert a.size == b.size and ImageChops.difference(a, b).getbbox() is None, partial.name
 
 
-@needs_browser
-def test_memo_laid_out_in_parts_with_charts_matches_one_piece(charted_pdf, analysed, tmp_path):
-    """The workbench's way (layout worker running): same pages of text, same pixels, charts in
-    both parts of the memo."""
-    from PIL import Image, ImageChops
-
-    from app import memo_parts
-
-    memo_parts.start_layout_worker(wait=True)
-    try:
-        in_parts = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
-    finally:
-        memo_parts.stop_layout_worker()
-    assert in_parts != charted_pdf          # really laid out in parts (another file structure)
-    pages = {}
-    for name, pdf in (("parts", in_parts), ("one", charted_pdf)):
-        text = subprocess.run(["pdftotext", "-layout", "-", "-"], input=pdf, capture_output=True,
-                              check=True).stdout.decode()
-        (tmp_path / f"{name}.pdf").write_bytes(pdf)
-        subprocess.run(["pdftoppm", "-r", "40", "-png", str(tmp_path / f"{name}.pdf"), str(tmp_path / name)],
-                       check=True)
-        pages[name] = (text.split("\f"), sorted(tmp_path.glob(f"{name}-*.png")))
-    assert pages["parts"][0] == pages["one"][0]
-    assert len(pages["parts"][1]) == len(pages["one"][1])
-    for a, b in zip(pages["parts"][1], pages["one"][1]):
-        assert ImageChops.difference(Image.open(a).convert("RGB"), Image.open(b).convert("RGB")).getbbox() is None, a.name

@@ -13,7 +13,7 @@ import xml.etree.ElementTree as ET
 
 import pytest
 
-from app.memo_charts import slim_svg
+from obligor_memo.app.memo.figures import slim_svg
 
 NS = "{http://www.w3.org/2000/svg}"
 

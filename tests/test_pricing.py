@@ -7,7 +7,7 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from engine.pricing import PricingResult, RarocResult, minimum_income_rate, price_borrower, raroc
+from obligor_memo.engine.pricing import PricingResult, RarocResult, minimum_income_rate, price_borrower, raroc
 
 # Crouhy, Galai and Mark, "Risk Management" (McGraw-Hill, 2001), RAROC worked
 # example, recalled from memory: loan rate 4 %, funding 1.5 %, expected loss 1 %,

@@ -11,11 +11,11 @@ from scipy import special
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from engine.case import case_to_dict, parse_case
-from engine.exposure import exposure_at_default
-from engine.loss import expected_loss
-from engine.recovery import largest_feasible_std, recovery_law
-from engine.structural import balance_sheet_pd
+from obligor_memo.engine.case import case_to_dict, parse_case
+from obligor_memo.engine.exposure import exposure_at_default
+from obligor_memo.engine.loss import expected_loss
+from obligor_memo.engine.recovery import largest_feasible_std, recovery_law
+from obligor_memo.engine.structural import balance_sheet_pd
 
 positive = st.floats(min_value=1.0, max_value=1e12, allow_nan=False)
 growth = st.floats(min_value=-0.5, max_value=0.5)

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from engine.recovery import (beta_parameters_from_moments, collateral_cover, downturn_lgd,
+from obligor_memo.engine.recovery import (beta_parameters_from_moments, collateral_cover, downturn_lgd,
                              largest_feasible_std, recovery_law, seniority_recovery_mean)
 
 

@@ -14,11 +14,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from engine.case import case_to_dict, parse_case
-from engine.errors import CaseError
-from engine.evaluate import evaluate
-from engine.loading import load_case
-from engine.scenarios import (apply_overrides, evaluate_scenarios, headline_figures, valid_paths)
+from obligor_memo.engine.case import case_to_dict, parse_case
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.evaluate import evaluate
+from obligor_memo.engine.loading import load_case
+from obligor_memo.engine.scenarios import (apply_overrides, evaluate_scenarios, headline_figures, valid_paths)
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_data" / "hollowmere.yaml"
 CASE = load_case(SAMPLE)

@@ -13,8 +13,8 @@ from pathlib import Path
 
 import pytest
 
-from app import serve as serve_module
-from app.serve import is_loopback, streamlit_command
+from obligor_memo.app.workbench import serve as serve_module
+from obligor_memo.app.workbench.serve import is_loopback, streamlit_command
 
 ROOT = Path(__file__).resolve().parents[1]
 SOURCES = sorted((ROOT / "engine").glob("*.py")) + sorted((ROOT / "app").rglob("*.py"))
@@ -23,7 +23,7 @@ SOURCES = sorted((ROOT / "engine").glob("*.py")) + sorted((ROOT / "app").rglob("
 def test_the_default_binding_is_loopback() -> None:
     import inspect
 
-    from app.cli import app as app_command
+    from obligor_memo.app.cli import app as app_command
 
     default_host = next(p.default for p in app_command.params if p.name == "host")
     assert default_host == "127.0.0.1"
@@ -109,10 +109,10 @@ def test_no_code_execution_from_data(path: Path) -> None:
 def test_the_yaml_loader_is_a_safe_loader() -> None:
     import yaml
 
-    from engine import loading
+    from obligor_memo.engine import loading
 
     assert issubclass(loading._StrictLoader, yaml.SafeLoader)
-    from engine.errors import CaseError
+    from obligor_memo.engine.errors import CaseError
 
     # A Python object tag is refused, not constructed.
     with pytest.raises(CaseError):

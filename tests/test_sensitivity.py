@@ -20,15 +20,15 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from engine.case import case_to_dict, parse_case
-from engine.errors import CaseError
-from engine.evaluate import evaluate
-from engine.loading import load_case
-from engine.market import solve_merton
-from engine.scenarios import apply_overrides
-from engine.sensitivity import (ASSUMPTIONS, balance_sheet_pd_grid, centred_volatility_axis,
+from obligor_memo.engine.case import case_to_dict, parse_case
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.evaluate import evaluate
+from obligor_memo.engine.loading import load_case
+from obligor_memo.engine.market import solve_merton
+from obligor_memo.engine.scenarios import apply_overrides
+from obligor_memo.engine.sensitivity import (ASSUMPTIONS, balance_sheet_pd_grid, centred_volatility_axis,
                                 feasible_recovery_means, one_way_sensitivity, pd_grid)
-from engine.structural import balance_sheet_pd
+from obligor_memo.engine.structural import balance_sheet_pd
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_data" / "hollowmere.yaml"
 CASE = load_case(SAMPLE)

@@ -6,9 +6,9 @@ import math
 
 import pytest
 
-from engine.case import parse_case
-from engine.errors import CaseError
-from engine.statements import MAX_ROWS, parse_number, read_statement_table, year_ratios
+from obligor_memo.engine.case import parse_case
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.statements import MAX_ROWS, parse_number, read_statement_table, year_ratios
 
 HEADER = "year,total_assets,short_term_liabilities,long_term_liabilities\n"
 

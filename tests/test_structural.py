@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from engine.structural import (balance_sheet_pd, constant_hazard_term_structure, default_point,
+from obligor_memo.engine.structural import (balance_sheet_pd, constant_hazard_term_structure, default_point,
                                distance_to_default, pd_from_distance, structural_term_structure)
 
 # (V, g, s, STL, LTL, a, b, T): a spread of balance sheets from very safe to distressed.

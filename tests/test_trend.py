@@ -10,7 +10,7 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from conftest import SAMPLE_STATEMENTS
-from engine.trend import annual_log_changes, fit_asset_trend, least_squares_line, sample_volatility
+from obligor_memo.engine.trend import annual_log_changes, fit_asset_trend, least_squares_line, sample_volatility
 
 _TABLE = np.genfromtxt(SAMPLE_STATEMENTS, delimiter=",", names=True)
 YEARS = _TABLE["year"].astype(int)

@@ -19,10 +19,10 @@ import pytest
 import yaml
 
 from conftest import SAMPLE_CASE
-from engine.case import parse_case
-from engine.errors import CaseError
-from engine.evaluate import evaluate
-from engine.statements import MAX_FILE_BYTES, MAX_ROWS, MAX_XLSX_UNCOMPRESSED, read_statement_table
+from obligor_memo.engine.case import parse_case
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.evaluate import evaluate
+from obligor_memo.engine.statements import MAX_FILE_BYTES, MAX_ROWS, MAX_XLSX_UNCOMPRESSED, read_statement_table
 
 HEADER = "year,total_assets,short_term_liabilities,long_term_liabilities"
 ROWS = ["2021,100,80,30", "2022,112,80,30", "2023,104,80,30", "2024,120,80,30"]

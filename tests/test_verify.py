@@ -13,9 +13,9 @@ import pytest
 from click.testing import CliRunner
 from pypdf import PdfReader, PdfWriter
 
-from app import formatting as fmt
-from app.cli import main
-from app.pdfcase import CASE_FILE, FIGURES_FILE, MemoRecordError, read_attachments, verify_memo
+from obligor_memo.app.present import formatting as fmt
+from obligor_memo.app.cli import main
+from obligor_memo.app.memo.record import CASE_FILE, FIGURES_FILE, MemoRecordError, read_attachments, verify_memo
 
 
 @pytest.fixture(scope="module")
@@ -78,7 +78,7 @@ def test_tampered_printed_figure_is_named(tmp_path, memo_pdf):
 
 
 def test_changed_engine_version_is_reported(memo_pdf, monkeypatch):
-    import engine
+    from obligor_memo import engine
 
     monkeypatch.setattr(engine, "ENGINE_VERSION", "99.0.0")
     report = verify_memo(memo_pdf)

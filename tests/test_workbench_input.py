@@ -7,7 +7,7 @@ import json
 
 from streamlit.testing.v1 import AppTest
 
-from app.state import WORKDIR_ENV
+from obligor_memo.app.workbench.state import WORKDIR_ENV
 from workbench_support import WORKBENCH, _errors, _metric, _number, _open, _specs, app  # noqa: F401
 
 

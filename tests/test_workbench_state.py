@@ -12,9 +12,9 @@ import yaml
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from app import state
-from engine.case import parse_case
-from engine.errors import CaseError
+from obligor_memo.app.workbench import state
+from obligor_memo.engine.case import parse_case
+from obligor_memo.engine.errors import CaseError
 
 
 @pytest.fixture(scope="module")

@@ -9,7 +9,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from engine.zscore import VARIANT_NAMES, altman_scores, altman_zone
+from obligor_memo.engine.zscore import VARIANT_NAMES, altman_scores, altman_zone
 
 # An invented borrower's statements [currency]: not a real company.
 STATEMENTS = dict(

@@ -8,9 +8,9 @@ from pathlib import Path
 import pytest
 from streamlit.testing.v1 import AppTest
 
-from app.state import WORKDIR_ENV
+from obligor_memo.app.workbench.state import WORKDIR_ENV
 
-WORKBENCH = str(Path(__file__).resolve().parent.parent / "app" / "workbench.py")
+WORKBENCH = str(Path(__file__).resolve().parent.parent / "app" / "workbench" / "main.py")
 
 
 @pytest.fixture()
@@ -23,7 +23,7 @@ def app(tmp_path, monkeypatch):
 
 
 def _open(at: AppTest, page: str) -> AppTest:
-    at.switch_page(f"pages/{page}.py")
+    at.switch_page(f"steps/{page}.py")
     at.run()
     assert not at.exception, [e.value for e in at.exception]
     return at

@@ -20,8 +20,8 @@ from typing import Any
 import numpy as np
 import plotly.graph_objects as go
 
-from app.charts import COPPER, INK, MILLION, STEEL, _currency, _money_axis, layout_dict
-from app.formatting import millions, money, num, pct, pd_pct
+from obligor_memo.app.charts.style import COPPER, INK, MILLION, STEEL, currency, layout_dict, money_axis
+from obligor_memo.app.present.formatting import millions, money, num, pct, pd_pct
 
 MEASURES = ("el", "pd")
 # PDs below this are drawn in the lightest colour (log10 of 0 has no place on the scale); the
@@ -125,7 +125,7 @@ def sensitivity_figure(results: Any, *, measure: str = "el") -> go.Figure:
                    "name": f"Base {base_text}", "line": {"color": INK, "width": 2, "dash": "dash"},
                    "hoverinfo": "skip"})
     what = "Expected loss" if measure == "el" else "PD in force"
-    unit = ((_money_axis(results) if scale == MILLION else f"[{_currency(results)} k]") if measure == "el"
+    unit = ((money_axis(results) if scale == MILLION else f"[{currency(results)} k]") if measure == "el"
             else "[%]")
     title = f"One-way sensitivity of the {what.lower() if measure == 'el' else 'PD in force'}"
     if sens.pd_overridden:
@@ -149,7 +149,7 @@ def _value_text(value: float | None, measure: str, results: Any) -> str:
         return "not computed"
     if measure == "pd":
         return pd_pct(value)
-    return millions(value, _currency(results)) if abs(value) >= MILLION else money(value, _currency(results))
+    return millions(value, currency(results)) if abs(value) >= MILLION else money(value, currency(results))
 
 
 def _short(note: str, limit: int = 90) -> str:
@@ -206,7 +206,7 @@ def pd_grid_figure(results: Any) -> go.Figure:
     grid = getattr(results, "pd_grid", None)
     if grid is None:
         raise ValueError("results.pd_grid: got None; allowed: results of engine.analysis.analyse")
-    cur = _currency(results)
+    cur = currency(results)
     pd = np.array([[np.nan if v is None else v for v in row] for row in grid.pd], dtype=float)
     dd = np.array([[np.nan if v is None else v for v in row] for row in grid.distance_to_default],
                   dtype=float)
@@ -274,7 +274,7 @@ def scenarios_figure(results: Any) -> go.Figure:
     scenarios = getattr(results, "scenarios", None)
     if scenarios is None:
         raise ValueError("results.scenarios: got None; allowed: results of engine.analysis.analyse")
-    cur = _currency(results)
+    cur = currency(results)
     names = ["Base case"] + [s.name for s in scenarios]
     pds = [results.pd.pd] + [s.figures.pd for s in scenarios]
     els = [results.total.expected_loss / MILLION] + [s.figures.expected_loss / MILLION for s in scenarios]
@@ -296,7 +296,7 @@ def scenarios_figure(results: Any) -> go.Figure:
                        "hovertemplate": "%{y}: %{text}<extra>" + label + "</extra>"})
     layout = layout_dict(title="Scenarios against the base case", x_title="PD in force [%]", y_title="",
                          height=max(300, 150 + 48 * len(names)), legend_below=False)
-    layout.update(showlegend=False, xaxis2={**layout["xaxis"], "title": {"text": f"Expected loss {_money_axis(results)}"}})
+    layout.update(showlegend=False, xaxis2={**layout["xaxis"], "title": {"text": f"Expected loss {money_axis(results)}"}})
     layout["margin"].update(l=10, r=40, b=60)
     # Two panels side by side on one shared row axis; right-hand room for the value and delta
     # labels, which autorange does not count.

@@ -12,9 +12,9 @@ from typing import Any, Callable
 
 import streamlit as st
 
-from app import state
-from app.formatting import num
-from engine.errors import CaseError, Problem, show_value
+from obligor_memo.app.workbench import state
+from obligor_memo.app.present.formatting import num
+from obligor_memo.engine.errors import CaseError, Problem, show_value
 
 CAUTION = ("Model estimate for a qualified credit officer, not a credit decision. The "
            "institution's approved models, credit policy and local regulation prevail over "
@@ -28,7 +28,7 @@ CAUTION = ("Model estimate for a qualified credit officer, not a credit decision
 def _evaluate_canonical(canonical: str) -> Any:
     # Keyed on the canonical JSON of a validated case; Results is frozen, so one shared object
     # is safe and nothing is pickled.
-    from engine.evaluate import evaluate
+    from obligor_memo.engine.evaluate import evaluate
 
     case = state.check(json.loads(canonical)).case
     if case is None:
@@ -54,8 +54,8 @@ def evaluate_dict(data: dict[str, Any]) -> tuple[Any | None, tuple[Problem, ...]
 def _analyse_cached(key: str, _case: Any) -> Any:
     # ``key`` is the case's fingerprint (SHA-256 of its canonical JSON): the case itself is
     # not hashed by Streamlit, and Results is frozen, so sharing one object is safe.
-    from engine.analysis import analyse
-    from engine.evaluate import evaluate
+    from obligor_memo.engine.analysis import analyse
+    from obligor_memo.engine.evaluate import evaluate
 
     return analyse(_case, evaluate(_case))
 
@@ -63,7 +63,7 @@ def _analyse_cached(key: str, _case: Any) -> Any:
 def analysed(case: Any) -> Any:
     """engine.analysis.analyse of a validated case (sensitivity, PD grid, scenarios), cached by
     the case's fingerprint. Raises CaseError when a saved scenario does not validate."""
-    from engine.evaluate import fingerprint
+    from obligor_memo.engine.evaluate import fingerprint
 
     return _analyse_cached(fingerprint(case), case)
 

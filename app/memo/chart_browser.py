@@ -27,9 +27,10 @@ import threading
 import time
 from pathlib import Path
 from typing import Any
+from obligor_memo.app import settings
 
 BROWSER_CANDIDATES = ("/usr/bin/chromium", "/usr/bin/chromium-browser", "/usr/bin/google-chrome")
-TIMEOUT_VARIABLE = "OBLIGOR_MEMO_CHART_TIMEOUT"
+TIMEOUT_VARIABLE = settings.CHART_TIMEOUT
 DEFAULT_TIMEOUT_SECONDS = 30.0
 MAX_TIMEOUT_SECONDS = 600.0
 NO_CHART_FIX = ("install Chromium (for example 'apt-get install chromium'), or set BROWSER_PATH to "
@@ -49,8 +50,8 @@ def chart_timeout() -> float:
 
     From the environment variable OBLIGOR_MEMO_CHART_TIMEOUT when set, else 30 s.
     """
-    text = os.environ.get(TIMEOUT_VARIABLE)
-    if text is None or not text.strip():
+    text = settings.current().chart_timeout
+    if text is None:
         return DEFAULT_TIMEOUT_SECONDS
     try:
         value = float(text)
@@ -64,7 +65,7 @@ def chart_timeout() -> float:
 
 def find_browser() -> str:
     """BROWSER_PATH if set, else the first usual install path; raise naming the fix."""
-    chosen = os.environ.get("BROWSER_PATH")
+    chosen = settings.current().browser_path
     if chosen:
         if os.path.isfile(chosen) and os.access(chosen, os.X_OK):
             return chosen
@@ -123,7 +124,7 @@ def _browser_classes() -> tuple[type, type]:
     return PrintChromium, BatchKaleido
 
 
-PARTIAL_BUNDLE = Path(__file__).resolve().parent / "assets" / "plotly" / "plotly-cartesian.min.js"
+PARTIAL_BUNDLE = Path(__file__).resolve().parent.parent / "assets" / "plotly" / "plotly-cartesian.min.js"
 _VERSION = re.compile(rb"plotly\.js[^\n]*? v(\d+\.\d+\.\d+)")
 
 
@@ -220,7 +221,7 @@ class ChartExporter:
                     raise RuntimeError("the exporter was closed")
                 self._kaleido = opening.result(timeout=self.timeout)
             except BaseException as exc:
-                if _is_timeout(exc):
+                if is_timeout(exc):
                     reason = f"it did not answer within {self.timeout:g} s"
                     fix = f"on a busy machine raise {TIMEOUT_VARIABLE} (seconds); otherwise {NO_CHART_FIX}"
                 else:
@@ -273,7 +274,7 @@ class ChartExporter:
             except BaseException as exc:
                 future.cancel()
                 self.close(force=True)
-                if _is_timeout(exc):
+                if is_timeout(exc):
                     raise ChartsUnavailable(f"Chart export took longer than {self.timeout:g} s and "
                                             f"was stopped. Try again, raise {TIMEOUT_VARIABLE}, or "
                                             "print with --no-charts.") from None
@@ -339,7 +340,7 @@ def figure_size(fig: Any) -> tuple[int, int]:
     return int(getattr(fig, "_memo_width", 760)), int(fig.layout.height or 420)
 
 
-def _is_timeout(exc: BaseException) -> bool:
+def is_timeout(exc: BaseException) -> bool:
     import concurrent.futures
 
     return isinstance(exc, (TimeoutError, asyncio.TimeoutError, concurrent.futures.TimeoutError))

@@ -25,8 +25,9 @@ import tempfile
 import threading
 from dataclasses import dataclass
 from typing import Any, Sequence
+from obligor_memo.app import settings
 
-CONVERTER_VARIABLE = "OBLIGOR_MEMO_SVG_CONVERTER"
+CONVERTER_VARIABLE = settings.SVG_CONVERTER
 CONVERTER_NAME = "rsvg-convert"
 FIXED_EPOCH = "946684800"        # 2000-01-01T00:00:00Z, the memo's fixed PDF date
 CSS_PX_IN_PT = 0.75              # 1 CSS px = 1/96 in = 0.75 pt
@@ -40,7 +41,7 @@ class ChartPagesError(RuntimeError):
 def find_converter() -> str | None:
     """The SVG-to-PDF program: OBLIGOR_MEMO_SVG_CONVERTER (a path, or 'none' to use WeasyPrint),
     else ``rsvg-convert`` on the PATH, else None (WeasyPrint draws the pages)."""
-    chosen = os.environ.get(CONVERTER_VARIABLE, "").strip()
+    chosen = settings.current().svg_converter or ""
     if chosen.lower() == "none":
         return None
     if chosen:
@@ -115,7 +116,7 @@ def _with_weasyprint(svgs: Sequence[str]) -> bytes:
     from weasyprint import HTML
     from weasyprint.urls import URLFetcher, URLFetcherResponse
 
-    from app.memo import memo_fetcher
+    from obligor_memo.app.memo.fetch import memo_fetcher
 
     body = []
     for i, svg in enumerate(svgs):
@@ -165,13 +166,6 @@ def chart_placements(document: Any, anchors: Sequence[str]) -> list[Placement]:
                                           "(Page.anchors); obligor-memo needs WeasyPrint 70 or later")
                 found[name] = Placement(number, tuple(float(c) for c in corners), wanted[name])
     return list(found.values())
-
-
-def place_charts(memo_pdf: bytes, placements: Sequence[Placement], charts: bytes) -> bytes:
-    """The memo with each chart page drawn, as a vector form XObject, into its box."""
-    from app.memo_parts import LaidOut, assemble
-
-    return assemble([LaidOut(memo_pdf, 0, list(placements))], running=None, charts=charts)
 
 
 def as_form(pdf: Any, source_page: Any) -> Any:

@@ -14,12 +14,9 @@ import threading
 from dataclasses import dataclass
 from typing import Any, Callable
 
-from app.chart_browser import (BROWSER_CANDIDATES, MAX_TIMEOUT_SECONDS, NO_CHART_FIX,  # noqa: F401
-                               TIMEOUT_VARIABLE, ChartExporter, ChartsUnavailable, _DRAWING_FAILED,
-                               _is_timeout, chart_timeout, figure_size, find_browser,
-                               process_group_members, running_exporter, start_chart_exporter,
-                               stop_chart_exporter)
-from app.svg_slim import slim_svg
+from obligor_memo.app.memo.chart_browser import (ChartExporter, ChartsUnavailable, chart_timeout, is_timeout,
+                                                 running_exporter)
+from obligor_memo.app.memo.svg_slim import slim_svg
 
 PRINT_FONT = "DejaVu Sans"
 
@@ -47,7 +44,7 @@ def chart_specs(results: Any) -> list[ChartSpec]:
 
 def build_figures(results: Any) -> tuple[dict[str, Any], dict[str, str]]:
     """The workbench's figures for this memo, and a note for each one that cannot be built."""
-    from app import charts
+    from obligor_memo.app import charts
 
     figures: dict[str, Any] = {}
     notes: dict[str, str] = {}
@@ -178,7 +175,7 @@ class ChartJob:
         self._thread.start()
 
     def _draw(self, own: ChartExporter | None) -> None:
-        from app.chart_pages import ChartPagesError, charts_pdf
+        from obligor_memo.app.memo.chart_pages import ChartPagesError, charts_pdf
 
         try:
             svgs = export_figures(self.figures, exporter=own)
@@ -217,7 +214,7 @@ class ChartJob:
         except ChartsUnavailable:
             raise
         except BaseException as exc:
-            if _is_timeout(exc):
+            if is_timeout(exc):
                 raise ChartsUnavailable(f"Chart export did not finish within {3 * self._timeout + 30:g} s. "
                                         f"Try again, or print with --no-charts.") from None
             raise

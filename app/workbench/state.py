@@ -23,17 +23,18 @@ import tempfile
 import time
 import uuid
 from dataclasses import dataclass
+from importlib import resources
 from pathlib import Path
 from typing import Any
 
 import yaml
 
-from engine.case import Case, case_to_dict, parse_case
-from engine.errors import CaseError, Problem
+from obligor_memo.engine.case import Case, case_to_dict, parse_case
+from obligor_memo.engine.errors import CaseError, Problem
+from obligor_memo.app import settings
 
-ROOT = Path(__file__).resolve().parent.parent
-SAMPLE_PATH = ROOT / "sample_data" / "hollowmere.yaml"
-WORKDIR_ENV = "OBLIGOR_MEMO_WORKDIR"
+SAMPLE_PATH = Path(str(resources.files("obligor_memo.sample_data"))) / "hollowmere.yaml"
+WORKDIR_ENV = settings.WORKDIR
 AUTOSAVE_FORMAT = "obligor-memo autosave"
 AUTOSAVE_VERSION = 1
 _CASE_ID = re.compile(r"[0-9a-f]{32}")
@@ -42,8 +43,7 @@ _PATH_PART = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
 
 def default_workdir() -> Path:
     """The folder for autosaved cases: $OBLIGOR_MEMO_WORKDIR, else ~/.obligor-memo."""
-    configured = os.environ.get(WORKDIR_ENV)
-    return Path(configured).expanduser() if configured else Path.home() / ".obligor-memo"
+    return settings.current().workdir
 
 
 def new_case_id() -> str:
@@ -84,7 +84,7 @@ def plain(value: Any) -> Any:
 
 def sample_case_dict() -> dict[str, Any]:
     """The invented sample borrower as a case dict (statements inlined)."""
-    from engine.loading import load_case
+    from obligor_memo.engine.loading import load_case
 
     return case_to_dict(load_case(SAMPLE_PATH))
 
@@ -220,7 +220,7 @@ def case_file_text(data: dict[str, Any], fmt: str = "yaml") -> str:
 
 def case_dict_from_upload(data: bytes, name: str) -> dict[str, Any]:
     """A case file upload (YAML or JSON) as a validated case dict. Raises CaseError."""
-    from engine.loading import MAX_CASE_BYTES, load_case_text
+    from obligor_memo.engine.loading import MAX_CASE_BYTES, load_case_text
 
     if len(data) > MAX_CASE_BYTES:
         raise CaseError.single(f"case file {name}", f"{len(data):,} bytes",
@@ -238,6 +238,6 @@ def case_dict_from_upload(data: bytes, name: str) -> dict[str, Any]:
 
 def statements_from_upload(data: bytes, name: str) -> list[dict[str, Any]]:
     """Statement rows from an uploaded CSV/XLSX. Raises CaseError naming the bad cell."""
-    from engine.statements import read_statement_table
+    from obligor_memo.engine.statements import read_statement_table
 
     return plain(read_statement_table(data, name))

@@ -21,7 +21,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from app import formatting as fmt
+from obligor_memo.app.present import formatting as fmt
 
 CASE_FILE = "case.json"
 FIGURES_FILE = "printed-figures.json"
@@ -34,7 +34,7 @@ class MemoRecordError(ValueError):
 
 def canonical_case_json(results: Any) -> bytes:
     """The case exactly as fingerprinted (engine.evaluate.canonical_case_json)."""
-    from engine.evaluate import canonical_case_json as canonical
+    from obligor_memo.engine.evaluate import canonical_case_json as canonical
 
     return canonical(results.case)
 
@@ -194,9 +194,9 @@ def verify_memo(pdf: bytes) -> VerifyReport:
     Raises :class:`MemoRecordError` when the PDF carries no readable record, and
     :class:`engine.errors.CaseError` when the embedded case no longer validates.
     """
-    from engine import ENGINE_VERSION
-    from engine.case import parse_case
-    from engine.analysis import analyse
+    from obligor_memo.engine import ENGINE_VERSION
+    from obligor_memo.engine.case import parse_case
+    from obligor_memo.engine.analysis import analyse
 
     files = read_attachments(pdf)
     missing = [name for name in (CASE_FILE, FIGURES_FILE) if name not in files]

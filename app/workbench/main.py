@@ -9,15 +9,12 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-_ROOT = Path(__file__).resolve().parent.parent
-if str(_ROOT) not in sys.path:  # `streamlit run app/workbench.py` puts only app/ on the path
-    sys.path.insert(0, str(_ROOT))
 
 import streamlit as st  # noqa: E402
 
-from app.pages import _ui  # noqa: E402
+from obligor_memo.app.workbench import ui as _ui  # noqa: E402
 
-PAGES_DIR = Path(__file__).resolve().parent / "pages"
+PAGES_DIR = Path(__file__).resolve().parent / "steps"
 PAGES = (
     ("borrower.py", "Borrower and statements", ":material/domain:"),
     ("asset_pd.py", "Asset trend and PD", ":material/trending_up:"),
@@ -29,7 +26,7 @@ PAGES = (
 )
 
 st.set_page_config(page_title="obligor-memo workbench", page_icon=":material/balance:", layout="wide")
-css = Path(__file__).resolve().parent / "assets" / "workbench.css"
+css = Path(__file__).resolve().parent / "workbench.css"
 if css.is_file():
     st.markdown(f"<style>{css.read_text(encoding='utf-8')}</style>", unsafe_allow_html=True)
 

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import streamlit as st
 
-from app import charts
-from app.formatting import millions, num, pct, pd_pct, years
-from app.pages import _ui
+from obligor_memo.app import charts
+from obligor_memo.app.present.formatting import millions, num, pct, pd_pct, years
+from obligor_memo.app.workbench import ui as _ui
 
 results = _ui.header("Asset trend and PD",
                      "Judge the trend, set and defend the default point, read the PD and its grade.")

@@ -12,11 +12,11 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from app import charts
-from app.formatting import millions, money, num, pct, pd_pct
-from app.pages import _ui
-from engine.errors import CaseError
-from engine.scenarios import apply_overrides, headline_delta, headline_figures
+from obligor_memo.app import charts
+from obligor_memo.app.present.formatting import millions, money, num, pct, pd_pct
+from obligor_memo.app.workbench import ui as _ui
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.scenarios import apply_overrides, headline_delta, headline_figures
 
 base_results = _ui.header("What-if and scenarios",
                           "Move an assumption and see every number move; save what you want to keep "

@@ -5,9 +5,11 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from app import charts, state
-from app.formatting import millions, money, pct, pd_pct
-from app.pages import _ui
+from obligor_memo.app import charts
+
+from obligor_memo.app.workbench import state
+from obligor_memo.app.present.formatting import millions, money, pct, pd_pct
+from obligor_memo.app.workbench import ui as _ui
 
 results = _ui.header("Loss, capital and pricing",
                      "EL = EAD x PD x LGD; risk weights from the Basel IRB corporate formula; "

@@ -4,9 +4,11 @@ from __future__ import annotations
 
 import streamlit as st
 
-from app import charts, state
-from app.formatting import money, num, pct
-from app.pages import _ui
+from obligor_memo.app import charts
+
+from obligor_memo.app.workbench import state
+from obligor_memo.app.present.formatting import money, num, pct
+from obligor_memo.app.workbench import ui as _ui
 
 results = _ui.header("Recovery and LGD",
                      "Recovery rate as a beta law on [0, upper] fitted to its mean and std; "

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from app import formatting as fmt
+from obligor_memo.app.present import formatting as fmt
 
 
 def contract_json(results) -> dict[str, Any]:

@@ -12,9 +12,9 @@ import subprocess
 import sys
 from pathlib import Path
 
-from app.state import WORKDIR_ENV, default_workdir
+from obligor_memo.app.workbench.state import WORKDIR_ENV, default_workdir
 
-WORKBENCH = Path(__file__).resolve().parent / "workbench.py"
+WORKBENCH = Path(__file__).resolve().parent / "main.py"
 MAX_UPLOAD_MB = 2                  # Streamlit's unit is the megabyte
 
 
@@ -54,8 +54,7 @@ def serve(port: int = 8501, host: str = "127.0.0.1", workdir: Path | None = None
               "Use 127.0.0.1 unless you know the network is trusted.", file=sys.stderr)
     env = dict(os.environ, **{WORKDIR_ENV: str(folder)})
     env["STREAMLIT_BROWSER_GATHER_USAGE_STATS"] = "false"
-    root = str(WORKBENCH.parent.parent)
-    env["PYTHONPATH"] = root + (os.pathsep + env["PYTHONPATH"] if env.get("PYTHONPATH") else "")
+    root = str(WORKBENCH.parent)
     shown = "127.0.0.1" if host in ("0.0.0.0", "::") else host
     print(f"obligor-memo workbench on http://{shown}:{port} (opens on the sample borrower); "
           f"cases autosaved under {folder / 'cases'}. Stop with Ctrl+C.", flush=True)

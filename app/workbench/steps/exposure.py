@@ -5,9 +5,11 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from app import charts, state
-from app.formatting import money, pct
-from app.pages import _ui
+from obligor_memo.app import charts
+
+from obligor_memo.app.workbench import state
+from obligor_memo.app.present.formatting import money, pct
+from obligor_memo.app.workbench import ui as _ui
 
 KINDS = ["term_loan", "revolver", "bond", "guarantee", "letter_of_credit"]
 SENIORITIES = ["senior_secured", "senior_unsecured", "subordinated"]

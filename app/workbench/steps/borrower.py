@@ -5,10 +5,10 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from app import state
-from app.pages import _ui
-from engine.case import StatementRow
-from engine.errors import CaseError
+from obligor_memo.app.workbench import state
+from obligor_memo.app.workbench import ui as _ui
+from obligor_memo.engine.case import StatementRow
+from obligor_memo.engine.errors import CaseError
 
 COLUMNS = list(StatementRow.model_fields)
 REQUIRED = ("year", "total_assets", "short_term_liabilities", "long_term_liabilities")

@@ -9,15 +9,16 @@ from typing import Any
 
 import streamlit as st
 
-from app import state
-from app.pages import _ui
+from obligor_memo.app.workbench import state
+from obligor_memo.app.workbench import ui as _ui
+from obligor_memo.app import settings
 
-PRESTART_VARIABLE = "OBLIGOR_MEMO_CHART_PRESTART"
+PRESTART_VARIABLE = settings.CHART_PRESTART
 
 
 def _memo_module() -> Any | None:
     try:
-        return importlib.import_module("app.memo")
+        return importlib.import_module("obligor_memo.app.memo")
     except Exception:  # the renderer's own dependencies (WeasyPrint, kaleido) may be missing
         return None
 
@@ -31,7 +32,6 @@ def _chart_browser_started() -> bool:
     if memo_module is None:
         return False
     memo_module.start_chart_exporter(wait=False)
-    memo_module.start_layout_worker()
     return True
 
 
@@ -54,7 +54,7 @@ def _memo_print_panel(results: Any, stem: str) -> None:
     if memo_module is None or results is None:
         st.caption("The PDF memo appears here once the memo renderer is installed and the case is valid.")
         return
-    if os.environ.get(PRESTART_VARIABLE, "1") != "0":
+    if settings.current().chart_prestart:
         try:
             _chart_browser_started()
         except Exception:  # reported when the memo is printed, with the fix

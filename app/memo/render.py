@@ -1,0 +1,113 @@
+"""The printed credit memo: results -> HTML (Jinja2) -> PDF (WeasyPrint), charts as vector forms.
+
+The charts are the workbench's own plotly figures (:mod:`app.charts`), exported to SVG through
+kaleido and a system Chromium, made PDF pages and placed in their boxes after layout
+(:mod:`app.chart_pages`). Chromium starts once per memo (every figure goes through one session)
+or once per process when the workbench keeps :func:`start_chart_exporter` running.
+
+Safety: Jinja2 autoescapes and fails on any undefined name; WeasyPrint fetches nothing except
+the data: URIs this module generated and files inside the package's own asset folder.
+Reproducibility: PDF dates, identifiers and attachment dates are fixed; only the printed
+generation time (and the record that repeats it) differs between two runs on the same case.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from datetime import datetime, timezone
+from typing import Any
+
+from obligor_memo.app.memo import layout
+from obligor_memo.app.memo import record as pdfcase
+from obligor_memo.app.memo.chart_browser import ChartExporter, ChartsUnavailable, figure_size
+from obligor_memo.app.memo.chart_pages import ChartPagesError
+from obligor_memo.app.memo.fetch import CHART_SCHEME, memo_fetcher
+from obligor_memo.app.memo.figures import ChartJob, export_charts
+from obligor_memo.app.memo.templates import PAGE_SIZES
+from obligor_memo.app.memo.view import memo_html
+
+# Any fixed instant works; a PDF reader shows it as the document date, so it is stated plainly.
+FIXED_PDF_DATE = datetime(2000, 1, 1, tzinfo=timezone.utc)
+
+
+def render_memo_html(results: Any, *, charts: bool = True, page_size: str | None = None,
+                     generated_at: datetime | None = None) -> str:
+    """The memo's HTML with the charts inline as SVG data URIs (for reading or another renderer;
+    :func:`render_memo_pdf` references the charts instead and draws them while laying out)."""
+    svgs, notes = export_charts(results) if charts else ({}, {})
+    return memo_html(results, charts=svgs, notes=notes, charts_requested=charts,
+                 page_size=_page_size(results, page_size), stamp=_stamp(generated_at))
+
+
+def _stamp(generated_at: datetime | None) -> str:
+    stamp = (generated_at or datetime.now(timezone.utc)).astimezone(timezone.utc)
+    return stamp.strftime("%Y-%m-%d %H:%M:%S UTC")
+
+
+def _page_size(results: Any, page_size: str | None) -> str:
+    size = page_size or results.case.memo.page_size
+    if size not in PAGE_SIZES:
+        raise ValueError(f"page_size: got {size!r}; allowed: {', '.join(PAGE_SIZES)}")
+    return size
+
+
+
+def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
+                allowed_data_uris: set[str], url_fetcher: Any = None,
+                charts: ChartJob | None = None) -> bytes:
+    """Lay out and write the PDF, then put each chart in its place; a failed chart drawing
+    raises :class:`ChartsUnavailable`.
+
+    The layout never waits for the charts: ``<img src="memo-chart:N" id="memo-chart-N">`` is laid
+    out as an empty image of chart N's own size, and chart N's PDF page (drawn meanwhile from its
+    SVG, off this thread) is placed in that box after writing. The charts are vector forms, as
+    they would be had WeasyPrint drawn the SVG itself, which cost about 0.6 s of this thread's
+    time on the sample memo."""
+    from weasyprint import Attachment
+
+    sizes = [figure_size(fig) for fig in charts.figures.values()] if charts is not None else []
+    fetcher = url_fetcher or memo_fetcher(allowed_data_uris, sizes)
+    attachments = [
+        Attachment(string=pdfcase.canonical_case_json(results).decode("ascii"), name=pdfcase.CASE_FILE,
+                   description="The case this memo was computed from (canonical JSON)",
+                   created=FIXED_PDF_DATE, modified=FIXED_PDF_DATE, url_fetcher=fetcher),
+        Attachment(string=pdfcase.figures_record(results, generated_at=generated_at).decode("ascii"),
+                   name=pdfcase.FIGURES_FILE, description="Figures as printed, for obligor-memo verify",
+                   created=FIXED_PDF_DATE, modified=FIXED_PDF_DATE, url_fetcher=fetcher),
+    ]
+    identifier = hashlib.sha256(results.fingerprint.encode("ascii")).hexdigest()[:32].encode("ascii")
+    laid_out = layout.lay_out(html, chart_sizes=sizes, page_size=page_size, fetcher=fetcher,
+                              write_options={"attachments": attachments, "pdf_identifier": identifier})
+    if charts is None or not laid_out.placements:
+        return laid_out.pdf
+    pages = charts.pages()          # waits for the drawings; raises why not
+    try:
+        return layout.place_charts(laid_out, pages)
+    except ChartPagesError as exc:
+        raise ChartsUnavailable(f"The charts could not be placed in the memo ({exc}). "
+                                "Try again, or print with --no-charts.") from None
+
+def render_memo_pdf(results: Any, *, charts: bool = True, page_size: str | None = None,
+                    generated_at: datetime | None = None, exporter: ChartExporter | None = None) -> bytes:
+    """The memo as PDF bytes. Raises :class:`ChartsUnavailable` (naming the fix) when charts are
+    asked for and no browser can draw them; ``charts=False`` prints a note in each chart's place.
+    ``exporter``: a browser started for this memo alone, closed once its charts are drawn.
+
+    The charts are drawn by the browser, and made into PDF pages, while this thread writes the
+    HTML and WeasyPrint lays it out and writes it; they are then placed in their boxes.
+    """
+    size = _page_size(results, page_size)
+    stamp = _stamp(generated_at)
+    with layout.objects_set_aside():       # plotly's figure building makes many objects too
+        job = ChartJob(results, exporter=exporter) if charts else None
+    try:
+        placeholders = {key: f"{CHART_SCHEME}{i}" for i, key in enumerate(job.figures)} if job else {}
+        html = memo_html(results, charts=placeholders, notes=job.notes if job else {},
+                     charts_requested=charts, page_size=size, stamp=stamp)
+        return html_to_pdf(html, results=results, page_size=size, generated_at=stamp,
+                           allowed_data_uris=set(), charts=job)
+    finally:
+        if job is not None:
+            job.finish()     # the browser this memo started is closed before returning
+        elif exporter is not None:
+            exporter.close()

@@ -1,0 +1,89 @@
+"""Results -> everything the memo's template prints, and the memo's HTML."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from obligor_memo.app.memo import record as pdfcase
+from obligor_memo.app.memo.fetch import CHART_ANCHOR, CHART_SCHEME
+from obligor_memo.app.memo.templates import environment
+from obligor_memo.app.present import formatting as fmt
+
+def _grid_view(grid: Any, points: int = 7) -> dict[str, Any] | None:
+    """A readable excerpt of the two-way PD grid: evenly spaced rows and columns, the case's own
+    point always among them (the chart shows the whole grid)."""
+    if grid is None:
+        return None
+
+    def pick(values: tuple[float, ...], base: float) -> list[int]:
+        n = len(values)
+        chosen = {round(i * (n - 1) / (points - 1)) for i in range(points)} if n > points else set(range(n))
+        chosen.add(min(range(n), key=lambda i: abs(values[i] - base)))
+        return sorted(chosen)
+
+    xs, ys = pick(grid.x_values, grid.base_x), pick(grid.y_values, grid.base_y)
+    base_i = min(range(len(grid.x_values)), key=lambda i: abs(grid.x_values[i] - grid.base_x))
+    base_j = min(range(len(grid.y_values)), key=lambda j: abs(grid.y_values[j] - grid.base_y))
+    return {"x": [(grid.x_values[i], i == base_i) for i in xs],
+            "rows": [(grid.y_values[j], j == base_j, [(grid.pd[j][i], i == base_i and j == base_j) for i in xs])
+                     for j in ys]}
+
+
+def inputs_yaml(case_data: dict[str, Any]) -> str:
+    """The case's inputs as YAML, statements excepted (the appendix prints them as a table).
+
+    Exactly the inputs: ``yaml.safe_load`` of this text gives back the same values. A narrow
+    line width keeps it readable in two columns; long text wraps as YAML allows (still the same
+    value when read back).
+    """
+    import yaml
+
+    rest = {key: value for key, value in case_data.items() if key != "statements"}
+    return yaml.safe_dump(rest, sort_keys=False, allow_unicode=True, default_flow_style=False,
+                          width=56, indent=2)
+
+
+def short_fingerprint(results: Any) -> str:
+    """The inputs' fingerprint as the running footer and the summary page print it."""
+    return results.fingerprint[:16]
+
+
+def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, str],
+               charts_requested: bool, generated_at: str, page_size: str) -> dict[str, Any]:
+    """Everything the template prints; small display values only, the engine computes the rest."""
+    from obligor_memo.engine.case import case_to_dict
+
+    case = results.case
+    pricing = results.pricing
+    spread_note = None
+    if pricing is not None:
+        gap = pricing.spread_shortfall
+        spread_note = (f"the proposed spread exceeds the minimum by {fmt.pct(-gap)}" if gap <= 0 else
+                       f"the proposed spread falls short of the minimum by {fmt.pct(gap)}")
+    case_data = case_to_dict(case)
+    statement_keys = [k for k in case_data["statements"][0] if k != "year"]
+    window = results.trend.window_years if results.trend is not None else None
+    return {
+        "r": results, "case": case, "memo": case.memo, "cur": case.borrower.currency,
+        "figures": pdfcase.printed_figures(results), "market": getattr(results, "market", None),
+        "sensitivity": getattr(results, "sensitivity", None), "scenarios": getattr(results, "scenarios", None),
+        "pd_grid": getattr(results, "pd_grid", None), "grid": _grid_view(getattr(results, "pd_grid", None)),
+        "zscores": getattr(results, "zscores", ()), "zscore_history": getattr(results, "zscore_history", ()),
+        "master_scale_source": getattr(results, "master_scale_source", ""),
+        "charts": charts, "chart_notes": chart_notes, "charts_requested": charts_requested,
+        "chart_ids": {key: CHART_ANCHOR.format(src[len(CHART_SCHEME):]) for key, src in charts.items()
+                      if src.startswith(CHART_SCHEME)},
+        "spread_note": spread_note, "generated_at": generated_at, "page_size": page_size,
+        "statement_keys": statement_keys, "statement_rows": case_data["statements"],
+        "inputs_yaml": inputs_yaml(case_data), "window_years": window,
+        "fingerprint_short": short_fingerprint(results),
+        "author": case.memo.prepared_by or "obligor-memo",
+    }
+
+
+
+def memo_html(results: Any, *, charts: dict[str, str], notes: dict[str, str], charts_requested: bool,
+              page_size: str, stamp: str) -> str:
+    view = build_view(results, charts=charts, chart_notes=notes, charts_requested=charts_requested,
+                      generated_at=stamp, page_size=page_size)
+    return environment().get_template("memo.html").render(**view)
