@@ -167,9 +167,9 @@ def master_scale_from_rows(rows: Sequence[Mapping[str, object]]) -> MasterScale:
         upper = row["pd_upper"]
         if isinstance(upper, bool) or not isinstance(upper, numbers.Real):
             raise ValueError(f"{where}.pd_upper = {upper!r}: it must be a number in (0, 1]")
+        upper = float(upper)
         if not (math.isfinite(upper) and 0.0 < upper <= 1.0):
             raise ValueError(f"{where}.pd_upper = {upper!r}: it must lie in (0, 1]")
-        upper = float(upper)
         if upper in uppers:
             raise ValueError(
                 f"{where}.pd_upper = {upper!r} repeats rows[{uppers[upper]}].pd_upper; "

@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Literal
+from typing import Literal, TypeVar
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -95,7 +95,10 @@ def _checked(name: str, value: ArrayLike) -> FloatArray:
     return values
 
 
-def _frozen(values: FloatArray | NDArray[np.generic]) -> NDArray[np.generic]:
+_Scalar = TypeVar("_Scalar", bound=np.generic)
+
+
+def _frozen(values: NDArray[_Scalar]) -> NDArray[_Scalar]:
     values = np.array(values)  # own copy, so read-only cannot leak to the caller's array
     values.setflags(write=False)
     return values
@@ -373,8 +376,9 @@ def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
         raise ValueError(f"invalid={invalid!r} is not allowed; allowed: 'raise' or 'flag'")
     names = ["equity_value", "equity_volatility", "default_point", "risk_free_rate",
              "horizon_years"] + ([] if asset_drift is None else ["asset_drift"])
-    given = [equity_value, equity_volatility, default_point, risk_free_rate, horizon_years,
-             asset_drift]
+    given: list[ArrayLike] = [equity_value, equity_volatility, default_point, risk_free_rate, horizon_years]
+    if asset_drift is not None:
+        given.append(asset_drift)
     raw = [_as_float_array(name, value) for name, value in zip(names, given)]
     try:
         broadcast = np.broadcast_arrays(*raw)
@@ -430,7 +434,7 @@ def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
     dd = d2 if asset_drift is None else (
         np.log(V / D) + (flat[5] - 0.5 * s * s) * T) / (s * np.sqrt(T))
 
-    def shaped(values: NDArray[np.generic]) -> NDArray[np.generic]:
+    def shaped(values: NDArray[_Scalar]) -> NDArray[_Scalar]:
         return _frozen(values.reshape(shape))
 
     return MertonBatch(
@@ -465,14 +469,20 @@ def solve_merton(*, equity_value: float, equity_volatility: float, default_point
         if value is not None and np.ndim(value) != 0:
             raise ValueError(f"{name}: got an array of shape {np.shape(value)}; allowed: a single "
                              f"number ({_LIMITS[name][4]}); use solve_merton_many for arrays")
-    batch = solve_merton_many(**given, invalid="raise")
+    batch = solve_merton_many(equity_value=equity_value, equity_volatility=equity_volatility,
+                              default_point=default_point, risk_free_rate=risk_free_rate,
+                              horizon_years=horizon_years, asset_drift=asset_drift, invalid="raise")
     if not batch.converged:
         raise ValueError(batch.failures[0][1])
-    numbers = {name: float(getattr(batch, name)) for name in (
-        "asset_value", "asset_volatility", "d1", "d2", "distance_to_default", "pd", "leverage",
-        "residual", "equity_value", "equity_volatility", "default_point", "risk_free_rate",
-        "horizon_years")}
+    def number(name: str) -> float:
+        return float(getattr(batch, name))
+
     return MertonSolution(
-        **numbers, iterations=int(batch.iterations),
+        asset_value=number("asset_value"), asset_volatility=number("asset_volatility"), d1=number("d1"),
+        d2=number("d2"), distance_to_default=number("distance_to_default"), pd=number("pd"),
+        leverage=number("leverage"), residual=number("residual"), equity_value=number("equity_value"),
+        equity_volatility=number("equity_volatility"), default_point=number("default_point"),
+        risk_free_rate=number("risk_free_rate"), horizon_years=number("horizon_years"),
+        iterations=int(batch.iterations),
         solver="bracketed" if batch.used_fallback else "newton",
         asset_drift=None if asset_drift is None else float(asset_drift), measure=batch.measure)

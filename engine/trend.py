@@ -139,7 +139,11 @@ def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years
                                     "pd.window_years"))
             break
     growth = growth_override if growth_override is not None else log_fit.slope
-    vol = volatility_override if volatility_override is not None else float(vol_estimate)
+    if volatility_override is not None:
+        vol = volatility_override
+    else:
+        assert vol_estimate is not None      # refused above when neither is there
+        vol = float(vol_estimate)
     return AssetTrend(
         years=tuple(int(v) for v in y), total_assets=tuple(float(v) for v in a), window_years=len(y),
         log_fit=log_fit, level_fit=level_fit, log_changes=tuple(float(c) for c in changes),

@@ -230,15 +230,19 @@ def _score_variant(variant: _Variant, columns: Mapping[str, float | None]) -> ZS
     for ratio, _ in variant.coefficients:
         numerator, denominator = definitions[ratio]
         ratio_definitions[ratio] = f"{numerator} / {denominator}"
-        absent = [c for c in (numerator, denominator) if columns[c] is None]
-        missing.extend(c for c in absent if c not in missing)
-        components[ratio] = None if absent else _ratio(columns[numerator], columns[denominator])
+        top, bottom = columns[numerator], columns[denominator]
+        if top is None or bottom is None:
+            missing.extend(c for c in (numerator, denominator) if columns[c] is None and c not in missing)
+            components[ratio] = None
+        else:
+            components[ratio] = _ratio(top, bottom)
     coefficients = dict(variant.coefficients)
     score: float | None = None
     zone: Zone | None = None
-    if not missing and all(math.isfinite(components[r]) for r in coefficients):
+    present = {r: v for r, v in components.items() if v is not None}
+    if not missing and all(math.isfinite(present[r]) for r in coefficients):
         try:
-            score = math.fsum(coefficients[r] * components[r] for r in coefficients)
+            score = math.fsum(coefficients[r] * present[r] for r in coefficients)
         except OverflowError:  # finite terms whose sum is not: no meaningful score
             score = None
         if score is not None and math.isfinite(score):

@@ -120,7 +120,7 @@ def _browser_classes() -> tuple[type, type]:
             await self.tabs_ready.put(tab)
 
     if not hasattr(Kaleido, "_return_kaleido_tab"):
-        BatchKaleido = Kaleido    # another kaleido version: keep its own, slower, behaviour
+        return PrintChromium, Kaleido    # another kaleido version: keep its own, slower, behaviour
     return PrintChromium, BatchKaleido
 
 

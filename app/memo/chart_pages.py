@@ -164,7 +164,8 @@ def chart_placements(document: Any, anchors: Sequence[str]) -> list[Placement]:
                 if len(corners) != 4:
                     raise ChartPagesError("this WeasyPrint version does not report box sizes "
                                           "(Page.anchors); obligor-memo needs WeasyPrint 70 or later")
-                found[name] = Placement(number, tuple(float(c) for c in corners), wanted[name])
+                left, top, right, bottom = (float(c) for c in corners)
+                found[name] = Placement(number, (left, top, right, bottom), wanted[name])
     return list(found.values())
 
 
