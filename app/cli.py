@@ -7,13 +7,15 @@ field, the value and what is allowed; never a traceback.
 
 from __future__ import annotations
 
+import logging
 import json
-import os
 import sys
 from pathlib import Path
 
 import click
 from obligor_memo.app import settings
+
+log = logging.getLogger(__name__)
 
 EXIT_USER_ERROR = 2
 EXIT_INTERNAL = 3
@@ -43,6 +45,7 @@ def _guard(func):
         except Exception as exc:  # an engine bug: short report; traceback only on request
             if settings.current().debug:
                 raise
+            log.debug("internal error", exc_info=True)
             _fail(f"obligor-memo hit an internal error ({type(exc).__name__}: {exc}). This is a "
                   "bug, not a problem with your input; set OBLIGOR_MEMO_DEBUG=1 to see the details "
                   "and report them.", EXIT_INTERNAL)

@@ -76,6 +76,26 @@ class CaseError(ValueError):
         return tuple(p.field for p in self.problems)
 
 
+class InputError(ValueError):
+    """One bad input found by an engine step: the field, the value given and what is allowed.
+
+    Every step raises this (not a bare ValueError) for a bad input, so a front end turns it into
+    a :class:`Problem` by reading its attributes, never by parsing its text. ``str()`` is the
+    same one-line sentence as :meth:`Problem.sentence` without the final stop.
+    """
+
+    def __init__(self, field: str, value: Any, allowed: str):
+        self.field = field
+        self.value = value
+        self.allowed = allowed
+        super().__init__(f"{field}: got {value if isinstance(value, str) else show_value(value)}; "
+                         f"allowed: {allowed}")
+
+    @property
+    def problem(self) -> Problem:
+        return Problem(self.field, self.value, self.allowed)
+
+
 @dataclass(frozen=True)
 class Caution:
     """Something the reader should know about a result; not an error.

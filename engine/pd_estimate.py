@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass, replace
 
 from obligor_memo.engine.case import Case
-from obligor_memo.engine.errors import CaseError, Caution
+from obligor_memo.engine.errors import CaseError, Caution, InputError
 from obligor_memo.engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
 from obligor_memo.engine.market import MertonSolution, solve_merton
 from obligor_memo.engine.naive_dd import NaiveDD, naive_distance_to_default
@@ -57,19 +57,12 @@ class MarketResult:
 
 
 def engine_error(field: str, exc: ValueError) -> CaseError:
-    """A step's ValueError ("path: got V; allowed: A") as a CaseError on that path (else ``field``)."""
-    text = str(exc)
-    head, _, rest = text.partition(": ")
-    if rest and " " not in head:
-        field, text = head, rest
-    value, allowed = "", text
-    if text.startswith("got "):
-        value_part, _, allowed_part = text[4:].partition("; allowed: ")
-        value = value_part.split(" as the ")[0].split(" (")[0]
-        allowed = allowed_part or text
-    elif "allowed: " in text:
-        allowed = text.split("allowed: ", 1)[1]
-    return CaseError.single(field, value, allowed)
+    """A step's error as a CaseError: an :class:`InputError` keeps its own field, value and
+    allowed text; any other ValueError (a step's internal limit) is reported on ``field`` with
+    its message as what is allowed."""
+    if isinstance(exc, InputError):
+        return CaseError([exc.problem])
+    return CaseError.single(field, "", str(exc))
 
 
 def estimate_pd(case: Case, *, cross_check: bool = True

@@ -18,13 +18,15 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import ndtr
 
+from obligor_memo.engine.errors import InputError
+
 
 def default_point(*, short_term_liabilities: float, long_term_liabilities: float,
                   short_term_share: float = 1.0, long_term_share: float = 0.5) -> float:
     """DP = a x STL + b x LTL [currency] (common practice: a = 1, b = 0.5)."""
     for name, value in (("short_term_share", short_term_share), ("long_term_share", long_term_share)):
         if not (0 <= value <= 1):
-            raise ValueError(f"pd.default_point.{name}: got {value!r}; allowed: a number from 0 to 1")
+            raise InputError(f"pd.default_point.{name}", value, "a number from 0 to 1")
     return short_term_share * short_term_liabilities + long_term_share * long_term_liabilities
 
 
@@ -80,8 +82,7 @@ def balance_sheet_pd(*, asset_value: float, asset_growth: float, asset_volatilit
                        long_term_liabilities=long_term_liabilities,
                        short_term_share=short_term_share, long_term_share=long_term_share)
     if dp <= 0:
-        raise ValueError(f"pd.default_point: got {dp!r}; allowed: shares and liabilities giving a "
-                         "default point above 0")
+        raise InputError("pd.default_point", dp, "shares and liabilities giving a default point above 0")
     mu = asset_growth + asset_volatility**2 / 2
     dd = distance_to_default(asset_value=asset_value, default_point=dp, asset_return=mu,
                              asset_volatility=asset_volatility, horizon_years=horizon_years)

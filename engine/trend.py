@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from obligor_memo.engine.errors import Caution
+from obligor_memo.engine.errors import Caution, InputError
 
 
 @dataclass(frozen=True)
@@ -36,11 +36,11 @@ def least_squares_line(years: np.ndarray, values: np.ndarray) -> LinearFit:
     x = np.asarray(years, dtype=float)
     y = np.asarray(values, dtype=float)
     if x.size < 2:
-        raise ValueError(f"years: got {x.size} point(s); allowed: at least 2 to fit a line")
+        raise InputError("years", f"{x.size} point(s)", "at least 2 to fit a line")
     xc = x - x.mean()
     sxx = float(xc @ xc)
     if sxx == 0:
-        raise ValueError("years: all equal; allowed: at least two distinct years")
+        raise InputError("years", "all equal", "at least two distinct years")
     slope = float(xc @ (y - y.mean())) / sxx
     intercept = float(y.mean() - slope * x.mean())
     residual = y - (intercept + slope * x)
@@ -59,8 +59,8 @@ def annual_log_changes(years: np.ndarray, values: np.ndarray) -> np.ndarray:
 def sample_volatility(changes: np.ndarray) -> float:
     """Sample standard deviation with n - 1 in the denominator (numpy ddof=1)."""
     if changes.size < 2:
-        raise ValueError(f"annual log changes: got {changes.size}; allowed: at least 2 "
-                         "(three years of statements) to estimate a volatility")
+        raise InputError("annual log changes", changes.size,
+                         "at least 2 (three years of statements) to estimate a volatility")
     return float(np.std(changes, ddof=1))
 
 
@@ -102,8 +102,8 @@ def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years
         y, a = y[-window_years:], a[-window_years:]
     cautions: list[Caution] = []
     if len(y) < 2 and growth_override is None:
-        raise ValueError(f"statements: got {len(y)} year(s) in the window; allowed: at least 2 to "
-                         "estimate asset growth, or set pd.asset_growth")
+        raise InputError("statements", f"{len(y)} year(s) in the window",
+                         "at least 2 to estimate asset growth, or set pd.asset_growth")
     if len(y) >= 2:
         log_fit = least_squares_line(y, np.log(a))
         level_fit = least_squares_line(y, a)
@@ -117,19 +117,19 @@ def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years
                                 "changes across a gap are scaled by 1/sqrt(gap).", "statements"))
     vol_estimate = sample_volatility(changes) if changes.size >= 2 else None
     if vol_estimate is None and volatility_override is None:
-        raise ValueError(f"statements: got {len(y)} year(s) in the window; allowed: at least 3 to "
-                         "estimate asset volatility, or set pd.asset_volatility")
+        raise InputError("statements", f"{len(y)} year(s) in the window",
+                         "at least 3 to estimate asset volatility, or set pd.asset_volatility")
     if len(y) < 5:
         cautions.append(Caution("trend.short_history",
                                 f"Only {len(y)} years in the window: growth and volatility estimates "
                                 "from so short a history are very uncertain.", "pd.window_years"))
     if vol_estimate is not None and vol_estimate == 0 and volatility_override is None:
-        raise ValueError("pd.asset_volatility: got 0.0 as the estimate (total assets changed by the "
-                         "same log amount every year); allowed: a volatility above 0: set "
-                         "pd.asset_volatility")
+        raise InputError("pd.asset_volatility", 0.0,
+                         "a volatility above 0 (the estimate is 0: total assets changed by the same "
+                         "log amount every year): set pd.asset_volatility")
     if vol_estimate is not None and vol_estimate > 3 and volatility_override is None:
-        raise ValueError(f"pd.asset_volatility: got {vol_estimate:.4g} as the estimate from the "
-                         "statements; allowed: an estimate up to 3 (300 % a year); swings this wide "
+        raise InputError("pd.asset_volatility", round(vol_estimate, 4),
+                         "an estimate from the statements up to 3 (300 % a year); swings this wide "
                          "make the structural model meaningless: review the statements or set "
                          "pd.asset_volatility")
     for fit, label in ((log_fit, "log-linear"), (level_fit, "straight-line")):

@@ -18,6 +18,7 @@ Speed and memory choices, each measured on the sample memo (12 charts, 2 cores):
 
 from __future__ import annotations
 
+import logging
 import asyncio
 import atexit
 import os
@@ -28,6 +29,8 @@ import time
 from pathlib import Path
 from typing import Any
 from obligor_memo.app import settings
+
+log = logging.getLogger(__name__)
 
 BROWSER_CANDIDATES = ("/usr/bin/chromium", "/usr/bin/chromium-browser", "/usr/bin/google-chrome")
 TIMEOUT_VARIABLE = settings.CHART_TIMEOUT
@@ -100,8 +103,8 @@ def _kill_group(group: int | None) -> None:
         return
     try:
         os.killpg(group, signal.SIGKILL)
-    except (ProcessLookupError, PermissionError):
-        pass
+    except (ProcessLookupError, PermissionError) as exc:   # already gone, or not ours to kill
+        log.debug("browser process group %s not killed: %s", group, exc)
 
 
 def _browser_classes() -> tuple[type, type]:
@@ -294,7 +297,7 @@ class ChartExporter:
                 for tab in tabs:
                     await kaleido.tabs_ready.put(tab)
         except Exception:  # a stale page still draws; the next failure is reported by export_svg
-            pass
+            log.warning("reloading the chart pages failed", exc_info=True)
 
     def close(self, *, force: bool = False) -> None:
         """Close the browser and stop the thread. ``force`` kills the browser's process group
@@ -310,8 +313,8 @@ class ChartExporter:
                     # Tidies the pipes and temporary folders; quick when the browser is dead.
                     asyncio.run_coroutine_threadsafe(browser.close(), loop).result(
                         timeout=1 if force else 10)
-                except BaseException:
-                    pass
+                except BaseException:   # closing must go on: the group is killed next
+                    log.debug("the chart browser did not close cleanly", exc_info=True)
             _kill_group(group)       # whatever still runs in the browser's group
             if loop is not None:
                 async def _cancel_rest() -> None:
@@ -322,8 +325,8 @@ class ChartExporter:
 
                 try:
                     asyncio.run_coroutine_threadsafe(_cancel_rest(), loop).result(timeout=2)
-                except BaseException:
-                    pass
+                except BaseException:   # the loop is stopped next in any case
+                    log.debug("the chart browser's tasks did not cancel in time", exc_info=True)
                 loop.call_soon_threadsafe(loop.stop)
                 if self._thread is not None:
                     self._thread.join(timeout=5)

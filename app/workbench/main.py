@@ -6,13 +6,15 @@ autosaved under the working folder; the case id sits in the URL so a refresh fin
 
 from __future__ import annotations
 
-import sys
+import logging
 from pathlib import Path
 
 
 import streamlit as st  # noqa: E402
 
 from obligor_memo.app.workbench import ui as _ui  # noqa: E402
+
+log = logging.getLogger(__name__)
 
 PAGES_DIR = Path(__file__).resolve().parent / "steps"
 PAGES = (
@@ -33,6 +35,7 @@ if css.is_file():
 try:
     _ui.ensure_session()
 except Exception as exc:  # nothing but a plain message may reach the screen
+    log.exception("the workbench session could not start")
     st.error(f"The workbench could not start this session ({type(exc).__name__}: {exc}).")
     st.stop()
 
@@ -61,5 +64,6 @@ try:
 except st.errors.StreamlitAPIException:
     raise
 except Exception as exc:  # a page bug: say so plainly, keep the case
+    log.exception("page %s failed", getattr(page, "title", "?"))
     st.error(f"This page hit an internal error ({type(exc).__name__}: {exc}). Your case is saved; "
              "other pages keep working.")

@@ -14,6 +14,7 @@ No Streamlit here, so the rules are testable on their own:
 
 from __future__ import annotations
 
+import logging
 import copy
 import json
 import math
@@ -32,6 +33,8 @@ import yaml
 from obligor_memo.engine.case import Case, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError, Problem
 from obligor_memo.app import settings
+
+log = logging.getLogger(__name__)
 
 SAMPLE_PATH = Path(str(resources.files("obligor_memo.sample_data"))) / "hollowmere.yaml"
 WORKDIR_ENV = settings.WORKDIR
@@ -168,8 +171,8 @@ def _atomic_write(path: Path, text: str) -> None:
     except BaseException:
         try:
             os.unlink(temp)
-        except OSError:
-            pass
+        except OSError:         # the write's own error is the one to report
+            log.warning("could not remove the temporary file %s", temp, exc_info=True)
         raise
 
 

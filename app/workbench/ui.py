@@ -7,6 +7,7 @@ raw dict even when it does not validate, evaluates the last valid case and autos
 
 from __future__ import annotations
 
+import logging
 import json
 from typing import Any, Callable
 
@@ -15,6 +16,8 @@ import streamlit as st
 from obligor_memo.app.workbench import state
 from obligor_memo.app.present.formatting import num
 from obligor_memo.engine.errors import CaseError, Problem, show_value
+
+log = logging.getLogger(__name__)
 
 CAUTION = ("Model estimate for a qualified credit officer, not a credit decision. The "
            "institution's approved models, credit policy and local regulation prevail over "
@@ -47,6 +50,7 @@ def evaluate_dict(data: dict[str, Any]) -> tuple[Any | None, tuple[Problem, ...]
     except CaseError as exc:
         return None, exc.problems, None
     except Exception as exc:  # an engine bug must not reach the screen as a traceback
+        log.exception("evaluation failed")
         return None, (), f"{type(exc).__name__}: {exc}"
 
 

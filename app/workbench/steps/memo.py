@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
+import logging
 import importlib
-import os
 import re
 from typing import Any
 
@@ -13,6 +13,8 @@ from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench import ui as _ui
 from obligor_memo.app import settings
 
+log = logging.getLogger(__name__)
+
 PRESTART_VARIABLE = settings.CHART_PRESTART
 
 
@@ -20,6 +22,7 @@ def _memo_module() -> Any | None:
     try:
         return importlib.import_module("obligor_memo.app.memo")
     except Exception:  # the renderer's own dependencies (WeasyPrint, kaleido) may be missing
+        log.warning("the memo renderer could not be loaded", exc_info=True)
         return None
 
 
@@ -58,7 +61,7 @@ def _memo_print_panel(results: Any, stem: str) -> None:
         try:
             _chart_browser_started()
         except Exception:  # reported when the memo is printed, with the fix
-            pass
+            log.info("the chart browser did not start ahead of printing", exc_info=True)
     if st.button("Print the memo (PDF)", icon=":material/picture_as_pdf:", key="memo_print"):
         _print(memo_module, results, charts=True)
     if ss.get("memo_chart_problem"):

@@ -9,6 +9,7 @@ formats.
 
 from __future__ import annotations
 
+import logging
 import pandas as pd
 import streamlit as st
 
@@ -17,6 +18,8 @@ from obligor_memo.app.present.formatting import millions, money, num, pct, pd_pc
 from obligor_memo.app.workbench import ui as _ui
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.scenarios import apply_overrides, headline_delta, headline_figures
+
+log = logging.getLogger(__name__)
 
 base_results = _ui.header("What-if and scenarios",
                           "Move an assumption and see every number move; save what you want to keep "
@@ -122,6 +125,7 @@ except CaseError as exc:
     for problem in exc.problems:
         st.error(_ui.problem_text(problem) + " The figures below are the base case's.", icon=":material/error:")
 except Exception as exc:  # an engine bug must not reach the screen as a traceback
+    log.exception("the what-if analysis failed")
     st.error(f"The engine could not compute this what-if (internal error: {type(exc).__name__}: {exc}).")
 
 base_head = headline_figures(base_results)
