@@ -16,6 +16,9 @@ from pydantic import BaseModel, ValidationError
 
 from obligor_memo.engine.errors import Problem
 
+MAX_UNKNOWN_KEYS_SHOWN = 10   # unknown keys named one by one; the rest are counted
+MAX_SUGGESTED_KEY = 60        # longer unknown keys get no nearest-key suggestion
+
 
 class FieldError(ValueError):
     """Raised inside validators: a sub-field path relative to the model being validated."""
@@ -77,7 +80,9 @@ def _allowed_for(root: type[BaseModel], error: dict[str, Any]) -> str:
     if kind == "extra_forbidden":
         owner = _model_at(root, tuple(error["loc"]))
         keys = sorted(owner.model_fields) if owner else []
-        near = difflib.get_close_matches(str(error["loc"][-1]), keys, n=1, cutoff=0.6)
+        key = str(error["loc"][-1])
+        # difflib is quadratic in the key's length: a suggestion only for key-sized text.
+        near = difflib.get_close_matches(key, keys, n=1, cutoff=0.6) if len(key) <= MAX_SUGGESTED_KEY else []
         hint = f" (did you mean '{near[0]}'?)" if near else ""
         return f"no such key{hint}; the keys allowed here are {', '.join(keys)}"
     if kind == "missing":
@@ -98,10 +103,14 @@ def _allowed_for(root: type[BaseModel], error: dict[str, Any]) -> str:
         return "one of " + str(ctx.get("expected", ""))
     if kind == "string_pattern_mismatch":
         return "a three-letter ISO 4217 code in capitals, e.g. EUR, USD, CHF"
-    if kind in ("string_too_short", "too_short"):
-        return f"at least {ctx.get('min_length', 1)} item(s)/character(s)"
-    if kind in ("string_too_long", "too_long"):
-        return f"at most {ctx.get('max_length')} item(s)/character(s)"
+    if kind == "too_short":
+        return f"at least {ctx.get('min_length', 1)} item(s)"
+    if kind == "string_too_short":
+        return f"at least {ctx.get('min_length', 1)} character(s)"
+    if kind == "too_long":
+        return f"at most {ctx.get('max_length')} items (a limit of obligor-memo; see the README's Limits)"
+    if kind == "string_too_long":
+        return f"at most {ctx.get('max_length')} characters"
     if kind in ("list_type",):
         return "a list"
     if kind in ("model_type", "model_attributes_type", "dict_type"):
@@ -141,9 +150,26 @@ def _bound_metadata(field: Any) -> list[Any]:
     return found
 
 
+def _shown_value(error: dict[str, Any]) -> Any:
+    """The value as the message shows it: a count for a list or text that is too long."""
+    value = error.get("input")
+    if error["type"] == "missing":
+        return None
+    if error["type"] == "too_long" and hasattr(value, "__len__"):
+        return f"{len(value)} items"
+    if error["type"] == "string_too_long" and isinstance(value, str):
+        return f"{len(value):,} characters"
+    return value
+
+
 def problems_from_validation(root: type[BaseModel], exc: ValidationError, prefix: str = "") -> list[Problem]:
     problems: list[Problem] = []
+    unknown: list[str] = []
     for error in exc.errors(include_url=False):
+        if error["type"] == "extra_forbidden":
+            unknown.append(_path(tuple(error["loc"])))
+            if len(unknown) > MAX_UNKNOWN_KEYS_SHOWN:
+                continue
         loc = tuple(error["loc"])
         original = (error.get("ctx") or {}).get("error")
         if isinstance(original, CaseProblems):
@@ -155,10 +181,11 @@ def problems_from_validation(root: type[BaseModel], exc: ValidationError, prefix
             path = _path(loc) + (field if field.startswith("[") else ("." + field if loc else field))
             problems.append(Problem(_join(prefix, path), original.value, original.allowed))
             continue
-        value = error.get("input")
-        if error["type"] == "missing":
-            value = None
-        problems.append(Problem(_join(prefix, _path(loc)) or "case", value, _allowed_for(root, error)))
+        problems.append(Problem(_join(prefix, _path(loc)) or "case", _shown_value(error), _allowed_for(root, error)))
+    if len(unknown) > MAX_UNKNOWN_KEYS_SHOWN:
+        problems.insert(0, Problem(prefix or "case", f"{len(unknown):,} unknown keys",
+                                f"only the keys the case file reference lists; the first "
+                                f"{MAX_UNKNOWN_KEYS_SHOWN} are named above"))
     return problems
 
 

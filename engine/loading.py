@@ -1,7 +1,9 @@
 """Reading case files (YAML or JSON) from disk or from bytes.
 
 YAML is read with a safe loader (no object construction) that refuses duplicate keys (a second
-value must never silently replace the first) and reads ``1e6`` as a number, as people mean it.
+value must never silently replace the first), aliases and number tokens of more than
+MAX_NUMBER_DIGITS digits, and resolves plain scalars by the YAML 1.2 core schema: ``NO`` (a
+country code), ``yes`` and ``on`` stay text, ``012`` is not octal, ``1e6`` is a number.
 A ``statements: {file: ...}`` entry is read relative to the case file and inlined, so the
 validated case always carries its own statements (a memo re-runs from the case alone).
 """
@@ -22,8 +24,13 @@ from obligor_memo.engine.statements import read_statement_table
 MAX_CASE_BYTES = 2_000_000  # the workbench upload limit is the same (2 MB)
 
 
+MAX_NUMBER_DIGITS = 50      # digits in one number token; a case never needs more than about 20
+
+
 class _StrictLoader(yaml.SafeLoader):
-    pass
+    """PyYAML's safe loader read by the YAML 1.2 core schema (plain scalars resolved below)."""
+
+    yaml_implicit_resolvers: dict[Any, Any] = {}
 
 
 def _mapping_without_duplicates(loader: yaml.SafeLoader, node: yaml.MappingNode, deep: bool = False):
@@ -58,25 +65,75 @@ def _compose_without_aliases(self, parent, index):
     return yaml.composer.Composer.compose_node(self, parent, index)
 
 
-_StrictLoader.compose_node = _compose_without_aliases
+def _digits(token: str) -> int:
+    return sum(ch.isdigit() for ch in token)
+
+
+def _too_long(line: int, token: str) -> _Refused:
+    return _Refused(line, f"a number of {_digits(token):,} digits",
+                    f"a number of at most {MAX_NUMBER_DIGITS} digits")
+
+
+def _construct_int(loader: yaml.SafeLoader, node: yaml.ScalarNode) -> int:
+    token = loader.construct_scalar(node)
+    if _digits(token) > MAX_NUMBER_DIGITS:
+        raise _too_long(node.start_mark.line + 1, token)
+    return int(token)
+
+
+def _construct_float(loader: yaml.SafeLoader, node: yaml.ScalarNode) -> float:
+    token = loader.construct_scalar(node)
+    if _digits(token) > MAX_NUMBER_DIGITS:
+        raise _too_long(node.start_mark.line + 1, token)
+    lowered = token.lower()
+    if lowered in (".inf", "+.inf"):
+        return float("inf")
+    if lowered == "-.inf":
+        return float("-inf")
+    if lowered == ".nan":
+        return float("nan")
+    return float(token)
+
+
+def _construct_bool(loader: yaml.SafeLoader, node: yaml.ScalarNode) -> bool:
+    return loader.construct_scalar(node).lower() == "true"
+
+
+_StrictLoader.compose_node = _compose_without_aliases  # type: ignore[method-assign]
 _StrictLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _mapping_without_duplicates)
-# YAML 1.1 reads 1e6 as text; accept the scientific notation people write.
+# The YAML 1.2 core schema for plain scalars (yaml.org/spec/1.2.2, section 10.3.2), so text
+# stays text: NO (a country), yes, on, off are strings, not booleans; 012 and 1:20 are strings,
+# not octal or base-60 numbers; a date stays the text typed. Whole numbers are written without
+# a leading zero (012 stays text, and a number field then says so). Every other tag of
+# YAML 1.1's implicit set is dropped; explicit tags (!!python/...) are refused by the safe loader.
+_StrictLoader.add_implicit_resolver("tag:yaml.org,2002:bool", re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$"),
+                                    list("tTfF"))
+_StrictLoader.add_implicit_resolver("tag:yaml.org,2002:null", re.compile(r"^(?:~|null|Null|NULL|)$"),
+                                    ["~", "n", "N", ""])
+_StrictLoader.add_implicit_resolver("tag:yaml.org,2002:int", re.compile(r"^[-+]?(?:0|[1-9][0-9]*)$"),
+                                    list("-+0123456789"))
 _StrictLoader.add_implicit_resolver(
     "tag:yaml.org,2002:float",
-    re.compile(r"""^(?:[-+]?(?:[0-9][0-9_]*)\.[0-9_]*(?:[eE][-+]?[0-9]+)?
-                    |[-+]?(?:[0-9][0-9_]*)(?:[eE][-+]?[0-9]+)
-                    |\.[0-9_]+(?:[eE][-+][0-9]+)?
+    re.compile(r"""^(?:[-+]?(?:\.[0-9]+|(?:0|[1-9][0-9]*)(?:\.[0-9]*)?)(?:[eE][-+]?[0-9]+)?
                     |[-+]?\.(?:inf|Inf|INF)
                     |\.(?:nan|NaN|NAN))$""", re.X),
     list("-+0123456789."),
 )
+_StrictLoader.add_constructor("tag:yaml.org,2002:int", _construct_int)
+_StrictLoader.add_constructor("tag:yaml.org,2002:float", _construct_float)
+_StrictLoader.add_constructor("tag:yaml.org,2002:bool", _construct_bool)
 
 
 def parse_text(text: str, name: str) -> Any:
     """Plain data from YAML or JSON text (JSON is valid YAML, but JSON gets JSON's messages)."""
     if name.lower().endswith(".json"):
         try:
-            return json.loads(text, object_pairs_hook=_json_pairs)
+            return json.loads(text, object_pairs_hook=_json_pairs, parse_int=_json_number(int),
+                              parse_float=_json_number(float))
+        except _NumberTooLong as long:
+            line = text.count("\n", 0, max(text.find(long.token), 0)) + 1
+            raise CaseError.single(f"{name}, line {line}", f"a number of {_digits(long.token):,} digits",
+                                   f"a number of at most {MAX_NUMBER_DIGITS} digits", "case file") from None
         except RecursionError:
             raise CaseError.single(name, "nesting too deep", "a case nested a few levels deep",
                                    "case file") from None
@@ -95,12 +152,28 @@ def parse_text(text: str, name: str) -> Any:
         raise CaseError.single(f"{name}, line {dup.line}", dup.key,
                                f"each key once in a mapping (first given on line {dup.first})",
                                "case file") from None
+    except (ValueError, OverflowError) as exc:   # a scalar the constructors could not convert
+        raise CaseError.single(name, str(exc)[:120], "plain YAML values (text, numbers, true/false, lists, "
+                               "mappings)", "case file") from None
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         where = f"{name}, line {mark.line + 1}, column {mark.column + 1}" if mark else name
         problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
         raise CaseError.single(where, problem, "valid YAML (check indentation and colons)",
                                "case file") from None
+
+
+class _NumberTooLong(Exception):
+    def __init__(self, token: str):
+        self.token = token
+
+
+def _json_number(kind: type) -> Any:
+    def parse(token: str) -> Any:
+        if _digits(token) > MAX_NUMBER_DIGITS:
+            raise _NumberTooLong(token)
+        return kind(token)
+    return parse
 
 
 def _json_pairs(pairs: list[tuple[str, Any]]) -> dict[str, Any]:

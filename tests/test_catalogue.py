@@ -9,6 +9,7 @@ close at 1), so evaluate() is part of the edge too.
 
 from __future__ import annotations
 
+import json
 import math
 from collections.abc import Callable
 from pathlib import Path
@@ -32,6 +33,15 @@ def edit(change: Callable[[dict[str, Any]], None], name: str = "case.json") -> M
         data = minimal_case_dict()
         change(data)
         return write_case(folder, data, name)
+    return mutate
+
+
+def _json_text(change: Callable[[str], str]) -> Mutation:
+    """A mutation of the case's JSON text (for tokens no mapping can hold, such as huge numbers)."""
+    def mutate(folder: Path) -> Path:
+        path = folder / "case.json"
+        path.write_text(change(json.dumps(minimal_case_dict())), encoding="utf-8")
+        return path
     return mutate
 
 
@@ -288,6 +298,40 @@ CATALOGUE = [
     ("negative collateral value",
      edit(setter("facilities", 0, "collateral", value={"value": -5.0, "haircut": 0.2})),
      "facilities[0].collateral.value", "-5.0", "a number from 0 to"),
+    # Bad input at scale: every number token, list and mapping under a stated limit.
+    ("integer of 5,000 digits in JSON", _json_text(lambda t: t.replace('"currency": "EUR"',
+                                                                      '"currency": ' + "9" * 5000, 1)),
+     "case.json, line 1", "5,000 digits", "at most 50 digits"),
+    ("integer of 5,000 digits in YAML", yaml_text(lambda t: t.replace("  currency: EUR\n", "  currency: " + "9" * 5000 + "\n")),
+     f"case.yaml, line {_BAD_YAML_LINE}", "5,000 digits", "at most 50 digits"),
+    ("float of 400 digits in YAML", yaml_text(lambda t: t.replace("  currency: EUR\n", "  currency: 1." + "5" * 400 + "\n")),
+     f"case.yaml, line {_BAD_YAML_LINE}", "401 digits", "at most 50 digits"),
+    ("5,000 scenarios", edit(setter("scenarios", value=[{"name": f"S{i}", "set": {}} for i in range(5000)])),
+     "scenarios", "5000 items", "at most 50 items"),
+    ("5,000 facilities", edit(lambda d: d.__setitem__("facilities", [dict(d["facilities"][0], id=f"F{i}")
+                                                                    for i in range(5000)])),
+     "facilities", "5000 items", "at most 100 items"),
+    ("1,000 master-scale rows", edit(setter("pd", "master_scale",
+                                            value=[{"grade": f"G{i}", "pd_upper": (i + 1) / 1000} for i in range(1000)])),
+     "pd.master_scale", "1000 items", "at most 30 items"),
+    ("5,000 CCF-by-grade rows", edit(setter("exposure", "ccf_by_grade",
+                                            value=[{"grade": f"G{i}", "ccf": 0.5} for i in range(5000)])),
+     "exposure.ccf_by_grade", "5000 items", "at most 200 items"),
+    ("500 statement years", edit(lambda d: d.__setitem__("statements", [dict(d["statements"][0], year=1600 + i)
+                                                                      for i in range(500)])),
+     "statements", "500 items", "at most 200 items"),
+    ("a scenario setting 500 inputs", edit(setter("scenarios", value=[{"name": "Wide", "set": {
+        f"pd.key{i}": 0.1 for i in range(500)}}])),
+     "scenarios[0].set", "500 items", "at most 50 items"),
+    ("5,000 unknown keys", edit(lambda d: d.update({f"extra_key_{i}": 1 for i in range(5000)})),
+     "case", "5,000 unknown keys", "the first 10 are named"),
+    ("an unknown key of 100,000 characters", edit(lambda d: d.update({"k" * 100_000: 1})),
+     "k" * 100_000, "1", "no such key"),
+    # YAML read by the 1.2 core schema: text stays text.
+    ("yes as a true/false value", yaml_text(lambda t: t + "capital:\n  scaling_factor: yes\n"),
+     "capital.scaling_factor", "'yes'", "true or false"),
+    ("012 as a whole number", yaml_text(lambda t: t + "pd:\n  window_years: 012\n"),
+     "pd.window_years", "'012'", "a whole number"),
 ]
 
 

@@ -9,7 +9,7 @@ import openpyxl
 import pytest
 import yaml
 
-from conftest import DATA, SAMPLE_CASE, SAMPLE_STATEMENTS, copy_data, write_case
+from conftest import DATA, SAMPLE_CASE, SAMPLE_STATEMENTS, copy_data, minimal_case_dict, write_case
 from obligor_memo.engine.case import parse_case
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.loading import load_case, load_case_text, parse_text
@@ -165,3 +165,43 @@ def test_sample_case_reads_its_ten_years() -> None:
     lines = SAMPLE_STATEMENTS.read_text().strip().splitlines()
     assert [row.year for row in case.statements] == [int(line.split(",")[0]) for line in lines[1:]]
     assert case.statements[-1].total_assets == float(lines[-1].split(",")[1])
+
+
+# --------------------------------------------------------------------------- YAML 1.2 core schema
+
+
+@pytest.mark.parametrize(("text", "expected"), [
+    ("NO", "NO"), ("no", "no"), ("yes", "yes"), ("on", "on"), ("off", "off"), ("Y", "Y"),
+    ("012", "012"), ("0o17", "0o17"), ("0x1F", "0x1F"), ("1:20", "1:20"), ("2024-03-31", "2024-03-31"),
+    ("1_000", "1_000"), ("true", True), ("False", False), ("null", None), ("~", None),
+    ("12", 12), ("-3", -3), ("0", 0), ("1e6", 1e6), ("2.75", 2.75), ("-0.5", -0.5), (".5", 0.5),
+])
+def test_plain_scalars_follow_the_yaml_1_2_core_schema(text, expected):
+    """YAML 1.2.2 spec, section 10.3.2 (core schema): only true/false are booleans, no octal,
+    base 60 or timestamps; whole numbers with a leading zero stay text (a stricter choice)."""
+    from obligor_memo.engine.loading import parse_text
+
+    value = parse_text(f"v: {text}\n", "case.yaml")["v"]
+    assert value == expected and type(value) is type(expected), (text, value)
+
+
+def test_norway_stays_norway(tmp_path):
+    """country: NO is the text 'NO' (under YAML 1.1 it was false)."""
+    data = minimal_case_dict()
+    text = yaml.safe_dump(data, sort_keys=False).replace("borrower:\n", "borrower:\n  country: NO\n", 1)
+    case = load_case_text(text, "case.yaml")
+    assert case.borrower.country == "NO"
+
+
+def test_yaml_round_trip_keeps_every_value(sample_case_path):
+    """The sample case written out as YAML and read back is the same case (and the same text
+    values: nothing turns into a boolean or a number on the way)."""
+    from obligor_memo.engine.case import case_to_dict, parse_case
+
+    case = load_case(sample_case_path)
+    data = case_to_dict(case)
+    data["borrower"]["country"] = "NO"
+    data["memo"]["prepared_by"] = "yes"
+    again = load_case_text(yaml.safe_dump(data, sort_keys=False, allow_unicode=True), "case.yaml")
+    assert case_to_dict(again) == data
+    assert again == parse_case(data)

@@ -1,0 +1,219 @@
+"""Fuzzing at scale: huge numbers, long lists, many unknown keys, extreme but valid inputs.
+
+The contract is that of tests/test_fuzz.py (results with finite JSON, or a CaseError whose every
+problem names a field), plus a time budget: no case may take more than TIME_BUDGET seconds to
+be read, validated and analysed (engine.analysis.analyse, what the command line and the memo
+run). A hang fails the test: an interval timer interrupts any case still running after
+HARD_STOP seconds, so one slow case cannot stall the suite.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import signal
+import time
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
+from typing import Any
+
+import pytest
+import yaml
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from conftest import SAMPLE_CASE, minimal_case_dict
+from obligor_memo.engine.analysis import analyse
+from obligor_memo.engine.case import LIMITS, parse_case
+from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.loading import load_case_text, parse_text, resolve_statements
+
+TIME_BUDGET = 2.0      # seconds, the issue's budget for a valid case on the 2-core machine
+HARD_STOP = 10.0       # a case still running then is a hang
+FUZZ = settings(derandomize=True, deadline=None, database=None,
+                suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+
+SAMPLE = resolve_statements(parse_text(SAMPLE_CASE.read_text(encoding="utf-8"), SAMPLE_CASE.name),
+                            SAMPLE_CASE.parent)
+BASES = {"sample": SAMPLE, "minimal": minimal_case_dict()}
+TIMINGS: list[float] = []
+
+
+class _Hang(Exception):
+    pass
+
+
+@contextmanager
+def _hard_stop(seconds: float) -> Iterator[None]:
+    def interrupt(signum: int, frame: Any) -> None:
+        raise _Hang(f"a case ran longer than {seconds:g} s")
+
+    previous = signal.signal(signal.SIGALRM, interrupt)
+    signal.setitimer(signal.ITIMER_REAL, seconds)
+    try:
+        yield
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, previous)
+
+
+def _check(make: Callable[[], Any]) -> str:
+    """Read/validate with ``make`` and analyse; assert the contract and the time budget."""
+    start = time.perf_counter()
+    try:
+        with _hard_stop(HARD_STOP):
+            try:
+                results = analyse(make())
+                outcome = "accepted"
+                json.dumps(results.to_dict(), allow_nan=False)
+            except CaseError as exc:
+                assert exc.problems
+                for problem in exc.problems:
+                    assert problem.field.strip() and problem.allowed.strip(), problem
+                assert "Traceback" not in exc.paragraph()
+                outcome = "rejected"
+    except _Hang as hang:
+        pytest.fail(str(hang))
+    elapsed = time.perf_counter() - start
+    TIMINGS.append(elapsed)
+    assert elapsed <= TIME_BUDGET, f"{outcome} case took {elapsed:.2f} s (budget {TIME_BUDGET} s)"
+    return outcome
+
+
+def _lists(doc: Any, path: tuple[Any, ...] = ()) -> list[tuple[Any, ...]]:
+    found = []
+    if isinstance(doc, dict):
+        for key, value in doc.items():
+            found += _lists(value, path + (key,))
+    elif isinstance(doc, list):
+        found.append(path)
+        for i, value in enumerate(doc):
+            found += _lists(value, path + (i,))
+    return found
+
+
+def _mappings(doc: Any, path: tuple[Any, ...] = ()) -> list[tuple[Any, ...]]:
+    found = [path] if isinstance(doc, dict) else []
+    children = doc.items() if isinstance(doc, dict) else enumerate(doc) if isinstance(doc, list) else ()
+    for key, value in children:
+        found += _mappings(value, path + (key,))
+    return found
+
+
+def _at(doc: Any, path: tuple[Any, ...]) -> Any:
+    for part in path:
+        doc = doc[part]
+    return doc
+
+
+@st.composite
+def long_lists(draw: st.DrawFn) -> dict[str, Any]:
+    doc = copy.deepcopy(BASES[draw(st.sampled_from(sorted(BASES)))])
+    target = _at(doc, draw(st.sampled_from(_lists(doc))))
+    if target:
+        count = draw(st.sampled_from([2, 10, 51, 201, 1000, 5000]))
+        target.extend(copy.deepcopy(target[i % len(target)]) for i in range(count))
+    return doc
+
+
+@st.composite
+def many_unknown_keys(draw: st.DrawFn) -> dict[str, Any]:
+    doc = copy.deepcopy(BASES[draw(st.sampled_from(sorted(BASES)))])
+    target = _at(doc, draw(st.sampled_from(_mappings(doc))))
+    count = draw(st.sampled_from([1, 11, 500, 5000]))
+    length = draw(st.sampled_from([3, 40, 5000]))
+    for i in range(count):
+        target[f"{i}".rjust(length, "x")] = i
+    return doc
+
+
+# Extreme but valid: each numeric input at or near the ends of its allowed range.
+EXTREMES: dict[tuple[Any, ...], list[Any]] = {
+    ("pd", "horizon_years"): [0.01, 1, 10, 30],
+    ("pd", "asset_volatility"): [1e-9, 1e-4, 0.5, 2.999],
+    ("pd", "asset_growth"): [-0.999, -0.5, 0.0, 0.999],
+    ("pd", "override"): [1e-12, 1e-6, 0.5, 1.0],
+    ("pd", "default_point", "long_term_share"): [0.0, 1.0],
+    ("pd", "default_point", "short_term_share"): [0.0, 1.0],
+    ("capital", "confidence"): [0.5, 0.9, 0.99999],
+}
+
+
+@st.composite
+def extreme_valid(draw: st.DrawFn) -> dict[str, Any]:
+    doc = copy.deepcopy(SAMPLE)
+    for path in draw(st.lists(st.sampled_from(sorted(EXTREMES)), min_size=1, max_size=4, unique=True)):
+        holder = doc
+        for part in path[:-1]:
+            holder = holder.setdefault(part, {})
+        holder[path[-1]] = draw(st.sampled_from(EXTREMES[path]))
+        if path == ("pd", "override"):
+            doc["pd"]["override_reason"] = "analyst's view"
+    if draw(st.booleans()):      # facilities at scale too
+        facilities = doc["facilities"]
+        doc["facilities"] = [dict(copy.deepcopy(facilities[i % len(facilities)]), id=f"X{i}")
+                             for i in range(draw(st.sampled_from([20, LIMITS["facilities"]])))]
+        doc["scenarios"] = [s for s in doc.get("scenarios", []) if "facilities." not in json.dumps(s)]
+    return doc
+
+
+@st.composite
+def huge_number_texts(draw: st.DrawFn) -> tuple[str, str]:
+    """A case as YAML or JSON text with one number token replaced by a very long one."""
+    as_yaml = draw(st.booleans())
+    data = copy.deepcopy(BASES[draw(st.sampled_from(sorted(BASES)))])
+    text = yaml.safe_dump(data, sort_keys=False) if as_yaml else json.dumps(data)
+    digits = draw(st.sampled_from([51, 400, 4300, 5000, 20000]))
+    token = draw(st.sampled_from(["9" * digits, "-" + "1" * digits, "1." + "5" * digits, "1" * digits + "e5"]))
+    numbers = [w for w in text.replace(",", " ").replace("}", " ").split() if w.replace(".", "").isdigit()]
+    if numbers:
+        text = text.replace(numbers[draw(st.integers(0, len(numbers) - 1))], token, 1)
+    return text, "case.yaml" if as_yaml else "case.json"
+
+
+HOSTILE_TEXTS = [
+    "a: !!python/object/apply:os.system ['true']\n",
+    "a: &x [1, 2]\nb: *x\n",
+    "[" * 20000 + "]" * 20000,
+    '{"a": ' * 5000 + "1" + "}" * 5000,
+    "borrower: {name: " + "é" * 1_000_000 + ", currency: EUR}\n",
+    "memo: {summary: '" + "x" * 3_000_000 + "'}\n",
+    "v: 0x_\n", "v: 0b2\n", "v: 1:2:3:4\n", "v: !!int 12x\n", "v: !!float abc\n", "v: !!bool maybe\n",
+]
+
+
+@settings(FUZZ, max_examples=300)
+@given(data=long_lists())
+def test_long_lists_are_refused_with_their_count_or_run_in_time(data):
+    _check(lambda: parse_case(data))
+
+
+@settings(FUZZ, max_examples=200)
+@given(data=many_unknown_keys())
+def test_many_unknown_keys_are_counted_quickly(data):
+    _check(lambda: parse_case(data))
+
+
+@settings(FUZZ, max_examples=200)
+@given(data=extreme_valid())
+def test_extreme_valid_inputs_analyse_within_the_budget(data):
+    _check(lambda: parse_case(data))
+
+
+@settings(FUZZ, max_examples=150)
+@given(item=huge_number_texts())
+def test_huge_number_tokens_are_refused_by_their_line(item):
+    text, name = item
+    assert _check(lambda: load_case_text(text, name)) == "rejected"
+
+
+@pytest.mark.parametrize("text", HOSTILE_TEXTS, ids=range(len(HOSTILE_TEXTS)))
+def test_hostile_texts_are_refused_with_a_field(text):
+    for name in ("case.yaml", "case.json"):
+        assert _check(lambda: load_case_text(text, name)) == "rejected"
+
+
+def test_timings_were_recorded():
+    """Reported, not asserted per run: the slowest case of this module's runs."""
+    assert TIMINGS, "no case ran"
+    assert max(TIMINGS) <= TIME_BUDGET
