@@ -149,5 +149,47 @@ def app(port: int, host: str, workdir: Path | None) -> None:
     sys.exit(serve(port=port, host=host, workdir=workdir))
 
 
+@main.command()
+@click.argument("paths", metavar="CASE_OR_FOLDER...", nargs=-1, required=True,
+                type=click.Path(path_type=Path))
+@click.option("-o", "--output", "outdir", required=True, type=click.Path(file_okay=False, path_type=Path),
+              help="Folder for the memos, portfolio.csv / .xlsx and errors.csv.")
+@click.option("--workers", type=click.IntRange(1, 512), default=None,
+              help="Worker processes of the local cluster (default: 1).")
+@click.option("--scheduler", default=None, metavar="ADDRESS",
+              help="An existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (then --workers is the cluster's).")
+@click.option("--no-memos", is_flag=True, help="Evaluate only: no PDF memos.")
+@click.option("--resume", is_flag=True, help="Skip cases whose memo with the same inputs is already in OUTDIR.")
+@_guard
+def batch(paths: tuple[Path, ...], outdir: Path, workers: int | None, scheduler: str | None, no_memos: bool,
+          resume: bool) -> None:
+    """Evaluate every case (files, or folders searched for case files) and print their memos.
+
+    Exit 0 when every case succeeded, 1 when some failed (listed in OUTDIR/errors.csv), 2 for a
+    mistake in the command."""
+    from obligor_memo.app.batch import BatchUsageError, run_batch
+    from obligor_memo.app.batch.run import progress_line
+
+    if scheduler is not None and workers is not None:
+        _fail("--workers: not allowed with --scheduler (the cluster has its own workers).")
+    try:
+        result = run_batch(list(paths), outdir, workers=workers, scheduler=scheduler, memos=not no_memos,
+                           resume=resume, progress=progress_line())
+    except BatchUsageError as exc:
+        _fail(f"obligor-memo batch: {exc}.")
+    except KeyboardInterrupt:
+        _fail("obligor-memo batch: stopped (Ctrl+C); the cluster is closed. Run again with --resume.", 130)
+    except OSError as exc:
+        _fail(f"obligor-memo batch: {exc}. Check the scheduler address and the output folder.")
+    failed = sorted(set(result.errors["case_file"]))
+    click.echo(f"{len(result.portfolio)} case(s) done ({result.skipped} unchanged, skipped), {len(failed)} failed, "
+               f"in {result.seconds:.1f} s on {result.workers} worker(s); results in {outdir}/portfolio.csv")
+    if failed:
+        click.echo("Failed (see errors.csv):", err=True)
+        for name in failed:
+            click.echo(f"  {name}", err=True)
+        sys.exit(1)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()
