@@ -79,5 +79,5 @@ def _check(*, ead: float, pd: float, lgd: float) -> None:
         raise ValueError(f"ead: got {ead!r}; allowed: a finite amount >= 0")
     if not 0 <= pd <= 1:
         raise ValueError(f"pd: got {pd!r}; allowed: 0 to 1")
-    if not 0 <= lgd <= 1:
-        raise ValueError(f"lgd: got {lgd!r}; allowed: 0 to 1")
+    if not -0.5 <= lgd <= 1:
+        raise ValueError(f"lgd: got {lgd!r}; allowed: -0.5 to 1 (below 0 only with recoveries above par)")

@@ -45,6 +45,8 @@ import numpy as np
 Join = Literal["comonotonic", "independent"]
 JOINS: tuple[str, ...] = ("comonotonic", "independent")
 
+MAX_RECOVERY = 1.5
+"""Largest recovery rate a law may reach [fraction of EAD] (recoveries above par)."""
 DEFAULT_N_SIMS = 200_000
 DEFAULT_SEED = 20_061_999
 # Bisection on [0, 1] halves the bracket each step; 64 steps reach the spacing
@@ -169,19 +171,20 @@ def _check_exposures_and_laws(
                 )
         mean = float(law.mean())
         variance = float(law.var())
-        if not (0.0 <= mean <= 1.0):
+        if not (0.0 <= mean <= MAX_RECOVERY):
             raise ValueError(
-                f"recovery_laws[{index}].mean() must lie in [0, 1] [fraction]; got {mean!r}"
+                f"recovery_laws[{index}].mean() must lie in [0, {MAX_RECOVERY:g}] [fraction]; got {mean!r}"
             )
         if not (math.isfinite(variance) and variance >= 0.0):
             raise ValueError(
                 f"recovery_laws[{index}].var() must be a finite number >= 0; got {variance!r}"
             )
-        # A recovery above 1 would be a negative loss; catch a law on the wrong scale early.
+        # A recovery above 1 is a negative loss (recoveries above par, up to 1.5); catch a law on
+        # the wrong scale (percent, say) early.
         probe = np.asarray(law.ppf(np.array([0.0, 0.5, 1.0])), dtype=float)
-        if probe.shape != (3,) or not np.all((probe >= 0.0) & (probe <= 1.0)):
+        if probe.shape != (3,) or not np.all((probe >= 0.0) & (probe <= MAX_RECOVERY)):
             raise ValueError(
-                f"recovery_laws[{index}].ppf must return recovery rates in [0, 1]; "
+                f"recovery_laws[{index}].ppf must return recovery rates in [0, {MAX_RECOVERY:g}]; "
                 f"at u = 0, 0.5, 1 it gave {probe.tolist()!r}"
             )
         means[index] = mean
