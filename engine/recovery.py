@@ -12,8 +12,9 @@ takes the secured supervisory LGD_S (20 % Basel III, 35 % Basel II, receivables 
 and the rest recovers as the unsecured law R_u, so R = c (1 - LGD_S) + (1 - c) R_u and
 LGD = c LGD_S + (1 - c) LGD_u. The uncovered part of a ``senior_secured`` facility takes the
 senior unsecured LGD: the secured LGD is never applied to the whole exposure and then again to
-the covered part. A ``senior_secured`` facility without a collateral block is taken as fully
-covered by eligible collateral (c = 1 in the rule above), as the seniority states.
+the covered part. A ``senior_secured`` facility without a collateral block takes the secured
+LGD_S as its mean LGD on the whole exposure (the seniority states full cover; the spread of the
+default recovery law stays).
 
 Recoveries above par: for bonds a law on [0, upper] with upper up to 1.5 is accepted (recoveries
 can exceed par once accrued interest and post-default prices are counted; common practice uses
@@ -47,6 +48,8 @@ _SUPERVISORY_LGD = {
 }
 
 
+_LEAD_TERM = 1e-8
+"""Below this distance to an end of [0, 1] the beta law's leading tail term is used."""
 MAX_UPPER = 1.5
 """Largest top of a recovery law's support [fraction of EAD]."""
 
@@ -142,20 +145,38 @@ class RecoveryLaw:
     def std(self) -> float:
         return math.sqrt(self.var())
 
+    @property
+    def median_split(self) -> float:
+        """u = I_{1/2}(a, b): below it the beta quantile is under 1/2, above it over 1/2."""
+        return float(special.betainc(self.alpha, self.beta, 0.5))
+
+    def _unit_quantile(self, q: np.ndarray) -> np.ndarray:
+        """Quantile of B ~ beta(a, b) accurate near both ends.
+
+        Below the median split, z = I^-1_q(a, b); above it, z = 1 - I^-1_{1-q}(b, a), so a
+        quantile close to 1 keeps its distance to 1 (the symmetry I_x(a, b) = 1 - I_{1-x}(b, a)).
+        Deep in either tail the leading term I_z(a, b) ~ z^a / (a B(a, b)) (Abramowitz and
+        Stegun 26.5.4) is inverted in logarithms: with shapes far below 1 (a std near its limit)
+        the law is almost two atoms at 0 and 1 and the iterative inverse loses its digits.
+        """
+        a, b = self.alpha, self.beta
+        split = self.median_split
+        log_beta = special.betaln(a, b)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            low = special.betaincinv(a, b, q)
+            low_lead = np.exp((np.log(q) + math.log(a) + log_beta) / a)
+            low = np.where((low_lead < _LEAD_TERM) | np.isnan(low), low_lead, low)
+            high = special.betaincinv(b, a, 1.0 - q)
+            high_lead = np.exp((np.log1p(-q) + math.log(b) + log_beta) / b)
+            high = np.where((high_lead < _LEAD_TERM) | np.isnan(high), high_lead, high)
+        return np.where(q <= split, low, 1.0 - high)
+
     def ppf(self, q):
         q = np.asarray(q, dtype=float)
         if self.point_mass:
             out = np.full_like(q, self.mean())
         else:
-            z = special.betaincinv(self.alpha, self.beta, q)
-            # betaincinv gives NaN far in the left tail; there I_z(a, b) ~ z^a / (a B(a, b))
-            # (Abramowitz and Stegun 26.5.4, leading term), so z ~ (q a B(a, b))^(1/a).
-            if np.any(np.isnan(z)):
-                with np.errstate(divide="ignore"):
-                    tail = np.exp((np.log(q) + math.log(self.alpha)
-                                   + special.betaln(self.alpha, self.beta)) / self.alpha)
-                z = np.where(np.isnan(z) & (q > 0) & (q < 1e-100), tail, z)
-            out = self.offset + self.scale * z
+            out = self.offset + self.scale * self._unit_quantile(q)
         return float(out) if out.ndim == 0 else out
 
     def cdf(self, x):
@@ -190,8 +211,33 @@ class RecoveryLaw:
             raise ValueError(f"u: got {u!r}; allowed: 0 to 1")
         if self.point_mass:
             return self.mean() * u
-        x = special.betaincinv(self.alpha, self.beta, u)
-        partial = self.alpha / (self.alpha + self.beta) * special.betainc(self.alpha + 1.0, self.beta, x)
+        a, b = self.alpha, self.beta
+        m = a / (a + b)
+        if u <= 0.0:
+            return 0.0
+        log_beta = float(special.betaln(a, b))
+        if u <= self.median_split:
+            x = float(self._unit_quantile(np.asarray(u)))
+            if x < _LEAD_TERM:
+                # I_x(a + 1, b) ~ x^(a+1) / ((a + 1) B(a + 1, b)), the leading term (A&S 26.5.4).
+                incomplete = math.exp((a + 1.0) * math.log(x) - math.log(a + 1.0)
+                                      - special.betaln(a + 1.0, b)) if x > 0 else 0.0
+            else:
+                incomplete = float(special.betainc(a + 1.0, b, x))
+            partial = m * incomplete
+        else:
+            # I_x(a + 1, b) = I_x(a, b) - x^a (1 - x)^b / (a B(a, b)) (Abramowitz and Stegun
+            # 26.5.16), so E[B 1{B <= x}] = m (u - T), T = x^a (1 - x)^b / (a B(a, b)), with
+            # y = 1 - x taken from its own end and T in logarithms. Deep in the upper tail the
+            # leading term 1 - u ~ y^b / (b B(a, b)) gives T = (1 - u) b / a (1 - y)^a.
+            y = 1.0 - float(self._unit_quantile(np.asarray(u))) if u < 1.0 else 0.0
+            if u >= 1.0:
+                t = 0.0
+            elif y < _LEAD_TERM:
+                t = (1.0 - u) * b / a * (1.0 - y) ** a
+            else:
+                t = math.exp(a * math.log1p(-y) + b * math.log(y) - math.log(a) - log_beta)
+            partial = m * (u - t)
         return float(self.offset * u + self.scale * partial)
 
     @property

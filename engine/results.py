@@ -12,7 +12,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, fields, is_dataclass
 from typing import Any
 
-from obligor_memo.engine.case import Case, case_to_dict
+from obligor_memo.engine.case import Case, ScenarioValue, case_to_dict
 from obligor_memo.engine.deal_pricing import DealPricing
 from obligor_memo.engine.errors import Caution
 from obligor_memo.engine.lossdist import LossDistribution
@@ -21,7 +21,7 @@ from obligor_memo.engine.recovery import RecoveryLaw
 from obligor_memo.engine.statements import YearRatios
 from obligor_memo.engine.structural import PdTermStructure
 from obligor_memo.engine.trend import AssetTrend
-from obligor_memo.engine.whatif_types import OneWaySensitivity, PdGrid, ScenarioResult
+from obligor_memo.engine.whatif_types import Headline, HeadlineDelta, OneWaySensitivity, PdGrid
 from obligor_memo.engine.zscore import ZScore
 
 
@@ -200,6 +200,19 @@ class Results:
             value = getattr(self, f.name)
             out[f.name] = case_to_dict(value) if isinstance(value, Case) else _plain(value)
         return out
+
+
+@dataclass(frozen=True)
+class ScenarioResult:
+    """One scenario evaluated: its changes, its headline figures, and the change from the base."""
+
+    name: str
+    description: str
+    overrides: tuple[tuple[str, ScenarioValue], ...]   # (path, value) as written in the case
+    figures: Headline
+    base: Headline
+    delta: HeadlineDelta
+    results: Results = field(repr=False, compare=False)   # the full evaluation, every intermediate
 
 
 def _plain(value: Any) -> Any:

@@ -37,7 +37,8 @@ from pydantic import BaseModel
 from obligor_memo.engine.case import Case, Facility, ScenarioValue, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError, Problem
 from obligor_memo.engine.evaluate import Results, evaluate
-from obligor_memo.engine.whatif_types import Headline, HeadlineDelta, ScenarioResult
+from obligor_memo.engine.results import ScenarioResult
+from obligor_memo.engine.whatif_types import Headline, HeadlineDelta
 
 _FROZEN_SECTIONS = ("statements", "scenarios")
 

@@ -2,18 +2,13 @@
 
 Held apart from the modules that compute them (:mod:`engine.sensitivity`,
 :mod:`engine.scenarios`) so that :class:`engine.results.Results` can name them without an
-import cycle. Rates [fraction], money [currency].
+import cycle (:class:`engine.results.ScenarioResult` holds a whole Results, so it lives there).
+Rates [fraction], money [currency].
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-from typing import TYPE_CHECKING
-
-from obligor_memo.engine.case import ScenarioValue
-
-if TYPE_CHECKING:  # a name for the type checker only: results imports this module
-    from obligor_memo.engine.results import Results
+from dataclasses import dataclass
 
 
 @dataclass(frozen=True)
@@ -121,16 +116,3 @@ class HeadlineDelta:
     economic_capital: float
     raroc: float | None
     grade_changed: bool
-
-
-@dataclass(frozen=True)
-class ScenarioResult:
-    """One scenario evaluated: its changes, its headline figures, and the change from the base."""
-
-    name: str
-    description: str
-    overrides: tuple[tuple[str, ScenarioValue], ...]   # (path, value) as written in the case
-    figures: Headline
-    base: Headline
-    delta: HeadlineDelta
-    results: Results = field(repr=False, compare=False)   # the full evaluation, every intermediate
