@@ -33,6 +33,7 @@ from obligor_memo.engine.case import Case, GridAxis
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.evaluate import PdResult, Results, estimate_pd, evaluate
 from obligor_memo.engine.market import solve_merton_many
+from obligor_memo.engine.recovery import MAX_UPPER
 from obligor_memo.engine.scenarios import apply_overrides, checked_base
 from obligor_memo.engine.structural import distance_to_default, pd_from_distance
 from obligor_memo.engine.whatif_types import FacilityShift, OneWaySensitivity, PdGrid, SensitivityRow
@@ -78,14 +79,15 @@ def _clip_pair(base: float, step: float, lowest: float, highest: float) -> tuple
 def feasible_recovery_means(*, std: float, upper: float) -> tuple[float, float]:
     """The interval of mean recovery [fraction] for which a beta law with ``std`` on [0, upper]
     exists: mean (upper - mean) > std^2 (moment fit, see engine.recovery), with a small margin."""
-    if not (0 < upper <= 1):
-        raise ValueError(f"upper: got {upper!r}; allowed: a number above 0 and at most 1")
+    if not (0 < upper <= MAX_UPPER):
+        raise ValueError(f"upper: got {upper!r}; allowed: a number above 0 and at most {MAX_UPPER:g}")
     if not (0 <= std < upper / 2):
         raise ValueError(f"std: got {std!r}; allowed: a number from 0 to below upper/2 = {upper / 2:g}")
     if std == 0:
         return 0.0, upper
     half = upper / 2
-    reach = math.sqrt(half * half - std * std * (1 + _FEASIBILITY_MARGIN))
+    # A std within the margin of its limit (mean near upper / 2) leaves no room to move: reach 0.
+    reach = math.sqrt(max(half * half - std * std * (1 + _FEASIBILITY_MARGIN), 0.0))
     return half - reach, half + reach
 
 

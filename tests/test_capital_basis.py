@@ -370,3 +370,15 @@ def test_term_structure_running_maximum_is_stated(make_case):
     assert np.all(np.diff(cum) >= 0)
     assert r.term_structure.running_max_from is not None
     assert "pd.term_structure_flat" in {c.code for c in r.cautions}
+
+
+@pytest.mark.parametrize("gap", [1e-7, 1e-9])
+def test_std_at_its_limit_in_the_what_if_layers(make_case, gap):
+    # A mean at upper / 2 with a std within 1e-7 of its limit used to stop the sensitivity
+    # table with "math domain error"; it must compute (the recovery row then cannot move).
+    from obligor_memo.engine.analysis import analyse
+
+    data = make_case()
+    data["facilities"][0]["recovery"] = {"mean": 0.45, "std": 0.45 - gap, "upper": 0.9}
+    r = analyse(parse_case(data))
+    assert r.sensitivity is not None and r.scenarios is not None
