@@ -26,23 +26,32 @@ from obligor_memo.engine.trend import AssetTrend, fit_asset_trend
 class PdResult:
     """The PD in force and how it was reached. Rates [fraction], money [currency]."""
 
-    method: str                      # balance_sheet | market
-    measure: str                     # physical | risk_neutral
+    method: str
+    """balance_sheet | market"""
+    measure: str
+    """physical | risk_neutral"""
     asset_value: float
-    asset_growth: float | None       # [1/year] (balance sheet)
-    asset_volatility: float          # [1/sqrt(year)]
-    asset_return: float              # drift used in DD [1/year]
+    asset_growth: float | None
+    """[1/year] (balance sheet)."""
+    asset_volatility: float
+    """[1/sqrt(year)]."""
+    asset_return: float
+    """Drift used in DD [1/year]."""
     default_point: float
     short_term_share: float
     long_term_share: float
     horizon_years: float
+    """[years]"""
     distance_to_default: float
-    model_pd: float                  # the model's PD
-    pd: float                        # the PD in force (override where set)
+    model_pd: float
+    """The model's PD over the horizon [fraction]."""
+    pd: float
+    """The PD in force over the horizon (override where set, converted to the horizon) [fraction]."""
     overridden: bool
     override_reason: str | None
     grade: str | None
-    grade_lower: float | None        # band (lower, upper] of the grade
+    grade_lower: float | None
+    """Band (lower, upper] of the grade."""
     grade_upper: float | None
     pd_one_year: float = math.nan
     """One-year PD in force [fraction]: the PD of capital, IRB EL and RAROC (CRE32.3)."""
@@ -58,10 +67,13 @@ class PdResult:
 class MarketResult:
     """Market-implied PD (Merton 1974) and the naive cross-check (Bharath and Shumway 2008)."""
 
-    default_point: float             # the debt barrier D [currency]
-    merton: MertonSolution | None    # None when the solve failed (see message)
+    default_point: float
+    """the debt barrier D [currency]"""
+    merton: MertonSolution | None
+    """None when the solve failed (see message)"""
     naive: NaiveDD
-    message: str                     # "" or why the Merton solve failed
+    message: str
+    """"" or why the Merton solve failed"""
 
 
 def engine_error(field: str, exc: ValueError) -> CaseError:
