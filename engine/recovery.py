@@ -34,6 +34,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from scipy import special
@@ -145,10 +146,14 @@ class RecoveryLaw:
     def std(self) -> float:
         return math.sqrt(self.var())
 
-    @property
+    @cached_property
     def median_split(self) -> float:
         """u = I_{1/2}(a, b): below it the beta quantile is under 1/2, above it over 1/2."""
         return float(special.betainc(self.alpha, self.beta, 0.5))
+
+    @cached_property
+    def _log_beta(self) -> float:
+        return float(special.betaln(self.alpha, self.beta))
 
     def _unit_quantile(self, q: np.ndarray) -> np.ndarray:
         """Quantile of B ~ beta(a, b) accurate near both ends.
@@ -161,7 +166,7 @@ class RecoveryLaw:
         """
         a, b = self.alpha, self.beta
         split = self.median_split
-        log_beta = special.betaln(a, b)
+        log_beta = self._log_beta
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             low = special.betaincinv(a, b, q)
             low_lead = np.exp((np.log(q) + math.log(a) + log_beta) / a)
@@ -215,7 +220,7 @@ class RecoveryLaw:
         m = a / (a + b)
         if u <= 0.0:
             return 0.0
-        log_beta = float(special.betaln(a, b))
+        log_beta = self._log_beta
         if u <= self.median_split:
             x = float(self._unit_quantile(np.asarray(u)))
             if x < _LEAD_TERM:
