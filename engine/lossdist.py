@@ -36,7 +36,7 @@ coherence of expected shortfall", Journal of Banking & Finance 26(7):
 VaR_q = inf{x : P(L <= x) >= q}, ES_q = (1/(1-q)) integral_q^1 VaR_p dp.
 
 A recovery law is any object with ``ppf(u: ndarray) -> ndarray``, ``mean()``
-and ``var()`` describing a recovery rate in [0, 1] [fraction], e.g. a frozen
+and ``var()`` describing a recovery rate in [0, 1.5] [fraction], e.g. a frozen
 ``scipy.stats.beta(a, b, loc=0, scale=upper)``.
 """
 
@@ -466,7 +466,7 @@ def loss_distribution(
     Args:
         pd: probability of default over the horizon [fraction], in [0, 1].
         exposures: EAD of each facility [currency], finite, >= 0.
-        recovery_laws: one recovery-rate law per facility, values in [0, 1]
+        recovery_laws: one recovery-rate law per facility, values in [0, 1.5]
             [fraction]; duck typed: ``ppf(u)``, ``mean()``, ``var()``.
         confidence: q for VaR and ES [fraction], in (0.5, 1).
         join: "comonotonic" (exact, conservative) or "independent" (Monte Carlo).
