@@ -107,6 +107,8 @@ class PdSettings(_Model):
     measure: Literal["risk_neutral", "physical"] = "risk_neutral"
     override: Annotated[float, Field(gt=0, le=1)] | None = None
     override_reason: Text | None = None
+    override_horizon_years: Annotated[float, Field(gt=0, le=30)] | None = None
+    """Horizon the override PD is stated for [years]; None: the case's ``horizon_years``."""
     master_scale: Annotated[list[GradeRow], Field(max_length=LIMITS['pd.master_scale'])] | None = None
 
     @model_validator(mode="after")
@@ -137,7 +139,9 @@ class Recovery(_Model):
 
     mean: Fraction
     std: Annotated[float, Field(ge=0, le=1)]
-    upper: Annotated[float, Field(gt=0, le=1)] = 1.0
+    upper: Annotated[float, Field(gt=0, le=1.5)] = 1.0
+    """Top of the recovery law's support [fraction of EAD]; above 1 (bonds: accrued interest,
+    post-default prices above par) a caution is shown and LGD outcomes may be negative."""
 
     @model_validator(mode="after")
     def _feasible(self) -> "Recovery":
@@ -174,6 +178,7 @@ class Facility(_Model):
     maturity_years: Annotated[float, Field(gt=0, le=50)]
     recovery: Recovery | None = None
     collateral: Collateral | None = None
+    pricing: FacilityPricing | None = None
     description: ShortText = ""
 
 
@@ -212,20 +217,57 @@ class LgdSettings(_Model):
 
 class CapitalSettings(_Model):
     confidence: Annotated[float, Field(gt=0.5, lt=1)] = 0.999
+    """Confidence of the economic capital (VaR, ES, single-factor quantile) [fraction]."""
     pd_floor: Annotated[float, Field(ge=0.00001, le=0.01)] = 0.0005
+    """Regulatory floor on the one-year PD [fraction] (CRE32.4: 0.05 %)."""
     scaling_factor: bool = False
+    """Apply the 1.06 scaling factor to RWA and so to regulatory capital (8 % of RWA)."""
     annual_sales_eur_millions: Annotated[float, Field(gt=0, le=1e7)] | None = None
     recovery_join: Literal["comonotonic", "independent"] = "comonotonic"
+    economic_method: Literal["single_factor", "standalone"] = "single_factor"
+    """Economic capital: one-factor portfolio contribution (smooth in PD) or the standalone
+    loss quantile of this one name less EL."""
+    economic_correlation: Annotated[float, Field(gt=0, lt=1)] | None = None
+    """Asset correlation of the single-factor capital [fraction]; None: the IRB corporate
+    correlation of the PD (with any firm-size adjustment)."""
+    economic_maturity_adjustment: bool = False
+    """Multiply the single-factor capital by the IRB maturity adjustment."""
+    effective_maturity: Literal["foundation", "own"] = "foundation"
+    """Effective maturity M in the risk weight: 2.5 years (foundation approach) or the
+    facility's own maturity clamped to [1, 5] years."""
+    capital_ccf: Literal["exposure", "foundation"] = "exposure"
+    """CCFs of the capital EAD: those of the exposure step (standardised presets, grade table
+    or own), or the foundation-IRB factors for commitments (Basel II: 75 %)."""
+    el_pd_floor: bool = True
+    """Apply the PD floor to the regulatory EL as well as to the risk weight (CRE32.4)."""
+
+
+class FacilityPricing(_Model):
+    """One facility's own rates, each overriding the deal's [fraction/year]; None: the deal's."""
+
+    proposed_spread: Annotated[float, Field(ge=-0.05, le=0.5)] | None = None
+    fee_rate: Annotated[float, Field(ge=0, le=0.2)] | None = None
+    commitment_fee_rate: Annotated[float, Field(ge=0, le=0.2)] | None = None
+    issuance_fee_rate: Annotated[float, Field(ge=0, le=0.2)] | None = None
+    funding_spread: Annotated[float, Field(ge=-0.05, le=0.5)] | None = None
+    operating_cost_rate: Annotated[float, Field(ge=0, le=0.2)] | None = None
 
 
 class Pricing(_Model):
-    """Annual rates as fractions of EAD [fraction/year]."""
+    """Annual rates [fraction/year], each on the amount it accrues on (see README)."""
 
     proposed_spread: Annotated[float, Field(ge=-0.05, le=0.5)]
+    """Margin over the base rate on the drawn (funded) amount [fraction/year]."""
     fee_rate: Annotated[float, Field(ge=0, le=0.2)] = 0.0
+    """Other annual fees on the EAD [fraction/year]."""
+    commitment_fee_rate: Annotated[float, Field(ge=0, le=0.2)] = 0.0
+    """Fee on the undrawn commitment of loans and revolvers [fraction/year]."""
+    issuance_fee_rate: Annotated[float, Field(ge=0, le=0.2)] = 0.0
+    """Fee on the amount issued of guarantees and letters of credit [fraction/year]."""
     base_rate: Annotated[float, Field(ge=-0.1, le=0.5)] = 0.0
     funding_spread: Annotated[float, Field(ge=-0.05, le=0.5)] = 0.0
     operating_cost_rate: Annotated[float, Field(ge=0, le=0.2)] = 0.0
+    """Operating cost on the EAD [fraction/year]."""
     capital_return_rate: Annotated[float, Field(ge=-0.1, le=0.5)] = 0.0
     hurdle_rate: Annotated[float, Field(ge=0, le=1)] = 0.12
     capital_basis: Literal["economic", "regulatory"] = "economic"

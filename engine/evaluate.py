@@ -1,8 +1,9 @@
 """The one orchestrator: a validated case in, frozen results out.
 
-Runs the steps in order (trend -> PD -> grade -> exposure -> recovery -> loss -> capital ->
-loss distribution -> pricing) and returns a new :class:`Results`; nothing else changes.
-Every intermediate is kept so the workbench, the memo and the JSON can show their working.
+Runs the steps in order (trend -> PD -> one-year PD and grade -> exposure -> recovery -> loss ->
+capital -> loss distribution -> pricing) and returns a new :class:`Results`; nothing else
+changes. Every intermediate is kept so the workbench, the memo and the JSON can show their
+working. The result types live in :mod:`engine.results`.
 """
 
 from __future__ import annotations
@@ -10,134 +11,52 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-from collections.abc import Mapping
-from dataclasses import dataclass, field, fields, is_dataclass
-from typing import Any
-
-import numpy as np
+from dataclasses import dataclass, replace
 
 from obligor_memo.engine import ENGINE_VERSION
-from obligor_memo.engine.capital import irb_corporate_capital
+from obligor_memo.engine.capital_step import allocate, capital_exposure, capital_figures, economic_basis
 from obligor_memo.engine.case import Case, case_to_dict
+from obligor_memo.engine.deal_pricing import DealPricing, PricingLine, deal_pricing, price_lines
 from obligor_memo.engine.errors import CaseError, Caution
-from obligor_memo.engine.exposure import facility_exposure, resolve_ccf
+from obligor_memo.engine.exposure import FacilityExposure, facility_exposure, resolve_ccf
 from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
-from obligor_memo.engine.lossdist import LossDistribution, loss_distribution
+from obligor_memo.engine.lossdist import loss_distribution
 from obligor_memo.engine.pd_estimate import (MarketResult, PdResult, engine_error, estimate_pd, grade_pd,
-                                term_structure)
-from obligor_memo.engine.pricing import PricingResult, price_borrower
+                                             term_structure)
 from obligor_memo.engine.recovery import (RecoveryLaw, collateral_cover, downturn_lgd, recovery_law,
-                             seniority_recovery_mean)
-from obligor_memo.engine.statements import YearRatios, year_ratios
+                                          secured_supervisory_lgd, seniority_recovery_mean)
+from obligor_memo.engine.results import FacilityResult, Results, Totals
+from obligor_memo.engine.statements import year_ratios
 from obligor_memo.engine.structural import PdTermStructure
-from obligor_memo.engine.trend import AssetTrend
-from obligor_memo.engine.zscore import ZScore, altman_scores
+from obligor_memo.engine.zscore import altman_scores
 
 __all__ = ["Results", "FacilityResult", "Totals", "PdResult", "MarketResult", "evaluate", "estimate_pd",
            "fingerprint"]
 
 
 @dataclass(frozen=True)
-class FacilityResult:
-    id: str
-    kind: str
-    seniority: str
-    maturity_years: float
-    drawn: float
-    committed: float
-    undrawn: float
-    ccf: float
-    ccf_source: str
-    ead: float
-    recovery_mean: float             # unsecured law's mean [fraction]
-    recovery_std: float
-    recovery_upper: float
-    recovery_source: str
-    collateral_value: float          # after haircut [currency]
-    collateral_cover: float          # share of EAD covered [fraction]
-    alpha: float | None              # beta law (None: point mass)
-    beta: float | None
-    recovery_quantiles: dict[str, float]   # of the effective recovery law
-    lgd: float                       # 1 - effective mean recovery
-    lgd_std: float
-    downturn_lgd: float              # LGD used for capital
-    expected_loss: float
-    unexpected_loss: float
-    lifetime_expected_loss: float    # sum over years to maturity of marginal PD x LGD x EAD
-    capital_pd: float                # PD in force after the floor [fraction]
-    capital_maturity: float          # M clamped to [1, 5] [years]
-    correlation: float               # IRB asset correlation (after any firm-size adjustment)
-    maturity_adjustment: float
-    capital_k: float                 # capital per unit EAD [fraction]
-    risk_weight: float               # 12.5 x K (x 1.06 when chosen) [fraction]
-    rwa: float                       # risk weight x EAD [currency]
-    regulatory_capital: float        # K x EAD [currency]
+class PreparedFacility:
+    """Exposure, recovery law and downturn LGD of one facility, before loss and capital."""
 
-
-@dataclass(frozen=True)
-class Totals:
-    ead: float
-    expected_loss: float
-    el_rate: float                   # EL / EAD [fraction]
-    unexpected_loss: float           # std of the borrower's loss, recoveries joined as the case says
-    unexpected_loss_sum: float       # sum of the facilities' ULs (the perfect-correlation figure)
-    lifetime_expected_loss: float
-    rwa: float
-    regulatory_capital: float        # sum K x EAD (= 8 % of RWA without the scaling factor)
-    value_at_risk: float             # q-quantile of the borrower's loss
-    expected_shortfall: float
-    economic_capital: float          # max(VaR - EL, 0)
-    economic_capital_floored: bool
-
-
-@dataclass(frozen=True)
-class Results:
-    engine_version: str
-    fingerprint: str                 # SHA-256 of the canonical case JSON
-    case: Case
-    trend: AssetTrend | None
-    ratios: tuple[YearRatios, ...]
-    pd: PdResult
-    market: MarketResult | None      # when the case has a market block
-    master_scale_source: str         # "case file" or "illustrative default"
-    zscores: tuple[ZScore, ...]      # latest year
-    zscore_history: tuple[tuple[int, str, float | None, str | None], ...]  # (year, variant, score, zone)
-    term_structure: PdTermStructure
-    facilities: tuple[FacilityResult, ...]
-    total: Totals
-    loss_distribution: LossDistribution
-    pricing: PricingResult | None
-    cautions: tuple[Caution, ...]
-    laws: dict[str, RecoveryLaw] = field(repr=False, compare=False)
-    # What-if layers, attached by engine.analysis.analyse (None after a plain evaluate):
-    sensitivity: Any = None          # engine.sensitivity.OneWaySensitivity
-    pd_grid: Any = None              # engine.sensitivity.PdGrid
-    scenarios: Any = None            # tuple[engine.scenarios.ScenarioResult, ...]
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready data: the contract of ``evaluate --json`` plus every intermediate."""
-        out: dict[str, Any] = {"engine_version": self.engine_version, "fingerprint": self.fingerprint}
-        for f in fields(self):
-            if f.name in ("engine_version", "fingerprint", "laws"):
-                continue
-            value = getattr(self, f.name)
-            out[f.name] = case_to_dict(value) if isinstance(value, Case) else _plain(value)
-        return out
-
-
-def _plain(value: Any) -> Any:
-    """Dataclasses, mappings, sequences and numpy values as JSON-ready Python data."""
-    if is_dataclass(value) and not isinstance(value, type):
-        return {f.name: _plain(getattr(value, f.name)) for f in fields(value) if f.repr}
-    if isinstance(value, Mapping):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
-    if hasattr(value, "tolist"):  # numpy arrays and scalars
-        return _plain(value.tolist())
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
+    exposure: FacilityExposure
+    capital_exposure: FacilityExposure
+    """On the CCFs of capital (``capital.capital_ccf``)."""
+    law: RecoveryLaw
+    mean: float
+    """Unsecured law's mean recovery [fraction]."""
+    std: float
+    """[fraction]"""
+    upper: float
+    """[fraction]"""
+    source: str
+    collateral_value: float
+    """After haircut [currency]."""
+    cover: float
+    """Share of EAD covered [fraction]."""
+    secured_lgd: float
+    """LGD of the covered part [fraction]."""
+    downturn_lgd: float
+    """[fraction]"""
 
 
 def canonical_case_json(case: Case) -> bytes:
@@ -171,73 +90,96 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
     cautions: list[Caution] = []
     trend, pd, pd_cautions, market = estimate_pd(case, cross_check=detail)
     cautions.extend(pd_cautions)
-    pd, scale_source = grade_pd(case, pd)
     ts = term_structure(case, pd)
+    pd, scale_source = grade_pd(case, pd)
+    pd1 = pd.pd_one_year
+    if pd.horizon_years != 1.0:
+        cautions.append(Caution("pd.one_year", f"Capital, the IRB EL and RAROC use the one-year PD "
+                                f"({pd1:.4%}, {pd.one_year_basis}); the {pd.horizon_years:g}-year PD "
+                                f"({pd.pd:.4%}) gives the horizon EL, UL, loss distribution and the grade "
+                                "is on the one-year PD.", "pd.horizon_years"))
+    if ts.running_max_from is not None:
+        cautions.append(Caution("pd.term_structure_flat", "The model's cumulative PD falls with time "
+                                f"after year {ts.running_max_from:g}; the term structure holds it at its "
+                                "running maximum (marginal PD 0 from there on), since a cumulative PD "
+                                "cannot fall.", "pd"))
     zscores, z_history, z_cautions = _zscores(case) if detail else ((), (), [])
     cautions.extend(z_cautions)
 
     prepared = [_prepare_facility(case, index, f, pd.grade, cautions)
                 for index, f in enumerate(case.facilities)]
-    laws = {item["exposure"].id: item["law"] for item in prepared}
-    # One vectorised call for every facility's risk weight.
-    # A PD that underflows to 0 is below every floor; the floor then sets the capital PD.
-    cap = irb_corporate_capital(pd=np.full(len(prepared), max(pd.pd, 1e-300)),
-                                lgd=np.array([item["downturn_lgd"] for item in prepared]),
-                                maturity_years=np.array([f.maturity_years for f in case.facilities]),
-                                annual_sales_eur_millions=case.capital.annual_sales_eur_millions,
-                                pd_floor=case.capital.pd_floor,
-                                scaling_factor=1.06 if case.capital.scaling_factor else 1.0)
-    if bool(np.any(cap.floor_binds)):
-        cautions.append(Caution("capital.pd_floor", f"The PD floor of {case.capital.pd_floor:.2%} "
-                                f"binds in the risk weights (PD in force {pd.pd:.4%}).", "capital.pd_floor"))
-    levels = np.array([0.05, 0.25, 0.5, 0.75, 0.95])
+    laws = {item.exposure.id: item.law for item in prepared}
+    cap = capital_figures(case, pd_one_year=pd1, capital_eads=[p.capital_exposure.ead for p in prepared],
+                          downturn_lgds=[p.downturn_lgd for p in prepared],
+                          economic_eads=[p.exposure.ead for p in prepared],
+                          mean_lgds=[p.law.lgd for p in prepared], cautions=cautions)
+    eads = [p.exposure.ead for p in prepared]
+    law_list = [p.law for p in prepared]
+    conf, join = case.capital.confidence, case.capital.recovery_join
+    dist = loss_distribution(pd=pd.pd, exposures=eads, recovery_laws=law_list, confidence=conf, join=join,
+                             n_curve=61 if detail else 2)
+    dist1 = dist if pd1 == pd.pd else loss_distribution(pd=pd1, exposures=eads, recovery_laws=law_list,
+                                                        confidence=conf, join=join, n_curve=2)
+    if dist1.capital_floored:
+        cautions.append(Caution("capital.economic_floor", "The standalone economic capital is floored at "
+                                f"zero: the one-year PD ({pd1:.4%}) is at or below 1 - confidence "
+                                f"({1 - conf:.2%}), so the loss quantile is zero"
+                                + ("; the single-factor capital in force is not." if
+                                   case.capital.economic_method == "single_factor" else "."),
+                                "capital.confidence"))
+    single_factor = [float(x) for x in cap.economic_single_factor]
+    standalone = allocate(dist1.economic_capital, [p.exposure.ead * p.law.lgd for p in prepared])
+    economic = single_factor if case.capital.economic_method == "single_factor" else standalone
+
+    levels = [0.05, 0.25, 0.5, 0.75, 0.95]
     facilities: list[FacilityResult] = []
     for i, (f, item) in enumerate(zip(case.facilities, prepared)):
-        exp, law = item["exposure"], item["law"]
+        exp, law, cexp = item.exposure, item.law, item.capital_exposure
         lgd, lgd_std = law.lgd, law.std()
         quantiles = {f"q{int(round(q * 100)):02d}": float(v) for q, v in zip(levels, law.ppf(levels))}
         facilities.append(FacilityResult(
             id=f.id, kind=f.kind, seniority=f.seniority, maturity_years=f.maturity_years,
             drawn=exp.drawn, committed=exp.committed, undrawn=exp.undrawn, ccf=exp.ccf,
-            ccf_source=exp.ccf_source, ead=exp.ead, recovery_mean=item["mean"], recovery_std=item["std"],
-            recovery_upper=item["upper"], recovery_source=item["source"],
-            collateral_value=item["collateral_value"], collateral_cover=item["cover"],
+            ccf_source=exp.ccf_source, ead=exp.ead, recovery_mean=item.mean, recovery_std=item.std,
+            recovery_upper=item.upper, recovery_source=item.source,
+            collateral_value=item.collateral_value, collateral_cover=item.cover, secured_lgd=item.secured_lgd,
             alpha=law.alpha, beta=law.beta, recovery_quantiles=quantiles,
-            lgd=lgd, lgd_std=lgd_std, downturn_lgd=item["downturn_lgd"],
+            lgd=lgd, lgd_std=lgd_std, downturn_lgd=item.downturn_lgd,
             expected_loss=expected_loss(ead=exp.ead, pd=pd.pd, lgd=lgd),
+            expected_loss_one_year=expected_loss(ead=exp.ead, pd=pd1, lgd=lgd),
             unexpected_loss=unexpected_loss(ead=exp.ead, pd=pd.pd, lgd=lgd, lgd_std=lgd_std),
             lifetime_expected_loss=exp.ead * lgd * _lifetime_pd_share(ts, f.maturity_years),
-            capital_pd=float(cap.pd_used[i]), capital_maturity=float(cap.maturity_used[i]),
+            capital_pd=float(cap.pd_used[i]), capital_ead=cexp.ead, capital_ccf=cexp.ccf,
+            capital_lgd=float(cap.lgd[i]), capital_maturity=float(cap.maturity[i]),
             correlation=float(cap.correlation[i]), maturity_adjustment=float(cap.maturity_adjustment[i]),
             capital_k=float(cap.k[i]), risk_weight=float(cap.risk_weight[i]),
-            rwa=float(cap.risk_weight[i]) * exp.ead, regulatory_capital=float(cap.k[i]) * exp.ead,
+            rwa=float(cap.risk_weight[i]) * cexp.ead, regulatory_capital=float(cap.regulatory_capital[i]),
+            regulatory_expected_loss=float(cap.regulatory_expected_loss[i]),
+            economic_correlation=float(cap.economic_correlation[i]),
+            economic_capital_single_factor=single_factor[i], economic_capital=economic[i],
         ))
 
     total_ead = sum(f.ead for f in facilities)
     total_el = sum(f.expected_loss for f in facilities)
-    dist = loss_distribution(pd=pd.pd, exposures=[f.ead for f in facilities],
-                             recovery_laws=[laws[f.id] for f in facilities],
-                             confidence=case.capital.confidence, join=case.capital.recovery_join,
-                             n_curve=61 if detail else 2)
-    if dist.capital_floored:
-        cautions.append(Caution("capital.economic_floor", "Economic capital is floored at zero: the "
-                                f"PD in force ({pd.pd:.4%}) is at or below 1 - confidence "
-                                f"({1 - case.capital.confidence:.2%}), so the loss quantile is zero.",
-                                "capital.confidence"))
     total = Totals(
-        ead=total_ead, expected_loss=total_el, el_rate=total_el / total_ead if total_ead > 0 else 0.0,
+        ead=total_ead, horizon_years=pd.horizon_years, pd_horizon=pd.pd, pd_one_year=pd1,
+        expected_loss=total_el, expected_loss_one_year=sum(f.expected_loss_one_year for f in facilities),
+        regulatory_expected_loss=sum(f.regulatory_expected_loss for f in facilities),
+        el_rate=total_el / total_ead if total_ead > 0 else 0.0,
         unexpected_loss=borrower_unexpected_loss(
-            eads=[f.ead for f in facilities], lgds=[f.lgd for f in facilities],
-            lgd_stds=[f.lgd_std for f in facilities], pd=pd.pd, join=case.capital.recovery_join,
-            laws=[laws[f.id] for f in facilities]),
+            eads=eads, lgds=[f.lgd for f in facilities], lgd_stds=[f.lgd_std for f in facilities],
+            pd=pd.pd, join=join, laws=law_list),
         unexpected_loss_sum=sum(f.unexpected_loss for f in facilities),
         lifetime_expected_loss=sum(f.lifetime_expected_loss for f in facilities),
         rwa=sum(f.rwa for f in facilities),
         regulatory_capital=sum(f.regulatory_capital for f in facilities),
         value_at_risk=dist.var, expected_shortfall=dist.expected_shortfall,
-        economic_capital=dist.economic_capital, economic_capital_floored=dist.capital_floored,
+        economic_method=case.capital.economic_method,
+        economic_basis=economic_basis(case, float(cap.economic_correlation[0])),
+        economic_capital=sum(economic), economic_capital_single_factor=sum(single_factor),
+        economic_capital_standalone=dist1.economic_capital, economic_capital_floored=dist1.capital_floored,
     )
-    pricing, pricing_cautions = _price(case, total)
+    pricing, pricing_cautions = _price(case, tuple(facilities), total)
     cautions.extend(pricing_cautions)
     return Results(engine_version=ENGINE_VERSION, fingerprint=fingerprint(case), case=case, trend=trend,
                    ratios=year_ratios(case.statements), pd=pd, market=market, master_scale_source=scale_source,
@@ -247,7 +189,7 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
 
 
 def _prepare_facility(case: Case, index: int, f, grade: str | None,
-                      cautions: list[Caution]) -> dict[str, Any]:
+                      cautions: list[Caution]) -> PreparedFacility:
     """Exposure, recovery law and downturn LGD of one facility."""
     ccf_table = ([(r.grade, r.ccf, r.kind) for r in case.exposure.ccf_by_grade]
                  if case.exposure.ccf_by_grade else None)
@@ -259,24 +201,40 @@ def _prepare_facility(case: Case, index: int, f, grade: str | None,
     if f.drawn > f.committed:
         cautions.append(Caution("exposure.overdrawn", f"Facility {f.id}: drawn exceeds committed; "
                                 "EAD is the drawn amount (no undrawn part).", f"facilities[{index}].drawn"))
+    coll = f.collateral
     if f.recovery is not None:
         mean, std, upper = f.recovery.mean, f.recovery.std, f.recovery.upper
         source = "set on the facility"
+        if upper > 1.0:
+            cautions.append(Caution("recovery.above_par", f"Facility {f.id}: recoveries up to {upper:.0%} "
+                                    "of EAD (above par) are allowed, so the loss given default can be "
+                                    "negative in some outcomes; check the support against the "
+                                    "institution's recovery data.", f"facilities[{index}].recovery.upper"))
     else:
-        mean, source = seniority_recovery_mean(f.seniority, case.lgd.standard)
+        # The uncovered part of a secured facility with a collateral block recovers as unsecured:
+        # the secured LGD is applied to the covered part only (see engine.recovery).
+        seniority = "senior_unsecured" if (f.seniority == "senior_secured" and coll) else f.seniority
+        mean, source = seniority_recovery_mean(seniority, case.lgd.standard)
         std, upper = case.lgd.default_recovery_std, 1.0
         limit = math.sqrt(mean * (1 - mean))
         if std >= limit:
             raise CaseError.single("lgd.default_recovery_std", std,
                                    f"below {limit:.4f} for the default mean recovery {mean:.2f} "
                                    f"of facility {f.id}")
-    coll = f.collateral
+    secured_lgd, _ = secured_supervisory_lgd(case.lgd.standard)
     cover = collateral_cover(collateral_value=coll.value, haircut=coll.haircut, ead=exp.ead) if coll else 0.0
-    law = recovery_law(mean=mean, std=std, upper=upper, collateral_cover=cover)
+    try:
+        law = recovery_law(mean=mean, std=std, upper=upper, collateral_cover=cover,
+                           secured_recovery=1.0 - secured_lgd)
+    except ValueError as exc:
+        where = f"facilities[{index}].recovery" if f.recovery is not None else "lgd.default_recovery_std"
+        raise engine_error(where, exc) from None
     dt = case.lgd.downturn
-    return {"exposure": exp, "law": law, "mean": mean, "std": std, "upper": upper, "source": source,
-            "collateral_value": coll.value * (1 - coll.haircut) if coll else 0.0, "cover": cover,
-            "downturn_lgd": downturn_lgd(law, method=dt.method, quantile=dt.quantile, add_on=dt.add_on)}
+    return PreparedFacility(
+        exposure=exp, capital_exposure=capital_exposure(case, f, exp), law=law, mean=mean, std=std,
+        upper=upper, source=source, collateral_value=coll.value * (1 - coll.haircut) if coll else 0.0,
+        cover=cover, secured_lgd=secured_lgd if cover > 0 else 0.0,
+        downturn_lgd=downturn_lgd(law, method=dt.method, quantile=dt.quantile, add_on=dt.add_on))
 
 
 def _zscores(case: Case):
@@ -308,19 +266,32 @@ def _zscores(case: Case):
     return latest, history, cautions
 
 
-def _price(case: Case, total: Totals) -> tuple[PricingResult | None, list[Caution]]:
-    """RAROC on the borrower's total EAD with the capital basis the case chooses."""
+def _price(case: Case, facilities: tuple[FacilityResult, ...],
+           total: Totals) -> tuple[DealPricing | None, list[Caution]]:
+    """RAROC per facility and for the relationship, each rate on the amount it accrues on."""
     p = case.pricing
     if p is None:
         return None, []
-    capital = total.economic_capital if p.capital_basis == "economic" else total.regulatory_capital
-    if capital <= 0 or total.ead <= 0:
-        return None, [Caution("pricing.undefined", f"RAROC is undefined: {p.capital_basis} capital is "
-                              "zero. Choose pricing.capital_basis: regulatory, or review the inputs.",
-                              "pricing.capital_basis")]
-    result = price_borrower(exposure=total.ead, proposed_spread=p.proposed_spread, fee_rate=p.fee_rate,
-                            base_rate=p.base_rate, funding_spread=p.funding_spread,
-                            operating_cost_rate=p.operating_cost_rate, expected_loss=total.expected_loss,
-                            capital=min(capital, total.ead), capital_return_rate=p.capital_return_rate,
-                            hurdle_rate=p.hurdle_rate)
-    return result, []
+    keys = ("proposed_spread", "fee_rate", "commitment_fee_rate", "issuance_fee_rate", "funding_spread",
+            "operating_cost_rate")
+    lines = []
+    for spec, f in zip(case.facilities, facilities):
+        own = spec.pricing
+        rate = {k: getattr(own, k) if own is not None and getattr(own, k) is not None else getattr(p, k)
+                for k in keys}
+        lines.append(PricingLine(id=f.id, kind=f.kind, drawn=f.drawn, undrawn=f.undrawn, ead=f.ead,
+                                 expected_loss=f.expected_loss_one_year,
+                                 capital_regulatory=f.regulatory_capital,
+                                 capital_economic=f.economic_capital, **rate))
+    per_facility, relationship = price_lines(lines, base_rate=p.base_rate,
+                                             capital_return_rate=p.capital_return_rate,
+                                             hurdle_rate=p.hurdle_rate, capital_basis=p.capital_basis,
+                                             deal_spread=p.proposed_spread)
+    label = ("regulatory capital (8 % of RWA, one-year PD)" if p.capital_basis == "regulatory" else
+             f"economic capital ({total.economic_method.replace('_', '-')}, one-year PD)")
+    cautions = []
+    if relationship.raroc is None:
+        cautions.append(Caution("pricing.undefined", f"RAROC is undefined: the {p.capital_basis} capital "
+                                "is zero. The minimum spread is still computed; choose the other "
+                                "pricing.capital_basis or review the inputs.", "pricing.capital_basis"))
+    return deal_pricing(per_facility, relationship, rates={k: getattr(p, k) for k in keys}, label=label), cautions

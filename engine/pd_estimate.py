@@ -18,7 +18,7 @@ from obligor_memo.engine.grading import DEFAULT_MASTER_SCALE, assign_grade, mast
 from obligor_memo.engine.market import MertonSolution, solve_merton
 from obligor_memo.engine.naive_dd import NaiveDD, naive_distance_to_default
 from obligor_memo.engine.structural import (PdTermStructure, balance_sheet_pd, constant_hazard_term_structure,
-                               pd_from_distance, structural_term_structure)
+                               distance_to_default, pd_from_distance, structural_term_structure)
 from obligor_memo.engine.trend import AssetTrend, fit_asset_trend
 
 
@@ -26,34 +26,54 @@ from obligor_memo.engine.trend import AssetTrend, fit_asset_trend
 class PdResult:
     """The PD in force and how it was reached. Rates [fraction], money [currency]."""
 
-    method: str                      # balance_sheet | market
-    measure: str                     # physical | risk_neutral
+    method: str
+    """balance_sheet | market"""
+    measure: str
+    """physical | risk_neutral"""
     asset_value: float
-    asset_growth: float | None       # [1/year] (balance sheet)
-    asset_volatility: float          # [1/sqrt(year)]
-    asset_return: float              # drift used in DD [1/year]
+    asset_growth: float | None
+    """[1/year] (balance sheet)."""
+    asset_volatility: float
+    """[1/sqrt(year)]."""
+    asset_return: float
+    """Drift used in DD [1/year]."""
     default_point: float
     short_term_share: float
     long_term_share: float
     horizon_years: float
+    """[years]"""
     distance_to_default: float
-    model_pd: float                  # the model's PD
-    pd: float                        # the PD in force (override where set)
+    model_pd: float
+    """The model's PD over the horizon [fraction]."""
+    pd: float
+    """The PD in force over the horizon (override where set, converted to the horizon) [fraction]."""
     overridden: bool
     override_reason: str | None
     grade: str | None
-    grade_lower: float | None        # band (lower, upper] of the grade
+    grade_lower: float | None
+    """Band (lower, upper] of the grade."""
     grade_upper: float | None
+    pd_one_year: float = math.nan
+    """One-year PD in force [fraction]: the PD of capital, IRB EL and RAROC (CRE32.3)."""
+    one_year_basis: str = ""
+    """How ``pd_one_year`` was obtained from the model or the override."""
+    override_input: float | None = None
+    """The analyst's PD as typed [fraction], before any horizon conversion."""
+    override_horizon_years: float | None = None
+    """Horizon the override is stated for [years] (None: no override)."""
 
 
 @dataclass(frozen=True)
 class MarketResult:
     """Market-implied PD (Merton 1974) and the naive cross-check (Bharath and Shumway 2008)."""
 
-    default_point: float             # the debt barrier D [currency]
-    merton: MertonSolution | None    # None when the solve failed (see message)
+    default_point: float
+    """the debt barrier D [currency]"""
+    merton: MertonSolution | None
+    """None when the solve failed (see message)"""
     naive: NaiveDD
-    message: str                     # "" or why the Merton solve failed
+    message: str
+    """"" or why the Merton solve failed"""
 
 
 def engine_error(field: str, exc: ValueError) -> CaseError:
@@ -120,14 +140,45 @@ def estimate_pd(case: Case, *, cross_check: bool = True
     return trend, *_with_override(settings, result, cautions), market
 
 
+def hazard_convert(pd: float, *, from_years: float, to_years: float) -> float:
+    """PD over ``to_years`` from a PD over ``from_years`` at a constant hazard [fraction].
+
+    1 - (1 - PD)^(to / from): the constant-hazard rule of the term structure
+    (``constant_hazard_term_structure``); the identity when the horizons agree.
+    """
+    if from_years == to_years or pd >= 1.0:
+        return pd
+    return -math.expm1(to_years / from_years * math.log1p(-pd))
+
+
 def _with_override(settings, result: PdResult, cautions: list[Caution]) -> tuple[PdResult, list[Caution]]:
+    """The PD in force over the horizon and over one year, the override converted where set."""
+    horizon = settings.horizon_years
     if settings.override is None:
-        return result, cautions
+        if horizon == 1.0:
+            one_year, basis = result.pd, "the model's PD (horizon one year)"
+        else:
+            dd1 = distance_to_default(asset_value=result.asset_value, default_point=result.default_point,
+                                      asset_return=result.asset_return,
+                                      asset_volatility=result.asset_volatility, horizon_years=1.0)
+            one_year = float(pd_from_distance(dd1))
+            basis = (f"the model's PD at one year (same asset value, default point and drift; "
+                     f"the {horizon:g}-year PD is for the horizon figures)")
+        return replace(result, pd_one_year=one_year, one_year_basis=basis), cautions
+    stated = settings.override_horizon_years or horizon
+    in_force = hazard_convert(settings.override, from_years=stated, to_years=horizon)
+    one_year = hazard_convert(settings.override, from_years=stated, to_years=1.0)
+    converted = ("" if stated == horizon else
+                 f", stated over {stated:g} years and converted to the {horizon:g}-year horizon "
+                 f"({in_force:.4%}) at a constant hazard")
     cautions.append(Caution("pd.override", f"The analyst's PD of {settings.override:.4%} is used "
-                            f"instead of the model's {result.model_pd:.4%}. Reason: "
+                            f"instead of the model's {result.model_pd:.4%}{converted}. Reason: "
                             f"{settings.override_reason}", "pd.override"))
-    return replace(result, pd=settings.override, overridden=True,
-                   override_reason=settings.override_reason), cautions
+    basis = ("the analyst's override" if stated == 1.0 else
+             f"the analyst's {stated:g}-year override at a constant hazard: 1 - (1 - PD)^(1/{stated:g})")
+    return replace(result, pd=in_force, overridden=True, override_reason=settings.override_reason,
+                   pd_one_year=one_year, one_year_basis=basis, override_input=settings.override,
+                   override_horizon_years=stated), cautions
 
 
 def _market(case: Case, *, required: bool) -> MarketResult:
@@ -203,6 +254,7 @@ def grade_pd(case: Case, pd: PdResult) -> tuple[PdResult, str]:
         source = "case file"
     else:
         scale, source = DEFAULT_MASTER_SCALE, "illustrative default"
+    # Master scales are one-year scales: the one-year PD is graded.
     # A PD that underflows to 0 belongs to the best grade (lower bounds are exclusive).
-    grade = assign_grade(max(pd.pd, 1e-300), scale)
+    grade = assign_grade(max(pd.pd_one_year, 1e-300), scale)
     return replace(pd, grade=grade.grade, grade_lower=grade.pd_lower, grade_upper=grade.pd_upper), source

@@ -5,9 +5,20 @@ beta = (1 - m) k (method of moments for the beta distribution; e.g. Johnson, Kot
 Balakrishnan, Continuous Univariate Distributions, vol. 2, ch. 25). Feasible only when
 v < m (1 - m); the largest std allowed is upper sqrt(m (1 - m)). A std of 0 is a point mass.
 
-Collateral: after its haircut, collateral C* covers the share c = min(C* / EAD, 1) of the exposure
-in full and the rest recovers as the unsecured law: R = c + (1 - c) R_u, so LGD = (1 - c) LGD_u,
-the exposure-reduction logic of Basel II paragraph 147 (E* = E - C(1 - Hc)) applied to the LGD.
+Collateral: after its haircut, collateral C* covers the share c = min(C* / EAD, 1) of the exposure.
+One rule, the foundation approach's for collateralised exposures (Basel III CRE32.9-CRE32.11:
+LGD* = LGD_U x E_U / E + LGD_S x E_S / E; Basel II paras 289-295; from memory): the covered part
+takes the secured supervisory LGD_S (20 % Basel III, 35 % Basel II, receivables or real estate)
+and the rest recovers as the unsecured law R_u, so R = c (1 - LGD_S) + (1 - c) R_u and
+LGD = c LGD_S + (1 - c) LGD_u. The uncovered part of a ``senior_secured`` facility takes the
+senior unsecured LGD: the secured LGD is never applied to the whole exposure and then again to
+the covered part. A ``senior_secured`` facility without a collateral block takes the secured
+LGD_S as its mean LGD on the whole exposure (the seniority states full cover; the spread of the
+default recovery law stays).
+
+Recoveries above par: for bonds a law on [0, upper] with upper up to 1.5 is accepted (recoveries
+can exceed par once accrued interest and post-default prices are counted; common practice uses
+upper 1.1); the LGD outcome 1 - R may then be negative.
 
 Default recovery by seniority, from the Basel foundation-IRB supervisory LGDs:
 Basel II (June 2006) para 287: senior unsecured corporate claims 45 %; para 288: subordinated 75 %;
@@ -23,6 +34,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from scipy import special
@@ -35,6 +47,20 @@ _SUPERVISORY_LGD = {
                   "senior_unsecured": (0.40, "Basel III final CRE32.6 (senior unsecured, non-financial corporate)"),
                   "subordinated": (0.75, "Basel III final CRE32.8 (subordinated)")},
 }
+
+
+_LEAD_TERM = 1e-8
+"""Below this distance to an end of [0, 1] the beta law's leading tail term is used."""
+MAX_UPPER = 1.5
+"""Largest top of a recovery law's support [fraction of EAD]."""
+
+
+def secured_supervisory_lgd(standard: str = "basel_iii") -> tuple[float, str]:
+    """The foundation-IRB LGD_S of the covered part (receivables, real estate), with its source."""
+    try:
+        return _SUPERVISORY_LGD[standard]["senior_secured"]
+    except KeyError:
+        raise ValueError(f"lgd.standard: got {standard!r}; allowed: basel_iii, basel_ii") from None
 
 
 def seniority_recovery_mean(seniority: str, standard: str = "basel_iii") -> tuple[float, str]:
@@ -55,8 +81,8 @@ def largest_feasible_std(*, mean: float, upper: float = 1.0) -> float:
 
 def beta_parameters_from_moments(*, mean: float, std: float, upper: float = 1.0) -> tuple[float, float]:
     """(alpha, beta) of the beta law on [0, upper] with the given mean and std (method of moments)."""
-    if not (0 < upper <= 1):
-        raise ValueError(f"recovery.upper: got {upper!r}; allowed: a number above 0 up to 1")
+    if not (0 < upper <= MAX_UPPER):
+        raise ValueError(f"recovery.upper: got {upper!r}; allowed: a number above 0 up to {MAX_UPPER:g}")
     if not (0 < mean < upper):
         raise ValueError(f"recovery.mean: got {mean!r}; allowed: strictly between 0 and upper = {upper:g} "
                          "for a beta law (0 or upper only with std 0)")
@@ -72,18 +98,26 @@ def beta_parameters_from_moments(*, mean: float, std: float, upper: float = 1.0)
 
 @dataclass(frozen=True)
 class RecoveryLaw:
-    """Recovery rate R = floor + (1 - floor) x upper x B, B ~ beta(alpha, beta) (or a point mass).
+    """Recovery rate R = c r_s + (1 - c) x upper x B, B ~ beta(alpha, beta) (or a point mass).
 
-    ``floor`` is the collateral cover c [fraction of EAD]. Methods follow scipy's frozen
-    distributions (ppf, cdf, pdf, mean, var, std) and use scipy.special for speed.
+    Methods follow scipy's frozen distributions (ppf, cdf, pdf, mean, var, std) and use
+    scipy.special for speed.
     """
 
-    unsecured_mean: float          # [fraction]
-    unsecured_std: float           # [fraction]
-    upper: float                   # [fraction]
-    alpha: float | None            # None for a point mass
+    unsecured_mean: float
+    """Mean of the unsecured law R_u [fraction]."""
+    unsecured_std: float
+    """Standard deviation of R_u [fraction]."""
+    upper: float
+    """Top of R_u's support, up to 1.5 [fraction]."""
+    alpha: float | None
+    """Beta shape a; None for a point mass."""
     beta: float | None
-    floor: float = 0.0             # collateral cover c [fraction]
+    """Beta shape b; None for a point mass."""
+    floor: float = 0.0
+    """Collateral cover c, the share of EAD covered [fraction]."""
+    secured_recovery: float = 1.0
+    """Recovery r_s = 1 - LGD_S of the covered part [fraction]."""
 
     @property
     def point_mass(self) -> bool:
@@ -93,8 +127,18 @@ class RecoveryLaw:
     def scale(self) -> float:
         return (1.0 - self.floor) * self.upper
 
+    @property
+    def offset(self) -> float:
+        """The covered part's fixed recovery c r_s [fraction]."""
+        return self.floor * self.secured_recovery
+
+    @property
+    def top(self) -> float:
+        """Largest recovery: c r_s + (1 - c) upper [fraction]."""
+        return self.offset + self.scale
+
     def mean(self) -> float:
-        return self.floor + (1.0 - self.floor) * self.unsecured_mean
+        return self.offset + (1.0 - self.floor) * self.unsecured_mean
 
     def var(self) -> float:
         return ((1.0 - self.floor) * self.unsecured_std) ** 2
@@ -102,20 +146,42 @@ class RecoveryLaw:
     def std(self) -> float:
         return math.sqrt(self.var())
 
+    @cached_property
+    def median_split(self) -> float:
+        """u = I_{1/2}(a, b): below it the beta quantile is under 1/2, above it over 1/2."""
+        return float(special.betainc(self.alpha, self.beta, 0.5))
+
+    @cached_property
+    def _log_beta(self) -> float:
+        return float(special.betaln(self.alpha, self.beta))
+
+    def _unit_quantile(self, q: np.ndarray) -> np.ndarray:
+        """Quantile of B ~ beta(a, b) accurate near both ends.
+
+        Below the median split, z = I^-1_q(a, b); above it, z = 1 - I^-1_{1-q}(b, a), so a
+        quantile close to 1 keeps its distance to 1 (the symmetry I_x(a, b) = 1 - I_{1-x}(b, a)).
+        Deep in either tail the leading term I_z(a, b) ~ z^a / (a B(a, b)) (Abramowitz and
+        Stegun 26.5.4) is inverted in logarithms: with shapes far below 1 (a std near its limit)
+        the law is almost two atoms at 0 and 1 and the iterative inverse loses its digits.
+        """
+        a, b = self.alpha, self.beta
+        split = self.median_split
+        log_beta = self._log_beta
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            low = special.betaincinv(a, b, q)
+            low_lead = np.exp((np.log(q) + math.log(a) + log_beta) / a)
+            low = np.where((low_lead < _LEAD_TERM) | np.isnan(low), low_lead, low)
+            high = special.betaincinv(b, a, 1.0 - q)
+            high_lead = np.exp((np.log1p(-q) + math.log(b) + log_beta) / b)
+            high = np.where((high_lead < _LEAD_TERM) | np.isnan(high), high_lead, high)
+        return np.where(q <= split, low, 1.0 - high)
+
     def ppf(self, q):
         q = np.asarray(q, dtype=float)
         if self.point_mass:
             out = np.full_like(q, self.mean())
         else:
-            z = special.betaincinv(self.alpha, self.beta, q)
-            # betaincinv gives NaN far in the left tail; there I_z(a, b) ~ z^a / (a B(a, b))
-            # (Abramowitz and Stegun 26.5.4, leading term), so z ~ (q a B(a, b))^(1/a).
-            if np.any(np.isnan(z)):
-                with np.errstate(divide="ignore"):
-                    tail = np.exp((np.log(q) + math.log(self.alpha)
-                                   + special.betaln(self.alpha, self.beta)) / self.alpha)
-                z = np.where(np.isnan(z) & (q > 0) & (q < 1e-100), tail, z)
-            out = self.floor + self.scale * z
+            out = self.offset + self.scale * self._unit_quantile(q)
         return float(out) if out.ndim == 0 else out
 
     def cdf(self, x):
@@ -123,7 +189,7 @@ class RecoveryLaw:
         if self.point_mass:
             out = (x >= self.mean()).astype(float)
         else:
-            z = np.clip((x - self.floor) / self.scale, 0.0, 1.0)
+            z = np.clip((x - self.offset) / self.scale, 0.0, 1.0)
             out = special.betainc(self.alpha, self.beta, z)
         return float(out) if out.ndim == 0 else out
 
@@ -132,7 +198,7 @@ class RecoveryLaw:
         x = np.asarray(x, dtype=float)
         if self.point_mass:
             return np.zeros_like(x)
-        z = (x - self.floor) / self.scale
+        z = (x - self.offset) / self.scale
         inside = (z > 0) & (z < 1)
         zc = np.where(inside, z, 0.5)
         log_pdf = ((self.alpha - 1) * np.log(zc) + (self.beta - 1) * np.log1p(-zc)
@@ -150,9 +216,34 @@ class RecoveryLaw:
             raise ValueError(f"u: got {u!r}; allowed: 0 to 1")
         if self.point_mass:
             return self.mean() * u
-        x = special.betaincinv(self.alpha, self.beta, u)
-        partial = self.alpha / (self.alpha + self.beta) * special.betainc(self.alpha + 1.0, self.beta, x)
-        return float(self.floor * u + self.scale * partial)
+        a, b = self.alpha, self.beta
+        m = a / (a + b)
+        if u <= 0.0:
+            return 0.0
+        log_beta = self._log_beta
+        if u <= self.median_split:
+            x = float(self._unit_quantile(np.asarray(u)))
+            if x < _LEAD_TERM:
+                # I_x(a + 1, b) ~ x^(a+1) / ((a + 1) B(a + 1, b)), the leading term (A&S 26.5.4).
+                incomplete = math.exp((a + 1.0) * math.log(x) - math.log(a + 1.0)
+                                      - special.betaln(a + 1.0, b)) if x > 0 else 0.0
+            else:
+                incomplete = float(special.betainc(a + 1.0, b, x))
+            partial = m * incomplete
+        else:
+            # I_x(a + 1, b) = I_x(a, b) - x^a (1 - x)^b / (a B(a, b)) (Abramowitz and Stegun
+            # 26.5.16), so E[B 1{B <= x}] = m (u - T), T = x^a (1 - x)^b / (a B(a, b)), with
+            # y = 1 - x taken from its own end and T in logarithms. Deep in the upper tail the
+            # leading term 1 - u ~ y^b / (b B(a, b)) gives T = (1 - u) b / a (1 - y)^a.
+            y = 1.0 - float(self._unit_quantile(np.asarray(u))) if u < 1.0 else 0.0
+            if u >= 1.0:
+                t = 0.0
+            elif y < _LEAD_TERM:
+                t = (1.0 - u) * b / a * (1.0 - y) ** a
+            else:
+                t = math.exp(a * math.log1p(-y) + b * math.log(y) - math.log(a) - log_beta)
+            partial = m * (u - t)
+        return float(self.offset * u + self.scale * partial)
 
     @property
     def lgd(self) -> float:
@@ -160,11 +251,24 @@ class RecoveryLaw:
         return 1.0 - self.mean()
 
 
-def recovery_law(*, mean: float, std: float, upper: float = 1.0, collateral_cover: float = 0.0) -> RecoveryLaw:
-    """Fit the unsecured beta law by moments (std 0 gives a point mass) and apply collateral cover."""
+def recovery_law(*, mean: float, std: float, upper: float = 1.0, collateral_cover: float = 0.0,
+                 secured_recovery: float = 1.0) -> RecoveryLaw:
+    """Fit the unsecured beta law by moments (std 0 gives a point mass) and apply collateral cover.
+
+    Parameters
+    ----------
+    mean, std : moments of the unsecured recovery R_u [fraction].
+    upper : top of R_u's support, in (0, 1.5] [fraction].
+    collateral_cover : share c of EAD covered by collateral after haircut, in [0, 1] [fraction].
+    secured_recovery : recovery r_s = 1 - LGD_S of the covered part, in [0, 1] [fraction].
+    """
     if not 0 <= collateral_cover <= 1:
         raise ValueError(f"collateral cover: got {collateral_cover!r}; allowed: 0 to 1")
-    if not (0 <= mean <= upper <= 1):
+    if not 0 <= secured_recovery <= 1:
+        raise ValueError(f"secured recovery: got {secured_recovery!r}; allowed: 0 to 1")
+    if not (0 < upper <= MAX_UPPER):
+        raise ValueError(f"recovery.upper: got {upper!r}; allowed: above 0 up to {MAX_UPPER:g}")
+    if not (0 <= mean <= upper):
         raise ValueError(f"recovery.mean: got {mean!r}; allowed: 0 to upper = {upper:g}")
     if std < 1e-9 and std != 0:
         raise ValueError(f"recovery.std: got {std!r}; allowed: 0 (a fixed recovery) or at least 1e-9")
@@ -172,9 +276,9 @@ def recovery_law(*, mean: float, std: float, upper: float = 1.0, collateral_cove
         if std != 0:
             raise ValueError(f"recovery.std: got {std!r}; allowed: 0 when the mean is {mean:g} "
                              f"(at the edge of [0, {upper:g}])")
-        return RecoveryLaw(mean, 0.0, upper, None, None, collateral_cover)
+        return RecoveryLaw(mean, 0.0, upper, None, None, collateral_cover, secured_recovery)
     alpha, beta = beta_parameters_from_moments(mean=mean, std=std, upper=upper)
-    return RecoveryLaw(mean, std, upper, alpha, beta, collateral_cover)
+    return RecoveryLaw(mean, std, upper, alpha, beta, collateral_cover, secured_recovery)
 
 
 def collateral_cover(*, collateral_value: float, haircut: float, ead: float) -> float:

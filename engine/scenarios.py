@@ -37,6 +37,8 @@ from pydantic import BaseModel
 from obligor_memo.engine.case import Case, Facility, ScenarioValue, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError, Problem
 from obligor_memo.engine.evaluate import Results, evaluate
+from obligor_memo.engine.results import ScenarioResult
+from obligor_memo.engine.whatif_types import Headline, HeadlineDelta
 
 _FROZEN_SECTIONS = ("statements", "scenarios")
 
@@ -287,24 +289,6 @@ def remap_problems(problems: typing.Iterable[Problem], located: list[tuple[str, 
 # --------------------------------------------------------------------------- evaluating scenarios
 
 
-@dataclass(frozen=True)
-class Headline:
-    """The figures a committee compares across scenarios. Rates [fraction], money [currency]."""
-
-    pd: float                        # PD in force (the override where set)
-    model_pd: float                  # the model's PD
-    distance_to_default: float       # [standard deviations]
-    default_point: float             # [currency]
-    asset_growth: float | None       # [1/year]; None where the PD method has no growth input
-    asset_volatility: float          # [1/sqrt(year)]
-    grade: str | None
-    ead: float                       # total EAD [currency]
-    expected_loss: float             # [currency]
-    el_rate: float                   # EL / EAD [fraction]
-    unexpected_loss: float           # [currency]
-    rwa: float                       # [currency]
-    economic_capital: float          # [currency]
-    raroc: float | None              # [fraction/year]; None without pricing or capital
 
 
 _NUMERIC = ("pd", "model_pd", "distance_to_default", "default_point", "asset_growth",
@@ -312,24 +296,6 @@ _NUMERIC = ("pd", "model_pd", "distance_to_default", "default_point", "asset_gro
             "economic_capital", "raroc")
 
 
-@dataclass(frozen=True)
-class HeadlineDelta:
-    """Scenario minus base for each numeric headline figure (None where either side is None)."""
-
-    pd: float
-    model_pd: float
-    distance_to_default: float
-    default_point: float
-    asset_growth: float | None
-    asset_volatility: float
-    ead: float
-    expected_loss: float
-    el_rate: float
-    unexpected_loss: float
-    rwa: float
-    economic_capital: float
-    raroc: float | None
-    grade_changed: bool
 
 
 def headline_figures(results: Results) -> Headline:
@@ -353,17 +319,6 @@ def headline_delta(scenario: Headline, base: Headline) -> HeadlineDelta:
     return HeadlineDelta(**values, grade_changed=scenario.grade != base.grade)
 
 
-@dataclass(frozen=True)
-class ScenarioResult:
-    """One scenario evaluated: its changes, its headline figures, and the change from the base."""
-
-    name: str
-    description: str
-    overrides: tuple[tuple[str, ScenarioValue], ...]   # (path, value) as written in the case
-    figures: Headline
-    base: Headline
-    delta: HeadlineDelta
-    results: Results = field(repr=False, compare=False)   # the full evaluation, every intermediate
 
 
 def checked_base(case: Case, base: Results) -> Results:

@@ -33,8 +33,10 @@ from obligor_memo.engine.case import Case, GridAxis
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.evaluate import PdResult, Results, estimate_pd, evaluate
 from obligor_memo.engine.market import solve_merton_many
+from obligor_memo.engine.recovery import MAX_UPPER
 from obligor_memo.engine.scenarios import apply_overrides, checked_base
 from obligor_memo.engine.structural import distance_to_default, pd_from_distance
+from obligor_memo.engine.whatif_types import FacilityShift, OneWaySensitivity, PdGrid, SensitivityRow
 
 ASSUMPTIONS = ("short_term_share", "long_term_share", "asset_growth", "asset_volatility",
                "horizon_years", "ccf", "recovery_mean")
@@ -61,52 +63,10 @@ _PD_INPUTS = ("short_term_share", "long_term_share", "asset_growth", "asset_vola
               "horizon_years")
 
 
-@dataclass(frozen=True)
-class FacilityShift:
-    """One facility's input in a per-facility row (CCF or mean recovery) [fraction]."""
-
-    facility_id: str
-    base_value: float
-    low_value: float
-    high_value: float
-    clipped: bool                    # a bound stopped the full step
 
 
-@dataclass(frozen=True)
-class SensitivityRow:
-    """One assumption moved down and up. PD [fraction], EL [currency]; inputs in ``unit``."""
-
-    assumption: str                  # one of ASSUMPTIONS
-    label: str
-    path: str                        # the override path set (facilities.*.<key> per facility)
-    unit: str
-    step: float                      # the absolute step asked for
-    base_value: float | None         # None for per-facility rows: see ``facilities``
-    low_value: float | None
-    high_value: float | None
-    facilities: tuple[FacilityShift, ...]
-    clipped: bool
-    pd_base: float                   # PD in force
-    pd_low: float | None             # None: the perturbed case did not validate (see note)
-    pd_high: float | None
-    model_pd_low: float | None       # the model's PD (differs from pd_* under an override)
-    model_pd_high: float | None
-    el_base: float
-    el_low: float | None
-    el_high: float | None
-    el_swing: float                  # |EL high - EL low| (base in place of a failed side)
-    note: str
 
 
-@dataclass(frozen=True)
-class OneWaySensitivity:
-    rows: tuple[SensitivityRow, ...]     # by EL swing, largest first
-    pd_base: float                       # PD in force [fraction]
-    model_pd_base: float
-    el_base: float                       # [currency]
-    pd_overridden: bool
-    evaluations: int                     # full evaluations run (duplicates and no-moves reused)
-    notes: tuple[str, ...]
 
 
 def _clip_pair(base: float, step: float, lowest: float, highest: float) -> tuple[float, float, bool]:
@@ -119,14 +79,15 @@ def _clip_pair(base: float, step: float, lowest: float, highest: float) -> tuple
 def feasible_recovery_means(*, std: float, upper: float) -> tuple[float, float]:
     """The interval of mean recovery [fraction] for which a beta law with ``std`` on [0, upper]
     exists: mean (upper - mean) > std^2 (moment fit, see engine.recovery), with a small margin."""
-    if not (0 < upper <= 1):
-        raise ValueError(f"upper: got {upper!r}; allowed: a number above 0 and at most 1")
+    if not (0 < upper <= MAX_UPPER):
+        raise ValueError(f"upper: got {upper!r}; allowed: a number above 0 and at most {MAX_UPPER:g}")
     if not (0 <= std < upper / 2):
         raise ValueError(f"std: got {std!r}; allowed: a number from 0 to below upper/2 = {upper / 2:g}")
     if std == 0:
         return 0.0, upper
     half = upper / 2
-    reach = math.sqrt(half * half - std * std * (1 + _FEASIBILITY_MARGIN))
+    # A std within the margin of its limit (mean near upper / 2) leaves no room to move: reach 0.
+    reach = math.sqrt(max(half * half - std * std * (1 + _FEASIBILITY_MARGIN), 0.0))
     return half - reach, half + reach
 
 
@@ -318,23 +279,6 @@ def balance_sheet_pd_grid(*, asset_value: float, asset_growth: float, short_term
     return dp, dd, np.asarray(pd_from_distance(dd))
 
 
-@dataclass(frozen=True)
-class PdGrid:
-    """Model PD over long-term share (x) and a volatility (y). Matrices are indexed [y][x]."""
-
-    method: str                                  # balance_sheet | market
-    x_name: str                                  # long_term_share
-    x_values: tuple[float, ...]                  # [fraction]
-    y_name: str                                  # asset_volatility | equity_volatility
-    y_values: tuple[float, ...]                  # [1/sqrt(year)]
-    default_point: tuple[float, ...]             # per x [currency]
-    pd: tuple[tuple[float | None, ...], ...]     # [fraction]; None where the solve failed
-    distance_to_default: tuple[tuple[float | None, ...], ...]
-    base_x: float                                # the case's point
-    base_y: float
-    base_pd: float                               # model PD at the case's point [fraction]
-    pd_overridden: bool
-    notes: tuple[str, ...]
 
 
 def _axis(axis: GridAxis, field: str, highest: float | None = None) -> np.ndarray:

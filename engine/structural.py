@@ -13,7 +13,7 @@ DP = a x short-term liabilities + b x long-term liabilities; a = 1, b = 0.5 is c
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.special import ndtr
@@ -104,6 +104,9 @@ class PdTermStructure:
     marginal: tuple[float, ...]        # cumulative(t) - cumulative(t-1)
     conditional: tuple[float, ...]     # marginal / survival to t-1 (annual hazard)
     basis: str
+    running_max_from: float | None = None
+    """Year after which the model's cumulative PD fell and the running maximum was taken
+    (marginal PD 0 from there on) [years]; None when it never fell."""
 
 
 def structural_term_structure(*, asset_value: float, default_point: float, log_drift: float,
@@ -114,7 +117,14 @@ def structural_term_structure(*, asset_value: float, default_point: float, log_d
     t = np.arange(1, years + 1, dtype=float)
     dd = (math.log(asset_value) - math.log(default_point) + log_drift * t) / (asset_volatility * np.sqrt(t))
     cumulative = np.asarray(pd_from_distance(dd))
-    return _from_cumulative(t, np.maximum.accumulate(cumulative), basis)
+    held = np.maximum.accumulate(cumulative)
+    fell = np.flatnonzero(held > cumulative)
+    out = _from_cumulative(t, held, basis)
+    if fell.size:
+        # The structural PD peaks and then falls once the drift outruns the volatility: a
+        # cumulative PD cannot fall, so it is held at its running maximum (stated in a caution).
+        return replace(out, running_max_from=float(t[fell[0] - 1]))
+    return out
 
 
 def constant_hazard_term_structure(*, pd: float, horizon_years: float, years: int,

@@ -22,7 +22,14 @@ def test_totals_equal_sums(sample_results) -> None:
     assert t.rwa == pytest.approx(sum(x.rwa for x in f), rel=1e-12)
     assert t.regulatory_capital == pytest.approx(sum(x.regulatory_capital for x in f), rel=1e-12)
     assert t.el_rate == pytest.approx(t.expected_loss / t.ead, rel=1e-12)
-    assert t.economic_capital == pytest.approx(max(t.value_at_risk - t.expected_loss, 0.0), rel=1e-9)
+    # The standalone figure is the loss quantile less EL (one-year horizon in the sample); the
+    # economic capital in force is the single-factor one, the sum of the facilities'.
+    assert t.economic_capital_standalone == pytest.approx(max(t.value_at_risk - t.expected_loss, 0.0), rel=1e-9)
+    assert t.economic_method == "single_factor"
+    assert t.economic_capital == pytest.approx(sum(x.economic_capital for x in f), rel=1e-12)
+    assert t.economic_capital == pytest.approx(t.economic_capital_single_factor, rel=1e-12)
+    # One definition of regulatory capital: 8 % of RWA (Basel II para 44 scaling included when set).
+    assert t.regulatory_capital == pytest.approx(0.08 * t.rwa, rel=1e-12)
 
 
 def test_borrower_ul_is_the_exact_comonotonic_std(sample_results) -> None:
@@ -73,14 +80,18 @@ def test_sample_facility_figures(sample_case, sample_results) -> None:
     assert by_id["RCF-1"].ead == pytest.approx(22e6 + 0.4 * 38e6, rel=1e-15)
     assert by_id["GTE-SF"].ead == pytest.approx(15e6, rel=1e-15)   # guarantee: 100 %
     assert by_id["LC-IMP"].ead == pytest.approx(1.6e6, rel=1e-15)  # trade LC: 20 %
-    # TL-A: collateral 90m less a 40 % haircut covers 54m of 120m; the rest recovers 55 % on average.
+    # TL-A: collateral 90m less a 40 % haircut covers 54m of 120m. The covered part takes the
+    # secured LGD_S of 20 % (Basel III CRE32, foundation approach; from memory), the rest recovers
+    # 55 % on average: LGD* = LGD_S E_S / E + LGD_U E_U / E. (The old rule made the covered
+    # part loss-free, counting the security twice for a senior_secured facility.)
     tl = by_id["TL-A"]
     cover = 90e6 * 0.6 / 120e6
     assert tl.collateral_cover == pytest.approx(cover, rel=1e-15)
-    assert tl.lgd == pytest.approx((1 - cover) * (1 - 0.55), rel=1e-12)
+    assert tl.secured_lgd == 0.20
+    assert tl.lgd == pytest.approx(cover * 0.20 + (1 - cover) * (1 - 0.55), rel=1e-12)
     for f in sample_results.facilities:
         assert f.expected_loss == pytest.approx(f.ead * sample_results.pd.pd * f.lgd, rel=1e-12)
-        assert f.rwa == pytest.approx(f.risk_weight * f.ead, rel=1e-12)
+        assert f.rwa == pytest.approx(f.risk_weight * f.capital_ead, rel=1e-12)
     # Facilities without a recovery block take 1 - the supervisory LGD (Basel III senior unsecured 40 %).
     assert by_id["RCF-1"].lgd == pytest.approx(0.40, rel=1e-12)
 
@@ -113,8 +124,8 @@ def test_override_pd_is_used_downstream(make_case) -> None:
     (lambda d: d.update(pd={"override": 0.0001, "override_reason": "Parent guarantee"}), "capital.pd_floor"),
     (lambda d: d.update(pd={"override": 0.0001, "override_reason": "Parent guarantee"}),
      "capital.economic_floor"),
-    (lambda d: d.update(pricing={"proposed_spread": 0.02}, pd={"override": 0.0001,
-                                                                "override_reason": "Parent guarantee"}),
+    (lambda d: d.update(pricing={"proposed_spread": 0.02}, capital={"economic_method": "standalone"},
+                        pd={"override": 0.0001, "override_reason": "Parent guarantee"}),
      "pricing.undefined"),
 ])
 def test_cautions(make_case, change, code) -> None:
@@ -127,11 +138,15 @@ def test_cautions(make_case, change, code) -> None:
 
 
 def test_economic_floor_binds_only_below_one_minus_confidence(make_case) -> None:
-    # One facility: the loss quantile is 0 when PD <= 1 - q (DESIGN.md section 4).
+    # One facility: the standalone loss quantile is 0 when PD <= 1 - q (DESIGN.md section 4);
+    # the single-factor capital in force is not.
     data = make_case()
     data["pd"] = {"override": 0.0009, "override_reason": "test"}
     low = evaluate(parse_case(data))
-    assert low.total.economic_capital == 0.0 and low.total.economic_capital_floored
+    assert low.total.economic_capital_standalone == 0.0 and low.total.economic_capital_floored
+    assert low.total.economic_capital > 0
+    data["capital"] = {"economic_method": "standalone"}
+    assert evaluate(parse_case(data)).total.economic_capital == 0.0
     data["pd"] = {"override": 0.02, "override_reason": "test"}
     high = evaluate(parse_case(data))
     assert high.total.economic_capital > 0 and not high.total.economic_capital_floored

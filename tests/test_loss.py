@@ -92,7 +92,7 @@ def test_borrower_ul_matches_a_simulation(join) -> None:
     ({"ead": -1.0}, "ead: got -1.0"),
     ({"ead": math.inf}, "ead: got inf"),
     ({"pd": 1.2}, "pd: got 1.2"),
-    ({"lgd": -0.1}, "lgd: got -0.1"),
+    ({"lgd": -0.6}, "lgd: got -0.6"),  # down to -0.5 allowed: recoveries above par
     ({"pd": math.nan}, "pd: got nan"),
 ])
 def test_bad_parameters_are_named(kwargs, fragment) -> None:

@@ -43,7 +43,7 @@ def recovery_figure(results: Any, facility_id: str, *, points: int = 400) -> go.
         y_title = "Probability (point mass)"
         top = 1.0
     else:
-        low, high = law.floor, law.floor + law.scale
+        low, high = law.offset, law.offset + law.scale  # the covered part recovers offset = c (1 - LGD_S)
         grid = np.linspace(low, high, points)
         density = law.pdf(grid)
         finite = density[np.isfinite(density)]
@@ -149,7 +149,9 @@ def loss_distribution_figure(results: Any) -> go.Figure:
         fig.add_trace(go.Scatter(x=[value / MILLION] * 2, y=y_mark, mode="lines", name=label,
                                  line={"color": colour, "width": 2, "dash": dash},
                                  hovertemplate=label + "<extra></extra>"))
-    ec_label = (f"Economic capital {millions(dist.economic_capital, cur)}"
+    # The chart's own distribution gives the standalone figure (VaR - EL of this one name);
+    # the single-factor capital in force is printed beside the chart, not on it.
+    ec_label = (f"Economic capital, standalone {millions(dist.economic_capital, cur)}"
                 + (" (floored at zero)" if dist.capital_floored else " = VaR - EL"))
     fig.add_trace(go.Scatter(
         x=[dist.expected_loss / MILLION, max(dist.var, dist.expected_loss) / MILLION], y=[tail, tail],

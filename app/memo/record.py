@@ -63,6 +63,10 @@ def printed_figures(results: Any) -> dict[str, str]:
         "Regulatory capital": fmt.money(t.regulatory_capital, cur),
         "Loss quantile (VaR)": fmt.money(t.value_at_risk, cur),
         "Economic capital": fmt.money(t.economic_capital, cur),
+        "Economic capital (single factor)": fmt.money(t.economic_capital_single_factor, cur),
+        "Economic capital (standalone)": fmt.money(t.economic_capital_standalone, cur),
+        "One-year PD": fmt.pd_pct(pd.pd_one_year),
+        "IRB EL": fmt.money(t.regulatory_expected_loss, cur),
         "Lifetime EL": fmt.money(t.lifetime_expected_loss),           # table headed [currency]
     }
     if pd.asset_growth is not None:
@@ -77,9 +81,12 @@ def printed_figures(results: Any) -> dict[str, str]:
         out[f"{f.id}: RWA"] = fmt.money(f.rwa)
     p = results.pricing
     if p is not None:
-        out["Minimum spread"] = fmt.pct(p.minimum_spread)
+        out["Minimum spread"] = (fmt.pct(p.minimum_spread) if p.minimum_spread is not None
+                                 else "not defined (nothing drawn)")
         out["Proposed spread"] = fmt.pct(p.proposed_spread)
-        out["RAROC"] = fmt.pct(p.raroc, 1)
+        out["RAROC"] = fmt.pct(p.raroc, 1) if p.raroc is not None else "undefined (capital 0)"
+        out["RAROC (regulatory capital)"] = fmt.pct(p.raroc_regulatory, 1)
+        out["RAROC (economic capital)"] = fmt.pct(p.raroc_economic, 1)
     for z in getattr(results, "zscores", ()):
         if z.score is not None:
             out[f"Z-score {z.variant}"] = fmt.num(z.score, 2)

@@ -58,7 +58,8 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
     spread_note = None
     if pricing is not None:
         gap = pricing.spread_shortfall
-        spread_note = (f"the proposed spread exceeds the minimum by {fmt.pct(-gap)}" if gap <= 0 else
+        spread_note = ("no minimum spread: nothing is drawn, so no interest accrues" if gap is None else
+                       f"the proposed spread exceeds the minimum by {fmt.pct(-gap)}" if gap <= 0 else
                        f"the proposed spread falls short of the minimum by {fmt.pct(gap)}")
     case_data = case_to_dict(case)
     statement_keys = [k for k in case_data["statements"][0] if k != "year"]

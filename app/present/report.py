@@ -59,9 +59,23 @@ def summary_text(results) -> str:
         total_row += ["", fmt.money(t.rwa)]
     table_rows.append(total_row)
     lines.append(_table(headers, table_rows))
-    lines += ["", f"EL rate {fmt.pct(t.el_rate, 3)} of EAD; amounts in {cur}."]
-    if hasattr(t, "economic_capital"):
-        lines.append(f"Economic capital ({case.capital.confidence:.1%}): {fmt.money(t.economic_capital, cur)}")
+    lines += ["", f"EL rate {fmt.pct(t.el_rate, 3)} of EAD over {fmt.years(t.horizon_years)}; amounts in {cur}."]
+    lines.append(f"One-year PD (capital, IRB EL, RAROC): {fmt.pd_pct(t.pd_one_year)}; "
+                 f"horizon PD ({fmt.years(t.horizon_years)}): {fmt.pd_pct(t.pd_horizon)}")
+    lines.append(f"Regulatory capital (8 % of RWA): {fmt.money(t.regulatory_capital, cur)}; "
+                 f"IRB EL {fmt.money(t.regulatory_expected_loss, cur)}")
+    lines.append(f"Economic capital ({case.capital.confidence:.1%}, {t.economic_method.replace('_', '-')}, "
+                 f"one year): {fmt.money(t.economic_capital, cur)}")
+    lines.append(f"  single-factor {fmt.money(t.economic_capital_single_factor, cur)}; "
+                 f"standalone {fmt.money(t.economic_capital_standalone, cur)}")
+    p = results.pricing
+    if p is not None:
+        lines += ["", f"Pricing on {p.capital_basis_label}"]
+        rows = [[f.id, fmt.pct(f.raroc, 1), fmt.pct(f.raroc_regulatory, 1), fmt.pct(f.raroc_economic, 1),
+                 fmt.pct(f.minimum_spread, 3)] for f in (*p.facilities, p.relationship)]
+        lines.append(_table(["facility", "RAROC", "RAROC reg.", "RAROC econ.", "min. spread"], rows))
+        if p.note:
+            lines.append(f"  {p.note}")
     for c in results.cautions:
         lines.append(f"! {c.message}")
     lines += ["", "A model estimate, not a credit decision: the institution's approved models, credit "
