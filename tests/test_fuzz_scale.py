@@ -136,6 +136,8 @@ EXTREMES: dict[tuple[Any, ...], list[Any]] = {
     ("pd", "default_point", "long_term_share"): [0.0, 1.0],
     ("pd", "default_point", "short_term_share"): [0.0, 1.0],
     ("capital", "confidence"): [0.5, 0.9, 0.99999],
+    ("capital", "recovery_join"): ["independent", "comonotonic"],
+    ("pd", "override_horizon_years"): [0.1, 30],
 }
 
 
@@ -147,7 +149,8 @@ def extreme_valid(draw: st.DrawFn) -> dict[str, Any]:
         for part in path[:-1]:
             holder = holder.setdefault(part, {})
         holder[path[-1]] = draw(st.sampled_from(EXTREMES[path]))
-        if path == ("pd", "override"):
+        if path in (("pd", "override"), ("pd", "override_horizon_years")):
+            doc["pd"].setdefault("override", 0.01)
             doc["pd"]["override_reason"] = "analyst's view"
     if draw(st.booleans()):      # facilities at scale too
         facilities = doc["facilities"]
