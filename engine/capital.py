@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Union
+from typing import Union, cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -292,22 +292,25 @@ def irb_corporate_capital(
     k = np.where(defaulted, 0.0, np.maximum(bracket, 0.0) * maturity_adjustment)
     risk_weight = 12.5 * k * scaling_factor
 
-    def out(value: NDArray) -> FloatOrArray | BoolOrArray:
-        return _freeze(np.asarray(value), scalar)
+    def out(value: NDArray) -> FloatOrArray:
+        return cast(FloatOrArray, _freeze(np.asarray(value), scalar))
+
+    def flag(value: NDArray) -> BoolOrArray:
+        return cast(BoolOrArray, _freeze(np.asarray(value), scalar))
 
     return IrbCapital(
         pd_input=out(pd_arr),
         pd_floor=pd_floor,
         pd_used=out(pd_used),
-        floor_binds=out(floor_binds),
-        defaulted=out(defaulted),
+        floor_binds=flag(floor_binds),
+        defaulted=flag(defaulted),
         lgd=out(lgd_arr),
         maturity_input=out(maturity_arr),
         maturity_used=out(maturity_used),
-        maturity_clamped=out(maturity_clamped),
+        maturity_clamped=flag(maturity_clamped),
         annual_sales_input=None if sales_arr is None else out(broadcast[3]),
         annual_sales_used=None if sales_used is None else out(sales_used),
-        sales_clamped=out(sales_clamped),
+        sales_clamped=flag(sales_clamped),
         correlation_before_size_adjustment=out(correlation_base),
         firm_size_adjustment=out(size_adjustment),
         correlation=out(correlation),
@@ -315,7 +318,7 @@ def irb_corporate_capital(
         conditional_pd=out(conditional_pd),
         b=out(b),
         maturity_adjustment=out(maturity_adjustment),
-        k_floored=out(k_floored),
+        k_floored=flag(k_floored),
         k=out(k),
         scaling_factor=scaling_factor,
         risk_weight=out(risk_weight),

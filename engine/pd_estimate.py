@@ -86,7 +86,7 @@ def engine_error(field: str, exc: ValueError) -> CaseError:
 
 
 def estimate_pd(case: Case, *, cross_check: bool = True
-                ) -> tuple[AssetTrend | None, PdResult, MarketResult | None, list[Caution]]:
+                ) -> tuple[AssetTrend | None, PdResult, list[Caution], MarketResult | None]:
     """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist
     (``cross_check=False`` skips the market cross-check when the PD does not come from it)."""
     settings = case.pd
