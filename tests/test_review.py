@@ -67,3 +67,35 @@ def test_a_memo_pdf_opens_as_last_review(tmp_path, sample_case_path, sample_case
 def test_printed_figures_read_back(text, value):
     got = printed_number(text)
     assert got == (pytest.approx(value) if isinstance(value, float) else value)
+
+
+@pytest.mark.parametrize("change, field, allowed", [
+    ({"approved_on": "30/11/2025"}, "review.previous.approved_on", "YYYY-MM-DD"),
+    ({"fingerprint": "abc"}, "review.previous.fingerprint", "64 lower-case hex digits"),
+    ({"figures": {"Expected Loss": 1.0}}, "review.previous.figures.Expected Loss", "lower-case"),
+    ({"engine_version": ""}, "review.previous.engine_version", "at least 1"),
+])
+def test_bad_review_keys_name_the_field(sample_case, change, field, allowed):
+    from obligor_memo.engine.case import case_to_dict
+    from obligor_memo.engine.errors import CaseError
+
+    d = case_to_dict(sample_case)
+    d["review"] = {"previous": {"fingerprint": "0" * 64, "engine_version": "0.1.0", **change}}
+    with pytest.raises(CaseError) as err:
+        parse_case(d)
+    problem = err.value.problems[0]
+    assert problem.field == field and allowed in problem.allowed
+
+
+def test_a_previous_case_that_no_longer_validates_is_said_plainly(sample_case):
+    d = roll_forward(sample_case)
+    d["review"]["previous"]["case"]["facilities"] = []
+    view = review_view(evaluate(parse_case(d)))
+    assert view["available"] is False and "facilities" in view["note"]
+
+
+def test_compare_of_unreadable_input_is_a_paragraph_not_a_traceback(tmp_path, sample_case_path):
+    bad = tmp_path / "not_a_memo.pdf"
+    bad.write_bytes(b"%PDF-1.7 garbage")
+    res = CliRunner().invoke(main, ["compare", str(bad), str(sample_case_path)])
+    assert res.exit_code == 2 and "Traceback" not in res.output
