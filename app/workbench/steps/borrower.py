@@ -48,7 +48,6 @@ def _upload_statements(key: str) -> None:
 
 _results = _ui.header("Borrower and statements",
                       "Open a case, then check the statements: every later step reads them.")
-_review.section(_results)
 ss = st.session_state
 
 left, right = st.columns([1, 1])
@@ -101,3 +100,4 @@ for problem in _ui.state.problems_at(ss.problems, "statements"):
         where = f"row {parts[1] + 1} (year {year}), column {column}"
     st.error(f"Statements, {where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.",
              icon=":material/error:")
+_review.section(_results)
