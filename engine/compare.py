@@ -28,16 +28,18 @@ its Shapley value in that extended game.
 
 from __future__ import annotations
 
-import copy
 import math
 from dataclasses import dataclass, field
 from fractions import Fraction
 from itertools import combinations
-from typing import Any, Callable, Hashable, Iterable, Mapping, Sequence
+from typing import Any, Callable, Hashable, Mapping
 
 from obligor_memo.engine import ENGINE_VERSION
 from obligor_memo.engine.case import Case, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError
+from obligor_memo.engine.compare_blocks import (BLOCKS, ENGINE_BLOCK, Block, changed_paths,
+                                                 hybrid_case_dict, other_keys)
+from obligor_memo.engine.shapley import floats_summing_to, shapley_values
 
 __all__ = ["BLOCKS", "FIGURES", "Block", "BlockShare", "Comparison", "RecordedFigures", "compare_cases",
            "key_figures", "shapley_values", "changed_paths", "hybrid_case_dict"]
@@ -107,166 +109,6 @@ def key_figures(results: Any) -> dict[str, float | str | None]:
             out[f.name] = float(value)
         else:
             out[f.name] = None
-    return out
-
-
-# --------------------------------------------------------------------------- the blocks
-
-
-@dataclass(frozen=True)
-class Block:
-    name: str
-    label: str
-    keys: tuple[str, ...]                 # top-level case keys the block owns
-    facility_fields: tuple[str, ...] = ()  # fields of each facility the block owns ("*": the rest)
-
-
-RECOVERY_FIELDS = ("seniority", "recovery", "collateral")
-# Inputs that change no key figure; a hybrid takes them from NEW (scenarios and the review record
-# are dropped: they are not evaluated, and a scenario may name a facility a hybrid lacks).
-PRESENTATION_KEYS = ("borrower", "memo", "sensitivity", "scenarios", "review")
-
-BLOCKS: tuple[Block, ...] = (
-    Block("statements", "Statements and market data", ("statements", "market")),
-    Block("pd", "PD assumptions", ("pd",)),
-    Block("facilities", "Facilities", ("exposure", "covenants"), ("*",)),
-    Block("recovery", "Recovery and collateral", ("lgd",), RECOVERY_FIELDS),
-    Block("capital_pricing", "Capital and pricing settings", ("capital", "pricing")),
-    Block("other", "Other inputs", ()),     # every top-level key not named above
-)
-ENGINE_BLOCK = Block("engine", "Engine version (method change)", ())
-_OWNED = {key for b in BLOCKS for key in b.keys} | {"facilities"} | set(PRESENTATION_KEYS)
-
-
-def _other_keys(old: Mapping[str, Any], new: Mapping[str, Any]) -> list[str]:
-    return sorted((set(old) | set(new)) - _OWNED)
-
-
-def _keys_of(block: Block, old: Mapping[str, Any], new: Mapping[str, Any]) -> list[str]:
-    return _other_keys(old, new) if block.name == "other" else list(block.keys)
-
-
-def _diff(a: Any, b: Any, path: str, out: list[str]) -> None:
-    """Paths at which two plain values differ (facilities by id, statements by year)."""
-    if isinstance(a, dict) and isinstance(b, dict):
-        for key in sorted(set(a) | set(b), key=str):
-            sub = f"{path}.{key}" if path else str(key)
-            if key not in a:
-                out.append(f"{sub} (added)")
-            elif key not in b:
-                out.append(f"{sub} (removed)")
-            else:
-                _diff(a[key], b[key], sub, out)
-        return
-    if isinstance(a, list) and isinstance(b, list):
-        key = "year" if path == "statements" else "id"
-        if all(isinstance(x, dict) and key in x for x in a + b) and a + b:
-            ka, kb = {x[key]: x for x in a}, {x[key]: x for x in b}
-            for k in sorted(set(ka) | set(kb), key=str):
-                sub = f"{path}[{k}]"
-                if k not in ka:
-                    out.append(f"{sub} (added)")
-                elif k not in kb:
-                    out.append(f"{sub} (removed)")
-                else:
-                    _diff(ka[k], kb[k], sub, out)
-            return
-    if a != b:
-        out.append(path)
-
-
-def changed_paths(block: Block, old: Mapping[str, Any], new: Mapping[str, Any]) -> list[str]:
-    """The case-dict paths of ``block`` whose values differ between two case dicts."""
-    out: list[str] = []
-    for key in _keys_of(block, old, new):
-        _diff(old.get(key), new.get(key), key, out)
-    if block.facility_fields:
-        fa = {f["id"]: f for f in old.get("facilities", [])}
-        fb = {f["id"]: f for f in new.get("facilities", [])}
-        own = RECOVERY_FIELDS if block.facility_fields == RECOVERY_FIELDS else None
-        if own is None:
-            if [f["id"] for f in old.get("facilities", []) if f["id"] in fb] != \
-                    [f["id"] for f in new.get("facilities", []) if f["id"] in fa]:
-                out.append("facilities (order)")
-            for k in sorted(set(fa) | set(fb)):
-                if k not in fa:
-                    out.append(f"facilities[{k}] (added)")
-                elif k not in fb:
-                    out.append(f"facilities[{k}] (removed)")
-        for k in sorted(set(fa) & set(fb)):
-            names = sorted(set(fa[k]) | set(fb[k]))
-            for name in names:
-                if (name in RECOVERY_FIELDS) == (own is not None):
-                    _diff(fa[k].get(name), fb[k].get(name), f"facilities[{k}].{name}", out)
-    return out
-
-
-def hybrid_case_dict(old: Mapping[str, Any], new: Mapping[str, Any], from_new: Iterable[str]) -> dict[str, Any]:
-    """The case dict with the blocks named in ``from_new`` taken from NEW and the rest from OLD."""
-    chosen = set(from_new)
-    out: dict[str, Any] = {key: copy.deepcopy(new[key]) for key in PRESENTATION_KEYS if key in new}
-    out["scenarios"] = []
-    out.pop("review", None)
-    for block in BLOCKS:
-        source = new if block.name in chosen else old
-        for key in _keys_of(block, old, new):
-            if key in source:
-                out[key] = copy.deepcopy(source[key])
-    terms = new if "facilities" in chosen else old
-    recovery = {f["id"]: f for f in (new if "recovery" in chosen else old).get("facilities", [])}
-    facilities = []
-    for f in terms.get("facilities", []):
-        f = copy.deepcopy(f)
-        if f["id"] in recovery:   # a facility on one side only keeps its own recovery terms
-            for name in RECOVERY_FIELDS:
-                if name in recovery[f["id"]]:
-                    f[name] = copy.deepcopy(recovery[f["id"]][name])
-                else:
-                    f.pop(name, None)
-        facilities.append(f)
-    out["facilities"] = facilities
-    return out
-
-
-# --------------------------------------------------------------------------- Shapley
-
-
-def shapley_values(players: Sequence[Hashable], value: Callable[[frozenset], Any]) -> dict[Hashable, Fraction]:
-    """Exact Shapley values of a cooperative game, in rationals, by the formula over subsets.
-
-    ``value(S)`` is the worth of coalition S (a frozenset of players) as a float or Fraction;
-    each coalition is asked once. Efficiency holds exactly: the values sum to v(N) - v(empty).
-    """
-    n = len(players)
-    worth: dict[frozenset, Fraction] = {}
-    for size in range(n + 1):
-        for combo in combinations(players, size):
-            s = frozenset(combo)
-            worth[s] = Fraction(value(s))
-    fact = [math.factorial(k) for k in range(n + 1)]
-    result: dict[Hashable, Fraction] = {}
-    for player in players:
-        others = [p for p in players if p != player]
-        total = Fraction(0)
-        for size in range(n):
-            weight = Fraction(fact[size] * fact[n - size - 1], fact[n])
-            for combo in combinations(others, size):
-                s = frozenset(combo)
-                total += weight * (worth[s | {player}] - worth[s])
-        result[player] = total
-    return result
-
-
-def _floats_summing_to(shares: dict[Hashable, Fraction], total: float) -> dict[Hashable, float]:
-    """Round exact shares to floats and give the rounding left over to the largest share, so the
-    float shares add (math.fsum) to ``total`` up to its last bit."""
-    out = {k: float(v) for k, v in shares.items()}
-    if not out:
-        return out
-    residual = Fraction(total) - sum((Fraction(v) for v in out.values()), Fraction(0))
-    if residual:
-        biggest = max(out, key=lambda k: (abs(out[k]), str(k)))
-        out[biggest] = float(Fraction(out[biggest]) + residual)
     return out
 
 
@@ -347,7 +189,7 @@ def compare_cases(old: Case, new: Case, *, old_recorded: RecordedFigures | None 
                                "the same currency in both cases (amounts in different currencies "
                                "cannot be compared)")
     a, b = case_to_dict(old), case_to_dict(new)
-    blocks = [blk for blk in BLOCKS if blk.name != "other" or _other_keys(a, b)]
+    blocks = [blk for blk in BLOCKS if blk.name != "other" or other_keys(a, b)]
     changes = {blk.name: tuple(changed_paths(blk, a, b)) for blk in blocks}
     players = [blk.name for blk in blocks if changes[blk.name]]
     labels = {blk.name: blk.label for blk in BLOCKS}
@@ -433,7 +275,7 @@ def compare_cases(old: Case, new: Case, *, old_recorded: RecordedFigures | None 
         shares: dict[Hashable, Fraction] = {group_names[i]: v for i, v in exact.items()}
         if engine_delta is not None:
             shares["engine"] = engine_delta.get(name, Fraction(0))
-        rounded = _floats_summing_to(shares, change[name])
+        rounded = floats_summing_to(shares, change[name])
         for g in group_names:
             per_block[g][name] = rounded[g]
         engine_shares[name] = rounded.get("engine", 0.0)
