@@ -137,6 +137,31 @@ def verify(memo_pdf: Path) -> None:
 
 
 @main.command()
+@click.argument("old", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@click.argument("new", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object.")
+@_guard
+def compare(old: Path, new: Path, as_json: bool) -> None:
+    """What changed from OLD to NEW (case files or memo PDFs), and why: each change split by cause."""
+    from obligor_memo.app.memo.reading import read_last_review_path
+    from obligor_memo.app.memo.record import MemoRecordError
+    from obligor_memo.engine.compare import compare_cases
+
+    try:
+        last, now = read_last_review_path(old), read_last_review_path(new)
+    except MemoRecordError as exc:
+        _fail(str(exc))
+    comparison = compare_cases(last.case, now.case, old_recorded=last.recorded)
+    from obligor_memo.app.present import compare_report
+
+    if as_json:
+        click.echo(json.dumps(compare_report.compare_json(comparison), indent=2, allow_nan=False))
+    else:
+        click.echo(compare_report.compare_text(comparison, old_name=old.name, new_name=new.name,
+                                               currency=now.case.borrower.currency))
+
+
+@main.command()
 @click.option("--port", default=8501, show_default=True, type=click.IntRange(1024, 65535))
 @click.option("--host", default="127.0.0.1", show_default=True,
               help="Address to bind. Anything but 127.0.0.1 exposes the workbench to the network.")

@@ -326,6 +326,50 @@ class MemoText(_Model):
     page_size: Literal["A4", "Letter"] = "A4"
 
 
+# --------------------------------------------------------------------------- review (roll-forward)
+
+
+class ReviewRecord(_Model):
+    """One earlier approved review: what it was computed from and the key figures it showed."""
+
+    fingerprint: str
+    engine_version: Annotated[str, Field(min_length=1, max_length=40)]
+    approved_on: str | None = None                      # ISO date, YYYY-MM-DD
+    figures: dict[str, float | str | None] = Field(default_factory=dict, max_length=60)
+
+    @model_validator(mode="after")
+    def _well_formed(self) -> "ReviewRecord":
+        import datetime
+
+        if len(self.fingerprint) != 64 or any(ch not in "0123456789abcdef" for ch in self.fingerprint):
+            raise FieldError("fingerprint", self.fingerprint,
+                              "the SHA-256 of the previous case: 64 lower-case hex digits")
+        if self.approved_on is not None:
+            try:
+                ok = len(self.approved_on) == 10 and bool(datetime.date.fromisoformat(self.approved_on))
+            except ValueError:
+                ok = False
+            if not ok:
+                raise FieldError("approved_on", self.approved_on,
+                                  "a date as YYYY-MM-DD, e.g. 2025-11-30, or null")
+        for name in self.figures:
+            if not (0 < len(name) <= 40 and name.replace("_", "").isalnum() and name == name.lower()):
+                raise FieldError(f"figures.{name}", name,
+                                  "a figure name of lower-case letters, digits and _ (at most 40)")
+        return self
+
+
+class PreviousReview(ReviewRecord):
+    """The review this case rolls forward; ``case`` holds its inputs (validated when compared)."""
+
+    case: dict[str, Any] | None = None
+
+
+class Review(_Model):
+    previous: PreviousReview | None = None
+    history: list[ReviewRecord] = Field(default_factory=list, max_length=50)   # older, newest first
+
+
 class Case(_Model):
     """One borrower's whole case. Statements are always held inline (a file is read at load)."""
 
@@ -341,6 +385,7 @@ class Case(_Model):
     sensitivity: Sensitivity = Sensitivity()
     scenarios: list[Scenario] = Field(default_factory=list, max_length=LIMITS['scenarios'])
     memo: MemoText = MemoText()
+    review: Review | None = None
 
     @field_validator("statements", mode="after")
     @classmethod

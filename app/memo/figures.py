@@ -39,6 +39,9 @@ def chart_specs(results: Any) -> list[ChartSpec]:
     specs += [ChartSpec(f"recovery:{f.id}", "recovery_figure", (f.id,), width=520) for f in results.facilities]
     specs += [ChartSpec("loss_distribution", "loss_distribution_figure"),
               ChartSpec("sensitivity", "sensitivity_figure"), ChartSpec("pd_grid", "pd_grid_figure")]
+    if getattr(getattr(results.case, "review", None), "previous", None) is not None:
+        specs += [ChartSpec("review:expected_loss", "review_waterfall_figure", ("expected_loss",)),
+                  ChartSpec("review:pd", "review_waterfall_figure", ("pd",))]
     return specs
 
 

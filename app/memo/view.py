@@ -8,6 +8,7 @@ from obligor_memo.app.memo import record as pdfcase
 from obligor_memo.app.memo.fetch import CHART_ANCHOR, CHART_SCHEME
 from obligor_memo.app.memo.templates import environment
 from obligor_memo.app.present import formatting as fmt
+from obligor_memo.app.present.compare_report import review_view
 
 def _grid_view(grid: Any, points: int = 7) -> dict[str, Any] | None:
     """A readable excerpt of the two-way PD grid: evenly spaced rows and columns, the case's own
@@ -79,6 +80,7 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
         "inputs_yaml": inputs_yaml(case_data), "window_years": window,
         "fingerprint_short": short_fingerprint(results),
         "author": case.memo.prepared_by or "obligor-memo",
+        "review": review_view(results),
     }
 
 

@@ -7,6 +7,7 @@ import streamlit as st
 
 from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench import ui as _ui
+from obligor_memo.app.workbench import review as _review
 from obligor_memo.engine.case import StatementRow
 from obligor_memo.engine.errors import CaseError
 
@@ -45,8 +46,8 @@ def _upload_statements(key: str) -> None:
         _ui.replace_case(raw, f"Read {len(rows)} year(s) of statements from {name}.")
 
 
-_ui.header("Borrower and statements",
-           "Open a case, then check the statements: every later step reads them.")
+_results = _ui.header("Borrower and statements",
+                      "Open a case, then check the statements: every later step reads them.")
 ss = st.session_state
 
 left, right = st.columns([1, 1])
@@ -99,3 +100,4 @@ for problem in _ui.state.problems_at(ss.problems, "statements"):
         where = f"row {parts[1] + 1} (year {year}), column {column}"
     st.error(f"Statements, {where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.",
              icon=":material/error:")
+_review.section(_results)
