@@ -236,3 +236,25 @@ def test_the_module_is_importable_in_a_fresh_interpreter():
     done = subprocess.run([sys.executable, "-c", "import obligor_memo.batch as b; print(b.run.__name__)"],
                           capture_output=True, text=True, timeout=60)
     assert done.stdout.strip() == "run", done.stderr
+
+
+@pytest.mark.slow
+def test_ctrl_c_stops_the_batch_cleanly(book, tmp_path):
+    """SIGINT (Ctrl+C) while memos print: a plain message, exit 130, no worker or browser left."""
+    folder, goods, _ = book
+    script = VENV_BIN / "obligor-memo"
+    proc = subprocess.Popen([str(script), "batch", *map(str, goods), "-o", str(tmp_path / "out"), "--workers", "1"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, start_new_session=True)
+    time.sleep(8)                      # the cluster is up and the first memo is printing
+    os.killpg(proc.pid, signal.SIGINT)
+    try:
+        out, err = proc.communicate(timeout=60)
+    except subprocess.TimeoutExpired:
+        os.killpg(proc.pid, signal.SIGKILL)
+        raise
+    assert proc.returncode in (130, 1, 0), err[-2000:]
+    if proc.returncode == 130:
+        assert "stopped (Ctrl+C)" in err and "Traceback" not in err
+    time.sleep(2)
+    left = subprocess.run(["pgrep", "-g", str(proc.pid)], capture_output=True, text=True).stdout.split()
+    assert left == [], left

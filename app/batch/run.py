@@ -14,7 +14,9 @@ from __future__ import annotations
 
 import json
 import logging
+import signal
 import sys
+import threading
 import time
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
@@ -167,8 +169,17 @@ def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any]:
 
     if scheduler:
         return Client(scheduler, timeout="20s"), None
-    cluster = LocalCluster(n_workers=workers or 1, threads_per_worker=1, processes=True,
-                           dashboard_address=None, host="127.0.0.1", silence_logs=logging.ERROR)
+    # The worker processes start with Ctrl+C ignored (an ignored signal stays ignored in a child):
+    # a terminal sends SIGINT to the whole process group, and this process alone should answer
+    # it, by cancelling the tasks and closing the cluster, which stops the workers.
+    main_thread = threading.current_thread() is threading.main_thread()
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN) if main_thread else None
+    try:
+        cluster = LocalCluster(n_workers=workers or 1, threads_per_worker=1, processes=True,
+                               dashboard_address=None, host="127.0.0.1", silence_logs=logging.ERROR)
+    finally:
+        if main_thread:
+            signal.signal(signal.SIGINT, previous)
     return Client(cluster), cluster
 
 
