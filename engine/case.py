@@ -72,6 +72,12 @@ class StatementRow(_Model):
     sales: Money | None = None
     book_equity: SignedMoney | None = None
     total_liabilities: PositiveMoney | None = None
+    ebitda: SignedMoney | None = None
+    interest_expense: Money | None = None
+    cash: Money | None = None
+    total_debt: Money | None = None
+    operating_cash_flow: SignedMoney | None = None
+    capital_expenditure: Money | None = None
 
 
 # --------------------------------------------------------------------------- market, PD
@@ -370,6 +376,18 @@ class Review(_Model):
     history: list[ReviewRecord] = Field(default_factory=list, max_length=50)   # older, newest first
 
 
+class StatementsSource(_Model):
+    """How the statements were read from a file (set by the loader; the rows are in currency units)."""
+
+    file: ShortText = ""
+    unit: Literal["units", "thousands", "millions"] = "units"
+    orientation: Literal["long", "wide"] = "long"
+    header_row: Annotated[int, Field(ge=1, le=10_000)] = 1
+    recognised: dict[str, str] = Field(default_factory=dict, max_length=200)
+    unrecognised: list[str] = Field(default_factory=list, max_length=500)
+    mapping: dict[str, str] = Field(default_factory=dict, max_length=200)
+
+
 class Case(_Model):
     """One borrower's whole case. Statements are always held inline (a file is read at load)."""
 
@@ -384,6 +402,7 @@ class Case(_Model):
     pricing: Pricing | None = None
     sensitivity: Sensitivity = Sensitivity()
     scenarios: list[Scenario] = Field(default_factory=list, max_length=LIMITS['scenarios'])
+    statements_source: StatementsSource | None = None
     memo: MemoText = MemoText()
     review: Review | None = None
 

@@ -21,6 +21,7 @@ from obligor_memo.engine.errors import CaseError, Caution
 from obligor_memo.engine.exposure import FacilityExposure, facility_exposure, resolve_ccf
 from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
 from obligor_memo.engine.lossdist import loss_distribution
+from obligor_memo.engine.statements import statement_cautions
 from obligor_memo.engine.pd_estimate import (MarketResult, PdResult, engine_error, estimate_pd, grade_pd,
                                              term_structure)
 from obligor_memo.engine.recovery import (RecoveryLaw, collateral_cover, downturn_lgd, recovery_law,
@@ -87,7 +88,7 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
     the Z-scores, the market cross-check of a balance-sheet PD and the charted loss curve; every
     headline figure (PD, EAD, EL, UL, RWA, VaR, economic capital, RAROC) is the same.
     """
-    cautions: list[Caution] = []
+    cautions: list[Caution] = statement_cautions(case)
     trend, pd, pd_cautions, market = estimate_pd(case, cross_check=detail)
     cautions.extend(pd_cautions)
     ts = term_structure(case, pd)

@@ -19,7 +19,8 @@ import yaml
 
 from obligor_memo.engine.case import Case, parse_case
 from obligor_memo.engine.errors import CaseError, Problem
-from obligor_memo.engine.statements import read_statement_table
+from obligor_memo.engine.statement_layout import DEBT_PARTS, IGNORE, UNITS
+from obligor_memo.engine.statements import ALL_COLUMNS, read_statements
 
 MAX_CASE_BYTES = 2_000_000  # the workbench upload limit is the same (2 MB)
 
@@ -192,11 +193,23 @@ def resolve_statements(data: Any, base_dir: Path | None) -> Any:
     spec = data.get("statements")
     if not isinstance(spec, dict):
         return data
-    extra = set(spec) - {"file", "sheet", "decimal"}
+    extra = set(spec) - {"file", "sheet", "decimal", "unit", "mapping"}
     if extra or not isinstance(spec.get("file"), str):
         raise CaseError.single("statements", spec,
-                               "a list of yearly rows, or {file: path.csv|.xlsx, sheet: name}",
-                               "case file")
+                               "a list of yearly rows, or {file: path.csv|.xlsx, sheet: name, unit: units|"
+                               "thousands|millions, mapping: {label in file: field}}", "case file")
+    unit = spec.get("unit", "units")
+    if unit not in UNITS:
+        raise CaseError.single("statements.unit", unit, "units, thousands or millions", "case file")
+    mapping = spec.get("mapping") or {}
+    if not isinstance(mapping, dict) or not all(isinstance(k, str) and isinstance(v, str) for k, v in mapping.items()):
+        raise CaseError.single("statements.mapping", mapping, "a mapping of labels in the file to fields "
+                               f"({', '.join(ALL_COLUMNS)}, or ignore)", "case file")
+    bad = {k: v for k, v in mapping.items() if v not in ALL_COLUMNS + DEBT_PARTS + (IGNORE,)}
+    if bad:
+        label, target = next(iter(bad.items()))
+        raise CaseError.single(f"statements.mapping[{label!r}]", target,
+                               f"one of {', '.join(ALL_COLUMNS + DEBT_PARTS)}, or ignore", "case file")
     if base_dir is None:
         raise CaseError.single("statements.file", spec["file"],
                                "inline rows here (a file path needs a case file on disk)", "case file")
@@ -207,8 +220,13 @@ def resolve_statements(data: Any, base_dir: Path | None) -> Any:
     decimal = spec.get("decimal", ".")
     if decimal not in (".", ","):
         raise CaseError.single("statements.decimal", decimal, "'.' or ','", "case file")
-    rows = read_statement_table(path.read_bytes(), path.name, sheet=spec.get("sheet"), decimal=decimal)
-    return {**data, "statements": rows}
+    read = read_statements(path.read_bytes(), path.name, sheet=spec.get("sheet"), decimal=decimal, unit=unit,
+                           mapping=mapping)
+    source = {"file": spec["file"], "unit": unit, "orientation": read.orientation, "header_row": read.header_row,
+              "recognised": dict(read.recognised), "unrecognised": list(read.unrecognised)}
+    if mapping:
+        source["mapping"] = dict(mapping)
+    return {**data, "statements": read.rows, "statements_source": source}
 
 
 def load_case(path: str | Path) -> Case:

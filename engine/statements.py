@@ -12,10 +12,11 @@ import io
 import math
 import re
 import zipfile
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
-from obligor_memo.engine.errors import CaseError, Problem
+from obligor_memo.engine.errors import CaseError, Caution, Problem
+from obligor_memo.engine.statement_layout import DEBT_PARTS, UNITS, detect
 
 MAX_FILE_BYTES = 2_000_000
 MAX_ROWS = 200
@@ -23,7 +24,8 @@ MAX_XLSX_UNCOMPRESSED = 50_000_000
 
 REQUIRED_COLUMNS = ("year", "total_assets", "short_term_liabilities", "long_term_liabilities")
 OPTIONAL_COLUMNS = ("working_capital", "retained_earnings", "ebit", "sales", "book_equity",
-                    "total_liabilities")
+                    "total_liabilities", "ebitda", "interest_expense", "cash", "total_debt",
+                    "operating_cash_flow", "capital_expenditure")
 ALL_COLUMNS = REQUIRED_COLUMNS + OPTIONAL_COLUMNS
 
 _NUMBER = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?$")
@@ -130,12 +132,134 @@ def _rows_from_xlsx(data: bytes, name: str, sheet: str | None) -> list[list[Any]
     return rows
 
 
+@dataclass(frozen=True)
+class StatementsRead:
+    """A statements file as read: the rows (amounts already in currency units) and how."""
+
+    rows: list[dict[str, Any]]
+    unit: str = "units"
+    orientation: str = "long"                  # "long": years down the rows; "wide": across
+    header_row: int = 1
+    recognised: dict[str, str] = field(default_factory=dict)   # label in the file -> field
+    unrecognised: tuple[str, ...] = ()
+
+
 def read_statement_table(data: bytes, name: str, *, sheet: str | None = None,
                          decimal: str = ".") -> list[dict[str, Any]]:
     """Rows of a statements table as plain dicts (column -> number), ready for the case schema.
 
     ``name`` is used in messages and to tell CSV from XLSX by its ending.
     """
+    return read_statements(data, name, sheet=sheet, decimal=decimal).rows
+
+
+def read_statements(data: bytes, name: str, *, sheet: str | None = None, decimal: str = ".",
+                    unit: str = "units", mapping: dict[str, str] | None = None) -> StatementsRead:
+    """A statements table in any of the usual layouts (see :mod:`engine.statement_layout`):
+    a plain table with the case's column names, or title rows, years across or down and the
+    trade's usual wording; amounts multiplied by ``unit``."""
+    if unit not in UNITS:
+        raise CaseError.single("statements.unit", unit, "units, thousands or millions", "statements file")
+    candidates = [sheet]
+    if sheet is None and name.lower().endswith((".xlsx", ".xlsm")):
+        candidates = _sheet_names(data, name) or [None]
+    rows: list[list[Any]] = []
+    for index, chosen in enumerate(candidates):
+        try:
+            rows = _table(data, name, chosen)
+        except CaseError:
+            if index == len(candidates) - 1 and not rows:
+                raise
+            continue
+        typed = ["" if c is None else str(c).strip() for c in rows[0]]
+        plain = all(_header_key(c) in ALL_COLUMNS for c in typed if c) and "year" in [_header_key(c) for c in typed]
+        if plain:
+            break
+        layout = detect(rows, mapping)
+        if layout is not None:
+            return _from_layout(layout, name, decimal, unit)
+    else:   # no sheet holds statements in a known layout: the first one, with the plain table's messages
+        rows = _table(data, name, candidates[0])
+    records = _plain_rows(rows, name, decimal)
+    factor = UNITS[unit]
+    if factor != 1.0:
+        records = [{k: (v * factor if k != "year" else v) for k, v in r.items()} for r in records]
+    return StatementsRead(records, unit=unit)
+
+
+def _from_layout(layout: Any, name: str, decimal: str, unit: str) -> StatementsRead:
+    factor = UNITS[unit]
+    problems: list[Problem] = []
+    out: list[dict[str, Any]] = []
+    for record in layout.records:
+        year = record.get("year")
+        if not isinstance(year, int):
+            problems.append(Problem(f"statements file {name}, year", year, "a year such as 2023, FY2023 or a date"))
+            continue
+        row: dict[str, Any] = {"year": year}
+        debt = 0.0
+        has_debt = False
+        for key, cell in record.items():
+            if key == "year":
+                continue
+            try:
+                value = parse_number(cell, decimal=decimal)
+            except ValueError:
+                problems.append(Problem(f"statements file {name}, year {year}, {key}", cell,
+                                        "a number such as 1234.5 or 1,234.5"))
+                continue
+            if value is None:
+                continue
+            if not math.isfinite(value):
+                problems.append(Problem(f"statements file {name}, year {year}, {key}", cell, "a finite number"))
+                continue
+            if key in DEBT_PARTS:
+                debt += value * factor
+                has_debt = True
+                continue
+            row[key] = value * factor
+        if has_debt and "total_debt" not in row:
+            row["total_debt"] = debt
+        out.append(row)
+    for needed in REQUIRED_COLUMNS[1:]:
+        if out and not any(needed in row for row in out):
+            import difflib
+
+            near = [label for label in layout.unrecognised
+                    if difflib.get_close_matches(_header_key(label), [needed], n=1, cutoff=0.8)]
+            hint = f" (did you mean '{needed}'?)" if near else ""
+            found = ", ".join(sorted(layout.recognised)) or "none"
+            problems.append(Problem(f"statements file {name}, header",
+                                    near[0] if near else ", ".join(layout.unrecognised[:12]) or "no such line",
+                                    f"a line or column for {needed}{hint}; recognised: {found}; map a line "
+                                    "of the file with statements.mapping: {label in file: field}"))
+    if not out and not problems:
+        problems.append(Problem(f"statements file {name}", "no years", "at least one year of figures"))
+    if problems:
+        raise CaseError(problems[:20], "statements file")
+    if len(out) > MAX_ROWS:
+        raise CaseError.single(f"statements file {name}", f"{len(out)} years", f"at most {MAX_ROWS} years",
+                               "statements file")
+    return StatementsRead(out, unit=unit, orientation=layout.orientation, header_row=layout.header_row,
+                          recognised=dict(layout.recognised), unrecognised=tuple(layout.unrecognised))
+
+
+def _sheet_names(data: bytes, name: str) -> list[str | None]:
+    """The workbook's sheets in order (the first that holds statements is read)."""
+    import openpyxl
+
+    try:
+        if sum(i.file_size for i in zipfile.ZipFile(io.BytesIO(data)).infolist()) > MAX_XLSX_UNCOMPRESSED:
+            return []              # the reader refuses it with its own message
+        book = openpyxl.load_workbook(io.BytesIO(data), read_only=True)
+    except Exception:  # the reader itself reports a broken workbook
+        return []
+    names: list[str | None] = list(book.sheetnames)
+    book.close()
+    return names
+
+
+def _table(data: bytes, name: str, sheet: str | None) -> list[list[Any]]:
     if len(data) > MAX_FILE_BYTES:
         raise CaseError.single(f"statements file {name}", f"{len(data):,} bytes",
                                f"a file of at most {MAX_FILE_BYTES:,} bytes", "statements file")
@@ -154,6 +278,10 @@ def read_statement_table(data: bytes, name: str, *, sheet: str | None = None,
     if not rows:
         raise CaseError.single(f"statements file {name}", "no rows",
                                "a header row and at least one year", "statements file")
+    return rows
+
+
+def _plain_rows(rows: list[list[Any]], name: str, decimal: str) -> list[dict[str, Any]]:
     typed = ["" if c is None else str(c).strip() for c in rows[0]]
     header = [_header_key(c) for c in typed]
     problems: list[Problem] = []
@@ -257,3 +385,38 @@ def year_ratios(rows: list[Any]) -> tuple[YearRatios, ...]:
         ))
         previous = row
     return tuple(out)
+
+
+# --------------------------------------------------------------------------- cautions on reading
+
+
+def statement_cautions(case: Any) -> list[Caution]:
+    """What the reader should know about the statements as read: the unit they were given in,
+    the lines of the file that matched no field, and amounts whose scale looks wrong.
+
+    The scale check is a plausibility rule (common practice, not a standard): a borrower's
+    committed facilities are rarely more than 20 times its total assets, and total assets
+    below 1,000 beside facilities of a million or more usually mean a file in thousands or
+    millions read as units."""
+    out: list[Caution] = []
+    source = getattr(case, "statements_source", None)
+    currency = case.borrower.currency
+    if source is not None:
+        if source.unit != "units":
+            out.append(Caution("statements.unit", f"The statements file {source.file} gives amounts in "
+                               f"{currency} {source.unit}; they were multiplied into {currency} on reading.",
+                               "statements.unit"))
+        if source.unrecognised:
+            shown = ", ".join(f"'{label}'" for label in source.unrecognised[:15])
+            more = len(source.unrecognised) - 15
+            out.append(Caution("statements.unrecognised", f"Lines of {source.file} that match no statement field "
+                               f"and were not used: {shown}{f' and {more} more' if more > 0 else ''}. Map one with "
+                               "statements.mapping: {label: field} if it should count.", "statements.mapping"))
+    latest = case.statements[-1]
+    committed = sum(f.committed for f in case.facilities)
+    if committed > 20 * latest.total_assets or (latest.total_assets < 1_000 and committed >= 1_000_000):
+        out.append(Caution("statements.scale", f"The facilities ({committed:,.0f} {currency} committed) are far "
+                           f"larger than total assets ({latest.total_assets:,.0f} {currency} in {latest.year}): "
+                           "check the statements' unit (statements.unit: thousands or millions).",
+                           "statements.unit"))
+    return out
