@@ -21,6 +21,7 @@ from obligor_memo.engine.errors import CaseError, Caution
 from obligor_memo.engine.exposure import FacilityExposure, facility_exposure, resolve_ccf
 from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
 from obligor_memo.engine.lossdist import loss_distribution
+from obligor_memo.engine.credit_metrics import credit_metrics
 from obligor_memo.engine.statements import statement_cautions
 from obligor_memo.engine.pd_estimate import (MarketResult, PdResult, engine_error, estimate_pd, grade_pd,
                                              term_structure)
@@ -186,7 +187,7 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
                    ratios=year_ratios(case.statements), pd=pd, market=market, master_scale_source=scale_source,
                    zscores=zscores, zscore_history=z_history, term_structure=ts,
                    facilities=tuple(facilities), total=total, loss_distribution=dist, pricing=pricing,
-                   cautions=tuple(cautions), laws=laws)
+                   cautions=tuple(cautions), laws=laws, credit_metrics=credit_metrics(case.statements))
 
 
 def _prepare_facility(case: Case, index: int, f, grade: str | None,

@@ -23,6 +23,7 @@ from obligor_memo.engine.structural import PdTermStructure
 from obligor_memo.engine.trend import AssetTrend
 from obligor_memo.engine.whatif_types import Headline, HeadlineDelta, OneWaySensitivity, PdGrid
 from obligor_memo.engine.zscore import ZScore
+from obligor_memo.engine.credit_metrics import CreditYear
 
 
 @dataclass(frozen=True)
@@ -189,6 +190,8 @@ class Results:
     pd_grid: PdGrid | None = None
     """Attached by engine.analysis.analyse."""
     scenarios: tuple[ScenarioResult, ...] | None = None
+    credit_metrics: tuple[CreditYear, ...] = ()
+    """Leverage, cover and cash flow by year, where the statements give the lines."""
     """Attached by engine.analysis.analyse."""
 
     def to_dict(self) -> dict[str, Any]:

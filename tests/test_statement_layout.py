@@ -73,7 +73,7 @@ def test_mapping_brings_an_unknown_line_in_or_leaves_it_out(tmp_path):
                            mapping=mapping)
     assert read.unrecognised == ()
     renamed = read_statements((DATA / "statements_long_millions.csv").read_bytes(), "s.csv", unit="millions",
-                              mapping={"Employees": "cash"})
+                              mapping={"Employees": "cash", "Cash and cash equivalents": "ignore"})
     assert renamed.rows[0]["cash"] == pytest.approx(850e6)
     case = load_case(_case_with(tmp_path, {"file": "statements_wide_thousands.xlsx", "unit": "thousands",
                                            "mapping": mapping}))

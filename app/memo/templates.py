@@ -41,6 +41,7 @@ def environment() -> Any:
         "money": fmt.money, "pct": fmt.pct, "pd_pct": fmt.pd_pct, "num": fmt.num, "years": fmt.years,
         "mn": in_millions, "label": label, "by_unit": by_unit, "yes_no": lambda v: "yes" if v else "no",
         "or_dash": lambda v: "—" if v in (None, "") else v,
+        "times": lambda v: "n/a" if v is None else f"{fmt.num(v, 2)}x",
     })
     return env
 

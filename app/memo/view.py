@@ -63,7 +63,10 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
                        f"the proposed spread exceeds the minimum by {fmt.pct(-gap)}" if gap <= 0 else
                        f"the proposed spread falls short of the minimum by {fmt.pct(gap)}")
     case_data = case_to_dict(case)
-    statement_keys = [k for k in case_data["statements"][0] if k != "year"]
+    # Lines given in at least one year, in tables of at most six columns so no column is cut.
+    statement_keys = [k for k in case_data["statements"][0] if k != "year"
+                      and any(row.get(k) is not None for row in case_data["statements"])]
+    statement_groups = [statement_keys[i:i + 6] for i in range(0, len(statement_keys), 6)]
     window = results.trend.window_years if results.trend is not None else None
     return {
         "r": results, "case": case, "memo": case.memo, "cur": case.borrower.currency,
@@ -76,7 +79,8 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
         "chart_ids": {key: CHART_ANCHOR.format(src[len(CHART_SCHEME):]) for key, src in charts.items()
                       if src.startswith(CHART_SCHEME)},
         "spread_note": spread_note, "generated_at": generated_at, "page_size": page_size,
-        "statement_keys": statement_keys, "statement_rows": case_data["statements"],
+        "statement_keys": statement_keys, "statement_groups": statement_groups,
+        "statement_rows": case_data["statements"],
         "inputs_yaml": inputs_yaml(case_data), "window_years": window,
         "fingerprint_short": short_fingerprint(results),
         "author": case.memo.prepared_by or "obligor-memo",

@@ -6,7 +6,9 @@ rows = list(csv.DictReader(open("sample_data/hollowmere_statements.csv")))
 labels = {"total_assets": "Total Assets", "short_term_liabilities": "Current Liabilities",
           "long_term_liabilities": "Non-current liabilities", "working_capital": "Working capital",
           "retained_earnings": "Retained earnings", "ebit": "Operating profit (EBIT)", "sales": "Revenue",
-          "book_equity": "Shareholders' equity"}
+          "book_equity": "Shareholders' equity", "ebitda": "EBITDA", "interest_expense": "Interest expense",
+          "cash": "Cash and cash equivalents", "total_debt": "Total debt", "operating_cash_flow": "Cash flow from operations",
+          "capital_expenditure": "Capex"}
 D = Path("tests/data")
 book = openpyxl.Workbook(); cover = book.active; cover.title = "Cover"; cover.append(["Hollowmere Lifting Group"]); cover.append(["Prepared for the annual review"])
 ws = book.create_sheet("Financials")

@@ -1,0 +1,79 @@
+"""Credit metrics by year from the statement lines: leverage, cover and cash flow.
+
+The usual definitions of the trade (common practice; banks' credit policies and loan
+agreements define their own, which take precedence in a covenant test):
+
+- net debt = total debt - cash and equivalents [currency]
+- net debt / EBITDA [times]; undefined when EBITDA <= 0 (a negative multiple reads as low leverage)
+- interest cover = EBITDA / interest expense [times]; undefined when interest expense is 0
+- debt / equity = total debt / book equity [times]; undefined when equity <= 0
+- EBITDA margin = EBITDA / sales [fraction]
+- free cash flow = operating cash flow - capital expenditure [currency]
+
+A metric is None where a line it needs is missing or it is undefined, never a guess.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+
+@dataclass(frozen=True)
+class CreditYear:
+    """One financial year's credit metrics (see the module docstring for the definitions)."""
+
+    year: int
+    revenue: float | None
+    """Sales [currency]."""
+    ebitda: float | None
+    """[currency]"""
+    ebitda_margin: float | None
+    """EBITDA / sales [fraction]."""
+    net_debt: float | None
+    """Total debt - cash [currency]."""
+    net_debt_to_ebitda: float | None
+    """[times]"""
+    interest_cover: float | None
+    """EBITDA / interest expense [times]."""
+    debt_to_equity: float | None
+    """Total debt / book equity [times]."""
+    free_cash_flow: float | None
+    """Operating cash flow - capital expenditure [currency]."""
+
+
+def _ratio(top: float | None, bottom: float | None, *, positive_bottom: bool = True) -> float | None:
+    if top is None or bottom is None:
+        return None
+    if bottom == 0 or (positive_bottom and bottom < 0):
+        return None
+    return top / bottom
+
+
+def credit_year(row: Any) -> CreditYear:
+    """The metrics of one statement row (a schema StatementRow or anything with its fields)."""
+    def get(name: str) -> float | None:
+        value = getattr(row, name, None)
+        return None if value is None else float(value)
+
+    sales, ebitda, cash, debt = get("sales"), get("ebitda"), get("cash"), get("total_debt")
+    interest, equity = get("interest_expense"), get("book_equity")
+    ocf, capex = get("operating_cash_flow"), get("capital_expenditure")
+    net_debt = debt - cash if debt is not None and cash is not None else None
+    return CreditYear(
+        year=int(row.year), revenue=sales, ebitda=ebitda,
+        ebitda_margin=_ratio(ebitda, sales),
+        net_debt=net_debt,
+        net_debt_to_ebitda=_ratio(net_debt, ebitda),
+        interest_cover=_ratio(ebitda, interest),
+        debt_to_equity=_ratio(debt, equity),
+        free_cash_flow=ocf - capex if ocf is not None and capex is not None else None,
+    )
+
+
+def credit_metrics(rows: Sequence[Any]) -> tuple[CreditYear, ...]:
+    """The metrics of every year, oldest first; empty when no year has any of the lines."""
+    years = tuple(credit_year(r) for r in rows)
+    wanted = ("revenue", "ebitda", "net_debt", "free_cash_flow", "interest_cover")
+    return years if any(getattr(y, name) is not None for y in years for name in wanted) else ()
