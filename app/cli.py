@@ -175,6 +175,35 @@ def app(port: int, host: str, workdir: Path | None) -> None:
 
 
 @main.command()
+@click.argument("case", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("-o", "--output", "output", type=click.Path(dir_okay=False, path_type=Path), default=None,
+              help="The workbook to write (.xlsx).")
+@click.option("--csv", "csv_dir", type=click.Path(file_okay=False, path_type=Path), default=None,
+              help="Also (or instead) write one CSV per table into this folder.")
+@_guard
+def export(case: Path, output: Path | None, csv_dir: Path | None) -> None:
+    """The results of CASE as a workbook: inputs, statements as read, facilities, totals, PD,
+    pricing, term structure, sensitivity, PD grid, scenarios (one sheet each)."""
+    from obligor_memo.app.present.export import export_csvs, export_workbook
+    from obligor_memo.engine.analysis import analyse
+    from obligor_memo.engine.loading import load_case
+
+    if output is None and csv_dir is None:
+        _fail("obligor-memo export: say where to write: -o OUT.xlsx, --csv DIR, or both.")
+    if output is not None and output.suffix.lower() != ".xlsx":
+        _fail(f"-o: got {str(output)!r}; allowed: a file name ending in .xlsx.")
+    if output is not None and not output.parent.is_dir():
+        _fail(f"-o: the folder {str(output.parent)!r} does not exist.")
+    results = analyse(load_case(case))
+    if output is not None:
+        output.write_bytes(export_workbook(results))
+        click.echo(f"Wrote {output}.")
+    if csv_dir is not None:
+        files = export_csvs(results, csv_dir)
+        click.echo(f"Wrote {len(files)} CSV files to {csv_dir}.")
+
+
+@main.command()
 @click.argument("paths", metavar="CASE_OR_FOLDER...", nargs=-1, required=True,
                 type=click.Path(path_type=Path))
 @click.option("-o", "--output", "outdir", required=True, type=click.Path(file_okay=False, path_type=Path),

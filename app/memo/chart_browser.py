@@ -297,7 +297,7 @@ class ChartExporter:
                 for tab in tabs:
                     await kaleido.tabs_ready.put(tab)
         except Exception:  # a stale page still draws; the next failure is reported by export_svg
-            log.warning("reloading the chart pages failed", exc_info=True)
+            log.debug("reloading the chart pages failed", exc_info=True)
 
     def close(self, *, force: bool = False) -> None:
         """Close the browser and stop the thread. ``force`` kills the browser's process group
