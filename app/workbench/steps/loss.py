@@ -13,7 +13,9 @@ from obligor_memo.app.workbench import ui as _ui
 
 results = _ui.header("Loss, capital and pricing",
                      "EL = EAD x PD x LGD; risk weights from the Basel IRB corporate formula; "
-                     "economic capital = loss quantile - EL; RAROC against the hurdle.")
+                     "capital, the IRB EL and RAROC on the one-year PD; economic capital by the method "
+                     "in force (one-factor, or standalone loss quantile - EL); RAROC on one-year EL and "
+                     "capital against the hurdle.")
 ss = st.session_state
 cur = _ui.currency()
 if results is None:
@@ -24,12 +26,12 @@ rows = [{"facility": f.id, f"EAD [{cur}]": money(f.ead), "PD": pd_pct(f.capital_
          "LGD": pct(f.lgd, 1), "downturn LGD": pct(f.downturn_lgd, 1), f"EL [{cur}]": money(f.expected_loss),
          f"UL [{cur}]": money(f.unexpected_loss), "M [years]": f"{f.capital_maturity:g}",
          "RW": pct(f.risk_weight, 1), f"RWA [{cur}]": money(f.rwa),
-         f"capital K x EAD [{cur}]": money(f.regulatory_capital)} for f in results.facilities]
+         f"regulatory capital, 8 % of RWA [{cur}]": money(f.regulatory_capital)} for f in results.facilities]
 rows.append({"facility": "Total", f"EAD [{cur}]": money(t.ead), "PD": pd_pct(results.pd.pd),
              "LGD": "", "downturn LGD": "", f"EL [{cur}]": money(t.expected_loss),
              f"UL [{cur}]": money(t.unexpected_loss), "M [years]": "",
              "RW": "", f"RWA [{cur}]": money(t.rwa),
-             f"capital K x EAD [{cur}]": money(t.regulatory_capital)})
+             f"regulatory capital, 8 % of RWA [{cur}]": money(t.regulatory_capital)})
 st.dataframe(pd.DataFrame(rows), hide_index=True)
 st.caption("PD column: the PD used in the risk weight (after the floor). The total UL joins the "
            f"facilities' recoveries {state.get_path(ss.valid, 'capital.recovery_join', 'comonotonic')}.")
@@ -38,8 +40,7 @@ m = st.columns(5)
 m[0].metric("Expected loss", millions(t.expected_loss, cur), help=f"EL rate {pct(t.el_rate, 3)} of EAD")
 m[1].metric("Unexpected loss", millions(t.unexpected_loss, cur))
 m[2].metric(f"VaR {pct(results.loss_distribution.confidence, 1)}", millions(t.value_at_risk, cur))
-m[3].metric("Economic capital", millions(t.economic_capital, cur),
-            help="Floored at zero" if t.economic_capital_floored else "VaR - EL")
+m[3].metric("Economic capital", millions(t.economic_capital, cur), help=t.economic_basis)
 m[4].metric("RWA", millions(t.rwa, cur))
 
 left, right = st.columns([2, 1])
@@ -52,6 +53,10 @@ with right:
                      labels={"comonotonic": "Move together (conservative)", "independent": "Independent"})
     _ui.number_field("PD floor [fraction]", "capital.pd_floor", step=0.0001, fmt="%.4f")
     _ui.toggle_field("Apply the 1.06 scaling factor", "capital.scaling_factor")
+    _ui.select_field("Economic capital", "capital.economic_method", ["single_factor", "standalone"],
+                     labels={"single_factor": "One-factor (smooth in PD)", "standalone": "Standalone (this name alone)"})
+    st.caption(f"Standalone figure {millions(t.economic_capital_standalone, cur)}; one-factor figure "
+               f"{millions(t.economic_capital_single_factor, cur)}.")
 for caution in results.cautions:
     if caution.code.startswith("capital"):
         st.caption(f":material/info: {caution.message}")
@@ -90,7 +95,7 @@ else:
     m[0].metric("RAROC", pct(p.raroc, 1), help=f"Hurdle {pct(p.hurdle_rate, 1)}")
     m[1].metric("Minimum spread", pct(p.minimum_spread, 3))
     m[2].metric("Proposed spread", pct(p.proposed_spread, 3))
-    m[3].metric("Capital charged", millions(p.capital, cur))
+    m[3].metric("Capital charged", millions(p.capital, cur), help=p.capital_basis_label)
     verdict = (f"The proposal meets the hurdle: RAROC {pct(p.raroc, 1)} against {pct(p.hurdle_rate, 1)}; "
                f"the spread could fall to {pct(p.minimum_spread, 3)}." if p.meets_hurdle else
                f"The proposal falls short of the hurdle: RAROC {pct(p.raroc, 1)} against "
