@@ -8,9 +8,11 @@ from __future__ import annotations
 
 import ipaddress
 import os
+import signal
 import subprocess
 import sys
 from pathlib import Path
+from typing import Any
 
 from obligor_memo.app.workbench.state import WORKDIR_ENV, default_workdir
 
@@ -58,7 +60,35 @@ def serve(port: int = 8501, host: str = "127.0.0.1", workdir: Path | None = None
     shown = "127.0.0.1" if host in ("0.0.0.0", "::") else host
     print(f"obligor-memo workbench on http://{shown}:{port} (opens on the sample borrower); "
           f"cases autosaved under {folder / 'cases'}. Stop with Ctrl+C.", flush=True)
+    child = subprocess.Popen(streamlit_command(port=port, host=host), env=env, cwd=root)
+    return _wait_forwarding_signals(child)
+
+
+def _wait_forwarding_signals(child: subprocess.Popen[bytes], grace: float = 15.0) -> int:
+    """Wait for the server; SIGTERM or SIGHUP to this process is passed on to it, so Streamlit
+    shuts down as on Ctrl+C (its exit handlers close the chart browser) and nothing is left."""
+    def forward(signum: int, frame: Any) -> None:
+        if child.poll() is None:
+            child.send_signal(signal.SIGTERM)
+
+    previous = {sig: signal.signal(sig, forward) for sig in (signal.SIGTERM, signal.SIGHUP)}
     try:
-        return subprocess.call(streamlit_command(port=port, host=host), env=env, cwd=root)
-    except KeyboardInterrupt:
-        return 0
+        while True:
+            try:
+                code = child.wait()
+                return 0 if code in (-signal.SIGTERM, -signal.SIGINT, 130, 143) else code
+            except KeyboardInterrupt:      # Ctrl+C reaches the child too (same process group)
+                try:
+                    child.wait(timeout=grace)
+                except subprocess.TimeoutExpired:
+                    child.kill()
+                return 0
+    finally:
+        if child.poll() is None:            # this process is leaving: so is the server
+            child.terminate()
+            try:
+                child.wait(timeout=grace)
+            except subprocess.TimeoutExpired:
+                child.kill()
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
