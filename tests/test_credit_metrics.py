@@ -40,7 +40,7 @@ def test_undefined_or_missing_inputs_give_none(values, missing):
 
 def test_sample_metrics_match_its_statements_file():
     results = evaluate(load_case(SAMPLE_CASE))
-    rows = list(csv.DictReader(SAMPLE_STATEMENTS.open()))
+    rows = list(csv.DictReader(SAMPLE_STATEMENTS.read_text(encoding="utf-8").splitlines()))
     assert [y.year for y in results.credit_metrics] == [int(r["year"]) for r in rows]
     for metrics, row in zip(results.credit_metrics, rows):
         net_debt = float(row["total_debt"]) - float(row["cash"])

@@ -49,7 +49,7 @@ def _kill_after(workdir: Path, case_id: str, delay: float) -> None:
     assert proc.stdout.readline().strip() == b"ready", proc.stderr.read().decode()
     time.sleep(delay)
     os.kill(proc.pid, signal.SIGKILL)
-    proc.wait(timeout=10)
+    proc.communicate(timeout=10)                 # reads and closes both pipes
     assert proc.returncode == -signal.SIGKILL
 
 
