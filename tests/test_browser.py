@@ -52,7 +52,7 @@ def server(tmp_path_factory):
         pytest.fail("the workbench did not start within 30 s")
     yield url, workdir
     os.killpg(proc.pid, 15)
-    proc.wait(timeout=10)
+    proc.communicate(timeout=10)     # reads and closes the pipe
 
 
 def _metric(page, label: str) -> str:
