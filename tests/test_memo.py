@@ -32,7 +32,7 @@ ARTIFACTS = ROOT / "test-artifacts"
 STAMP = datetime(2031, 5, 6, 7, 8, 9, tzinfo=timezone.utc)
 
 # Section headings as printed, in order; the text between two headings belongs to the first.
-HEADINGS = ["Summary", "1 The borrower and its accounts", "2 Probability of default",
+HEADINGS = ["Decision", "1 The borrower and its accounts", "2 Probability of default",
             "3 Exposure at default", "4 Recovery and loss given default", "5 Loss and capital",
             "6 Pricing", "7 Sensitivities and scenarios", "8 Analyst's narrative", "9 Cautions",
             "10 Methods and sources", "11 Sign-off", "Appendix Inputs and record"]
@@ -135,16 +135,31 @@ def hostile(make_case):
 # --------------------------------------------------------------------------- figures in sections
 
 
-def test_summary_page_prints_the_key_figures(sample_results, sample_sections):
+def test_decision_page_prints_what_the_committee_decides_on(sample_results, sample_sections):
     r, cur = sample_results, sample_results.case.borrower.currency
-    text = sample_sections["Summary"]
-    for value in (fmt.money(r.total.ead, cur), fmt.money(r.total.expected_loss, cur),
-                  fmt.pct(r.total.el_rate, 3), fmt.money(r.total.unexpected_loss, cur),
-                  fmt.money(r.total.rwa, cur), fmt.money(r.total.economic_capital, cur),
-                  fmt.pd_pct(r.pd.pd), fmt.pct(r.pricing.minimum_spread),
-                  fmt.pct(r.pricing.proposed_spread), r.case.borrower.name, r.case.memo.request[:40]):
+    text = " ".join(sample_sections["Decision"].split())
+    committed = sum(f.committed for f in r.case.facilities)
+    worst = max(r.scenarios, key=lambda s: s.figures.pd)
+    for value in (fmt.money(r.total.ead), fmt.money(committed), fmt.money(r.total.expected_loss, cur),
+                  fmt.pct(r.total.el_rate, 3), fmt.money(r.total.rwa, cur), fmt.money(r.pricing.capital, cur),
+                  fmt.pd_pct(r.pd.pd), fmt.pct(r.pricing.minimum_spread), fmt.pct(r.pricing.raroc, 1),
+                  fmt.pct(r.pricing.hurdle_rate, 1), fmt.pct(r.pricing.proposed_spread),
+                  fmt.pct(worst.figures.raroc, 1), f"grade {worst.figures.grade}",
+                  r.case.borrower.name, r.case.memo.request[:40], "regulatory capital",
+                  "renewal", "unchanged", "new", r.case.memo.risks[0].risk[:30],
+                  r.case.memo.risks[2].mitigant[:30], r.case.memo.conditions[:30],
+                  "A model estimate, not a credit decision"):
         assert value in text, value
-    assert f"{r.pd.grade} (PD band" in text
+    # Secured facility: committed against the collateral before haircut (TL-A: 120m / 90m).
+    assert fmt.pct(120e6 / 90e6, 0) in text
+
+
+def test_decision_page_is_one_page_and_has_no_exponent_notation(sample_pdf):
+    first = subprocess.run(["pdftotext", "-f", "1", "-l", "1", "-enc", "UTF-8", "-", "-"], input=sample_pdf,
+                           capture_output=True, check=True).stdout.decode()
+    assert "Key risks and mitigants" in first and "A model estimate, not a credit decision" in first
+    everything = pdf_text(sample_pdf)
+    assert not re.search(r"\d[eE][+-]\d", everything), re.search(r".{20}\d[eE][+-]\d.{20}", everything)
 
 
 def test_printed_pd_is_normal_tail_of_printed_distance_to_default(sample_results, sample_sections):
