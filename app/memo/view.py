@@ -75,6 +75,8 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
                        f"the proposed spread falls short of the minimum by {fmt.pct(gap)}")
     from obligor_memo.engine.decision import decision_summary
 
+    from obligor_memo.engine.drivers import pd_drivers
+
     decision = decision_summary(results)
     hurdle = pricing.hurdle_rate if pricing is not None else None
     case_data = case_to_dict(case)
@@ -95,6 +97,7 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
         "worst_sentence": (scenario_sentence(decision.worst, results.pd.grade, hurdle)
                            if decision.worst is not None else None),
         "key_risks": list(case.memo.risks[:3]),
+        "drivers": pd_drivers(results),
         "spread_note": spread_note, "generated_at": generated_at, "page_size": page_size,
         "statement_keys": statement_keys, "statement_rows": case_data["statements"],
         "inputs_yaml": inputs_yaml(case_data), "window_years": window,
