@@ -129,15 +129,15 @@ def break_evens(results: Any) -> tuple[BreakEven, ...]:
         return f
 
     specs: list[tuple[str, str, float, float, float, bool]] = [
-        ("long-term share in the default point", "pd.default_point.long_term_share",
+        ("Long-term share in the default point", "pd.default_point.long_term_share",
          case.pd.default_point.long_term_share, case.pd.default_point.long_term_share, 1.0, True),
-        ("asset volatility", "pd.asset_volatility", pd.asset_volatility, pd.asset_volatility, 1.0, True),
+        ("Asset volatility", "pd.asset_volatility", pd.asset_volatility, pd.asset_volatility, 1.0, True),
     ]
     if pd.asset_growth is not None:
-        specs.append(("asset growth", "pd.asset_growth", pd.asset_growth, -0.5, pd.asset_growth, True))
+        specs.append(("Asset growth", "pd.asset_growth", pd.asset_growth, -0.5, pd.asset_growth, True))
     secured = next((f for f in case.facilities if f.recovery is not None), None)
     if secured is not None:
-        specs.append((f"mean recovery of {secured.id}", f"facilities.{secured.id}.recovery.mean",
+        specs.append((f"Mean recovery of {secured.id}", f"facilities.{secured.id}.recovery.mean",
                       secured.recovery.mean, 0.01, secured.recovery.mean, False))
     out = []
     for label, path, base, lo, hi, moves_grade in specs:

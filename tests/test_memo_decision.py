@@ -54,8 +54,8 @@ def test_leave_one_year_out_matches_numpy_and_the_normal_tail(sample_results):
 
 def test_break_evens_land_on_the_grade_edge_and_the_hurdle(sample_results):
     r = sample_results
-    paths = {"long-term share in the default point": "pd.default_point.long_term_share",
-             "asset volatility": "pd.asset_volatility", "asset growth": "pd.asset_growth"}
+    paths = {"Long-term share in the default point": "pd.default_point.long_term_share",
+             "Asset volatility": "pd.asset_volatility", "Asset growth": "pd.asset_growth"}
     found = {b.input: b for b in break_evens(r)}
     for label, path in paths.items():
         b = found[label]
