@@ -29,6 +29,7 @@ PositiveMoney = Annotated[float, Field(gt=0, le=1e15)]
 SignedMoney = Annotated[float, Field(ge=-1e15, le=1e15)]
 Fraction = Annotated[float, Field(ge=0, le=1)]
 Text = Annotated[str, Field(max_length=20_000)]
+FacilityStatus = Literal["new", "renewal", "increase", "unchanged"]
 ShortText = Annotated[str, Field(max_length=200)]
 
 
@@ -186,6 +187,7 @@ class Facility(_Model):
     collateral: Collateral | None = None
     pricing: FacilityPricing | None = None
     description: ShortText = ""
+    status: FacilityStatus | None = None
 
 
 class CcfGradeRow(_Model):
@@ -319,16 +321,27 @@ class Scenario(_Model):
     set: dict[str, ScenarioValue] = Field(default_factory=dict, max_length=LIMITS['scenarios[].set'])
 
 
-class MemoText(_Model):
-    """Free text, printed exactly as typed."""
+class RiskItem(_Model):
+    """One key risk and what mitigates it (the decision page prints the first three)."""
 
-    prepared_by: Text = ""
-    reviewed_by: Text = ""
-    approved_by: Text = ""
-    request: Text = ""
-    summary: Text = ""
-    recommendation: Text = ""
-    conditions: Text = ""
+    risk: Annotated[str, Field(min_length=1, max_length=300)]
+    mitigant: Annotated[str, Field(max_length=300)] = ""
+
+
+class MemoText(_Model):
+    """Free text, printed exactly as typed; every field has a length limit the page can hold."""
+
+    prepared_by: Annotated[str, Field(max_length=200)] = ""
+    reviewed_by: Annotated[str, Field(max_length=200)] = ""
+    approved_by: Annotated[str, Field(max_length=200)] = ""
+    request: Annotated[str, Field(max_length=5_000)] = ""
+    summary: Annotated[str, Field(max_length=4_000)] = ""
+    recommendation: Annotated[str, Field(max_length=1_000)] = ""
+    conditions: Annotated[str, Field(max_length=2_000)] = ""
+    rationale: Annotated[str, Field(max_length=300)] = ""
+    default_point_reason: Annotated[str, Field(max_length=1_500)] = ""
+    cross_check_explanation: Annotated[str, Field(max_length=1_500)] = ""
+    risks: list[RiskItem] = Field(default_factory=list, max_length=10)
     page_size: Literal["A4", "Letter"] = "A4"
 
 

@@ -32,10 +32,11 @@ ARTIFACTS = ROOT / "test-artifacts"
 STAMP = datetime(2031, 5, 6, 7, 8, 9, tzinfo=timezone.utc)
 
 # Section headings as printed, in order; the text between two headings belongs to the first.
-HEADINGS = ["Summary", "1 The borrower and its accounts", "2 Probability of default",
-            "3 Exposure at default", "4 Recovery and loss given default", "5 Loss and capital",
-            "6 Pricing", "7 Sensitivities and scenarios", "8 Analyst's narrative", "9 Cautions",
-            "10 Methods and sources", "11 Sign-off", "Appendix Inputs and record"]
+HEADINGS = ["Decision", "1 The borrower and its accounts", "2 Probability of default",
+            "3 Scenarios and the analyst's view", "4 Sign-off", "Appendix A PD term structure",
+            "Appendix B Exposure at default", "Appendix C Recovery and loss given default",
+            "Appendix D Loss and capital", "Appendix E Pricing", "Appendix F Sensitivities and scenarios",
+            "Appendix G Cautions", "Appendix H Methods and sources", "Appendix I Inputs and record"]
 
 HOSTILE = {
     "script": "<script>alert('memo')</script>",
@@ -135,16 +136,38 @@ def hostile(make_case):
 # --------------------------------------------------------------------------- figures in sections
 
 
-def test_summary_page_prints_the_key_figures(sample_results, sample_sections):
+def test_decision_page_prints_what_the_committee_decides_on(sample_results, sample_sections):
     r, cur = sample_results, sample_results.case.borrower.currency
-    text = sample_sections["Summary"]
-    for value in (fmt.money(r.total.ead, cur), fmt.money(r.total.expected_loss, cur),
-                  fmt.pct(r.total.el_rate, 3), fmt.money(r.total.unexpected_loss, cur),
-                  fmt.money(r.total.rwa, cur), fmt.money(r.total.economic_capital, cur),
-                  fmt.pd_pct(r.pd.pd), fmt.pct(r.pricing.minimum_spread),
-                  fmt.pct(r.pricing.proposed_spread), r.case.borrower.name, r.case.memo.request[:40]):
+    text = " ".join(sample_sections["Decision"].split())
+    committed = sum(f.committed for f in r.case.facilities)
+    worst = max(r.scenarios, key=lambda s: s.figures.pd)
+    for value in (fmt.money(r.total.ead), fmt.money(committed), fmt.money(r.total.expected_loss, cur),
+                  fmt.pct(r.total.el_rate, 3), fmt.money(r.total.rwa, cur), fmt.money(r.pricing.capital, cur),
+                  fmt.pd_pct(r.pd.pd), fmt.pct(r.pricing.minimum_spread), fmt.pct(r.pricing.raroc, 1),
+                  fmt.pct(r.pricing.hurdle_rate, 1), fmt.pct(r.pricing.proposed_spread),
+                  fmt.pct(worst.figures.raroc, 1), f"grade {worst.figures.grade}",
+                  r.case.borrower.name, r.case.memo.request[:40], "regulatory capital",
+                  "renewal", "unchanged", "new", r.case.memo.risks[0].risk[:30],
+                  r.case.memo.risks[2].mitigant[:30], r.case.memo.conditions[:30],
+                  "A model estimate, not a credit decision"):
         assert value in text, value
-    assert f"{r.pd.grade} (PD band" in text
+    # Secured facility: committed against the collateral before haircut (TL-A: 120m / 90m).
+    assert fmt.pct(120e6 / 90e6, 0) in text
+
+
+def test_body_is_at_most_six_pages_between_decision_page_and_appendices(sample_pdf):
+    pages = pdf_text(sample_pdf).split("\f")
+    first_appendix = next(i for i, t in enumerate(pages) if re.search(r"^Appendix A", t, flags=re.M))
+    assert re.search(r"^1\s+The borrower", pages[1], flags=re.M)     # the body starts on page 2
+    assert first_appendix - 1 <= 6, f"body runs to {first_appendix - 1} pages"
+
+
+def test_decision_page_is_one_page_and_has_no_exponent_notation(sample_pdf):
+    first = subprocess.run(["pdftotext", "-f", "1", "-l", "1", "-enc", "UTF-8", "-", "-"], input=sample_pdf,
+                           capture_output=True, check=True).stdout.decode()
+    assert "Key risks and mitigants" in first and "A model estimate, not a credit decision" in first
+    everything = pdf_text(sample_pdf)
+    assert not re.search(r"\d[eE][+-]\d", everything), re.search(r".{20}\d[eE][+-]\d.{20}", everything)
 
 
 def test_printed_pd_is_normal_tail_of_printed_distance_to_default(sample_results, sample_sections):
@@ -154,13 +177,14 @@ def test_printed_pd_is_normal_tail_of_printed_distance_to_default(sample_results
     assert fmt.num(r.pd.distance_to_default, 3) in text
     assert fmt.pd_pct(float(norm.sf(r.pd.distance_to_default))) in text
     assert fmt.pd_pct(r.market.merton.pd) in text          # market cross-check
+    term = sample_sections["Appendix A PD term structure"]
     for cumulative in r.term_structure.cumulative:
-        assert fmt.pd_pct(cumulative) in text
+        assert fmt.pd_pct(cumulative) in term
 
 
 def test_exposure_section_prints_ead_recomputed_from_inputs(sample_results, sample_sections):
     # EAD = drawn + CCF x max(committed - drawn, 0) (Basel standardised approach, CRE20).
-    text = sample_sections["3 Exposure at default"]
+    text = sample_sections["Appendix B Exposure at default"]
     for entered, f in zip(sample_results.case.facilities, sample_results.facilities):
         ead = entered.drawn + f.ccf * max(entered.committed - entered.drawn, 0.0)
         assert fmt.money(ead) in text, f.id
@@ -169,7 +193,7 @@ def test_exposure_section_prints_ead_recomputed_from_inputs(sample_results, samp
 
 def test_recovery_section_prints_moment_fitted_beta_parameters(sample_results, sample_sections):
     # Method of moments on [0, upper]: m = mean/upper, v = (std/upper)^2, k = m(1-m)/v - 1.
-    text = sample_sections["4 Recovery and loss given default"]
+    text = sample_sections["Appendix C Recovery and loss given default"]
     for f in sample_results.facilities:
         m, v = f.recovery_mean / f.recovery_upper, (f.recovery_std / f.recovery_upper) ** 2
         k = m * (1 - m) / v - 1
@@ -178,19 +202,19 @@ def test_recovery_section_prints_moment_fitted_beta_parameters(sample_results, s
 
 
 def test_loss_and_pricing_sections(sample_results, sample_sections):
-    loss = sample_sections["5 Loss and capital"]
+    loss = sample_sections["Appendix D Loss and capital"]
     for f in sample_results.facilities:
         # EL = EAD x PD x LGD, recomputed here from the printed inputs' full-precision values.
         assert fmt.money(f.ead * sample_results.pd.pd * f.lgd) in loss, f.id
         for value in (fmt.money(f.unexpected_loss), fmt.pct(f.risk_weight, 1), fmt.money(f.rwa)):
             assert value in loss, (f.id, value)
-    pricing = sample_sections["6 Pricing"]
+    pricing = sample_sections["Appendix E Pricing"]
     assert fmt.pct(sample_results.pricing.raroc, 1) in pricing
     assert fmt.money(sample_results.pricing.income) in pricing
 
 
 def test_sensitivity_section_prints_scenarios_side_by_side(sample_results, sample_sections):
-    text = " ".join(sample_sections["7 Sensitivities and scenarios"].split())
+    text = " ".join(sample_sections["Appendix F Sensitivities and scenarios"].split())
     for scenario in sample_results.scenarios:
         assert scenario.name in text
         for value in (fmt.pd_pct(scenario.figures.pd), fmt.money(scenario.figures.expected_loss),
@@ -205,17 +229,19 @@ def test_financials_narrative_and_appendix(sample_results, sample_sections):
     r = sample_results
     fin = sample_sections["1 The borrower and its accounts"]
     latest = r.case.statements[-1]
-    assert fmt.num(latest.total_assets / 1e6, 1) in fin             # table in [currency m]
+    assert fmt.money(latest.total_assets) in sample_sections["Appendix I Inputs and record"]  # as entered
+    assert all(fmt.pct(q.leverage, 1) in fin for q in r.ratios)
     assert all(fmt.num(z.score, 2) in fin for z in r.zscores if z.score is not None)
-    narrative = " ".join(sample_sections["8 Analyst's narrative"].split())
-    assert " ".join(r.case.memo.conditions.split()) in narrative
-    appendix = sample_sections["Appendix Inputs and record"]
+    narrative = " ".join(sample_sections["3 Scenarios and the analyst's view"].split())
+    assert " ".join(r.case.memo.summary.split()) in narrative
+    assert " ".join(r.case.memo.conditions.split()) in " ".join(sample_sections["Decision"].split())
+    appendix = sample_sections["Appendix I Inputs and record"]
     assert r.fingerprint in appendix.replace("\n", "")
     assert "2031-05-06 07:08:09 UTC" in appendix and r.engine_version in appendix
 
 
 def test_cautions_print_the_fixed_warnings_and_every_engine_caution(sample_results, sample_sections):
-    text = " ".join(sample_sections["9 Cautions"].split())
+    text = " ".join(sample_sections["Appendix G Cautions"].split())
     for phrase in ("not a credit decision", "credit policy", "supervisor", "qualified credit officer",
                    "Structural-model assumptions", "Accounting values stand in for market values",
                    "Short histories", "Recovery laws fitted to two moments"):
@@ -349,7 +375,7 @@ def test_any_summary_text_reaches_the_html_as_text(sample_results, typed):
     memo_text = case.memo.model_copy(update={"summary": typed, "recommendation": "", "conditions": ""})
     results = dataclasses.replace(sample_results, case=case.model_copy(update={"memo": memo_text}))
     html = render_memo_html(results, charts=False, generated_at=STAMP)
-    parser = _TextOf("narrative")
+    parser = _TextOf("brief")
     parser.feed(html)
     assert typed in "".join(parser.parts)
 
@@ -380,5 +406,5 @@ def test_appendix_inputs_read_back_as_the_case(sample_results, make_case, sample
         data = case_to_dict(results.case)
         expected = {k: v for k, v in data.items() if k != "statements"}
         assert yaml.safe_load(view.inputs_yaml(data)) == expected
-    appendix = sample_sections["Appendix Inputs and record"]
+    appendix = sample_sections["Appendix I Inputs and record"]
     assert "confidence: 0.999" in appendix and "kind: term_loan" in appendix

@@ -44,6 +44,19 @@ def inputs_yaml(case_data: dict[str, Any]) -> str:
                           width=56, indent=2)
 
 
+_STATUS = {"new": "new", "renewal": "renewal", "increase": "increase", "unchanged": "unchanged", None: "not stated"}
+
+
+def scenario_sentence(line: Any, base_grade: str | None, hurdle: float | None) -> str:
+    """One scenario said in a sentence: its PD and grade against the base, its RAROC against the hurdle."""
+    grade = (f"grade {line.grade} (base {base_grade})" if line.grade_changed else f"grade unchanged at {line.grade}")
+    text = f"{line.name}: PD {fmt.pd_pct(line.pd)}, {grade}"
+    if line.raroc is not None and hurdle is not None:
+        verdict = "meets" if line.meets_hurdle else "falls below"
+        text += f"; RAROC {fmt.pct(line.raroc, 1)} {verdict} the {fmt.pct(hurdle, 1)} hurdle"
+    return text + "."
+
+
 def short_fingerprint(results: Any) -> str:
     """The inputs' fingerprint as the running footer and the summary page print it."""
     return results.fingerprint[:16]
@@ -62,6 +75,12 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
         spread_note = ("no minimum spread: nothing is drawn, so no interest accrues" if gap is None else
                        f"the proposed spread exceeds the minimum by {fmt.pct(-gap)}" if gap <= 0 else
                        f"the proposed spread falls short of the minimum by {fmt.pct(gap)}")
+    from obligor_memo.engine.decision import decision_summary
+
+    from obligor_memo.engine.drivers import pd_drivers
+
+    decision = decision_summary(results)
+    hurdle = pricing.hurdle_rate if pricing is not None else None
     case_data = case_to_dict(case)
     # Lines given in at least one year, in tables of at most six columns so no column is cut.
     statement_keys = [k for k in case_data["statements"][0] if k != "year"
@@ -78,6 +97,12 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
         "charts": charts, "chart_notes": chart_notes, "charts_requested": charts_requested,
         "chart_ids": {key: CHART_ANCHOR.format(src[len(CHART_SCHEME):]) for key, src in charts.items()
                       if src.startswith(CHART_SCHEME)},
+        "decision": decision, "status_label": _STATUS,
+        "scenario_sentences": [scenario_sentence(x, results.pd.grade, hurdle) for x in decision.scenarios],
+        "worst_sentence": (scenario_sentence(decision.worst, results.pd.grade, hurdle)
+                           if decision.worst is not None else None),
+        "key_risks": list(case.memo.risks[:3]),
+        "drivers": pd_drivers(results),
         "spread_note": spread_note, "generated_at": generated_at, "page_size": page_size,
         "statement_keys": statement_keys, "statement_groups": statement_groups,
         "statement_rows": case_data["statements"],

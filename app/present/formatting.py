@@ -1,7 +1,9 @@
 """Number formats shared by the command line, the workbench and the memo (one place, one style).
 
 Money: thousands separators, no decimals for amounts of 1,000 or more; rates as percentages with
-two decimals, small PDs with enough significant digits to stay visible (0.0123 %).
+two decimals. One precision rule per quantity: a PD always prints with two decimals in percent
+from 1 % up and four below (0.2105 %, 4.58 %); anything below the smallest printable step prints
+as "< 0.0001 %" (or "< 0.01 %" for other rates). No exponent notation anywhere.
 """
 
 from __future__ import annotations
@@ -26,19 +28,21 @@ def pct(value: float | None, decimals: int = 2) -> str:
     """A rate as a percentage; tiny non-zero values keep three significant digits."""
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
-    if value != 0 and abs(value) < 10 ** -(decimals + 2):
-        return f"{value * 100:.3g} %"
+    step = 10.0 ** -(decimals + 2)
+    if value != 0 and abs(value) < step / 2:
+        sign = "-" if value < 0 else ""
+        return f"{'> ' + sign if sign else '< '}{step * 100:.{decimals}f} %"
     return f"{value * 100:,.{decimals}f} %"
 
 
 def pd_pct(value: float | None) -> str:
-    """A PD: 4 decimals in percent below 1 %, 2 above; below 0.0001 % in scientific form."""
-    if value is None:
+    """A PD: 4 decimals in percent below 1 %, 2 from 1 % up; below 0.0001 % as "< 0.0001 %"."""
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
     if value == 0:
         return "0 %"
-    if value < 1e-6:
-        return f"{value * 100:.2e} %"
+    if value < 0.5e-6:
+        return "< 0.0001 %"
     if value < 0.01:
         return f"{value * 100:.4f} %"
     return f"{value * 100:.2f} %"

@@ -1,0 +1,158 @@
+"""Why the PD is what it is: the inputs that move it most, the year that drives the volatility,
+and the break-even points at which the grade drops a notch or RAROC falls below the hurdle.
+
+Leave one year out: the asset volatility is the sample standard deviation of the annual log
+changes of total assets; dropping one change at a time and re-computing the balance-sheet PD with
+everything else held shows how much a single year drives the estimate.
+
+Break-even points: the value of one input at which the PD in force reaches the upper edge of the
+grade's band (the grade drops one notch) or at which RAROC equals the hurdle, found by Brent's
+method (scipy.optimize.brentq) on the whole evaluation, within the input's allowed range.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Callable
+
+import numpy as np
+from scipy.optimize import brentq
+
+from obligor_memo.engine.structural import balance_sheet_pd
+from obligor_memo.engine.trend import sample_volatility
+
+
+@dataclass(frozen=True)
+class YearLeftOut:
+    year: int                  # the year whose change on the year before is left out
+    log_change: float          # that year's log change of total assets [1/year]
+    volatility: float          # sample volatility without it [1/sqrt(year)]
+    pd: float                  # balance-sheet PD with that volatility, all else held [fraction]
+
+
+@dataclass(frozen=True)
+class Driver:
+    label: str
+    pd_low: float | None       # PD at the lower input
+    pd_high: float | None      # PD at the higher input
+    swing: float               # |PD at the higher input - PD at the lower input| [fraction]
+
+
+@dataclass(frozen=True)
+class BreakEven:
+    input: str                 # in words
+    base: float
+    grade_notch: float | None  # value at which the grade drops one notch; None: not within range
+    below_hurdle: float | None # value at which RAROC falls to the hurdle; None: not within range
+    low: float                 # the range searched
+    high: float
+
+
+@dataclass(frozen=True)
+class PdDrivers:
+    drivers: tuple[Driver, ...]             # largest PD swing first, at most three
+    years_left_out: tuple[YearLeftOut, ...]
+    driving_year: YearLeftOut | None        # the year whose removal changes the volatility most
+    break_evens: tuple[BreakEven, ...]
+
+
+def leave_one_year_out(results: Any) -> tuple[YearLeftOut, ...]:
+    """Volatility and PD without each year's change (balance-sheet method, estimated volatility)."""
+    trend, pd, case = results.trend, results.pd, results.case
+    if trend is None or trend.volatility_overridden or len(trend.log_changes) < 3:
+        return ()
+    latest = case.statements[-1]
+    changes = np.asarray(trend.log_changes, dtype=float)
+    out = []
+    for i, change in enumerate(changes):
+        vol = sample_volatility(np.delete(changes, i))
+        bs = balance_sheet_pd(asset_value=latest.total_assets, asset_growth=trend.growth_used,
+                              asset_volatility=vol, short_term_liabilities=latest.short_term_liabilities,
+                              long_term_liabilities=latest.long_term_liabilities,
+                              short_term_share=case.pd.default_point.short_term_share,
+                              long_term_share=case.pd.default_point.long_term_share,
+                              horizon_years=case.pd.horizon_years)
+        out.append(YearLeftOut(year=trend.years[i + 1], log_change=float(change), volatility=vol,
+                               pd=float(bs.pd)))
+    del pd
+    return tuple(out)
+
+
+def top_drivers(sensitivity: Any, count: int = 3) -> tuple[Driver, ...]:
+    if sensitivity is None:
+        return ()
+    rows = []
+    for row in sensitivity.rows:
+        lo = row.pd_low if row.pd_low is not None else row.pd_base
+        hi = row.pd_high if row.pd_high is not None else row.pd_base
+        rows.append(Driver(label=row.label, pd_low=row.pd_low, pd_high=row.pd_high, swing=abs(hi - lo)))
+    rows.sort(key=lambda d: d.swing, reverse=True)
+    return tuple(d for d in rows[:count] if d.swing > 0)
+
+
+def _root(f: Callable[[float], float], a: float, b: float) -> float | None:
+    try:
+        fa, fb = f(a), f(b)
+    except Exception:          # an input the case refuses at the edge: no break-even reported
+        return None
+    if fa == 0:
+        return a
+    if not np.isfinite(fa) or not np.isfinite(fb) or fa * fb > 0:
+        return None
+    return float(brentq(f, a, b, xtol=1e-7))
+
+
+def break_evens(results: Any) -> tuple[BreakEven, ...]:
+    """Grade-notch and hurdle break-evens for the long-term share, volatility, growth and the
+    first secured facility's mean recovery (recovery moves RAROC, never the grade)."""
+    from obligor_memo.engine.evaluate import evaluate
+    from obligor_memo.engine.scenarios import apply_overrides
+
+    case, pd, pricing = results.case, results.pd, results.pricing
+    if case.pd.method != "balance_sheet" or pd.grade_upper is None:
+        return ()
+    cache: dict[tuple[str, float], Any] = {}
+
+    def run(path: str, value: float) -> Any:
+        key = (path, round(value, 12))
+        if key not in cache:
+            cache[key] = evaluate(apply_overrides(case, {path: value}, where="break-even"), detail=False)
+        return cache[key]
+
+    def grade_gap(path: str) -> Callable[[float], float]:
+        return lambda v: run(path, v).pd.pd - pd.grade_upper
+
+    def hurdle_gap(path: str) -> Callable[[float], float]:
+        def f(v: float) -> float:
+            p = run(path, v).pricing
+            return float("nan") if p is None else p.raroc - p.hurdle_rate
+        return f
+
+    specs: list[tuple[str, str, float, float, float, bool]] = [
+        ("Long-term share in the default point", "pd.default_point.long_term_share",
+         case.pd.default_point.long_term_share, case.pd.default_point.long_term_share, 1.0, True),
+        ("Asset volatility", "pd.asset_volatility", pd.asset_volatility, pd.asset_volatility, 1.0, True),
+    ]
+    if pd.asset_growth is not None:
+        specs.append(("Asset growth", "pd.asset_growth", pd.asset_growth, -0.5, pd.asset_growth, True))
+    secured = next((f for f in case.facilities if f.recovery is not None), None)
+    if secured is not None:
+        specs.append((f"Mean recovery of {secured.id}", f"facilities.{secured.id}.recovery.mean",
+                      secured.recovery.mean, 0.01, secured.recovery.mean, False))
+    out = []
+    for label, path, base, lo, hi, moves_grade in specs:
+        if hi <= lo:
+            continue
+        notch = _root(grade_gap(path), lo, hi) if moves_grade else None
+        hurdle = _root(hurdle_gap(path), lo, hi) if pricing is not None else None
+        out.append(BreakEven(input=label, base=base, grade_notch=notch, below_hurdle=hurdle, low=lo, high=hi))
+    return tuple(out)
+
+
+def pd_drivers(results: Any) -> PdDrivers:
+    years = leave_one_year_out(results)
+    driving = None
+    if years and results.trend is not None:
+        driving = max(years, key=lambda y: abs(y.volatility - results.trend.volatility_used))
+    return PdDrivers(drivers=top_drivers(getattr(results, "sensitivity", None)), years_left_out=years,
+                     driving_year=driving, break_evens=break_evens(results))
