@@ -31,7 +31,7 @@ WRITER = textwrap.dedent("""
     from obligor_memo.app.workbench.state import autosave, sample_case_dict
     workdir, case_id = Path(sys.argv[1]), sys.argv[2]
     base = sample_case_dict()
-    base["memo"]["summary"] = "x" * 19_000
+    base["memo"]["summary"] = "x" * 3_900
     padding = "y" * 3_000_000                        # large records: a kill lands mid-write
     n = 0
     print("ready", flush=True)
@@ -63,7 +63,7 @@ def test_autosave_survives_sigkill_during_writes(tmp_path: Path) -> None:
         assert restored is not None, "the last good autosave must remain readable"
         # The record is whole: valid JSON, a case that validates, the text as typed.
         parse_case(restored.raw)
-        assert restored.raw["memo"]["summary"] == "x" * 19_000
+        assert restored.raw["memo"]["summary"] == "x" * 3_900
         assert len(restored.extra["padding"]) == 3_000_000
         assert restored.raw["memo"]["recommendation"] == f"revision {restored.extra['revision']}"
         revisions.append(restored.extra["revision"])
