@@ -7,8 +7,8 @@ field, the value and what is allowed; never a traceback.
 
 from __future__ import annotations
 
-import logging
 import json
+import logging
 import sys
 from pathlib import Path
 
@@ -46,9 +46,13 @@ def _guard(func):
             if settings.current().debug:
                 raise
             log.debug("internal error", exc_info=True)
-            _fail(f"obligor-memo hit an internal error ({type(exc).__name__}: {exc}). This is a "
-                  "bug, not a problem with your input; set OBLIGOR_MEMO_DEBUG=1 to see the details "
-                  "and report them.", EXIT_INTERNAL)
+            _fail(
+                f"obligor-memo hit an internal error ({type(exc).__name__}: {exc}). This is a "
+                "bug, not a problem with your input; set OBLIGOR_MEMO_DEBUG=1 to see the details "
+                "and report them.",
+                EXIT_INTERNAL,
+            )
+
     return wrapper
 
 
@@ -80,20 +84,33 @@ def evaluate(case: Path, as_json: bool) -> None:
 
 @main.command()
 @click.argument("case", type=click.Path(dir_okay=False, path_type=Path))
-@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False, path_type=Path),
-              help="Where to write the PDF memo.")
-@click.option("--page-size", type=click.Choice(["A4", "Letter"]), default=None,
-              help="Paper size (default: the case's memo.page_size, else A4).")
-@click.option("--no-charts", is_flag=True,
-              help="Print without charts (no browser needed); a note marks each chart's place.")
+@click.option(
+    "-o",
+    "--output",
+    "output",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Where to write the PDF memo.",
+)
+@click.option(
+    "--page-size",
+    type=click.Choice(["A4", "Letter"]),
+    default=None,
+    help="Paper size (default: the case's memo.page_size, else A4).",
+)
+@click.option(
+    "--no-charts", is_flag=True, help="Print without charts (no browser needed); a note marks each chart's place."
+)
 @_guard
 def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> None:
     """Write the credit memo for CASE as a PDF that carries its own inputs."""
     from obligor_memo.app.memo.chart_browser import ChartExporter, ChartsUnavailable
 
     if not output.parent.is_dir():
-        _fail(f"-o/--output: got {str(output)!r}; allowed: a file in an existing folder "
-              f"({str(output.parent)!r} does not exist).")
+        _fail(
+            f"-o/--output: got {str(output)!r}; allowed: a file in an existing folder "
+            f"({str(output.parent)!r} does not exist)."
+        )
     browser = None
     try:
         if not no_charts:
@@ -157,16 +174,27 @@ def compare(old: Path, new: Path, as_json: bool) -> None:
     if as_json:
         click.echo(json.dumps(compare_report.compare_json(comparison), indent=2, allow_nan=False))
     else:
-        click.echo(compare_report.compare_text(comparison, old_name=old.name, new_name=new.name,
-                                               currency=now.case.borrower.currency))
+        click.echo(
+            compare_report.compare_text(
+                comparison, old_name=old.name, new_name=new.name, currency=now.case.borrower.currency
+            )
+        )
 
 
 @main.command()
 @click.option("--port", default=8501, show_default=True, type=click.IntRange(1024, 65535))
-@click.option("--host", default="127.0.0.1", show_default=True,
-              help="Address to bind. Anything but 127.0.0.1 exposes the workbench to the network.")
-@click.option("--workdir", type=click.Path(file_okay=False, path_type=Path), default=None,
-              help="Folder for autosaved cases (default: ~/.obligor-memo).")
+@click.option(
+    "--host",
+    default="127.0.0.1",
+    show_default=True,
+    help="Address to bind. Anything but 127.0.0.1 exposes the workbench to the network.",
+)
+@click.option(
+    "--workdir",
+    type=click.Path(file_okay=False, path_type=Path),
+    default=None,
+    help="Folder for autosaved cases (default: ~/.obligor-memo).",
+)
 def app(port: int, host: str, workdir: Path | None) -> None:
     """Start the workbench in the browser (Streamlit), on the sample borrower."""
     from obligor_memo.app.workbench.serve import serve
@@ -176,10 +204,21 @@ def app(port: int, host: str, workdir: Path | None) -> None:
 
 @main.command()
 @click.argument("case", type=click.Path(dir_okay=False, path_type=Path))
-@click.option("-o", "--output", "output", type=click.Path(dir_okay=False, path_type=Path), default=None,
-              help="The workbook to write (.xlsx).")
-@click.option("--csv", "csv_dir", type=click.Path(file_okay=False, path_type=Path), default=None,
-              help="Also (or instead) write one CSV per table into this folder.")
+@click.option(
+    "-o",
+    "--output",
+    "output",
+    type=click.Path(dir_okay=False, path_type=Path),
+    default=None,
+    help="The workbook to write (.xlsx).",
+)
+@click.option(
+    "--csv",
+    "csv_dir",
+    type=click.Path(file_okay=False, path_type=Path),
+    default=None,
+    help="Also (or instead) write one CSV per table into this folder.",
+)
 @_guard
 def export(case: Path, output: Path | None, csv_dir: Path | None) -> None:
     """The results of CASE as a workbook: inputs, statements as read, facilities, totals, PD,
@@ -204,19 +243,30 @@ def export(case: Path, output: Path | None, csv_dir: Path | None) -> None:
 
 
 @main.command()
-@click.argument("paths", metavar="CASE_OR_FOLDER...", nargs=-1, required=True,
-                type=click.Path(path_type=Path))
-@click.option("-o", "--output", "outdir", required=True, type=click.Path(file_okay=False, path_type=Path),
-              help="Folder for the memos, portfolio.csv / .xlsx and errors.csv.")
-@click.option("--workers", type=click.IntRange(1, 512), default=None,
-              help="Worker processes of the local cluster (default: 1).")
-@click.option("--scheduler", default=None, metavar="ADDRESS",
-              help="An existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (then --workers is the cluster's).")
+@click.argument("paths", metavar="CASE_OR_FOLDER...", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option(
+    "-o",
+    "--output",
+    "outdir",
+    required=True,
+    type=click.Path(file_okay=False, path_type=Path),
+    help="Folder for the memos, portfolio.csv / .xlsx and errors.csv.",
+)
+@click.option(
+    "--workers", type=click.IntRange(1, 512), default=None, help="Worker processes of the local cluster (default: 1)."
+)
+@click.option(
+    "--scheduler",
+    default=None,
+    metavar="ADDRESS",
+    help="An existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (then --workers is the cluster's).",
+)
 @click.option("--no-memos", is_flag=True, help="Evaluate only: no PDF memos.")
 @click.option("--resume", is_flag=True, help="Skip cases whose memo with the same inputs is already in OUTDIR.")
 @_guard
-def batch(paths: tuple[Path, ...], outdir: Path, workers: int | None, scheduler: str | None, no_memos: bool,
-          resume: bool) -> None:
+def batch(
+    paths: tuple[Path, ...], outdir: Path, workers: int | None, scheduler: str | None, no_memos: bool, resume: bool
+) -> None:
     """Evaluate every case (files, or folders searched for case files) and print their memos.
 
     Exit 0 when every case succeeded, 1 when some failed (listed in OUTDIR/errors.csv), 2 for a
@@ -227,8 +277,15 @@ def batch(paths: tuple[Path, ...], outdir: Path, workers: int | None, scheduler:
     if scheduler is not None and workers is not None:
         _fail("--workers: not allowed with --scheduler (the cluster has its own workers).")
     try:
-        result = run_batch(list(paths), outdir, workers=workers, scheduler=scheduler, memos=not no_memos,
-                           resume=resume, progress=progress_line())
+        result = run_batch(
+            list(paths),
+            outdir,
+            workers=workers,
+            scheduler=scheduler,
+            memos=not no_memos,
+            resume=resume,
+            progress=progress_line(),
+        )
     except BatchUsageError as exc:
         _fail(f"obligor-memo batch: {exc}.")
     except KeyboardInterrupt:
@@ -236,8 +293,10 @@ def batch(paths: tuple[Path, ...], outdir: Path, workers: int | None, scheduler:
     except OSError as exc:
         _fail(f"obligor-memo batch: {exc}. Check the scheduler address and the output folder.")
     failed = sorted(set(result.errors["case_file"]))
-    click.echo(f"{len(result.portfolio)} case(s) done ({result.skipped} unchanged, skipped), {len(failed)} failed, "
-               f"in {result.seconds:.1f} s on {result.workers} worker(s); results in {outdir}/portfolio.csv")
+    click.echo(
+        f"{len(result.portfolio)} case(s) done ({result.skipped} unchanged, skipped), {len(failed)} failed, "
+        f"in {result.seconds:.1f} s on {result.workers} worker(s); results in {outdir}/portfolio.csv"
+    )
     if failed:
         click.echo("Failed (see errors.csv):", err=True)
         for name in failed:

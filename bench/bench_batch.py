@@ -29,7 +29,9 @@ def _book(folder: Path, count: int) -> list[Path]:
     from obligor_memo.engine.loading import parse_text
 
     base = parse_text(SAMPLE.read_text(encoding="utf-8"), SAMPLE.name)
-    (folder / "hollowmere_statements.csv").write_bytes((ROOT / "sample_data" / "hollowmere_statements.csv").read_bytes())
+    (folder / "hollowmere_statements.csv").write_bytes(
+        (ROOT / "sample_data" / "hollowmere_statements.csv").read_bytes()
+    )
     paths = []
     for i in range(count):
         data = copy.deepcopy(base)
@@ -80,17 +82,24 @@ def main() -> int:
             out[f"batch_{workers}w_cases_per_s"] = statistics.median(timings)
         for workers in (1, 2):
             result = run_batch(cases[:n_memos], folder / f"memos{workers}", workers=workers, memos=True)
-            out[f"batch_{workers}w_memos_per_min"] = 60 * len(result.portfolio) / (result.seconds - result.startup_seconds)
+            out[f"batch_{workers}w_memos_per_min"] = (
+                60 * len(result.portfolio) / (result.seconds - result.startup_seconds)
+            )
         # Memory of one warm worker: its process and its chart browser, after printing memos.
         from distributed import Client, LocalCluster
 
-        with LocalCluster(n_workers=1, threads_per_worker=1, processes=True, dashboard_address=None,
-                          host="127.0.0.1") as cluster, Client(cluster) as client:
+        with (
+            LocalCluster(
+                n_workers=1, threads_per_worker=1, processes=True, dashboard_address=None, host="127.0.0.1"
+            ) as cluster,
+            Client(cluster) as client,
+        ):
             from obligor_memo.app.batch.run import ChartBrowserPlugin, evaluate_case
 
             client.register_plugin(ChartBrowserPlugin(), name=ChartBrowserPlugin.name)
-            client.gather([client.submit(evaluate_case, str(p), str(folder / "mem"), True, None, pure=False)
-                           for p in cases[:2]])
+            client.gather(
+                [client.submit(evaluate_case, str(p), str(folder / "mem"), True, None, pure=False) for p in cases[:2]]
+            )
             (folder / "mem").mkdir(exist_ok=True)
             import os
 

@@ -22,6 +22,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_data" / "hollowmere.yaml"
 
+
 def _tree_rss_mb(pid: int) -> float:
     """Proportional set size of a process and all its descendants (Chromium's helpers included);
     shared pages count once in total, where a sum of resident sets would count them per process."""
@@ -63,26 +64,26 @@ def cold(runs: int, out_pdf: Path) -> list[tuple[float, float]]:
 
 def warm(runs: int) -> tuple[list[float], list[float], float]:
     sys.path.insert(0, str(ROOT))
-    from obligor_memo.app.memo import chart_pages
     from obligor_memo.app import memo
+    from obligor_memo.app.memo import chart_pages
     from obligor_memo.app.memo import figures as memo_figures
     from obligor_memo.engine.analysis import analyse
     from obligor_memo.engine.loading import load_case
 
     results = analyse(load_case(SAMPLE))
     t0 = time.perf_counter()
-    memo.start_chart_exporter()                 # as the workbench does: the chart browser and
+    memo.start_chart_exporter()  # as the workbench does: the chart browser and
     start_seconds = time.perf_counter() - t0
-    memo.render_memo_pdf(results)            # first render also warms fonts and plotly
+    memo.render_memo_pdf(results)  # first render also warms fonts and plotly
     times, cached = [], []
     for _ in range(runs):
-        memo_figures._SVG_CACHE.clear()          # every figure goes through the browser again
-        chart_pages._PAGES_CACHE.clear()        # and through the SVG-to-PDF converter
+        memo_figures._SVG_CACHE.clear()  # every figure goes through the browser again
+        chart_pages._PAGES_CACHE.clear()  # and through the SVG-to-PDF converter
         t0 = time.perf_counter()
         memo.render_memo_pdf(results)
         times.append(time.perf_counter() - t0)
         t0 = time.perf_counter()
-        memo.render_memo_pdf(results)    # a reprint with the same figures (e.g. a text edit)
+        memo.render_memo_pdf(results)  # a reprint with the same figures (e.g. a text edit)
         cached.append(time.perf_counter() - t0)
     memo.stop_chart_exporter()
     return times, cached, start_seconds
@@ -96,16 +97,23 @@ def main() -> None:
     out_dir = ROOT / "bench" / "results"
     out_dir.mkdir(parents=True, exist_ok=True)
     runs = cold(args.runs, out_dir / "bench_memo.pdf")
-    print(f"cold: obligor-memo memo, start to PDF (median of {len(runs)}): "
-          f"{statistics.median(r[0] for r in runs):.2f} s   target < 6 s")
-    print(f"peak memory, command and browser together (median of peaks): "
-          f"{statistics.median(r[1] for r in runs):.0f} MB   target < 600 MB")
+    print(
+        f"cold: obligor-memo memo, start to PDF (median of {len(runs)}): "
+        f"{statistics.median(r[0] for r in runs):.2f} s   target < 6 s"
+    )
+    print(
+        f"peak memory, command and browser together (median of peaks): "
+        f"{statistics.median(r[1] for r in runs):.0f} MB   target < 600 MB"
+    )
     times, cached, start_seconds = warm(args.warm_runs)
     print(f"chart exporter and layout worker start: {start_seconds:.2f} s (once per process)")
-    print(f"warm render with the exporter running, every chart exported (median of {len(times)}): "
-          f"{statistics.median(times):.2f} s   target < 2 s")
-    print(f"warm reprint with unchanged figures (SVG reused; median of {len(cached)}): "
-          f"{statistics.median(cached):.2f} s")
+    print(
+        f"warm render with the exporter running, every chart exported (median of {len(times)}): "
+        f"{statistics.median(times):.2f} s   target < 2 s"
+    )
+    print(
+        f"warm reprint with unchanged figures (SVG reused; median of {len(cached)}): {statistics.median(cached):.2f} s"
+    )
 
 
 if __name__ == "__main__":

@@ -71,10 +71,9 @@ def item_sensitivity(quick: bool) -> dict:
 
 def item_market(quick: bool) -> dict:
     import numpy as np
+    from obligor_memo.engine.market import solve_merton_many
     from scipy import optimize
     from scipy.stats import norm
-
-    from obligor_memo.engine.market import solve_merton_many
 
     n = 100_000
     rng = np.random.default_rng(20261201)
@@ -85,8 +84,14 @@ def item_market(quick: bool) -> dict:
     horizon = np.ones(n)
 
     def batch():
-        return solve_merton_many(equity_value=equity, equity_volatility=vol, default_point=debt,
-                                 risk_free_rate=rate, horizon_years=horizon, invalid="flag")
+        return solve_merton_many(
+            equity_value=equity,
+            equity_volatility=vol,
+            default_point=debt,
+            risk_free_rate=rate,
+            horizon_years=horizon,
+            invalid="flag",
+        )
 
     batch_ms = _median_ms(batch, 3 if quick else 10, warmup=1)
     converged = int(np.count_nonzero(batch().converged))
@@ -96,8 +101,11 @@ def item_market(quick: bool) -> dict:
             v, s = np.exp(x)
             d1 = (np.log(v / d) + (r + s * s / 2) * t) / (s * np.sqrt(t))
             d2 = d1 - s * np.sqrt(t)
-            return [(v * norm.cdf(d1) - d * np.exp(-r * t) * norm.cdf(d2) - e) / e,
-                    (norm.cdf(d1) * s * v - se * e) / (se * e)]
+            return [
+                (v * norm.cdf(d1) - d * np.exp(-r * t) * norm.cdf(d2) - e) / e,
+                (norm.cdf(d1) * s * v - se * e) / (se * e),
+            ]
+
         v0 = e + d * np.exp(-r * t)
         return optimize.root(equations, [np.log(v0), np.log(se * e / v0)], method="hybr")
 
@@ -107,9 +115,14 @@ def item_market(quick: bool) -> dict:
         one(equity[i], vol[i], debt[i], rate[i], horizon[i])
     loop_per = (time.perf_counter() - start) / loop_n
     batch_per = batch_ms / 1000 / n
-    return {"borrowers": n, "batch_median_ms": batch_ms, "converged": converged,
-            "scipy_loop_borrowers_timed": loop_n, "scipy_loop_ms_per_100k": loop_per * n * 1000,
-            "speedup": loop_per / batch_per}
+    return {
+        "borrowers": n,
+        "batch_median_ms": batch_ms,
+        "converged": converged,
+        "scipy_loop_borrowers_timed": loop_n,
+        "scipy_loop_ms_per_100k": loop_per * n * 1000,
+        "speedup": loop_per / batch_per,
+    }
 
 
 def item_workbench(quick: bool) -> dict:
@@ -136,23 +149,27 @@ def item_workbench(quick: bool) -> dict:
         times.append(time.perf_counter() - start)
         if at.exception:
             return {"error": str(at.exception[0].message)[:200]}
-    return {"first_load_s": first, "whatif_rerun_median_ms": statistics.median(times) * 1000,
-            "target_rerun_ms": 150, "target_first_load_s": 3}
+    return {
+        "first_load_s": first,
+        "whatif_rerun_median_ms": statistics.median(times) * 1000,
+        "target_rerun_ms": 150,
+        "target_first_load_s": 3,
+    }
 
 
 def item_memo_warm(quick: bool) -> dict:
     """The memo when the chart exporter is already running (as the workbench starts it):
     charts drawn anew each time (the SVG cache emptied), and a reprint of unchanged charts."""
-    from obligor_memo.app.memo import chart_pages
     from obligor_memo.app import memo
+    from obligor_memo.app.memo import chart_pages
     from obligor_memo.app.memo import figures as memo_figures
     from obligor_memo.engine.analysis import analyse
     from obligor_memo.engine.loading import load_case
 
     results = analyse(load_case(SAMPLE))
-    memo.start_chart_exporter(wait=True)        # as the workbench does: the chart browser and
+    memo.start_chart_exporter(wait=True)  # as the workbench does: the chart browser and
     try:
-        memo.render_memo_pdf(results)                 # warm-up: fonts, templates, first page load
+        memo.render_memo_pdf(results)  # warm-up: fonts, templates, first page load
         drawn, reprint = [], []
         for _ in range(2 if quick else 5):
             memo_figures._SVG_CACHE.clear()
@@ -165,12 +182,21 @@ def item_memo_warm(quick: bool) -> dict:
             reprint.append(time.perf_counter() - start)
     finally:
         memo.stop_chart_exporter()
-    return {"warm_charts_drawn_s": statistics.median(drawn), "warm_reprint_s": statistics.median(reprint),
-            "target_warm_s": 2}
+    return {
+        "warm_charts_drawn_s": statistics.median(drawn),
+        "warm_reprint_s": statistics.median(reprint),
+        "target_warm_s": 2,
+    }
 
 
-ITEMS = {"evaluate": item_evaluate, "grid": item_grid, "sensitivity": item_sensitivity,
-         "market": item_market, "workbench": item_workbench, "memo_warm": item_memo_warm}
+ITEMS = {
+    "evaluate": item_evaluate,
+    "grid": item_grid,
+    "sensitivity": item_sensitivity,
+    "market": item_market,
+    "workbench": item_workbench,
+    "memo_warm": item_memo_warm,
+}
 
 
 # --------------------------------------------------------------------------- orchestration
@@ -296,13 +322,19 @@ def main() -> int:
         figures["cli_cold"] = cli
     if want("memo_cold"):
         with tempfile.TemporaryDirectory() as folder:
-            memo = _cold(CLI + ["memo", str(SAMPLE), "-o", str(Path(folder) / "m.pdf")],
-                         1 if args.quick else 3, tree=True)
+            memo = _cold(
+                CLI + ["memo", str(SAMPLE), "-o", str(Path(folder) / "m.pdf")], 1 if args.quick else 3, tree=True
+            )
         memo.update({"target_s": 6, "target_peak_mb": 600})
         figures["memo_cold"] = memo
 
-    report = {"quick": args.quick, "python": sys.version.split()[0], "cores": os.cpu_count(),
-              "when": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()), "figures": figures}
+    report = {
+        "quick": args.quick,
+        "python": sys.version.split()[0],
+        "cores": os.cpu_count(),
+        "when": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
+        "figures": figures,
+    }
     args.out.parent.mkdir(parents=True, exist_ok=True)
     args.out.write_text(json.dumps(report, indent=2))
     _print_table(figures)
@@ -320,7 +352,7 @@ def _print_table(figures: dict[str, dict]) -> None:
         print(f"{name:<14} {text[:70]:<70} {peak if peak is None else round(peak):>8}")
         if len(text) > 70:
             for start in range(70, len(text), 70):
-                print(f"{'':<14} {text[start:start + 70]}")
+                print(f"{'':<14} {text[start : start + 70]}")
 
 
 if __name__ == "__main__":

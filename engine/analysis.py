@@ -18,5 +18,9 @@ from obligor_memo.engine.sensitivity import one_way_sensitivity, pd_grid
 def analyse(case: Case, base: Results | None = None) -> Results:
     """Results of ``case`` with ``sensitivity``, ``pd_grid`` and ``scenarios`` filled in."""
     results = base if base is not None else evaluate(case)
-    return replace(results, sensitivity=one_way_sensitivity(case, results),
-                   pd_grid=pd_grid(case, results), scenarios=evaluate_scenarios(case, results))
+    return replace(
+        results,
+        sensitivity=one_way_sensitivity(case, results),
+        pd_grid=pd_grid(case, results),
+        scenarios=evaluate_scenarios(case, results),
+    )

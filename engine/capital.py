@@ -28,16 +28,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Union, cast
+from typing import cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
+from obligor_memo.engine import ENGINE_VERSION
 from scipy.special import ndtr, ndtri  # standard normal CDF and its inverse (as scipy.stats.norm)
 
-from obligor_memo.engine import ENGINE_VERSION
-
-FloatOrArray = Union[float, NDArray[np.float64]]
-BoolOrArray = Union[bool, NDArray[np.bool_]]
+FloatOrArray = float | NDArray[np.float64]
+BoolOrArray = bool | NDArray[np.bool_]
 
 BASEL_II_PD_FLOOR = 0.0003  # Basel II para 285
 BASEL_III_PD_FLOOR = 0.0005  # CRE32.4 (December 2017 reforms)
@@ -133,9 +132,7 @@ def _check_range(
         bad = value.ravel()[bad_index]
         where = "" if value.ndim == 0 else f" (element {bad_index})"
         interval = f"{'(' if low_open else '['}{low:g}, {high:g}{')' if high_open else ']'}"
-        raise ValueError(
-            f"{name} = {float(bad)!r}{where} is outside the allowed range {interval} {unit}"
-        )
+        raise ValueError(f"{name} = {float(bad)!r}{where} is outside the allowed range {interval} {unit}")
 
 
 def _as_float_array(name: str, value: ArrayLike) -> NDArray[np.float64]:
@@ -218,9 +215,7 @@ def irb_corporate_capital(
     maturity_arr = _as_float_array("maturity_years", maturity_years)
     _check_range("pd", pd_arr, low=0.0, high=1.0, low_open=True, high_open=False, unit="[fraction]")
     _check_range("lgd", lgd_arr, low=0.0, high=1.0, low_open=False, high_open=False, unit="[fraction]")
-    _check_range(
-        "maturity_years", maturity_arr, low=0.0, high=math.inf, low_open=True, high_open=True, unit="[years]"
-    )
+    _check_range("maturity_years", maturity_arr, low=0.0, high=math.inf, low_open=True, high_open=True, unit="[years]")
     pd_floor = _as_scalar("pd_floor", pd_floor)
     scaling_factor = _as_scalar("scaling_factor", scaling_factor)
     confidence = _as_scalar("confidence", confidence)
@@ -228,7 +223,12 @@ def irb_corporate_capital(
         "pd_floor", np.asarray(pd_floor), low=0.0, high=0.01, low_open=False, high_open=False, unit="[fraction]"
     )
     _check_range(
-        "scaling_factor", np.asarray(scaling_factor), low=1.0, high=1.1, low_open=False, high_open=False,
+        "scaling_factor",
+        np.asarray(scaling_factor),
+        low=1.0,
+        high=1.1,
+        low_open=False,
+        high_open=False,
         unit="[dimensionless]",
     )
     _check_range(
@@ -239,7 +239,12 @@ def irb_corporate_capital(
     if annual_sales_eur_millions is not None:
         sales_arr = _as_float_array("annual_sales_eur_millions", annual_sales_eur_millions)
         _check_range(
-            "annual_sales_eur_millions", sales_arr, low=0.0, high=math.inf, low_open=True, high_open=True,
+            "annual_sales_eur_millions",
+            sales_arr,
+            low=0.0,
+            high=math.inf,
+            low_open=True,
+            high_open=True,
             unit="[EUR millions]",
         )
         inputs.append(sales_arr)
@@ -283,9 +288,7 @@ def irb_corporate_capital(
     maturity_adjustment = (1.0 + (maturity_used - 2.5) * b) / (1.0 - 1.5 * b)
     with np.errstate(divide="ignore", invalid="ignore"):
         # G(1) is +inf; the defaulted case is set explicitly below.
-        conditional_pd = ndtr(
-            (ndtri(pd_used) + np.sqrt(correlation) * ndtri(confidence)) / np.sqrt(1.0 - correlation)
-        )
+        conditional_pd = ndtr((ndtri(pd_used) + np.sqrt(correlation) * ndtri(confidence)) / np.sqrt(1.0 - correlation))
     conditional_pd = np.where(defaulted, 1.0, conditional_pd)
     bracket = lgd_arr * conditional_pd - pd_used * lgd_arr
     k_floored = (bracket < 0.0) & ~defaulted
@@ -341,9 +344,14 @@ def irb_corporate_correlation(pd: ArrayLike, annual_sales_eur_millions: float | 
     return float(correlation) if correlation.ndim == 0 else correlation
 
 
-def single_factor_capital(*, pd: ArrayLike, lgd: ArrayLike, correlation: ArrayLike,
-                          confidence: float = 0.999,
-                          maturity_years: ArrayLike | None = None) -> FloatOrArray:
+def single_factor_capital(
+    *,
+    pd: ArrayLike,
+    lgd: ArrayLike,
+    correlation: ArrayLike,
+    confidence: float = 0.999,
+    maturity_years: ArrayLike | None = None,
+) -> FloatOrArray:
     """One-factor (Vasicek, asymptotic single risk factor) capital per unit of EAD [fraction].
 
     K = LGD [N((G(PD) + sqrt(rho) G(q)) / sqrt(1 - rho)) - PD], times the IRB maturity
@@ -368,8 +376,9 @@ def single_factor_capital(*, pd: ArrayLike, lgd: ArrayLike, correlation: ArrayLi
     _check_range("pd", pd_arr, low=0.0, high=1.0, low_open=False, high_open=False, unit="[fraction]")
     _check_range("lgd", lgd_arr, low=0.0, high=1.0, low_open=False, high_open=False, unit="[fraction]")
     _check_range("correlation", rho, low=0.0, high=1.0, low_open=True, high_open=True, unit="[fraction]")
-    _check_range("confidence", np.asarray(float(confidence)), low=0.5, high=1.0, low_open=True,
-                 high_open=True, unit="[fraction]")
+    _check_range(
+        "confidence", np.asarray(float(confidence)), low=0.5, high=1.0, low_open=True, high_open=True, unit="[fraction]"
+    )
     inside = (pd_arr > 0.0) & (pd_arr < 1.0)
     p = np.where(inside, pd_arr, 0.5)
     conditional = ndtr((ndtri(p) + np.sqrt(rho) * ndtri(confidence)) / np.sqrt(1.0 - rho))

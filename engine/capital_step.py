@@ -25,9 +25,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-
-from obligor_memo.engine.capital import (irb_corporate_capital, irb_corporate_correlation,
-                                         single_factor_capital)
+from obligor_memo.engine.capital import irb_corporate_capital, irb_corporate_correlation, single_factor_capital
 from obligor_memo.engine.case import Case
 from obligor_memo.engine.errors import Caution
 from obligor_memo.engine.exposure import FacilityExposure, ccf_preset, facility_exposure
@@ -44,8 +42,12 @@ def foundation_ccf(kind: str, *, standard: str, maturity_years: float, cancellab
         if cancellable:
             return 0.0, "foundation IRB, Basel II para 312: unconditionally cancellable commitment"
         return FOUNDATION_COMMITMENT_CCF_BASEL_II, "foundation IRB, Basel II para 311: commitment"
-    ccf, source = ccf_preset(kind, standard=standard, maturity_years=maturity_years,  # type: ignore[arg-type]
-                             cancellable=cancellable)
+    ccf, source = ccf_preset(
+        kind,
+        standard=standard,
+        maturity_years=maturity_years,  # type: ignore[arg-type]
+        cancellable=cancellable,
+    )
     return ccf, f"foundation IRB = standardised ({source})"
 
 
@@ -53,10 +55,20 @@ def capital_exposure(case: Case, facility, exposure: FacilityExposure) -> Facili
     """The EAD of the risk weight: the exposure step's, or on the foundation-IRB CCF."""
     if case.capital.capital_ccf == "exposure":
         return exposure
-    ccf, source = foundation_ccf(facility.kind, standard=case.exposure.ccf_standard,
-                                 maturity_years=facility.maturity_years, cancellable=facility.cancellable)
-    return facility_exposure(id=exposure.id, kind=exposure.kind, drawn=exposure.drawn,  # type: ignore[arg-type]
-                             committed=exposure.committed, ccf=ccf, ccf_source=source)
+    ccf, source = foundation_ccf(
+        facility.kind,
+        standard=case.exposure.ccf_standard,
+        maturity_years=facility.maturity_years,
+        cancellable=facility.cancellable,
+    )
+    return facility_exposure(
+        id=exposure.id,
+        kind=exposure.kind,
+        drawn=exposure.drawn,  # type: ignore[arg-type]
+        committed=exposure.committed,
+        ccf=ccf,
+        ccf_source=source,
+    )
 
 
 @dataclass(frozen=True)
@@ -84,9 +96,16 @@ class CapitalFigures:
     """[currency]"""
 
 
-def capital_figures(case: Case, *, pd_one_year: float, capital_eads: list[float], downturn_lgds: list[float],
-                    economic_eads: list[float], mean_lgds: list[float],
-                    cautions: list[Caution]) -> CapitalFigures:
+def capital_figures(
+    case: Case,
+    *,
+    pd_one_year: float,
+    capital_eads: list[float],
+    downturn_lgds: list[float],
+    economic_eads: list[float],
+    mean_lgds: list[float],
+    cautions: list[Caution],
+) -> CapitalFigures:
     """Regulatory and single-factor economic capital of every facility (one-year PD)."""
     settings = case.capital
     n = len(case.facilities)
@@ -94,48 +113,77 @@ def capital_figures(case: Case, *, pd_one_year: float, capital_eads: list[float]
     maturity = own if settings.effective_maturity == "own" else np.full(n, FOUNDATION_MATURITY_YEARS)
     lgd = np.clip(np.array(downturn_lgds), 0.0, 1.0)
     if np.any(np.array(downturn_lgds) < 0):
-        cautions.append(Caution("capital.negative_lgd", "A downturn LGD below zero (recoveries above "
-                                "par) counts as 0 in the risk weight and the IRB EL.", "facilities"))
+        cautions.append(
+            Caution(
+                "capital.negative_lgd",
+                "A downturn LGD below zero (recoveries above par) counts as 0 in the risk weight and the IRB EL.",
+                "facilities",
+            )
+        )
     # A PD that underflows to 0 is below every floor; the floor then sets the capital PD.
-    cap = irb_corporate_capital(pd=np.full(n, max(pd_one_year, 1e-300)), lgd=lgd, maturity_years=maturity,
-                                annual_sales_eur_millions=settings.annual_sales_eur_millions,
-                                pd_floor=settings.pd_floor,
-                                scaling_factor=1.06 if settings.scaling_factor else 1.0)
+    cap = irb_corporate_capital(
+        pd=np.full(n, max(pd_one_year, 1e-300)),
+        lgd=lgd,
+        maturity_years=maturity,
+        annual_sales_eur_millions=settings.annual_sales_eur_millions,
+        pd_floor=settings.pd_floor,
+        scaling_factor=1.06 if settings.scaling_factor else 1.0,
+    )
     if bool(np.any(cap.floor_binds)):
-        cautions.append(Caution("capital.pd_floor", f"The PD floor of {settings.pd_floor:.2%} binds in the "
-                                f"risk weights{' and the IRB EL' if settings.el_pd_floor else ''} "
-                                f"(one-year PD in force {pd_one_year:.4%}).", "capital.pd_floor"))
+        cautions.append(
+            Caution(
+                "capital.pd_floor",
+                f"The PD floor of {settings.pd_floor:.2%} binds in the "
+                f"risk weights{' and the IRB EL' if settings.el_pd_floor else ''} "
+                f"(one-year PD in force {pd_one_year:.4%}).",
+                "capital.pd_floor",
+            )
+        )
     ead = np.array(capital_eads)
     pd_el = np.asarray(cap.pd_used) if settings.el_pd_floor else np.full(n, pd_one_year)
     rho = settings.economic_correlation
     if rho is None:
         rho = irb_corporate_correlation(min(max(pd_one_year, 0.0), 1.0), settings.annual_sales_eur_millions)
-    sf = single_factor_capital(pd=np.full(n, min(max(pd_one_year, 0.0), 1.0)),
-                               lgd=np.clip(np.array(mean_lgds), 0.0, 1.0), correlation=np.full(n, rho),
-                               confidence=settings.confidence,
-                               maturity_years=own if settings.economic_maturity_adjustment else None)
+    sf = single_factor_capital(
+        pd=np.full(n, min(max(pd_one_year, 0.0), 1.0)),
+        lgd=np.clip(np.array(mean_lgds), 0.0, 1.0),
+        correlation=np.full(n, rho),
+        confidence=settings.confidence,
+        maturity_years=own if settings.economic_maturity_adjustment else None,
+    )
     return CapitalFigures(
-        pd_used=np.asarray(cap.pd_used), lgd=lgd, maturity=np.asarray(cap.maturity_used),
-        correlation=np.asarray(cap.correlation), maturity_adjustment=np.asarray(cap.maturity_adjustment),
-        k=np.asarray(cap.k), risk_weight=np.asarray(cap.risk_weight),
+        pd_used=np.asarray(cap.pd_used),
+        lgd=lgd,
+        maturity=np.asarray(cap.maturity_used),
+        correlation=np.asarray(cap.correlation),
+        maturity_adjustment=np.asarray(cap.maturity_adjustment),
+        k=np.asarray(cap.k),
+        risk_weight=np.asarray(cap.risk_weight),
         regulatory_capital=np.asarray(cap.k) * cap.scaling_factor * ead,
-        regulatory_expected_loss=pd_el * lgd * ead, economic_correlation=np.full(n, rho),
-        economic_single_factor=np.asarray(sf) * np.array(economic_eads))
+        regulatory_expected_loss=pd_el * lgd * ead,
+        economic_correlation=np.full(n, rho),
+        economic_single_factor=np.asarray(sf) * np.array(economic_eads),
+    )
 
 
 def economic_basis(case: Case, correlation: float) -> str:
     """The economic-capital method in words, with the reason for the default."""
     q = case.capital.confidence
     if case.capital.economic_method == "single_factor":
-        source = ("IRB corporate correlation of the PD" if case.capital.economic_correlation is None
-                  else "set in the case")
+        source = (
+            "IRB corporate correlation of the PD" if case.capital.economic_correlation is None else "set in the case"
+        )
         ma = ", with the IRB maturity adjustment" if case.capital.economic_maturity_adjustment else ""
-        return (f"single-factor (Vasicek / ASRF) capital at {q:.1%}, asset correlation {correlation:.2%} "
-                f"({source}), mean LGD{ma}: this name's contribution to a diversified portfolio, "
-                "smooth in PD (the default: the standalone quantile of one name is 0 for PD <= "
-                "1 - confidence and jumps above it)")
-    return (f"standalone {q:.1%} loss quantile of this one name less EL (no diversification; "
-            "zero for PD <= 1 - confidence and a jump above it)")
+        return (
+            f"single-factor (Vasicek / ASRF) capital at {q:.1%}, asset correlation {correlation:.2%} "
+            f"({source}), mean LGD{ma}: this name's contribution to a diversified portfolio, "
+            "smooth in PD (the default: the standalone quantile of one name is 0 for PD <= "
+            "1 - confidence and jumps above it)"
+        )
+    return (
+        f"standalone {q:.1%} loss quantile of this one name less EL (no diversification; "
+        "zero for PD <= 1 - confidence and a jump above it)"
+    )
 
 
 def allocate(total: float, weights: list[float]) -> list[float]:

@@ -14,10 +14,9 @@ from __future__ import annotations
 import math
 from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
-
 from obligor_memo.engine.case_errors import CaseProblems, FieldError, problems_from_validation
 from obligor_memo.engine.errors import CaseError, Problem
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 FacilityKind = Literal["bond", "term_loan", "revolver", "guarantee", "letter_of_credit"]
 Seniority = Literal["senior_secured", "senior_unsecured", "subordinated"]
@@ -37,12 +36,12 @@ ShortText = Annotated[str, Field(max_length=200)]
 # Measured on the 2-core machine: 100 facilities take 0.22 s of full analysis, 50 scenarios
 # 0.2 s; the grids and tables are bounded by their own schema fields.
 LIMITS = {
-    "statements": 200,                 # statement years
+    "statements": 200,  # statement years
     "facilities": 100,
     "scenarios": 50,
-    "scenarios[].set": 50,             # inputs one scenario changes
-    "pd.master_scale": 30,             # grade rows
-    "exposure.ccf_by_grade": 200,      # CCF rows by grade
+    "scenarios[].set": 50,  # inputs one scenario changes
+    "pd.master_scale": 30,  # grade rows
+    "exposure.ccf_by_grade": 200,  # CCF rows by grade
 }
 
 
@@ -116,25 +115,23 @@ class PdSettings(_Model):
     override_reason: Text | None = None
     override_horizon_years: Annotated[float, Field(gt=0, le=30)] | None = None
     """Horizon the override PD is stated for [years]; None: the case's ``horizon_years``."""
-    master_scale: Annotated[list[GradeRow], Field(max_length=LIMITS['pd.master_scale'])] | None = None
+    master_scale: Annotated[list[GradeRow], Field(max_length=LIMITS["pd.master_scale"])] | None = None
 
     @model_validator(mode="after")
-    def _valid_master_scale(self) -> "PdSettings":
+    def _valid_master_scale(self) -> PdSettings:
         if self.master_scale is not None:
             from obligor_memo.engine.grading import master_scale_from_rows
 
             try:
                 master_scale_from_rows([row.model_dump() for row in self.master_scale])
             except ValueError as exc:
-                raise FieldError("master_scale", [r.model_dump() for r in self.master_scale],
-                                  str(exc)) from None
+                raise FieldError("master_scale", [r.model_dump() for r in self.master_scale], str(exc)) from None
         return self
 
     @model_validator(mode="after")
-    def _override_needs_reason(self) -> "PdSettings":
+    def _override_needs_reason(self) -> PdSettings:
         if self.override is not None and not (self.override_reason or "").strip():
-            raise FieldError("override_reason", self.override_reason,
-                              "a non-empty reason whenever pd.override is set")
+            raise FieldError("override_reason", self.override_reason, "a non-empty reason whenever pd.override is set")
         return self
 
 
@@ -151,7 +148,7 @@ class Recovery(_Model):
     post-default prices above par) a caution is shown and LGD outcomes may be negative."""
 
     @model_validator(mode="after")
-    def _feasible(self) -> "Recovery":
+    def _feasible(self) -> Recovery:
         if self.mean > self.upper:
             raise FieldError("mean", self.mean, f"a recovery mean at most upper = {self.upper:g}")
         if 0 < self.std < 1e-6:
@@ -159,11 +156,12 @@ class Recovery(_Model):
         m = self.mean / self.upper
         limit = self.upper * math.sqrt(m * (1 - m))
         if self.std > 0 and self.std >= limit:
-            allowed = (f"a std below {limit:.4f} for mean {self.mean:g} on [0, {self.upper:g}] "
-                       "(a beta law needs std^2 < mean(upper - mean))")
+            allowed = (
+                f"a std below {limit:.4f} for mean {self.mean:g} on [0, {self.upper:g}] "
+                "(a beta law needs std^2 < mean(upper - mean))"
+            )
             if limit == 0:
-                allowed = (f"std 0: a mean of {self.mean:g} on [0, {self.upper:g}] "
-                           "leaves no room for spread")
+                allowed = f"std 0: a mean of {self.mean:g} on [0, {self.upper:g}] leaves no room for spread"
             raise FieldError("std", self.std, allowed)
         return self
 
@@ -198,7 +196,7 @@ class CcfGradeRow(_Model):
 
 class ExposureSettings(_Model):
     ccf_standard: Standard = "basel_iii"
-    ccf_by_grade: Annotated[list[CcfGradeRow], Field(max_length=LIMITS['exposure.ccf_by_grade'])] | None = None
+    ccf_by_grade: Annotated[list[CcfGradeRow], Field(max_length=LIMITS["exposure.ccf_by_grade"])] | None = None
 
 
 class Downturn(_Model):
@@ -213,10 +211,11 @@ class LgdSettings(_Model):
     downturn: Downturn = Downturn()
 
     @model_validator(mode="after")
-    def _not_vanishing(self) -> "LgdSettings":
+    def _not_vanishing(self) -> LgdSettings:
         if 0 < self.default_recovery_std < 1e-6:
-            raise FieldError("default_recovery_std", self.default_recovery_std,
-                              "0 (fixed recoveries) or at least 0.000001")
+            raise FieldError(
+                "default_recovery_std", self.default_recovery_std, "0 (fixed recoveries) or at least 0.000001"
+            )
         return self
 
 
@@ -300,7 +299,7 @@ class GridAxis(_Model):
     points: Annotated[int, Field(ge=2, le=101)] = 21
 
     @model_validator(mode="after")
-    def _ordered(self) -> "GridAxis":
+    def _ordered(self) -> GridAxis:
         if self.stop <= self.start:
             raise FieldError("stop", self.stop, f"a value above start = {self.start:g}")
         return self
@@ -318,7 +317,7 @@ ScenarioValue = float | int | bool | str | None
 class Scenario(_Model):
     name: Annotated[str, Field(min_length=1, max_length=60)]
     description: Text = ""
-    set: dict[str, ScenarioValue] = Field(default_factory=dict, max_length=LIMITS['scenarios[].set'])
+    set: dict[str, ScenarioValue] = Field(default_factory=dict, max_length=LIMITS["scenarios[].set"])
 
 
 class RiskItem(_Model):
@@ -353,28 +352,29 @@ class ReviewRecord(_Model):
 
     fingerprint: str
     engine_version: Annotated[str, Field(min_length=1, max_length=40)]
-    approved_on: str | None = None                      # ISO date, YYYY-MM-DD
+    approved_on: str | None = None  # ISO date, YYYY-MM-DD
     figures: dict[str, float | str | None] = Field(default_factory=dict, max_length=60)
 
     @model_validator(mode="after")
-    def _well_formed(self) -> "ReviewRecord":
+    def _well_formed(self) -> ReviewRecord:
         import datetime
 
         if len(self.fingerprint) != 64 or any(ch not in "0123456789abcdef" for ch in self.fingerprint):
-            raise FieldError("fingerprint", self.fingerprint,
-                              "the SHA-256 of the previous case: 64 lower-case hex digits")
+            raise FieldError(
+                "fingerprint", self.fingerprint, "the SHA-256 of the previous case: 64 lower-case hex digits"
+            )
         if self.approved_on is not None:
             try:
                 ok = len(self.approved_on) == 10 and bool(datetime.date.fromisoformat(self.approved_on))
             except ValueError:
                 ok = False
             if not ok:
-                raise FieldError("approved_on", self.approved_on,
-                                  "a date as YYYY-MM-DD, e.g. 2025-11-30, or null")
+                raise FieldError("approved_on", self.approved_on, "a date as YYYY-MM-DD, e.g. 2025-11-30, or null")
         for name in self.figures:
             if not (0 < len(name) <= 40 and name.replace("_", "").isalnum() and name == name.lower()):
-                raise FieldError(f"figures.{name}", name,
-                                  "a figure name of lower-case letters, digits and _ (at most 40)")
+                raise FieldError(
+                    f"figures.{name}", name, "a figure name of lower-case letters, digits and _ (at most 40)"
+                )
         return self
 
 
@@ -386,7 +386,7 @@ class PreviousReview(ReviewRecord):
 
 class Review(_Model):
     previous: PreviousReview | None = None
-    history: list[ReviewRecord] = Field(default_factory=list, max_length=50)   # older, newest first
+    history: list[ReviewRecord] = Field(default_factory=list, max_length=50)  # older, newest first
 
 
 class StatementsSource(_Model):
@@ -405,16 +405,16 @@ class Case(_Model):
     """One borrower's whole case. Statements are always held inline (a file is read at load)."""
 
     borrower: Borrower
-    statements: Annotated[list[StatementRow], Field(min_length=1, max_length=LIMITS['statements'])]
+    statements: Annotated[list[StatementRow], Field(min_length=1, max_length=LIMITS["statements"])]
     market: Market | None = None
     pd: PdSettings = PdSettings()
     capital: CapitalSettings = CapitalSettings()
     exposure: ExposureSettings = ExposureSettings()
     lgd: LgdSettings = LgdSettings()
-    facilities: Annotated[list[Facility], Field(min_length=1, max_length=LIMITS['facilities'])]
+    facilities: Annotated[list[Facility], Field(min_length=1, max_length=LIMITS["facilities"])]
     pricing: Pricing | None = None
     sensitivity: Sensitivity = Sensitivity()
-    scenarios: list[Scenario] = Field(default_factory=list, max_length=LIMITS['scenarios'])
+    scenarios: list[Scenario] = Field(default_factory=list, max_length=LIMITS["scenarios"])
     statements_source: StatementsSource | None = None
     memo: MemoText = MemoText()
     review: Review | None = None
@@ -425,45 +425,75 @@ class Case(_Model):
         seen: dict[int, int] = {}
         for index, row in enumerate(rows):
             if row.year in seen:
-                raise FieldError(f"[{index}].year", row.year,
-                                  f"each year once (year {row.year} also in row {seen[row.year]})")
+                raise FieldError(
+                    f"[{index}].year", row.year, f"each year once (year {row.year} also in row {seen[row.year]})"
+                )
             seen[row.year] = index
         return sorted(rows, key=lambda r: r.year)
 
     @model_validator(mode="after")
-    def _cross_checks(self) -> "Case":
+    def _cross_checks(self) -> Case:
         problems: list[Problem] = []
         ids: dict[str, int] = {}
         for index, facility in enumerate(self.facilities):
             if facility.id in ids:
-                problems.append(Problem(f"facilities[{index}].id", facility.id,
-                                        f"a unique id (also used by facilities[{ids[facility.id]}])"))
+                problems.append(
+                    Problem(
+                        f"facilities[{index}].id",
+                        facility.id,
+                        f"a unique id (also used by facilities[{ids[facility.id]}])",
+                    )
+                )
             ids.setdefault(facility.id, index)
         if self.pd.method == "market" and self.market is None:
-            problems.append(Problem("pd.method", "market",
-                                    "'balance_sheet', or 'market' together with a market block "
-                                    "(equity_value, equity_volatility, risk_free_rate)"))
+            problems.append(
+                Problem(
+                    "pd.method",
+                    "market",
+                    "'balance_sheet', or 'market' together with a market block "
+                    "(equity_value, equity_volatility, risk_free_rate)",
+                )
+            )
         needs_history = self.pd.method == "balance_sheet" and self.pd.override is None
         window = self.pd.window_years
         years_used = min(window, len(self.statements)) if window else len(self.statements)
         if needs_history and self.pd.asset_volatility is None and years_used < 3:
-            problems.append(Problem("statements", f"{years_used} year(s) in the window",
-                                    "at least three years when asset volatility is estimated "
-                                    "(or set pd.asset_volatility)"))
+            problems.append(
+                Problem(
+                    "statements",
+                    f"{years_used} year(s) in the window",
+                    "at least three years when asset volatility is estimated (or set pd.asset_volatility)",
+                )
+            )
         if needs_history and self.pd.asset_growth is None and years_used < 2:
-            problems.append(Problem("statements", f"{years_used} year(s) in the window",
-                                    "at least two years when asset growth is estimated "
-                                    "(or set pd.asset_growth)"))
+            problems.append(
+                Problem(
+                    "statements",
+                    f"{years_used} year(s) in the window",
+                    "at least two years when asset growth is estimated (or set pd.asset_growth)",
+                )
+            )
         if window is not None and window > len(self.statements):
-            problems.append(Problem("pd.window_years", window,
-                                    f"at most the {len(self.statements)} years of statements given, "
-                                    "or null for all years"))
+            problems.append(
+                Problem(
+                    "pd.window_years",
+                    window,
+                    f"at most the {len(self.statements)} years of statements given, or null for all years",
+                )
+            )
         latest = self.statements[-1]
-        dp = (self.pd.default_point.short_term_share * latest.short_term_liabilities
-              + self.pd.default_point.long_term_share * latest.long_term_liabilities)
+        dp = (
+            self.pd.default_point.short_term_share * latest.short_term_liabilities
+            + self.pd.default_point.long_term_share * latest.long_term_liabilities
+        )
         if dp <= 0 and self.pd.override is None:
-            problems.append(Problem("pd.default_point", f"{dp:g} {self.borrower.currency}",
-                                    "shares and latest liabilities giving a default point above 0"))
+            problems.append(
+                Problem(
+                    "pd.default_point",
+                    f"{dp:g} {self.borrower.currency}",
+                    "shares and latest liabilities giving a default point above 0",
+                )
+            )
         names = [s.name for s in self.scenarios]
         for index, name in enumerate(names):
             if name in names[:index]:
@@ -479,8 +509,9 @@ class Case(_Model):
 def parse_case(data: Any, source: str = "case") -> Case:
     """Validate a plain mapping (from YAML, JSON or a form) into a frozen :class:`Case`."""
     if not isinstance(data, dict):
-        raise CaseError.single("case", type(data).__name__,
-                               "a mapping with keys borrower, statements, facilities, ...", source)
+        raise CaseError.single(
+            "case", type(data).__name__, "a mapping with keys borrower, statements, facilities, ...", source
+        )
     try:
         return Case.model_validate(data)
     except ValidationError as exc:

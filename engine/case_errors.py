@@ -12,12 +12,11 @@ import re
 import typing
 from typing import Any
 
+from obligor_memo.engine.errors import Problem
 from pydantic import BaseModel, ValidationError
 
-from obligor_memo.engine.errors import Problem
-
-MAX_UNKNOWN_KEYS_SHOWN = 10   # unknown keys named one by one; the rest are counted
-MAX_SUGGESTED_KEY = 60        # longer unknown keys get no nearest-key suggestion
+MAX_UNKNOWN_KEYS_SHOWN = 10  # unknown keys named one by one; the rest are counted
+MAX_SUGGESTED_KEY = 60  # longer unknown keys get no nearest-key suggestion
 
 
 class FieldError(ValueError):
@@ -135,8 +134,10 @@ def _range_text(root: type[BaseModel], error: dict[str, Any]) -> str:
             if getattr(meta, "lt", None) is not None:
                 high, high_open = meta.lt, True
         if low is not None and high is not None:
-            return (f"a number from {low:g}{' (exclusive)' if low_open else ''} "
-                    f"to {high:g}{' (exclusive)' if high_open else ''}")
+            return (
+                f"a number from {low:g}{' (exclusive)' if low_open else ''} "
+                f"to {high:g}{' (exclusive)' if high_open else ''}"
+            )
     return error.get("msg", "a number in range").replace("Input should be ", "a number ")
 
 
@@ -183,9 +184,14 @@ def problems_from_validation(root: type[BaseModel], exc: ValidationError, prefix
             continue
         problems.append(Problem(_join(prefix, _path(loc)) or "case", _shown_value(error), _allowed_for(root, error)))
     if len(unknown) > MAX_UNKNOWN_KEYS_SHOWN:
-        problems.insert(0, Problem(prefix or "case", f"{len(unknown):,} unknown keys",
-                                f"only the keys the case file reference lists; the first "
-                                f"{MAX_UNKNOWN_KEYS_SHOWN} are named above"))
+        problems.insert(
+            0,
+            Problem(
+                prefix or "case",
+                f"{len(unknown):,} unknown keys",
+                f"only the keys the case file reference lists; the first {MAX_UNKNOWN_KEYS_SHOWN} are named above",
+            ),
+        )
     return problems
 
 

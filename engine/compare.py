@@ -29,20 +29,31 @@ its Shapley value in that extended game.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Hashable, Mapping
 from dataclasses import dataclass, field
 from fractions import Fraction
 from itertools import combinations
-from typing import Any, Callable, Hashable, Mapping
+from typing import Any
 
 from obligor_memo.engine import ENGINE_VERSION
 from obligor_memo.engine.case import Case, case_to_dict, parse_case
+from obligor_memo.engine.compare_blocks import BLOCKS, ENGINE_BLOCK, Block, changed_paths, hybrid_case_dict, other_keys
 from obligor_memo.engine.errors import CaseError
-from obligor_memo.engine.compare_blocks import (BLOCKS, ENGINE_BLOCK, Block, changed_paths,
-                                                 hybrid_case_dict, other_keys)
 from obligor_memo.engine.shapley import floats_summing_to, shapley_values
 
-__all__ = ["BLOCKS", "FIGURES", "Block", "BlockShare", "Comparison", "RecordedFigures", "compare_cases",
-           "key_figures", "shapley_values", "changed_paths", "hybrid_case_dict"]
+__all__ = [
+    "BLOCKS",
+    "FIGURES",
+    "Block",
+    "BlockShare",
+    "Comparison",
+    "RecordedFigures",
+    "compare_cases",
+    "key_figures",
+    "shapley_values",
+    "changed_paths",
+    "hybrid_case_dict",
+]
 
 
 # --------------------------------------------------------------------------- the figures
@@ -59,6 +70,7 @@ def _attr(path: str) -> Callable[[Any], Any]:
             if value is None:
                 return None
         return value
+
     return read
 
 
@@ -72,9 +84,9 @@ def _covenant_headroom(results: Any) -> float | None:
 
 @dataclass(frozen=True)
 class Figure:
-    name: str          # JSON key
-    label: str         # words for people
-    kind: str          # "pd", "money", "rate", "text": how it is formatted
+    name: str  # JSON key
+    label: str  # words for people
+    kind: str  # "pd", "money", "rate", "text": how it is formatted
     read: Callable[[Any], Any] = field(repr=False, compare=False)
 
 
@@ -88,8 +100,12 @@ FIGURES: tuple[Figure, ...] = (
     Figure("rwa", "RWA", "money", _attr("total.rwa")),
     Figure("regulatory_capital", "Regulatory capital", "money", _attr("total.regulatory_capital")),
     Figure("economic_capital", "Economic capital", "money", _attr("total.economic_capital")),
-    Figure("economic_capital_standalone", "Economic capital (standalone)", "money",
-           _attr("total.economic_capital_standalone")),
+    Figure(
+        "economic_capital_standalone",
+        "Economic capital (standalone)",
+        "money",
+        _attr("total.economic_capital_standalone"),
+    ),
     Figure("raroc", "RAROC", "rate", _attr("pricing.raroc")),
     Figure("minimum_spread", "Minimum spread", "rate", _attr("pricing.minimum_spread")),
     Figure("covenant_headroom", "Tightest covenant headroom", "rate", _covenant_headroom),
@@ -125,20 +141,20 @@ class RecordedFigures:
 
 @dataclass(frozen=True)
 class BlockShare:
-    block: str                          # name; joined blocks as "a+b"
+    block: str  # name; joined blocks as "a+b"
     label: str
-    changes: tuple[str, ...]            # case-dict paths that differ in this block
-    deltas: dict[str, float | None]     # figure -> share of its change (None: not attributable)
+    changes: tuple[str, ...]  # case-dict paths that differ in this block
+    deltas: dict[str, float | None]  # figure -> share of its change (None: not attributable)
 
 
 @dataclass(frozen=True)
 class Comparison:
-    old: dict[str, float | str | None]            # as recorded when OLD came from another engine
+    old: dict[str, float | str | None]  # as recorded when OLD came from another engine
     new: dict[str, float | str | None]
-    old_recomputed: dict[str, float | str | None] | None   # OLD with this engine (engine block)
-    change: dict[str, float | None]                # new - old per numeric figure
+    old_recomputed: dict[str, float | str | None] | None  # OLD with this engine (engine block)
+    change: dict[str, float | None]  # new - old per numeric figure
     attribution: tuple[BlockShare, ...]
-    grade: dict[str, Any]                         # {"old", "new", "direction"}
+    grade: dict[str, Any]  # {"old", "new", "direction"}
     old_engine_version: str
     engine_version: str
     evaluations: int
@@ -152,12 +168,18 @@ class Comparison:
 
     def to_dict(self) -> dict[str, Any]:
         return {
-            "old": dict(self.old), "new": dict(self.new), "change": dict(self.change),
-            "attribution": [{"block": b.block, "label": b.label, "changes": list(b.changes), **b.deltas}
-                            for b in self.attribution],
-            "method": self.method, "evaluations": self.evaluations, "grade": dict(self.grade),
+            "old": dict(self.old),
+            "new": dict(self.new),
+            "change": dict(self.change),
+            "attribution": [
+                {"block": b.block, "label": b.label, "changes": list(b.changes), **b.deltas} for b in self.attribution
+            ],
+            "method": self.method,
+            "evaluations": self.evaluations,
+            "grade": dict(self.grade),
             "old_recomputed": None if self.old_recomputed is None else dict(self.old_recomputed),
-            "old_engine_version": self.old_engine_version, "engine_version": self.engine_version,
+            "old_engine_version": self.old_engine_version,
+            "engine_version": self.engine_version,
             "notes": list(self.notes),
         }
 
@@ -170,8 +192,13 @@ def _direction(old: Any, new: Any) -> str:
     return "changed"
 
 
-def compare_cases(old: Case, new: Case, *, old_recorded: RecordedFigures | None = None,
-                  evaluate_fn: Callable[[Case], Any] | None = None) -> Comparison:
+def compare_cases(
+    old: Case,
+    new: Case,
+    *,
+    old_recorded: RecordedFigures | None = None,
+    evaluate_fn: Callable[[Case], Any] | None = None,
+) -> Comparison:
     """Key figures of OLD and NEW and each block's Shapley share of every figure's change.
 
     ``old_recorded``: OLD's figures as printed; used (with an engine block) when its engine
@@ -184,10 +211,11 @@ def compare_cases(old: Case, new: Case, *, old_recorded: RecordedFigures | None 
             return evaluate(case, detail=False)
 
     if old.borrower.currency != new.borrower.currency:
-        raise CaseError.single("borrower.currency", f"{old.borrower.currency} then, "
-                               f"{new.borrower.currency} now",
-                               "the same currency in both cases (amounts in different currencies "
-                               "cannot be compared)")
+        raise CaseError.single(
+            "borrower.currency",
+            f"{old.borrower.currency} then, {new.borrower.currency} now",
+            "the same currency in both cases (amounts in different currencies cannot be compared)",
+        )
     a, b = case_to_dict(old), case_to_dict(new)
     blocks = [blk for blk in BLOCKS if blk.name != "other" or other_keys(a, b)]
     changes = {blk.name: tuple(changed_paths(blk, a, b)) for blk in blocks}
@@ -219,8 +247,10 @@ def compare_cases(old: Case, new: Case, *, old_recorded: RecordedFigures | None 
     notes: list[str] = []
     for g in groups:
         if len(g) > 1:
-            notes.append("Joined " + " + ".join(labels[p] for p in g) + ": the hybrid cases mixing "
-                         "them do not validate, so their shares are given together.")
+            notes.append(
+                "Joined " + " + ".join(labels[p] for p in g) + ": the hybrid cases mixing "
+                "them do not validate, so their shares are given together."
+            )
     old_now, new_figs = figures_of(frozenset()), figures_of(frozenset(players))
     assert isinstance(old_now, dict) and isinstance(new_figs, dict)
 
@@ -237,8 +267,10 @@ def compare_cases(old: Case, new: Case, *, old_recorded: RecordedFigures | None 
             was, now = old_shown.get(name), old_now.get(name)
             if isinstance(was, (int, float)) and isinstance(now, (int, float)):
                 engine_delta[name] = Fraction(now) - Fraction(was)
-        notes.append(f"OLD was printed by engine {old_version}; it is recomputed with engine "
-                     f"{ENGINE_VERSION} and the difference is shown as the engine block.")
+        notes.append(
+            f"OLD was printed by engine {old_version}; it is recomputed with engine "
+            f"{ENGINE_VERSION} and the difference is shown as the engine block."
+        )
 
     group_names = ["+".join(g) for g in groups]
     per_block: dict[str, dict[str, float | None]] = {name: {} for name in group_names}
@@ -265,8 +297,10 @@ def compare_cases(old: Case, new: Case, *, old_recorded: RecordedFigures | None 
                     defined = False
                 values[frozenset(combo)] = v
         if not defined:
-            notes.append(f"{FIGURE_BY_NAME[name].label}: not defined for every mix of old and new "
-                         "inputs, so its change is not split by cause.")
+            notes.append(
+                f"{FIGURE_BY_NAME[name].label}: not defined for every mix of old and new "
+                "inputs, so its change is not split by cause."
+            )
             for g in group_names:
                 per_block[g][name] = None
             engine_shares[name] = None
@@ -287,31 +321,45 @@ def compare_cases(old: Case, new: Case, *, old_recorded: RecordedFigures | None 
         if blk.name in joined:
             g = next(g for g in groups if blk.name in g)
             if g[0] == blk.name:
-                rows.append(BlockShare("+".join(g), " + ".join(labels[p] for p in g),
-                                       tuple(c for p in g for c in changes[p]), per_block["+".join(g)]))
+                rows.append(
+                    BlockShare(
+                        "+".join(g),
+                        " + ".join(labels[p] for p in g),
+                        tuple(c for p in g for c in changes[p]),
+                        per_block["+".join(g)],
+                    )
+                )
             continue
         if blk.name in present:
             rows.append(BlockShare(blk.name, blk.label, changes[blk.name], per_block[blk.name]))
         elif blk.name != "other":
-            rows.append(BlockShare(blk.name, blk.label, (), {n: (0.0 if change.get(n) is not None
-                                                                 else None) for n in NUMERIC}))
+            rows.append(
+                BlockShare(blk.name, blk.label, (), {n: (0.0 if change.get(n) is not None else None) for n in NUMERIC})
+            )
     if engine_delta is not None:
-        rows.append(BlockShare(ENGINE_BLOCK.name, f"{ENGINE_BLOCK.label}: {old_version} to "
-                               f"{ENGINE_VERSION}", (), engine_shares))
+        rows.append(
+            BlockShare(ENGINE_BLOCK.name, f"{ENGINE_BLOCK.label}: {old_version} to {ENGINE_VERSION}", (), engine_shares)
+        )
     # Figures that neither side reports are left out everywhere.
     shown = [f.name for f in FIGURES if old_shown.get(f.name) is not None or new_figs.get(f.name) is not None]
-    rows = [BlockShare(r.block, r.label, r.changes, {n: r.deltas.get(n) for n in shown if n in NUMERIC})
-            for r in rows]
+    rows = [BlockShare(r.block, r.label, r.changes, {n: r.deltas.get(n) for n in shown if n in NUMERIC}) for r in rows]
     evaluated = sum(1 for v in cache.values())
     return Comparison(
-        old={n: old_shown.get(n) for n in shown}, new={n: new_figs.get(n) for n in shown},
+        old={n: old_shown.get(n) for n in shown},
+        new={n: new_figs.get(n) for n in shown},
         old_recomputed=None if old_recomputed is None else {n: old_recomputed.get(n) for n in shown},
         change={n: change.get(n) for n in shown if n in NUMERIC},
         attribution=tuple(rows),
-        grade={"old": old_shown.get("grade"), "new": new_figs.get("grade"),
-               "direction": _direction(old_shown.get("grade"), new_figs.get("grade"))},
-        old_engine_version=old_version, engine_version=ENGINE_VERSION, evaluations=evaluated,
-        notes=tuple(notes))
+        grade={
+            "old": old_shown.get("grade"),
+            "new": new_figs.get("grade"),
+            "direction": _direction(old_shown.get("grade"), new_figs.get("grade")),
+        },
+        old_engine_version=old_version,
+        engine_version=ENGINE_VERSION,
+        evaluations=evaluated,
+        notes=tuple(notes),
+    )
 
 
 def _join_failing(players: list[str], figures_of: Callable[[frozenset], Any]) -> list[tuple[str, ...]]:

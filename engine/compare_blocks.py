@@ -8,15 +8,16 @@ lists always mix (see engine.compare for the other conflicts).
 from __future__ import annotations
 
 import copy
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
-from typing import Any, Iterable, Mapping
+from typing import Any
 
 
 @dataclass(frozen=True)
 class Block:
     name: str
     label: str
-    keys: tuple[str, ...]                 # top-level case keys the block owns
+    keys: tuple[str, ...]  # top-level case keys the block owns
     facility_fields: tuple[str, ...] = ()  # fields of each facility the block owns ("*": the rest)
 
 
@@ -31,7 +32,7 @@ BLOCKS: tuple[Block, ...] = (
     Block("facilities", "Facilities", ("exposure", "covenants"), ("*",)),
     Block("recovery", "Recovery and collateral", ("lgd",), RECOVERY_FIELDS),
     Block("capital_pricing", "Capital and pricing settings", ("capital", "pricing")),
-    Block("other", "Other inputs", ()),     # every top-level key not named above
+    Block("other", "Other inputs", ()),  # every top-level key not named above
 )
 ENGINE_BLOCK = Block("engine", "Engine version (method change)", ())
 _OWNED = {key for b in BLOCKS for key in b.keys} | {"facilities"} | set(PRESENTATION_KEYS)
@@ -84,8 +85,9 @@ def changed_paths(block: Block, old: Mapping[str, Any], new: Mapping[str, Any]) 
         fb = {f["id"]: f for f in new.get("facilities", [])}
         own = RECOVERY_FIELDS if block.facility_fields == RECOVERY_FIELDS else None
         if own is None:
-            if [f["id"] for f in old.get("facilities", []) if f["id"] in fb] != \
-                    [f["id"] for f in new.get("facilities", []) if f["id"] in fa]:
+            if [f["id"] for f in old.get("facilities", []) if f["id"] in fb] != [
+                f["id"] for f in new.get("facilities", []) if f["id"] in fa
+            ]:
                 out.append("facilities (order)")
             for k in sorted(set(fa) | set(fb)):
                 if k not in fa:
@@ -116,7 +118,7 @@ def hybrid_case_dict(old: Mapping[str, Any], new: Mapping[str, Any], from_new: I
     facilities = []
     for f in terms.get("facilities", []):
         f = copy.deepcopy(f)
-        if f["id"] in recovery:   # a facility on one side only keeps its own recovery terms
+        if f["id"] in recovery:  # a facility on one side only keeps its own recovery terms
             for name in RECOVERY_FIELDS:
                 if name in recovery[f["id"]]:
                     f[name] = copy.deepcopy(recovery[f["id"]][name])

@@ -53,6 +53,7 @@ def _ratio(top: float | None, bottom: float | None, *, positive_bottom: bool = T
 
 def credit_year(row: Any) -> CreditYear:
     """The metrics of one statement row (a schema StatementRow or anything with its fields)."""
+
     def get(name: str) -> float | None:
         value = getattr(row, name, None)
         return None if value is None else float(value)
@@ -62,7 +63,9 @@ def credit_year(row: Any) -> CreditYear:
     ocf, capex = get("operating_cash_flow"), get("capital_expenditure")
     net_debt = debt - cash if debt is not None and cash is not None else None
     return CreditYear(
-        year=int(row.year), revenue=sales, ebitda=ebitda,
+        year=int(row.year),
+        revenue=sales,
+        ebitda=ebitda,
         ebitda_margin=_ratio(ebitda, sales),
         net_debt=net_debt,
         net_debt_to_ebitda=_ratio(net_debt, ebitda),

@@ -131,11 +131,29 @@ def _ratio(numerator: float, capital: float) -> float | None:
     return numerator / capital if capital > 0 else None
 
 
-def _priced(*, id: str, kind: str, basis: str, funded: float, fee_base: float, issued: float,
-            ead: float, base_rate: float, spread: float, interest: float, commitment: float,
-            issuance: float, other: float, funding: float, operating: float, el: float,
-            capital_regulatory: float, capital_economic: float, capital_return_rate: float,
-            hurdle_rate: float) -> FacilityPricing:
+def _priced(
+    *,
+    id: str,
+    kind: str,
+    basis: str,
+    funded: float,
+    fee_base: float,
+    issued: float,
+    ead: float,
+    base_rate: float,
+    spread: float,
+    interest: float,
+    commitment: float,
+    issuance: float,
+    other: float,
+    funding: float,
+    operating: float,
+    el: float,
+    capital_regulatory: float,
+    capital_economic: float,
+    capital_return_rate: float,
+    hurdle_rate: float,
+) -> FacilityPricing:
     capital = capital_economic if basis == "economic" else capital_regulatory
     income = interest + commitment + issuance + other
     base_return = income - funding - operating - el
@@ -149,24 +167,50 @@ def _priced(*, id: str, kind: str, basis: str, funded: float, fee_base: float, i
     if funded <= 0:
         notes.append("no minimum spread: nothing is drawn, so no interest accrues")
     return FacilityPricing(
-        id=id, kind=kind, capital_basis=basis, funded=funded, commitment_fee_base=fee_base,
-        issued=issued, ead=ead, base_rate=base_rate, proposed_spread=spread, interest_income=interest,
-        commitment_fee_income=commitment, issuance_fee_income=issuance, other_fee_income=other,
-        income=income, funding_cost=funding, operating_cost=operating, expected_loss=el,
-        capital=capital, capital_regulatory=capital_regulatory, capital_economic=capital_economic,
-        capital_return_rate=capital_return_rate, capital_benefit=benefit,
-        risk_adjusted_return=base_return + benefit, raroc=_ratio(base_return + benefit, capital),
+        id=id,
+        kind=kind,
+        capital_basis=basis,
+        funded=funded,
+        commitment_fee_base=fee_base,
+        issued=issued,
+        ead=ead,
+        base_rate=base_rate,
+        proposed_spread=spread,
+        interest_income=interest,
+        commitment_fee_income=commitment,
+        issuance_fee_income=issuance,
+        other_fee_income=other,
+        income=income,
+        funding_cost=funding,
+        operating_cost=operating,
+        expected_loss=el,
+        capital=capital,
+        capital_regulatory=capital_regulatory,
+        capital_economic=capital_economic,
+        capital_return_rate=capital_return_rate,
+        capital_benefit=benefit,
+        risk_adjusted_return=base_return + benefit,
+        raroc=_ratio(base_return + benefit, capital),
         raroc_regulatory=_ratio(base_return + capital_regulatory * capital_return_rate, capital_regulatory),
         raroc_economic=_ratio(base_return + capital_economic * capital_return_rate, capital_economic),
-        hurdle_rate=hurdle_rate, minimum_income=minimum_income, minimum_spread=minimum_spread,
+        hurdle_rate=hurdle_rate,
+        minimum_income=minimum_income,
+        minimum_spread=minimum_spread,
         spread_shortfall=None if minimum_spread is None else minimum_spread - spread,
         meets_hurdle=income >= minimum_income - 1e-9 * max(abs(minimum_income), 1.0),
-        note="; ".join(notes))
+        note="; ".join(notes),
+    )
 
 
-def price_lines(lines: list[PricingLine], *, base_rate: float, capital_return_rate: float,
-                hurdle_rate: float, capital_basis: str,
-                deal_spread: float) -> tuple[tuple[FacilityPricing, ...], FacilityPricing]:
+def price_lines(
+    lines: list[PricingLine],
+    *,
+    base_rate: float,
+    capital_return_rate: float,
+    hurdle_rate: float,
+    capital_basis: str,
+    deal_spread: float,
+) -> tuple[tuple[FacilityPricing, ...], FacilityPricing]:
     """Each facility's pricing and the relationship's (sums; one uniform minimum spread).
 
     Parameters
@@ -194,27 +238,54 @@ def price_lines(lines: list[PricingLine], *, base_rate: float, capital_return_ra
         funded = line.drawn
         fee_base = line.undrawn if line.kind in COMMITMENT_FEE_KINDS else 0.0
         issued = line.undrawn if line.kind in ISSUANCE_FEE_KINDS else 0.0
-        out.append(_priced(
-            id=line.id, kind=line.kind, basis=capital_basis, funded=funded, fee_base=fee_base,
-            issued=issued, ead=line.ead, base_rate=base_rate, spread=line.proposed_spread,
-            interest=(base_rate + line.proposed_spread) * funded,
-            commitment=line.commitment_fee_rate * fee_base, issuance=line.issuance_fee_rate * issued,
-            other=line.fee_rate * line.ead, funding=(base_rate + line.funding_spread) * funded,
-            operating=line.operating_cost_rate * line.ead, el=line.expected_loss,
-            capital_regulatory=line.capital_regulatory, capital_economic=line.capital_economic,
-            capital_return_rate=capital_return_rate, hurdle_rate=hurdle_rate))
+        out.append(
+            _priced(
+                id=line.id,
+                kind=line.kind,
+                basis=capital_basis,
+                funded=funded,
+                fee_base=fee_base,
+                issued=issued,
+                ead=line.ead,
+                base_rate=base_rate,
+                spread=line.proposed_spread,
+                interest=(base_rate + line.proposed_spread) * funded,
+                commitment=line.commitment_fee_rate * fee_base,
+                issuance=line.issuance_fee_rate * issued,
+                other=line.fee_rate * line.ead,
+                funding=(base_rate + line.funding_spread) * funded,
+                operating=line.operating_cost_rate * line.ead,
+                el=line.expected_loss,
+                capital_regulatory=line.capital_regulatory,
+                capital_economic=line.capital_economic,
+                capital_return_rate=capital_return_rate,
+                hurdle_rate=hurdle_rate,
+            )
+        )
     funded = sum(p.funded for p in out)
     spread = sum(p.proposed_spread * p.funded for p in out) / funded if funded > 0 else deal_spread
     total = _priced(
-        id="relationship", kind="", basis=capital_basis, funded=funded,
-        fee_base=sum(p.commitment_fee_base for p in out), issued=sum(p.issued for p in out),
-        ead=sum(p.ead for p in out), base_rate=base_rate, spread=spread,
-        interest=sum(p.interest_income for p in out), commitment=sum(p.commitment_fee_income for p in out),
-        issuance=sum(p.issuance_fee_income for p in out), other=sum(p.other_fee_income for p in out),
-        funding=sum(p.funding_cost for p in out), operating=sum(p.operating_cost for p in out),
-        el=sum(p.expected_loss for p in out), capital_regulatory=sum(p.capital_regulatory for p in out),
-        capital_economic=sum(p.capital_economic for p in out), capital_return_rate=capital_return_rate,
-        hurdle_rate=hurdle_rate)
+        id="relationship",
+        kind="",
+        basis=capital_basis,
+        funded=funded,
+        fee_base=sum(p.commitment_fee_base for p in out),
+        issued=sum(p.issued for p in out),
+        ead=sum(p.ead for p in out),
+        base_rate=base_rate,
+        spread=spread,
+        interest=sum(p.interest_income for p in out),
+        commitment=sum(p.commitment_fee_income for p in out),
+        issuance=sum(p.issuance_fee_income for p in out),
+        other=sum(p.other_fee_income for p in out),
+        funding=sum(p.funding_cost for p in out),
+        operating=sum(p.operating_cost for p in out),
+        el=sum(p.expected_loss for p in out),
+        capital_regulatory=sum(p.capital_regulatory for p in out),
+        capital_economic=sum(p.capital_economic for p in out),
+        capital_return_rate=capital_return_rate,
+        hurdle_rate=hurdle_rate,
+    )
     return tuple(out), total
 
 
@@ -284,20 +355,42 @@ class DealPricing:
     relationship: FacilityPricing
 
 
-def deal_pricing(facilities: tuple[FacilityPricing, ...], relationship: FacilityPricing, *,
-                 rates: dict[str, float], label: str) -> DealPricing:
+def deal_pricing(
+    facilities: tuple[FacilityPricing, ...], relationship: FacilityPricing, *, rates: dict[str, float], label: str
+) -> DealPricing:
     """Assemble :class:`DealPricing` from :func:`price_lines` and the deal's rates."""
     r = relationship
     return DealPricing(
-        capital_basis=r.capital_basis, capital_basis_label=label, base_rate=r.base_rate,
-        proposed_spread=r.proposed_spread, fee_rate=rates["fee_rate"],
-        commitment_fee_rate=rates["commitment_fee_rate"], issuance_fee_rate=rates["issuance_fee_rate"],
-        funding_spread=rates["funding_spread"], operating_cost_rate=rates["operating_cost_rate"],
-        capital_return_rate=r.capital_return_rate, hurdle_rate=r.hurdle_rate, exposure=r.ead,
-        funded=r.funded, income=r.income, funding_cost=r.funding_cost, operating_cost=r.operating_cost,
-        expected_loss=r.expected_loss, capital=r.capital, capital_regulatory=r.capital_regulatory,
-        capital_economic=r.capital_economic, capital_benefit=r.capital_benefit,
-        risk_adjusted_return=r.risk_adjusted_return, raroc=r.raroc, raroc_regulatory=r.raroc_regulatory,
-        raroc_economic=r.raroc_economic, minimum_income=r.minimum_income, minimum_spread=r.minimum_spread,
-        spread_shortfall=r.spread_shortfall, meets_hurdle=r.meets_hurdle, note=r.note,
-        facilities=facilities, relationship=relationship)
+        capital_basis=r.capital_basis,
+        capital_basis_label=label,
+        base_rate=r.base_rate,
+        proposed_spread=r.proposed_spread,
+        fee_rate=rates["fee_rate"],
+        commitment_fee_rate=rates["commitment_fee_rate"],
+        issuance_fee_rate=rates["issuance_fee_rate"],
+        funding_spread=rates["funding_spread"],
+        operating_cost_rate=rates["operating_cost_rate"],
+        capital_return_rate=r.capital_return_rate,
+        hurdle_rate=r.hurdle_rate,
+        exposure=r.ead,
+        funded=r.funded,
+        income=r.income,
+        funding_cost=r.funding_cost,
+        operating_cost=r.operating_cost,
+        expected_loss=r.expected_loss,
+        capital=r.capital,
+        capital_regulatory=r.capital_regulatory,
+        capital_economic=r.capital_economic,
+        capital_benefit=r.capital_benefit,
+        risk_adjusted_return=r.risk_adjusted_return,
+        raroc=r.raroc,
+        raroc_regulatory=r.raroc_regulatory,
+        raroc_economic=r.raroc_economic,
+        minimum_income=r.minimum_income,
+        minimum_spread=r.minimum_spread,
+        spread_shortfall=r.spread_shortfall,
+        meets_hurdle=r.meets_hurdle,
+        note=r.note,
+        facilities=facilities,
+        relationship=relationship,
+    )

@@ -12,47 +12,47 @@ method (scipy.optimize.brentq) on the whole evaluation, within the input's allow
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any
 
 import numpy as np
-from scipy.optimize import brentq
-
 from obligor_memo.engine.structural import balance_sheet_pd
 from obligor_memo.engine.trend import sample_volatility
+from scipy.optimize import brentq
 
 
 @dataclass(frozen=True)
 class YearLeftOut:
-    year: int                  # the year whose change on the year before is left out
-    log_change: float          # that year's log change of total assets [1/year]
-    volatility: float          # sample volatility without it [1/sqrt(year)]
-    pd: float                  # balance-sheet PD with that volatility, all else held [fraction]
+    year: int  # the year whose change on the year before is left out
+    log_change: float  # that year's log change of total assets [1/year]
+    volatility: float  # sample volatility without it [1/sqrt(year)]
+    pd: float  # balance-sheet PD with that volatility, all else held [fraction]
 
 
 @dataclass(frozen=True)
 class Driver:
     label: str
-    pd_low: float | None       # PD at the lower input
-    pd_high: float | None      # PD at the higher input
-    swing: float               # |PD at the higher input - PD at the lower input| [fraction]
+    pd_low: float | None  # PD at the lower input
+    pd_high: float | None  # PD at the higher input
+    swing: float  # |PD at the higher input - PD at the lower input| [fraction]
 
 
 @dataclass(frozen=True)
 class BreakEven:
-    input: str                 # in words
+    input: str  # in words
     base: float
     grade_notch: float | None  # value at which the grade drops one notch; None: not within range
-    below_hurdle: float | None # value at which RAROC falls to the hurdle; None: not within range
-    low: float                 # the range searched
+    below_hurdle: float | None  # value at which RAROC falls to the hurdle; None: not within range
+    low: float  # the range searched
     high: float
 
 
 @dataclass(frozen=True)
 class PdDrivers:
-    drivers: tuple[Driver, ...]             # largest PD swing first, at most three
+    drivers: tuple[Driver, ...]  # largest PD swing first, at most three
     years_left_out: tuple[YearLeftOut, ...]
-    driving_year: YearLeftOut | None        # the year whose removal changes the volatility most
+    driving_year: YearLeftOut | None  # the year whose removal changes the volatility most
     break_evens: tuple[BreakEven, ...]
 
 
@@ -66,14 +66,17 @@ def leave_one_year_out(results: Any) -> tuple[YearLeftOut, ...]:
     out = []
     for i, change in enumerate(changes):
         vol = sample_volatility(np.delete(changes, i))
-        bs = balance_sheet_pd(asset_value=latest.total_assets, asset_growth=trend.growth_used,
-                              asset_volatility=vol, short_term_liabilities=latest.short_term_liabilities,
-                              long_term_liabilities=latest.long_term_liabilities,
-                              short_term_share=case.pd.default_point.short_term_share,
-                              long_term_share=case.pd.default_point.long_term_share,
-                              horizon_years=case.pd.horizon_years)
-        out.append(YearLeftOut(year=trend.years[i + 1], log_change=float(change), volatility=vol,
-                               pd=float(bs.pd)))
+        bs = balance_sheet_pd(
+            asset_value=latest.total_assets,
+            asset_growth=trend.growth_used,
+            asset_volatility=vol,
+            short_term_liabilities=latest.short_term_liabilities,
+            long_term_liabilities=latest.long_term_liabilities,
+            short_term_share=case.pd.default_point.short_term_share,
+            long_term_share=case.pd.default_point.long_term_share,
+            horizon_years=case.pd.horizon_years,
+        )
+        out.append(YearLeftOut(year=trend.years[i + 1], log_change=float(change), volatility=vol, pd=float(bs.pd)))
     del pd
     return tuple(out)
 
@@ -93,7 +96,7 @@ def top_drivers(sensitivity: Any, count: int = 3) -> tuple[Driver, ...]:
 def _root(f: Callable[[float], float], a: float, b: float) -> float | None:
     try:
         fa, fb = f(a), f(b)
-    except Exception:          # an input the case refuses at the edge: no break-even reported
+    except Exception:  # an input the case refuses at the edge: no break-even reported
         return None
     if fa == 0:
         return a
@@ -126,19 +129,34 @@ def break_evens(results: Any) -> tuple[BreakEven, ...]:
         def f(v: float) -> float:
             p = run(path, v).pricing
             return float("nan") if p is None else p.raroc - p.hurdle_rate
+
         return f
 
     specs: list[tuple[str, str, float, float, float, bool]] = [
-        ("Long-term share in the default point", "pd.default_point.long_term_share",
-         case.pd.default_point.long_term_share, case.pd.default_point.long_term_share, 1.0, True),
+        (
+            "Long-term share in the default point",
+            "pd.default_point.long_term_share",
+            case.pd.default_point.long_term_share,
+            case.pd.default_point.long_term_share,
+            1.0,
+            True,
+        ),
         ("Asset volatility", "pd.asset_volatility", pd.asset_volatility, pd.asset_volatility, 1.0, True),
     ]
     if pd.asset_growth is not None:
         specs.append(("Asset growth", "pd.asset_growth", pd.asset_growth, -0.5, pd.asset_growth, True))
     secured = next((f for f in case.facilities if f.recovery is not None), None)
     if secured is not None:
-        specs.append((f"Mean recovery of {secured.id}", f"facilities.{secured.id}.recovery.mean",
-                      secured.recovery.mean, 0.01, secured.recovery.mean, False))
+        specs.append(
+            (
+                f"Mean recovery of {secured.id}",
+                f"facilities.{secured.id}.recovery.mean",
+                secured.recovery.mean,
+                0.01,
+                secured.recovery.mean,
+                False,
+            )
+        )
     out = []
     for label, path, base, lo, hi, moves_grade in specs:
         if hi <= lo:
@@ -154,5 +172,9 @@ def pd_drivers(results: Any) -> PdDrivers:
     driving = None
     if years and results.trend is not None:
         driving = max(years, key=lambda y: abs(y.volatility - results.trend.volatility_used))
-    return PdDrivers(drivers=top_drivers(getattr(results, "sensitivity", None)), years_left_out=years,
-                     driving_year=driving, break_evens=break_evens(results))
+    return PdDrivers(
+        drivers=top_drivers(getattr(results, "sensitivity", None)),
+        years_left_out=years,
+        driving_year=driving,
+        break_evens=break_evens(results),
+    )

@@ -57,15 +57,12 @@ class CaseError(ValueError):
         super().__init__(self.paragraph())
 
     @classmethod
-    def single(cls, field: str, value: Any, allowed: str, source: str = "case") -> "CaseError":
+    def single(cls, field: str, value: Any, allowed: str, source: str = "case") -> CaseError:
         return cls([Problem(field, value, allowed)], source=source)
 
     def paragraph(self, limit: int = 8) -> str:
         shown = self.problems[:limit]
-        head = (
-            f"The {self.source} has {len(self.problems)} problem"
-            f"{'s' if len(self.problems) != 1 else ''}: "
-        )
+        head = f"The {self.source} has {len(self.problems)} problem{'s' if len(self.problems) != 1 else ''}: "
         body = " ".join(p.sentence() for p in shown)
         more = len(self.problems) - len(shown)
         tail = f" ({more} more not shown.)" if more > 0 else ""
@@ -88,8 +85,7 @@ class InputError(ValueError):
         self.field = field
         self.value = value
         self.allowed = allowed
-        super().__init__(f"{field}: got {value if isinstance(value, str) else show_value(value)}; "
-                         f"allowed: {allowed}")
+        super().__init__(f"{field}: got {value if isinstance(value, str) else show_value(value)}; allowed: {allowed}")
 
     @property
     def problem(self) -> Problem:

@@ -27,8 +27,9 @@ _B3 = "Basel III final (Dec 2017), standardised approach, CRE20.93-101"
 _B2 = "Basel II (June 2006), paras 82-85"
 
 
-def ccf_preset(kind: FacilityKind, *, standard: Standard = "basel_iii", maturity_years: float = 1.0,
-               cancellable: bool = False) -> tuple[float, str]:
+def ccf_preset(
+    kind: FacilityKind, *, standard: Standard = "basel_iii", maturity_years: float = 1.0, cancellable: bool = False
+) -> tuple[float, str]:
     """The standardised-approach CCF for a facility kind, with the source it comes from.
 
     ``maturity_years`` stands in for the original maturity (Basel II's 1-year boundary).
@@ -40,8 +41,11 @@ def ccf_preset(kind: FacilityKind, *, standard: Standard = "basel_iii", maturity
     src = _B3 if b3 else _B2
     if kind in ("term_loan", "revolver"):
         if cancellable:
-            return (0.10, f"{src}: unconditionally cancellable commitment") if b3 else \
-                   (0.0, f"{src}: unconditionally cancellable commitment")
+            return (
+                (0.10, f"{src}: unconditionally cancellable commitment")
+                if b3
+                else (0.0, f"{src}: unconditionally cancellable commitment")
+            )
         if b3:
             return 0.40, f"{src}: commitment"
         if maturity_years <= 1:
@@ -53,8 +57,7 @@ def ccf_preset(kind: FacilityKind, *, standard: Standard = "basel_iii", maturity
         return 0.20, f"{src}: short-term self-liquidating trade letter of credit"
     if kind == "bond":
         return 1.00, f"{src}: forward asset purchase (unsettled bond amount)"
-    raise ValueError(f"facilities.kind: got {kind!r}; allowed: bond, term_loan, revolver, guarantee, "
-                     "letter_of_credit")
+    raise ValueError(f"facilities.kind: got {kind!r}; allowed: bond, term_loan, revolver, guarantee, letter_of_credit")
 
 
 def exposure_at_default(*, drawn: float, committed: float, ccf: float) -> float:
@@ -70,17 +73,24 @@ def exposure_at_default(*, drawn: float, committed: float, ccf: float) -> float:
 class FacilityExposure:
     id: str
     kind: str
-    drawn: float        # [currency]
-    committed: float    # [currency]
-    undrawn: float      # max(committed - drawn, 0) [currency]
-    ccf: float          # [fraction]
-    ccf_source: str     # "facility", "grade table (grade X)" or the preset's citation
-    ead: float          # [currency]
+    drawn: float  # [currency]
+    committed: float  # [currency]
+    undrawn: float  # max(committed - drawn, 0) [currency]
+    ccf: float  # [fraction]
+    ccf_source: str  # "facility", "grade table (grade X)" or the preset's citation
+    ead: float  # [currency]
 
 
-def resolve_ccf(*, kind: FacilityKind, own_ccf: float | None, grade: str | None,
-                grade_table: list[tuple[str, float, str | None]] | None, standard: Standard,
-                maturity_years: float, cancellable: bool) -> tuple[float, str]:
+def resolve_ccf(
+    *,
+    kind: FacilityKind,
+    own_ccf: float | None,
+    grade: str | None,
+    grade_table: list[tuple[str, float, str | None]] | None,
+    standard: Standard,
+    maturity_years: float,
+    cancellable: bool,
+) -> tuple[float, str]:
     """The CCF in force and where it came from (facility > grade table > preset)."""
     if own_ccf is not None:
         return own_ccf, "set on the facility"
@@ -94,8 +104,16 @@ def resolve_ccf(*, kind: FacilityKind, own_ccf: float | None, grade: str | None,
     return ccf_preset(kind, standard=standard, maturity_years=maturity_years, cancellable=cancellable)
 
 
-def facility_exposure(*, id: str, kind: FacilityKind, drawn: float, committed: float, ccf: float,
-                      ccf_source: str) -> FacilityExposure:
-    return FacilityExposure(id=id, kind=kind, drawn=drawn, committed=committed,
-                            undrawn=max(committed - drawn, 0.0), ccf=ccf, ccf_source=ccf_source,
-                            ead=exposure_at_default(drawn=drawn, committed=committed, ccf=ccf))
+def facility_exposure(
+    *, id: str, kind: FacilityKind, drawn: float, committed: float, ccf: float, ccf_source: str
+) -> FacilityExposure:
+    return FacilityExposure(
+        id=id,
+        kind=kind,
+        drawn=drawn,
+        committed=committed,
+        undrawn=max(committed - drawn, 0.0),
+        ccf=ccf,
+        ccf_source=ccf_source,
+        ead=exposure_at_default(drawn=drawn, committed=committed, ccf=ccf),
+    )

@@ -60,16 +60,14 @@ class MasterScale:
                 raise ValueError(f"{where}.label must be a non-empty string; got {grade.label!r}")
             if grade.label in seen:
                 raise ValueError(
-                    f"{where}.label = {grade.label!r} repeats grades[{seen[grade.label]}]; "
-                    "labels must be unique"
+                    f"{where}.label = {grade.label!r} repeats grades[{seen[grade.label]}]; labels must be unique"
                 )
             seen[grade.label] = index
             if grade.pd_lower != previous_upper:
                 rule = (
                     "the first band must start at 0"
                     if index == 0
-                    else f"it must equal grades[{index - 1}].pd_upper = {previous_upper!r} "
-                    "(no gap, no overlap)"
+                    else f"it must equal grades[{index - 1}].pd_upper = {previous_upper!r} (no gap, no overlap)"
                 )
                 raise ValueError(f"{where}.pd_lower = {grade.pd_lower!r}: {rule}")
             if not (
@@ -137,9 +135,7 @@ def master_scale_from_rows(rows: Sequence[Mapping[str, object]]) -> MasterScale:
         ValueError: naming the row index, the field, the value and the rule.
     """
     if isinstance(rows, (str, bytes)) or not isinstance(rows, Sequence) or not rows:
-        raise ValueError(
-            f"rows must be a non-empty list of {{grade, pd_upper}} mappings; got {rows!r}"
-        )
+        raise ValueError(f"rows must be a non-empty list of {{grade, pd_upper}} mappings; got {rows!r}")
     labels: dict[str, int] = {}
     uppers: dict[float, int] = {}
     checked: list[tuple[float, str]] = []
@@ -149,9 +145,7 @@ def master_scale_from_rows(rows: Sequence[Mapping[str, object]]) -> MasterScale:
             raise ValueError(f"{where} must be a mapping with fields grade, pd_upper; got {row!r}")
         for field in row:
             if field not in _ROW_FIELDS:
-                raise ValueError(
-                    f"{where}: unknown field {field!r}; allowed fields: {', '.join(_ROW_FIELDS)}"
-                )
+                raise ValueError(f"{where}: unknown field {field!r}; allowed fields: {', '.join(_ROW_FIELDS)}")
         for field in _ROW_FIELDS:
             if field not in row:
                 raise ValueError(f"{where}.{field} is missing; every row needs grade and pd_upper")
@@ -160,8 +154,7 @@ def master_scale_from_rows(rows: Sequence[Mapping[str, object]]) -> MasterScale:
             raise ValueError(f"{where}.grade = {label!r}: it must be a non-empty string")
         if label in labels:
             raise ValueError(
-                f"{where}.grade = {label!r} repeats rows[{labels[label]}].grade; "
-                "grade labels must be unique"
+                f"{where}.grade = {label!r} repeats rows[{labels[label]}].grade; grade labels must be unique"
             )
         labels[label] = index
         upper = row["pd_upper"]
@@ -230,9 +223,7 @@ def assign_grade(pd: float, scale: MasterScale = DEFAULT_MASTER_SCALE) -> GradeR
     if isinstance(pd, bool) or not isinstance(pd, numbers.Real):
         raise ValueError(f"pd must be a number in (0, 1]; got {pd!r}")
     if not (0.0 < pd <= 1.0):
-        raise ValueError(
-            f"pd must lie in (0, 1] (0 excluded: lower bounds are exclusive); got {pd!r}"
-        )
+        raise ValueError(f"pd must lie in (0, 1] (0 excluded: lower bounds are exclusive); got {pd!r}")
     # bisect_left finds the first band whose upper bound is >= pd: upper inclusive.
     index = bisect.bisect_left(scale.upper_bounds, float(pd))
     band = scale.grades[index]

@@ -19,9 +19,9 @@ from __future__ import annotations
 
 import math
 import warnings
+from collections.abc import Sequence
 from functools import lru_cache
-from typing import Any, Sequence
-
+from typing import Any
 
 
 def expected_loss(*, ead: float, pd: float, lgd: float) -> float:
@@ -56,8 +56,11 @@ def _quantile_covariance(first: Any, second: Any) -> float:
     """
     if getattr(first, "point_mass", False) or getattr(second, "point_mass", False):
         return 0.0
-    if (getattr(first, "alpha", None) is not None and first.alpha == getattr(second, "alpha", None)
-            and first.beta == second.beta):
+    if (
+        getattr(first, "alpha", None) is not None
+        and first.alpha == getattr(second, "alpha", None)
+        and first.beta == second.beta
+    ):
         a, b = first.alpha, first.beta
         return first.scale * second.scale * a * b / ((a + b) ** 2 * (a + b + 1.0))
     if all(getattr(law, "alpha", None) is not None and hasattr(law, "scale") for law in (first, second)):
@@ -79,8 +82,14 @@ def _covariance_by_quadrature(first: Any, second: Any) -> float:
         # the steps yet its extrapolated value stays within a few ulps of the integrand's scale.
         warnings.simplefilter("ignore", integrate.IntegrationWarning)
         for low, high in zip(edges[:-1], edges[1:]):
-            value, _ = integrate.quad(lambda u: (float(first.ppf(u)) - m1) * (float(second.ppf(u)) - m2),
-                                      low, high, epsabs=1e-15, epsrel=1e-11, limit=200)
+            value, _ = integrate.quad(
+                lambda u: (float(first.ppf(u)) - m1) * (float(second.ppf(u)) - m2),
+                low,
+                high,
+                epsabs=1e-15,
+                epsrel=1e-11,
+                limit=200,
+            )
             total += value
     return total
 
@@ -108,13 +117,20 @@ def comonotonic_second_moment(*, eads: Sequence[float], laws: Sequence[Any]) -> 
     active = [(e, law) for e, law in zip(eads, laws) if e > 0]
     for i, (ei, li) in enumerate(active):
         var_s += ei * ei * float(li.var())
-        for ej, lj in active[i + 1:]:
+        for ej, lj in active[i + 1 :]:
             var_s += 2.0 * ei * ej * _quantile_covariance(li, lj)
     return mean_s**2 + max(var_s, 0.0)
 
 
-def borrower_unexpected_loss(*, eads: list[float], lgds: list[float], lgd_stds: list[float], pd: float,
-                             join: str = "comonotonic", laws: Sequence[Any] | None = None) -> float:
+def borrower_unexpected_loss(
+    *,
+    eads: list[float],
+    lgds: list[float],
+    lgd_stds: list[float],
+    pd: float,
+    join: str = "comonotonic",
+    laws: Sequence[Any] | None = None,
+) -> float:
     """UL of the borrower's summed loss: one default event, recoveries joined as ``join`` says.
 
     Loss = D x S with S = sum EAD_i LGD_i (random); var = PD var(S) + E[S]^2 PD (1 - PD).

@@ -43,8 +43,9 @@ and ``var()`` describing a recovery rate in [0, 1.5] [fraction], e.g. a frozen
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal, Protocol, Sequence
+from typing import Literal, Protocol
 
 import numpy as np
 
@@ -132,9 +133,7 @@ def _check_probability(name: str, value: float, *, open_low: float | None = None
     if isinstance(value, bool) or not isinstance(value, (int, float, np.floating, np.integer)):
         raise ValueError(f"{name} must be a number in {allowed}; got {value!r}")
     number = float(value)
-    inside = (
-        0.0 <= number <= 1.0 if open_low is None else open_low < number < 1.0
-    )
+    inside = 0.0 <= number <= 1.0 if open_low is None else open_low < number < 1.0
     if not inside:
         raise ValueError(f"{name} must lie in {allowed}; got {value!r}")
     return number
@@ -152,30 +151,21 @@ def _check_exposures_and_laws(
     try:
         ead = np.asarray(exposures, dtype=float)
     except (TypeError, ValueError):
-        raise ValueError(
-            f"exposures must be a sequence of finite numbers >= 0; got {exposures!r}"
-        ) from None
+        raise ValueError(f"exposures must be a sequence of finite numbers >= 0; got {exposures!r}") from None
     if ead.ndim != 1 or ead.size == 0:
-        raise ValueError(
-            f"exposures must be a non-empty one-dimensional sequence; got {exposures!r}"
-        )
+        raise ValueError(f"exposures must be a non-empty one-dimensional sequence; got {exposures!r}")
     for index, value in enumerate(ead):
         if not math.isfinite(value) or value < 0.0:
-            raise ValueError(
-                f"exposures[{index}] must be a finite number >= 0 [currency]; got {value!r}"
-            )
+            raise ValueError(f"exposures[{index}] must be a finite number >= 0 [currency]; got {value!r}")
     laws = tuple(recovery_laws)
     if len(laws) != ead.size:
-        raise ValueError(
-            f"recovery_laws must have one law per exposure ({ead.size}); got {len(laws)}"
-        )
+        raise ValueError(f"recovery_laws must have one law per exposure ({ead.size}); got {len(laws)}")
     means = np.empty(ead.size)
     for index, law in enumerate(laws):
         for method in ("ppf", "mean", "var"):
             if not callable(getattr(law, method, None)):
                 raise ValueError(
-                    f"recovery_laws[{index}] must offer ppf(u), mean() and var(); "
-                    f"{law!r} has no {method}()"
+                    f"recovery_laws[{index}] must offer ppf(u), mean() and var(); {law!r} has no {method}()"
                 )
         mean = float(law.mean())
         variance = float(law.var())
@@ -184,9 +174,7 @@ def _check_exposures_and_laws(
                 f"recovery_laws[{index}].mean() must lie in [0, {MAX_RECOVERY:g}] [fraction]; got {mean!r}"
             )
         if not (math.isfinite(variance) and variance >= 0.0):
-            raise ValueError(
-                f"recovery_laws[{index}].var() must be a finite number >= 0; got {variance!r}"
-            )
+            raise ValueError(f"recovery_laws[{index}].var() must be a finite number >= 0; got {variance!r}")
         # A recovery above 1 is a negative loss (recoveries above par, up to 1.5); catch a law on
         # the wrong scale (percent, say) early.
         probe = np.asarray(law.ppf(np.array([0.0, 0.5, 1.0])), dtype=float)
@@ -205,9 +193,7 @@ def _check_count(name: str, value: int, minimum: int) -> int:
     return int(value)
 
 
-def _loss_given_default_comonotonic(
-    u: np.ndarray, exposures: np.ndarray, laws: Sequence[RecoveryLaw]
-) -> np.ndarray:
+def _loss_given_default_comonotonic(u: np.ndarray, exposures: np.ndarray, laws: Sequence[RecoveryLaw]) -> np.ndarray:
     """G(u) = sum_i EAD_i (1 - F_i^{-1}(u)) [currency] for u in [0, 1]."""
     total = np.zeros_like(u, dtype=float)
     for ead, law in zip(exposures, laws):
@@ -290,8 +276,7 @@ def _comonotonic_curve(
     cdf_x = probability * (1.0 - u) + (1.0 - probability) * (x >= 0.0)
     u0 = _zero_crossing(exposures, laws)
     points = np.concatenate([x, [0.0, 0.0, total]])
-    values = np.concatenate([cdf_x, [probability * (1.0 - u0), probability * (1.0 - u0) + 1.0 - probability,
-                                     1.0]])
+    values = np.concatenate([cdf_x, [probability * (1.0 - u0), probability * (1.0 - u0) + 1.0 - probability, 1.0]])
     order = np.lexsort((values, points))
     return points[order], np.clip(np.maximum.accumulate(values[order]), 0.0, 1.0)
 
@@ -302,6 +287,7 @@ def _zero_crossing(exposures: np.ndarray, laws: Sequence[RecoveryLaw]) -> float:
     1 when no outcome is a gain (every recovery at most par); otherwise the root of G found
     by bracketing (scipy.optimize.brentq), since recoveries above par make G(1) < 0.
     """
+
     def g(u: float) -> float:
         return float(_loss_given_default_comonotonic(np.array([u]), exposures, laws)[0])
 
@@ -348,8 +334,7 @@ def _comonotonic_tail(
 
     if all(hasattr(law, "ppf_integral") for law in laws):
         # Closed form: integral_0^end G = sum EAD_i (end - integral_0^end F_i^-1).
-        integral = sum(float(e) * (end - law.ppf_integral(end))
-                       for e, law in zip(exposures, laws) if e > 0.0)
+        integral = sum(float(e) * (end - law.ppf_integral(end)) for e, law in zip(exposures, laws) if e > 0.0)
         return value_at_risk, probability / tail * integral, 0.0
 
     from scipy import integrate  # deferred: only recovery laws without a closed form need it
@@ -359,9 +344,7 @@ def _comonotonic_tail(
 
     scale = float(exposures.sum()) * end
     # epsabs keeps QUADPACK from chasing a relative target on an all-zero integrand.
-    integral, error = integrate.quad(
-        integrand, 0.0, end, epsabs=1e-14 * scale, epsrel=1e-10, limit=200
-    )
+    integral, error = integrate.quad(integrand, 0.0, end, epsabs=1e-14 * scale, epsrel=1e-10, limit=200)
     factor = probability / tail
     return value_at_risk, factor * integral, factor * error
 
@@ -416,14 +399,12 @@ def _discrete_tail(values: np.ndarray, probs: np.ndarray, level: float) -> tuple
     cdf = np.cumsum(p)
     index = min(int(np.searchsorted(cdf, level - 1e-12, side="left")), len(x) - 1)
     var = float(x[index])
-    above = float(np.sum(x[index + 1:] * p[index + 1:]))
+    above = float(np.sum(x[index + 1 :] * p[index + 1 :]))
     shortfall = (above + var * (float(cdf[index]) - level)) / (1.0 - level)
     return var, shortfall
 
 
-def _monte_carlo_tail(
-    sample: np.ndarray, level: float, tail_fraction: float
-) -> tuple[float, float, float, float]:
+def _monte_carlo_tail(sample: np.ndarray, level: float, tail_fraction: float) -> tuple[float, float, float, float]:
     """(VaR, ES, their standard errors) from draws of the loss given default.
 
     VaR_q(L) is the (1 - u*) quantile of G and ES_q(L) the mean of G over its
@@ -533,9 +514,7 @@ def loss_distribution(
             value_at_risk, shortfall = 0.0, expected_loss / (1.0 - level)
             var_error = shortfall_error = 0.0
         else:
-            value_at_risk, shortfall, var_error, shortfall_error = _monte_carlo_tail(
-                sample, level, tail_fraction
-            )
+            value_at_risk, shortfall, var_error, shortfall_error = _monte_carlo_tail(sample, level, tail_fraction)
         ordered = np.sort(sample)
         share_at_or_below = np.searchsorted(ordered, grid, side="right") / n_sims
         cdf = np.clip(1.0 - probability + probability * share_at_or_below, 0.0, 1.0)

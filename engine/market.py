@@ -23,9 +23,8 @@ from typing import Literal, TypeVar
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import special
-
 from obligor_memo.engine import ENGINE_VERSION
+from scipy import special
 
 Measure = Literal["risk_neutral", "physical"]
 FloatArray = NDArray[np.float64]
@@ -52,16 +51,12 @@ _LIMITS: dict[str, tuple[float, bool, float, bool, str]] = {
     "default_point": (0.0, False, math.inf, False, "a finite amount > 0 [currency]"),
     "face_value_debt": (0.0, False, math.inf, False, "a finite amount > 0 [currency]"),
     "asset_value": (0.0, False, math.inf, False, "a finite amount > 0 [currency]"),
-    "equity_volatility": (0.0, False, 10.0, True,
-                          "an annual fraction in (0, 10], e.g. 0.40 for 40 %"),
-    "asset_volatility": (0.0, False, 10.0, True,
-                         "an annual fraction in (0, 10], e.g. 0.25 for 25 %"),
-    "risk_free_rate": (-0.5, True, 1.0, True,
-                       "a continuously compounded rate in [-0.5, 1] [1/year], e.g. 0.03"),
+    "equity_volatility": (0.0, False, 10.0, True, "an annual fraction in (0, 10], e.g. 0.40 for 40 %"),
+    "asset_volatility": (0.0, False, 10.0, True, "an annual fraction in (0, 10], e.g. 0.25 for 25 %"),
+    "risk_free_rate": (-0.5, True, 1.0, True, "a continuously compounded rate in [-0.5, 1] [1/year], e.g. 0.03"),
     "horizon_years": (0.0, False, 50.0, True, "a number of years in (0, 50]"),
     "asset_drift": (-1.0, True, 1.0, True, "an annual rate in [-1, 1] [1/year], e.g. 0.06"),
-    "trailing_equity_return": (-1.0, False, 10.0, True,
-                               "a one-year return in (-1, 10] [fraction], e.g. 0.12"),
+    "trailing_equity_return": (-1.0, False, 10.0, True, "a one-year return in (-1, 10] [fraction], e.g. 0.12"),
 }
 
 
@@ -108,9 +103,14 @@ def _scalar_or_frozen(values: FloatArray) -> float | FloatArray:
     return float(values) if values.ndim == 0 else _frozen(values)
 
 
-def merton_equity_value(*, asset_value: ArrayLike, asset_volatility: ArrayLike,
-                        default_point: ArrayLike, risk_free_rate: ArrayLike,
-                        horizon_years: ArrayLike) -> float | FloatArray:
+def merton_equity_value(
+    *,
+    asset_value: ArrayLike,
+    asset_volatility: ArrayLike,
+    default_point: ArrayLike,
+    risk_free_rate: ArrayLike,
+    horizon_years: ArrayLike,
+) -> float | FloatArray:
     """Equity as a European call on the firm's assets, Merton (1974).
 
     E = V N(d1) - D e^{-rT} N(d2), d1 = (ln(V/D) + (r + s^2/2)T)/(s sqrt T), d2 = d1 - s sqrt T.
@@ -189,8 +189,9 @@ class MertonSolution:
     engine_version: str = ENGINE_VERSION
 
 
-def _residuals(x: FloatArray, y: FloatArray, E: FloatArray, sE: FloatArray,
-               lnK: FloatArray, sqT: FloatArray) -> tuple[FloatArray, ...]:
+def _residuals(
+    x: FloatArray, y: FloatArray, E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
+) -> tuple[FloatArray, ...]:
     """Relative residuals of the two equations at x = ln V, y = ln s, plus intermediates."""
     V, s = np.exp(x), np.exp(y)
     sv = s * sqT
@@ -202,8 +203,9 @@ def _residuals(x: FloatArray, y: FloatArray, E: FloatArray, sE: FloatArray,
     return g1, g2, V, s, d1, d2, N1
 
 
-def _newton(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray,
-            x: FloatArray, y: FloatArray) -> tuple[FloatArray, FloatArray, NDArray[np.int64]]:
+def _newton(
+    E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray, x: FloatArray, y: FloatArray
+) -> tuple[FloatArray, FloatArray, NDArray[np.int64]]:
     """Damped Newton on (x, y) = (ln V, ln s) from the given start, vectorised over borrowers.
 
     The root lies in E < V < E + K and sE E/(E + K) < s < sE (K = D e^{-rT}):
@@ -275,8 +277,9 @@ def _reduced_gap(d2: FloatArray, a: FloatArray, b: FloatArray) -> tuple[FloatArr
     return gap, slope, u, k
 
 
-def _bracketed(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
-               ) -> tuple[FloatArray, FloatArray, NDArray[np.int64]]:
+def _bracketed(
+    E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
+) -> tuple[FloatArray, FloatArray, NDArray[np.int64]]:
     """Fall-back: bracket the root of the reduced equation in d2, then safeguarded
     Newton (a bisection whenever Newton would leave the bracket); vectorised."""
     a, b = E / np.exp(lnK), sE * sqT
@@ -308,8 +311,7 @@ def _bracketed(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
         step = d2[active] - gap / slope
         inside = (step > lo[active]) & (step < hi[active])
         solved = np.abs(gap) <= _NEWTON_TOLERANCE  # stay put: a bisection would undo it
-        step = np.where(solved, d2[active],
-                        np.where(inside, step, 0.5 * (lo[active] + hi[active])))
+        step = np.where(solved, d2[active], np.where(inside, step, 0.5 * (lo[active] + hi[active])))
         done = solved | (np.abs(step - d2[active]) <= 4e-16 * np.maximum(1.0, np.abs(step)))
         d2[active] = step
         iterations[active] += 1
@@ -318,16 +320,17 @@ def _bracketed(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
     return k + lnK, np.log(u / sqT), iterations
 
 
-def _max_residual(x: FloatArray, y: FloatArray, E: FloatArray, sE: FloatArray,
-                  lnK: FloatArray, sqT: FloatArray) -> FloatArray:
+def _max_residual(
+    x: FloatArray, y: FloatArray, E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
+) -> FloatArray:
     g1, g2, *_ = _residuals(x, y, E, sE, lnK, sqT)
     worst = np.maximum(np.abs(g1), np.abs(g2))
     return np.where(np.isnan(worst), np.inf, worst)  # so "smaller is better" holds
 
 
-def _solve_valid(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
-                 ) -> tuple[FloatArray, FloatArray, NDArray[np.int64], FloatArray,
-                            NDArray[np.bool_]]:
+def _solve_valid(
+    E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
+) -> tuple[FloatArray, FloatArray, NDArray[np.int64], FloatArray, NDArray[np.bool_]]:
     """V, s, iterations, relative residual and fall-back flag for validated inputs."""
     # Extreme elements may over- or underflow on the way; the residual check catches them.
     with np.errstate(all="ignore"):
@@ -349,10 +352,16 @@ def _solve_valid(E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
     return np.exp(x), np.exp(y), iterations, residual, fallback
 
 
-def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
-                      default_point: ArrayLike, risk_free_rate: ArrayLike,
-                      horizon_years: ArrayLike, asset_drift: ArrayLike | None = None,
-                      invalid: Literal["raise", "flag"] = "raise") -> MertonBatch:
+def solve_merton_many(
+    *,
+    equity_value: ArrayLike,
+    equity_volatility: ArrayLike,
+    default_point: ArrayLike,
+    risk_free_rate: ArrayLike,
+    horizon_years: ArrayLike,
+    asset_drift: ArrayLike | None = None,
+    invalid: Literal["raise", "flag"] = "raise",
+) -> MertonBatch:
     """Solve the Merton (1974) equations for many borrowers at once (inputs broadcast).
 
     Args:
@@ -374,8 +383,9 @@ def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
     """
     if invalid not in ("raise", "flag"):
         raise ValueError(f"invalid={invalid!r} is not allowed; allowed: 'raise' or 'flag'")
-    names = ["equity_value", "equity_volatility", "default_point", "risk_free_rate",
-             "horizon_years"] + ([] if asset_drift is None else ["asset_drift"])
+    names = ["equity_value", "equity_volatility", "default_point", "risk_free_rate", "horizon_years"] + (
+        [] if asset_drift is None else ["asset_drift"]
+    )
     given: list[ArrayLike] = [equity_value, equity_volatility, default_point, risk_free_rate, horizon_years]
     if asset_drift is not None:
         given.append(asset_drift)
@@ -384,8 +394,9 @@ def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
         broadcast = np.broadcast_arrays(*raw)
     except ValueError:
         shapes = ", ".join(f"{n}{a.shape}" for n, a in zip(names, raw))
-        raise ValueError(f"input shapes do not broadcast together: {shapes}; "
-                         f"give scalars or arrays of one common shape") from None
+        raise ValueError(
+            f"input shapes do not broadcast together: {shapes}; give scalars or arrays of one common shape"
+        ) from None
     shape = broadcast[0].shape
     flat = [np.ascontiguousarray(a).ravel() for a in broadcast]
     n = flat[0].size
@@ -394,67 +405,82 @@ def solve_merton_many(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
     for name, values in zip(names, flat):
         mask = _bad_mask(name, values)
         if mask.any() and invalid == "raise":
-            raise ValueError(_out_of_range_message(name, values.reshape(shape),
-                                                   int(np.flatnonzero(mask)[0])))
+            raise ValueError(_out_of_range_message(name, values.reshape(shape), int(np.flatnonzero(mask)[0])))
         for i in np.flatnonzero(mask & ~bad):
             reasons[int(i)] = _out_of_range_message(name, values.reshape(shape), int(i))
         bad |= mask
 
     # Invalid elements get a harmless stand-in so the solve stays one array pass.
-    E, sE, D, r, T = (np.where(bad, stand_in, values)
-                      for stand_in, values in zip((1.0, 0.3, 1.0, 0.0, 1.0), flat[:5]))
-    V, s, iterations, residual, used_fallback = _solve_valid(E, sE, np.log(D) - r * T,
-                                                             np.sqrt(T))
+    E, sE, D, r, T = (np.where(bad, stand_in, values) for stand_in, values in zip((1.0, 0.3, 1.0, 0.0, 1.0), flat[:5]))
+    V, s, iterations, residual, used_fallback = _solve_valid(E, sE, np.log(D) - r * T, np.sqrt(T))
     # Rounding bound of V N(d1) - D e^{-rT} N(d2) relative to E: when equity is a
     # sliver of the debt the equations cannot be checked in double precision.
     with np.errstate(all="ignore"):
         sv = s * np.sqrt(T)
         d1 = (np.log(V / D) + (r + 0.5 * s * s) * T) / sv
         d2 = d1 - sv
-        rounding = 4 * np.finfo(float).eps * (
-            V * special.ndtr(d1) + D * np.exp(-r * T) * special.ndtr(d2)) / E
+        rounding = 4 * np.finfo(float).eps * (V * special.ndtr(d1) + D * np.exp(-r * T) * special.ndtr(d2)) / E
     checkable = rounding <= _ACCEPT_TOLERANCE / 2
     converged = ~bad & checkable & (residual + rounding <= _ACCEPT_TOLERANCE)
     for i in np.flatnonzero(~bad & ~converged):
         if checkable[i]:
-            what = (f"the Merton equations did not converge for equity_value={float(E[i])!r}, "
-                    f"equity_volatility={float(sE[i])!r}, default_point={float(D[i])!r}, "
-                    f"risk_free_rate={float(r[i])!r}, horizon_years={float(T[i])!r} (relative "
-                    f"residual {residual[i]:.2e} after Newton and a bracketed search)")
+            what = (
+                f"the Merton equations did not converge for equity_value={float(E[i])!r}, "
+                f"equity_volatility={float(sE[i])!r}, default_point={float(D[i])!r}, "
+                f"risk_free_rate={float(r[i])!r}, horizon_years={float(T[i])!r} (relative "
+                f"residual {residual[i]:.2e} after Newton and a bracketed search)"
+            )
         else:
             ratio = E[i] / (D[i] * np.exp(-r[i] * T[i]))
-            what = (f"equity_value={float(E[i])!r} is too small against default_point="
-                    f"{float(D[i])!r} discounted at risk_free_rate={float(r[i])!r} over "
-                    f"horizon_years={float(T[i])!r} (ratio {ratio:.1e}) for a solution to be "
-                    f"checked in double precision")
-        reasons[int(i)] = what + ("; check that equity value and default point are in the "
-                                  "same currency and scale, and that equity volatility is an "
-                                  "annual fraction (0.40, not 40)")
+            what = (
+                f"equity_value={float(E[i])!r} is too small against default_point="
+                f"{float(D[i])!r} discounted at risk_free_rate={float(r[i])!r} over "
+                f"horizon_years={float(T[i])!r} (ratio {ratio:.1e}) for a solution to be "
+                f"checked in double precision"
+            )
+        reasons[int(i)] = what + (
+            "; check that equity value and default point are in the "
+            "same currency and scale, and that equity volatility is an "
+            "annual fraction (0.40, not 40)"
+        )
     V, s, d1, d2 = (np.where(converged, values, np.nan) for values in (V, s, d1, d2))
-    dd = d2 if asset_drift is None else (
-        np.log(V / D) + (flat[5] - 0.5 * s * s) * T) / (s * np.sqrt(T))
+    dd = d2 if asset_drift is None else (np.log(V / D) + (flat[5] - 0.5 * s * s) * T) / (s * np.sqrt(T))
 
     def shaped(values: NDArray[_Scalar]) -> NDArray[_Scalar]:
         return _frozen(values.reshape(shape))
 
     return MertonBatch(
-        asset_value=shaped(V), asset_volatility=shaped(s), d1=shaped(d1), d2=shaped(d2),
-        distance_to_default=shaped(dd), pd=shaped(special.ndtr(-dd)), leverage=shaped(D / V),
+        asset_value=shaped(V),
+        asset_volatility=shaped(s),
+        d1=shaped(d1),
+        d2=shaped(d2),
+        distance_to_default=shaped(dd),
+        pd=shaped(special.ndtr(-dd)),
+        leverage=shaped(D / V),
         iterations=shaped(np.where(bad, 0, iterations)),
         residual=shaped(np.where(bad, np.nan, residual)),
-        used_fallback=shaped(~bad & used_fallback), converged=shaped(converged),
+        used_fallback=shaped(~bad & used_fallback),
+        converged=shaped(converged),
         failures=tuple(sorted(reasons.items())),
-        equity_value=shaped(flat[0]), equity_volatility=shaped(flat[1]),
-        default_point=shaped(flat[2]), risk_free_rate=shaped(flat[3]),
+        equity_value=shaped(flat[0]),
+        equity_volatility=shaped(flat[1]),
+        default_point=shaped(flat[2]),
+        risk_free_rate=shaped(flat[3]),
         horizon_years=shaped(flat[4]),
         asset_drift=None if asset_drift is None else shaped(flat[5]),
         measure="risk_neutral" if asset_drift is None else "physical",
     )
 
 
-def solve_merton(*, equity_value: float, equity_volatility: float, default_point: float,
-                 risk_free_rate: float, horizon_years: float,
-                 asset_drift: float | None = None) -> MertonSolution:
+def solve_merton(
+    *,
+    equity_value: float,
+    equity_volatility: float,
+    default_point: float,
+    risk_free_rate: float,
+    horizon_years: float,
+    asset_drift: float | None = None,
+) -> MertonSolution:
     """Asset value, asset volatility and PD of one listed borrower, Merton (1974).
 
     Arguments and units as in `solve_merton_many`, each a single number.
@@ -462,27 +488,51 @@ def solve_merton(*, equity_value: float, equity_volatility: float, default_point
     or when no V, s can be shown to meet both equations to a relative 1e-9 (the
     message names the inputs and what to check).
     """
-    given = {"equity_value": equity_value, "equity_volatility": equity_volatility,
-             "default_point": default_point, "risk_free_rate": risk_free_rate,
-             "horizon_years": horizon_years, "asset_drift": asset_drift}
+    given = {
+        "equity_value": equity_value,
+        "equity_volatility": equity_volatility,
+        "default_point": default_point,
+        "risk_free_rate": risk_free_rate,
+        "horizon_years": horizon_years,
+        "asset_drift": asset_drift,
+    }
     for name, value in given.items():
         if value is not None and np.ndim(value) != 0:
-            raise ValueError(f"{name}: got an array of shape {np.shape(value)}; allowed: a single "
-                             f"number ({_LIMITS[name][4]}); use solve_merton_many for arrays")
-    batch = solve_merton_many(equity_value=equity_value, equity_volatility=equity_volatility,
-                              default_point=default_point, risk_free_rate=risk_free_rate,
-                              horizon_years=horizon_years, asset_drift=asset_drift, invalid="raise")
+            raise ValueError(
+                f"{name}: got an array of shape {np.shape(value)}; allowed: a single "
+                f"number ({_LIMITS[name][4]}); use solve_merton_many for arrays"
+            )
+    batch = solve_merton_many(
+        equity_value=equity_value,
+        equity_volatility=equity_volatility,
+        default_point=default_point,
+        risk_free_rate=risk_free_rate,
+        horizon_years=horizon_years,
+        asset_drift=asset_drift,
+        invalid="raise",
+    )
     if not batch.converged:
         raise ValueError(batch.failures[0][1])
+
     def number(name: str) -> float:
         return float(getattr(batch, name))
 
     return MertonSolution(
-        asset_value=number("asset_value"), asset_volatility=number("asset_volatility"), d1=number("d1"),
-        d2=number("d2"), distance_to_default=number("distance_to_default"), pd=number("pd"),
-        leverage=number("leverage"), residual=number("residual"), equity_value=number("equity_value"),
-        equity_volatility=number("equity_volatility"), default_point=number("default_point"),
-        risk_free_rate=number("risk_free_rate"), horizon_years=number("horizon_years"),
+        asset_value=number("asset_value"),
+        asset_volatility=number("asset_volatility"),
+        d1=number("d1"),
+        d2=number("d2"),
+        distance_to_default=number("distance_to_default"),
+        pd=number("pd"),
+        leverage=number("leverage"),
+        residual=number("residual"),
+        equity_value=number("equity_value"),
+        equity_volatility=number("equity_volatility"),
+        default_point=number("default_point"),
+        risk_free_rate=number("risk_free_rate"),
+        horizon_years=number("horizon_years"),
         iterations=int(batch.iterations),
         solver="bracketed" if batch.used_fallback else "newton",
-        asset_drift=None if asset_drift is None else float(asset_drift), measure=batch.measure)
+        asset_drift=None if asset_drift is None else float(asset_drift),
+        measure=batch.measure,
+    )

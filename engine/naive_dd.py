@@ -12,10 +12,10 @@ from typing import Literal
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy import special
-
 from obligor_memo.engine import ENGINE_VERSION
 from obligor_memo.engine.market import FloatArray, _checked, _scalar_or_frozen
+from scipy import special
+
 
 @dataclass(frozen=True, eq=False)
 class NaiveDD:
@@ -37,10 +37,15 @@ class NaiveDD:
     engine_version: str = ENGINE_VERSION
 
 
-def naive_distance_to_default(*, equity_value: ArrayLike, equity_volatility: ArrayLike,
-                              face_value_debt: ArrayLike, horizon_years: ArrayLike,
-                              trailing_equity_return: ArrayLike | None = None,
-                              risk_free_rate: ArrayLike | None = None) -> NaiveDD:
+def naive_distance_to_default(
+    *,
+    equity_value: ArrayLike,
+    equity_volatility: ArrayLike,
+    face_value_debt: ArrayLike,
+    horizon_years: ArrayLike,
+    trailing_equity_return: ArrayLike | None = None,
+    risk_free_rate: ArrayLike | None = None,
+) -> NaiveDD:
     """Naive distance to default and PD, Bharath and Shumway (2008), section on the naive model.
 
     sigma_D = 0.05 + 0.25 sigma_E;  V = E + F;
@@ -69,25 +74,32 @@ def naive_distance_to_default(*, equity_value: ArrayLike, equity_volatility: Arr
         source = "risk_free_rate"
         mu = _checked(source, risk_free_rate)
     else:
-        raise ValueError("trailing_equity_return and risk_free_rate: both missing; allowed: "
-                         "give the trailing one-year equity return, or the risk-free rate "
-                         "as the fall-back drift")
+        raise ValueError(
+            "trailing_equity_return and risk_free_rate: both missing; allowed: "
+            "give the trailing one-year equity return, or the risk-free rate "
+            "as the fall-back drift"
+        )
     try:
         np.broadcast_shapes(E.shape, sE.shape, F.shape, T.shape, mu.shape)
     except ValueError:
-        raise ValueError("input shapes do not broadcast together; give scalars or arrays "
-                         "of one common shape") from None
+        raise ValueError("input shapes do not broadcast together; give scalars or arrays of one common shape") from None
     sigma_d = 0.05 + 0.25 * sE
     V = E + F
     sigma_v = E / V * sE + F / V * sigma_d
     dd = (np.log(V / F) + (mu - 0.5 * sigma_v * sigma_v) * T) / (sigma_v * np.sqrt(T))
     out = _scalar_or_frozen
     return NaiveDD(
-        debt_volatility=out(sigma_d), asset_value=out(V), asset_volatility=out(sigma_v),
-        drift=out(mu), drift_source=source, distance_to_default=out(dd),
-        pd=out(special.ndtr(-dd)), equity_value=out(E), equity_volatility=out(sE),
-        face_value_debt=out(F), horizon_years=out(T),
+        debt_volatility=out(sigma_d),
+        asset_value=out(V),
+        asset_volatility=out(sigma_v),
+        drift=out(mu),
+        drift_source=source,
+        distance_to_default=out(dd),
+        pd=out(special.ndtr(-dd)),
+        equity_value=out(E),
+        equity_volatility=out(sE),
+        face_value_debt=out(F),
+        horizon_years=out(T),
         trailing_equity_return=out(mu) if source == "trailing_equity_return" else None,
-        risk_free_rate=None if risk_free_rate is None
-        else out(_checked("risk_free_rate", risk_free_rate)),
+        risk_free_rate=None if risk_free_rate is None else out(_checked("risk_free_rate", risk_free_rate)),
     )

@@ -17,8 +17,14 @@ from obligor_memo.engine.errors import CaseError, Caution, InputError
 from obligor_memo.engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
 from obligor_memo.engine.market import MertonSolution, solve_merton
 from obligor_memo.engine.naive_dd import NaiveDD, naive_distance_to_default
-from obligor_memo.engine.structural import (PdTermStructure, balance_sheet_pd, constant_hazard_term_structure,
-                               distance_to_default, pd_from_distance, structural_term_structure)
+from obligor_memo.engine.structural import (
+    PdTermStructure,
+    balance_sheet_pd,
+    constant_hazard_term_structure,
+    distance_to_default,
+    pd_from_distance,
+    structural_term_structure,
+)
 from obligor_memo.engine.trend import AssetTrend, fit_asset_trend
 
 
@@ -85,8 +91,9 @@ def engine_error(field: str, exc: ValueError) -> CaseError:
     return CaseError.single(field, "", str(exc))
 
 
-def estimate_pd(case: Case, *, cross_check: bool = True
-                ) -> tuple[AssetTrend | None, PdResult, list[Caution], MarketResult | None]:
+def estimate_pd(
+    case: Case, *, cross_check: bool = True
+) -> tuple[AssetTrend | None, PdResult, list[Caution], MarketResult | None]:
     """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist
     (``cross_check=False`` skips the market cross-check when the PD does not come from it)."""
     settings = case.pd
@@ -95,45 +102,81 @@ def estimate_pd(case: Case, *, cross_check: bool = True
         try:
             trend, _, _ = _balance_sheet(case)
         except CaseError as exc:  # the trend is context only here: say why it is missing
-            cautions.append(Caution("trend.unavailable", "No asset trend: " + exc.problems[0].allowed,
-                                    "statements"))
+            cautions.append(Caution("trend.unavailable", "No asset trend: " + exc.problems[0].allowed, "statements"))
         market = _market(case, required=True)
         m = market.merton
         measure = settings.measure
         drift = case.market.risk_free_rate
         if measure == "physical":
-            drift = case.market.asset_drift if case.market.asset_drift is not None else (
-                trend.expected_return if trend is not None else None)
+            drift = (
+                case.market.asset_drift
+                if case.market.asset_drift is not None
+                else (trend.expected_return if trend is not None else None)
+            )
             if drift is None:
-                raise CaseError.single("pd.measure", "physical", "risk_neutral, or physical together "
-                                       "with market.asset_drift or enough statements for a trend")
+                raise CaseError.single(
+                    "pd.measure",
+                    "physical",
+                    "risk_neutral, or physical together with market.asset_drift or enough statements for a trend",
+                )
             if case.market.asset_drift is None:
-                cautions.append(Caution("market.drift_from_trend", "The physical market PD uses the "
-                                        f"balance-sheet asset return ({drift:.2%}) as its drift.",
-                                        "market.asset_drift"))
+                cautions.append(
+                    Caution(
+                        "market.drift_from_trend",
+                        f"The physical market PD uses the balance-sheet asset return ({drift:.2%}) as its drift.",
+                        "market.asset_drift",
+                    )
+                )
         result = PdResult(
-            method="market", measure=measure, asset_value=m.asset_value,
-            asset_growth=trend.growth_used if trend else None, asset_volatility=m.asset_volatility,
-            asset_return=drift, default_point=market.default_point,
+            method="market",
+            measure=measure,
+            asset_value=m.asset_value,
+            asset_growth=trend.growth_used if trend else None,
+            asset_volatility=m.asset_volatility,
+            asset_return=drift,
+            default_point=market.default_point,
             short_term_share=settings.default_point.short_term_share,
-            long_term_share=settings.default_point.long_term_share, horizon_years=settings.horizon_years,
-            distance_to_default=m.distance_to_default if measure == "risk_neutral" else
-            (math.log(m.asset_value / market.default_point) + (drift - m.asset_volatility**2 / 2)
-             * settings.horizon_years) / (m.asset_volatility * math.sqrt(settings.horizon_years)),
-            model_pd=0.0, pd=0.0, overridden=False, override_reason=None,
-            grade=None, grade_lower=None, grade_upper=None)
+            long_term_share=settings.default_point.long_term_share,
+            horizon_years=settings.horizon_years,
+            distance_to_default=m.distance_to_default
+            if measure == "risk_neutral"
+            else (
+                math.log(m.asset_value / market.default_point)
+                + (drift - m.asset_volatility**2 / 2) * settings.horizon_years
+            )
+            / (m.asset_volatility * math.sqrt(settings.horizon_years)),
+            model_pd=0.0,
+            pd=0.0,
+            overridden=False,
+            override_reason=None,
+            grade=None,
+            grade_lower=None,
+            grade_upper=None,
+        )
         model_pd = pd_from_distance(result.distance_to_default)
         result = replace(result, model_pd=model_pd, pd=model_pd)
         return trend, *_with_override(settings, result, cautions), market
     trend, bs, cautions = _balance_sheet(case)
     result = PdResult(
-        method="balance_sheet", measure="physical", asset_value=bs.asset_value,
-        asset_growth=bs.asset_growth, asset_volatility=bs.asset_volatility,
-        asset_return=bs.asset_return, default_point=bs.default_point,
-        short_term_share=bs.short_term_share, long_term_share=bs.long_term_share,
-        horizon_years=bs.horizon_years, distance_to_default=bs.distance_to_default,
-        model_pd=bs.pd, pd=bs.pd, overridden=False, override_reason=None,
-        grade=None, grade_lower=None, grade_upper=None)
+        method="balance_sheet",
+        measure="physical",
+        asset_value=bs.asset_value,
+        asset_growth=bs.asset_growth,
+        asset_volatility=bs.asset_volatility,
+        asset_return=bs.asset_return,
+        default_point=bs.default_point,
+        short_term_share=bs.short_term_share,
+        long_term_share=bs.long_term_share,
+        horizon_years=bs.horizon_years,
+        distance_to_default=bs.distance_to_default,
+        model_pd=bs.pd,
+        pd=bs.pd,
+        overridden=False,
+        override_reason=None,
+        grade=None,
+        grade_lower=None,
+        grade_upper=None,
+    )
     market = _market(case, required=False) if (case.market is not None and cross_check) else None
     if market is not None and market.message:
         cautions.append(Caution("market.unsolved", market.message, "market"))
@@ -158,49 +201,86 @@ def _with_override(settings, result: PdResult, cautions: list[Caution]) -> tuple
         if horizon == 1.0:
             one_year, basis = result.pd, "the model's PD (horizon one year)"
         else:
-            dd1 = distance_to_default(asset_value=result.asset_value, default_point=result.default_point,
-                                      asset_return=result.asset_return,
-                                      asset_volatility=result.asset_volatility, horizon_years=1.0)
+            dd1 = distance_to_default(
+                asset_value=result.asset_value,
+                default_point=result.default_point,
+                asset_return=result.asset_return,
+                asset_volatility=result.asset_volatility,
+                horizon_years=1.0,
+            )
             one_year = float(pd_from_distance(dd1))
-            basis = (f"the model's PD at one year (same asset value, default point and drift; "
-                     f"the {horizon:g}-year PD is for the horizon figures)")
+            basis = (
+                f"the model's PD at one year (same asset value, default point and drift; "
+                f"the {horizon:g}-year PD is for the horizon figures)"
+            )
         return replace(result, pd_one_year=one_year, one_year_basis=basis), cautions
     stated = settings.override_horizon_years or horizon
     in_force = hazard_convert(settings.override, from_years=stated, to_years=horizon)
     one_year = hazard_convert(settings.override, from_years=stated, to_years=1.0)
-    converted = ("" if stated == horizon else
-                 f", stated over {stated:g} years and converted to the {horizon:g}-year horizon "
-                 f"({in_force:.4%}) at a constant hazard")
-    cautions.append(Caution("pd.override", f"The analyst's PD of {settings.override:.4%} is used "
-                            f"instead of the model's {result.model_pd:.4%}{converted}. Reason: "
-                            f"{settings.override_reason}", "pd.override"))
-    basis = ("the analyst's override" if stated == 1.0 else
-             f"the analyst's {stated:g}-year override at a constant hazard: 1 - (1 - PD)^(1/{stated:g})")
-    return replace(result, pd=in_force, overridden=True, override_reason=settings.override_reason,
-                   pd_one_year=one_year, one_year_basis=basis, override_input=settings.override,
-                   override_horizon_years=stated), cautions
+    converted = (
+        ""
+        if stated == horizon
+        else f", stated over {stated:g} years and converted to the {horizon:g}-year horizon "
+        f"({in_force:.4%}) at a constant hazard"
+    )
+    cautions.append(
+        Caution(
+            "pd.override",
+            f"The analyst's PD of {settings.override:.4%} is used "
+            f"instead of the model's {result.model_pd:.4%}{converted}. Reason: "
+            f"{settings.override_reason}",
+            "pd.override",
+        )
+    )
+    basis = (
+        "the analyst's override"
+        if stated == 1.0
+        else f"the analyst's {stated:g}-year override at a constant hazard: 1 - (1 - PD)^(1/{stated:g})"
+    )
+    return replace(
+        result,
+        pd=in_force,
+        overridden=True,
+        override_reason=settings.override_reason,
+        pd_one_year=one_year,
+        one_year_basis=basis,
+        override_input=settings.override,
+        override_horizon_years=stated,
+    ), cautions
 
 
 def _market(case: Case, *, required: bool) -> MarketResult:
     """Solve the Merton model with the balance-sheet default point as the debt barrier."""
     mk = case.market
     latest = case.statements[-1]
-    dp = (case.pd.default_point.short_term_share * latest.short_term_liabilities
-          + case.pd.default_point.long_term_share * latest.long_term_liabilities)
-    naive = naive_distance_to_default(equity_value=mk.equity_value, equity_volatility=mk.equity_volatility,
-                                      face_value_debt=dp, horizon_years=case.pd.horizon_years,
-                                      trailing_equity_return=mk.trailing_equity_return,
-                                      risk_free_rate=mk.risk_free_rate)
+    dp = (
+        case.pd.default_point.short_term_share * latest.short_term_liabilities
+        + case.pd.default_point.long_term_share * latest.long_term_liabilities
+    )
+    naive = naive_distance_to_default(
+        equity_value=mk.equity_value,
+        equity_volatility=mk.equity_volatility,
+        face_value_debt=dp,
+        horizon_years=case.pd.horizon_years,
+        trailing_equity_return=mk.trailing_equity_return,
+        risk_free_rate=mk.risk_free_rate,
+    )
     try:
-        merton = solve_merton(equity_value=mk.equity_value, equity_volatility=mk.equity_volatility,
-                              default_point=dp, risk_free_rate=mk.risk_free_rate,
-                              horizon_years=case.pd.horizon_years)
+        merton = solve_merton(
+            equity_value=mk.equity_value,
+            equity_volatility=mk.equity_volatility,
+            default_point=dp,
+            risk_free_rate=mk.risk_free_rate,
+            horizon_years=case.pd.horizon_years,
+        )
         message = ""
     except ValueError as exc:
         if required:
-            raise CaseError.single("market", f"equity {mk.equity_value:g}, volatility "
-                                   f"{mk.equity_volatility:g}, default point {dp:g}",
-                                   f"inputs for which the Merton equations have a solution ({exc})") from None
+            raise CaseError.single(
+                "market",
+                f"equity {mk.equity_value:g}, volatility {mk.equity_volatility:g}, default point {dp:g}",
+                f"inputs for which the Merton equations have a solution ({exc})",
+            ) from None
         merton, message = None, f"The Merton model could not be solved from the market data: {exc}"
     return MarketResult(default_point=dp, merton=merton, naive=naive, message=message)
 
@@ -212,22 +292,27 @@ def _balance_sheet(case: Case):
     latest = case.statements[-1]
     trend = None
     try:
-        trend = fit_asset_trend(years=[r.year for r in case.statements],
-                                total_assets=[r.total_assets for r in case.statements],
-                                window_years=settings.window_years,
-                                growth_override=settings.asset_growth,
-                                volatility_override=settings.asset_volatility)
+        trend = fit_asset_trend(
+            years=[r.year for r in case.statements],
+            total_assets=[r.total_assets for r in case.statements],
+            window_years=settings.window_years,
+            growth_override=settings.asset_growth,
+            volatility_override=settings.asset_volatility,
+        )
     except ValueError as exc:
         raise engine_error("statements", exc) from None
     cautions.extend(trend.cautions)
     try:
-        bs = balance_sheet_pd(asset_value=latest.total_assets, asset_growth=trend.growth_used,
-                              asset_volatility=trend.volatility_used,
-                              short_term_liabilities=latest.short_term_liabilities,
-                              long_term_liabilities=latest.long_term_liabilities,
-                              short_term_share=settings.default_point.short_term_share,
-                              long_term_share=settings.default_point.long_term_share,
-                              horizon_years=settings.horizon_years)
+        bs = balance_sheet_pd(
+            asset_value=latest.total_assets,
+            asset_growth=trend.growth_used,
+            asset_volatility=trend.volatility_used,
+            short_term_liabilities=latest.short_term_liabilities,
+            long_term_liabilities=latest.long_term_liabilities,
+            short_term_share=settings.default_point.short_term_share,
+            long_term_share=settings.default_point.long_term_share,
+            horizon_years=settings.horizon_years,
+        )
     except ValueError as exc:
         raise engine_error("pd.default_point", exc) from None
     return trend, bs, cautions
@@ -238,13 +323,18 @@ def term_structure(case: Case, pd: PdResult) -> PdTermStructure:
     longest = max([f.maturity_years for f in case.facilities] + [pd.horizon_years])
     years = max(1, math.ceil(longest - 1e-9))
     if pd.overridden:
-        return constant_hazard_term_structure(pd=pd.pd, horizon_years=pd.horizon_years, years=years,
-                                              basis="constant annual hazard from the override PD")
+        return constant_hazard_term_structure(
+            pd=pd.pd, horizon_years=pd.horizon_years, years=years, basis="constant annual hazard from the override PD"
+        )
     log_drift = pd.asset_return - pd.asset_volatility**2 / 2
-    return structural_term_structure(asset_value=pd.asset_value, default_point=pd.default_point,
-                                     log_drift=log_drift, asset_volatility=pd.asset_volatility,
-                                     years=years, basis=f"structural model ({pd.measure} drift), "
-                                     "default point held at today's value")
+    return structural_term_structure(
+        asset_value=pd.asset_value,
+        default_point=pd.default_point,
+        log_drift=log_drift,
+        asset_volatility=pd.asset_volatility,
+        years=years,
+        basis=f"structural model ({pd.measure} drift), default point held at today's value",
+    )
 
 
 def grade_pd(case: Case, pd: PdResult) -> tuple[PdResult, str]:

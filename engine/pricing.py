@@ -143,16 +143,21 @@ def _cost(name: str, value: float) -> float:
     return _number(name, value, low=0.0, high=1.0, unit="[fraction of exposure/year]")
 
 
-def _cost_and_capital_rates(funding_cost_rate: float, operating_cost_rate: float,
-                            expected_loss_rate: float, capital_rate: float,
-                            capital_return_rate: float) -> tuple[float, float, float, float, float]:
+def _cost_and_capital_rates(
+    funding_cost_rate: float,
+    operating_cost_rate: float,
+    expected_loss_rate: float,
+    capital_rate: float,
+    capital_return_rate: float,
+) -> tuple[float, float, float, float, float]:
     """The rates `raroc` and `minimum_income_rate` share, each checked against its range."""
-    return (_rate("funding_cost_rate", funding_cost_rate),
-            _cost("operating_cost_rate", operating_cost_rate),
-            _cost("expected_loss_rate", expected_loss_rate),
-            _positive("capital_rate", capital_rate, high=1.0, unit="[fraction of exposure]",
-                      reason=_RAROC_UNDEFINED),
-            _rate("capital_return_rate", capital_return_rate))
+    return (
+        _rate("funding_cost_rate", funding_cost_rate),
+        _cost("operating_cost_rate", operating_cost_rate),
+        _cost("expected_loss_rate", expected_loss_rate),
+        _positive("capital_rate", capital_rate, high=1.0, unit="[fraction of exposure]", reason=_RAROC_UNDEFINED),
+        _rate("capital_return_rate", capital_return_rate),
+    )
 
 
 def raroc(
@@ -187,8 +192,10 @@ def raroc(
     """
     income_rate = _rate("income_rate", income_rate)
     funding_cost_rate, operating_cost_rate, expected_loss_rate, capital_rate, capital_return_rate = (
-        _cost_and_capital_rates(funding_cost_rate, operating_cost_rate, expected_loss_rate,
-                                capital_rate, capital_return_rate))
+        _cost_and_capital_rates(
+            funding_cost_rate, operating_cost_rate, expected_loss_rate, capital_rate, capital_return_rate
+        )
+    )
 
     capital_benefit_rate = capital_rate * capital_return_rate
     numerator = income_rate - funding_cost_rate - operating_cost_rate - expected_loss_rate + capital_benefit_rate
@@ -230,8 +237,10 @@ def minimum_income_rate(
     """
     hurdle_rate = _number("hurdle_rate", hurdle_rate, low=0.0, high=1.0, unit="[fraction/year]")
     funding_cost_rate, operating_cost_rate, expected_loss_rate, capital_rate, capital_return_rate = (
-        _cost_and_capital_rates(funding_cost_rate, operating_cost_rate, expected_loss_rate,
-                                capital_rate, capital_return_rate))
+        _cost_and_capital_rates(
+            funding_cost_rate, operating_cost_rate, expected_loss_rate, capital_rate, capital_return_rate
+        )
+    )
     return (
         hurdle_rate * capital_rate
         + funding_cost_rate

@@ -40,12 +40,16 @@ import numpy as np
 from scipy import special
 
 _SUPERVISORY_LGD = {
-    "basel_ii": {"senior_secured": (0.35, "Basel II para 295 (secured by receivables/real estate)"),
-                 "senior_unsecured": (0.45, "Basel II para 287 (senior unsecured)"),
-                 "subordinated": (0.75, "Basel II para 288 (subordinated)")},
-    "basel_iii": {"senior_secured": (0.20, "Basel III final CRE32.11 (secured by receivables/real estate)"),
-                  "senior_unsecured": (0.40, "Basel III final CRE32.6 (senior unsecured, non-financial corporate)"),
-                  "subordinated": (0.75, "Basel III final CRE32.8 (subordinated)")},
+    "basel_ii": {
+        "senior_secured": (0.35, "Basel II para 295 (secured by receivables/real estate)"),
+        "senior_unsecured": (0.45, "Basel II para 287 (senior unsecured)"),
+        "subordinated": (0.75, "Basel II para 288 (subordinated)"),
+    },
+    "basel_iii": {
+        "senior_secured": (0.20, "Basel III final CRE32.11 (secured by receivables/real estate)"),
+        "senior_unsecured": (0.40, "Basel III final CRE32.6 (senior unsecured, non-financial corporate)"),
+        "subordinated": (0.75, "Basel III final CRE32.8 (subordinated)"),
+    },
 }
 
 
@@ -68,8 +72,10 @@ def seniority_recovery_mean(seniority: str, standard: str = "basel_iii") -> tupl
     try:
         lgd, source = _SUPERVISORY_LGD[standard][seniority]
     except KeyError:
-        raise ValueError(f"seniority/standard: got {seniority!r}/{standard!r}; allowed: "
-                         "senior_secured, senior_unsecured, subordinated / basel_iii, basel_ii") from None
+        raise ValueError(
+            f"seniority/standard: got {seniority!r}/{standard!r}; allowed: "
+            "senior_secured, senior_unsecured, subordinated / basel_iii, basel_ii"
+        ) from None
     return 1.0 - lgd, f"1 - supervisory LGD {lgd:.0%}, {source}"
 
 
@@ -84,12 +90,15 @@ def beta_parameters_from_moments(*, mean: float, std: float, upper: float = 1.0)
     if not (0 < upper <= MAX_UPPER):
         raise ValueError(f"recovery.upper: got {upper!r}; allowed: a number above 0 up to {MAX_UPPER:g}")
     if not (0 < mean < upper):
-        raise ValueError(f"recovery.mean: got {mean!r}; allowed: strictly between 0 and upper = {upper:g} "
-                         "for a beta law (0 or upper only with std 0)")
+        raise ValueError(
+            f"recovery.mean: got {mean!r}; allowed: strictly between 0 and upper = {upper:g} "
+            "for a beta law (0 or upper only with std 0)"
+        )
     limit = largest_feasible_std(mean=mean, upper=upper)
     if not (0 < std < limit):
-        raise ValueError(f"recovery.std: got {std!r}; allowed: above 0 and below {limit:.6f} for mean "
-                         f"{mean:g} on [0, {upper:g}]")
+        raise ValueError(
+            f"recovery.std: got {std!r}; allowed: above 0 and below {limit:.6f} for mean {mean:g} on [0, {upper:g}]"
+        )
     m = mean / upper
     v = (std / upper) ** 2
     k = m * (1 - m) / v - 1
@@ -201,8 +210,12 @@ class RecoveryLaw:
         z = (x - self.offset) / self.scale
         inside = (z > 0) & (z < 1)
         zc = np.where(inside, z, 0.5)
-        log_pdf = ((self.alpha - 1) * np.log(zc) + (self.beta - 1) * np.log1p(-zc)
-                   - special.betaln(self.alpha, self.beta) - math.log(self.scale))
+        log_pdf = (
+            (self.alpha - 1) * np.log(zc)
+            + (self.beta - 1) * np.log1p(-zc)
+            - special.betaln(self.alpha, self.beta)
+            - math.log(self.scale)
+        )
         return np.where(inside, np.exp(log_pdf), 0.0)
 
     def ppf_integral(self, u: float) -> float:
@@ -225,8 +238,9 @@ class RecoveryLaw:
             x = float(self._unit_quantile(np.asarray(u)))
             if x < _LEAD_TERM:
                 # I_x(a + 1, b) ~ x^(a+1) / ((a + 1) B(a + 1, b)), the leading term (A&S 26.5.4).
-                incomplete = math.exp((a + 1.0) * math.log(x) - math.log(a + 1.0)
-                                      - special.betaln(a + 1.0, b)) if x > 0 else 0.0
+                incomplete = (
+                    math.exp((a + 1.0) * math.log(x) - math.log(a + 1.0) - special.betaln(a + 1.0, b)) if x > 0 else 0.0
+                )
             else:
                 incomplete = float(special.betainc(a + 1.0, b, x))
             partial = m * incomplete
@@ -251,8 +265,9 @@ class RecoveryLaw:
         return 1.0 - self.mean()
 
 
-def recovery_law(*, mean: float, std: float, upper: float = 1.0, collateral_cover: float = 0.0,
-                 secured_recovery: float = 1.0) -> RecoveryLaw:
+def recovery_law(
+    *, mean: float, std: float, upper: float = 1.0, collateral_cover: float = 0.0, secured_recovery: float = 1.0
+) -> RecoveryLaw:
     """Fit the unsecured beta law by moments (std 0 gives a point mass) and apply collateral cover.
 
     Parameters
@@ -274,8 +289,9 @@ def recovery_law(*, mean: float, std: float, upper: float = 1.0, collateral_cove
         raise ValueError(f"recovery.std: got {std!r}; allowed: 0 (a fixed recovery) or at least 1e-9")
     if std == 0 or mean in (0.0, upper):
         if std != 0:
-            raise ValueError(f"recovery.std: got {std!r}; allowed: 0 when the mean is {mean:g} "
-                             f"(at the edge of [0, {upper:g}])")
+            raise ValueError(
+                f"recovery.std: got {std!r}; allowed: 0 when the mean is {mean:g} (at the edge of [0, {upper:g}])"
+            )
         return RecoveryLaw(mean, 0.0, upper, None, None, collateral_cover, secured_recovery)
     alpha, beta = beta_parameters_from_moments(mean=mean, std=std, upper=upper)
     return RecoveryLaw(mean, std, upper, alpha, beta, collateral_cover, secured_recovery)

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field, fields, is_dataclass
 from typing import Any
 
 from obligor_memo.engine.case import Case, ScenarioValue, case_to_dict
+from obligor_memo.engine.credit_metrics import CreditYear
 from obligor_memo.engine.deal_pricing import DealPricing
 from obligor_memo.engine.errors import Caution
 from obligor_memo.engine.lossdist import LossDistribution
@@ -23,7 +24,6 @@ from obligor_memo.engine.structural import PdTermStructure
 from obligor_memo.engine.trend import AssetTrend
 from obligor_memo.engine.whatif_types import Headline, HeadlineDelta, OneWaySensitivity, PdGrid
 from obligor_memo.engine.zscore import ZScore
-from obligor_memo.engine.credit_metrics import CreditYear
 
 
 @dataclass(frozen=True)
@@ -211,11 +211,11 @@ class ScenarioResult:
 
     name: str
     description: str
-    overrides: tuple[tuple[str, ScenarioValue], ...]   # (path, value) as written in the case
+    overrides: tuple[tuple[str, ScenarioValue], ...]  # (path, value) as written in the case
     figures: Headline
     base: Headline
     delta: HeadlineDelta
-    results: Results = field(repr=False, compare=False)   # the full evaluation, every intermediate
+    results: Results = field(repr=False, compare=False)  # the full evaluation, every intermediate
 
 
 def _plain(value: Any) -> Any:

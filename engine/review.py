@@ -10,7 +10,8 @@ chain of approvals stays visible years on. Sign-off names are cleared: it is a n
 from __future__ import annotations
 
 import copy
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 from obligor_memo.engine import ENGINE_VERSION
 from obligor_memo.engine.case import Case, case_to_dict
@@ -18,12 +19,18 @@ from obligor_memo.engine.case import Case, case_to_dict
 HISTORY_KEPT = 20
 
 
-def roll_forward(previous: Case, *, approved_on: str | None = None, fingerprint: str | None = None,
-                 engine_version: str | None = None,
-                 figures: Mapping[str, Any] | None = None) -> dict[str, Any]:
+def roll_forward(
+    previous: Case,
+    *,
+    approved_on: str | None = None,
+    fingerprint: str | None = None,
+    engine_version: str | None = None,
+    figures: Mapping[str, Any] | None = None,
+) -> dict[str, Any]:
     """The new case dict started from ``previous``; figures default to those computed now."""
     from obligor_memo.engine.compare import key_figures
-    from obligor_memo.engine.evaluate import evaluate, fingerprint as case_fingerprint
+    from obligor_memo.engine.evaluate import evaluate
+    from obligor_memo.engine.evaluate import fingerprint as case_fingerprint
 
     if figures is None:
         figures, engine_version = key_figures(evaluate(previous, detail=False)), ENGINE_VERSION
@@ -38,9 +45,13 @@ def roll_forward(previous: Case, *, approved_on: str | None = None, fingerprint:
         history.extend(old["review"].get("history") or [])
     new = copy.deepcopy(old)
     new["review"] = {
-        "previous": {"fingerprint": fingerprint or case_fingerprint(previous),
-                     "engine_version": engine_version or ENGINE_VERSION, "approved_on": approved_on,
-                     "figures": dict(figures), "case": inputs},
+        "previous": {
+            "fingerprint": fingerprint or case_fingerprint(previous),
+            "engine_version": engine_version or ENGINE_VERSION,
+            "approved_on": approved_on,
+            "figures": dict(figures),
+            "case": inputs,
+        },
         "history": history[:HISTORY_KEPT],
     }
     new["memo"] = {**new["memo"], "reviewed_by": "", "approved_by": ""}

@@ -32,13 +32,12 @@ import typing
 from dataclasses import dataclass, field
 from typing import Any
 
-from pydantic import BaseModel
-
 from obligor_memo.engine.case import Case, Facility, ScenarioValue, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError, Problem
 from obligor_memo.engine.evaluate import Results, evaluate
 from obligor_memo.engine.results import ScenarioResult
 from obligor_memo.engine.whatif_types import Headline, HeadlineDelta
+from pydantic import BaseModel
 
 _FROZEN_SECTIONS = ("statements", "scenarios")
 
@@ -101,7 +100,7 @@ class _Target:
 
     holder: dict[str, Any]
     key: str
-    location: str                    # as parse_case reports it, e.g. facilities[1].recovery.mean
+    location: str  # as parse_case reports it, e.g. facilities[1].recovery.mean
 
 
 @dataclass
@@ -119,13 +118,13 @@ def _bad(where: str, path: str, value: Any, allowed: str) -> Problem:
 
 def _split_facility(path: str, case: Case) -> tuple[list[int], str] | None:
     """(facility indices, the key path inside the facility), or None for an unknown id."""
-    rest = path[len("facilities."):]
+    rest = path[len("facilities.") :]
     if rest.startswith("*."):
         return list(range(len(case.facilities))), rest[2:]
     # Longest id first: an id may itself contain a dot.
     for index, facility in sorted(enumerate(case.facilities), key=lambda p: -len(p[1].id)):
         if rest.startswith(facility.id + "."):
-            return [index], rest[len(facility.id) + 1:]
+            return [index], rest[len(facility.id) + 1 :]
     return None
 
 
@@ -135,27 +134,44 @@ def _unknown(where: str, path: str, value: Any, case: Case, detail: str = "") ->
     return _bad(where, path, value, f"a path to one value of the case{detail}{hint}")
 
 
-def _walk(root: dict[str, Any], model: type[BaseModel], keys: list[str], location: str,
-          created: dict[str, _Created], where: str, path: str, value: Any, case: Case
-          ) -> _Target | Problem:
+def _walk(
+    root: dict[str, Any],
+    model: type[BaseModel],
+    keys: list[str],
+    location: str,
+    created: dict[str, _Created],
+    where: str,
+    path: str,
+    value: Any,
+    case: Case,
+) -> _Target | Problem:
     holder = root
     for depth, key in enumerate(keys):
         info = model.model_fields.get(key)
         if info is None:
             options = ", ".join(sorted(model.model_fields))
-            return _unknown(where, path, value, case, f" ('{key}' is not a key here; the keys are "
-                            f"{options})")
+            return _unknown(where, path, value, case, f" ('{key}' is not a key here; the keys are {options})")
         here = f"{location}.{key}" if location else key
         if depth == len(keys) - 1:
             sub = _submodel(info.annotation)
             if sub is not None and value is not None:
                 example = next(iter(sub.model_fields))
-                return _bad(where, path, value, f"a single value: '{path}' is a block with keys "
-                            f"{', '.join(sub.model_fields)}; set e.g. '{path}.{example}' "
-                            "(or null to remove an optional block)")
+                return _bad(
+                    where,
+                    path,
+                    value,
+                    f"a single value: '{path}' is a block with keys "
+                    f"{', '.join(sub.model_fields)}; set e.g. '{path}.{example}' "
+                    "(or null to remove an optional block)",
+                )
             if sub is None and _is_container(info.annotation):
-                return _bad(where, path, value, f"a path to a single value: '{path}' is a list, "
-                            "which a scenario cannot set; change it in the case itself")
+                return _bad(
+                    where,
+                    path,
+                    value,
+                    f"a path to a single value: '{path}' is a list, "
+                    "which a scenario cannot set; change it in the case itself",
+                )
             return _Target(holder, key, here)
         sub = _submodel(info.annotation)
         if sub is None:
@@ -170,29 +186,39 @@ def _walk(root: dict[str, Any], model: type[BaseModel], keys: list[str], locatio
     raise AssertionError("unreachable: keys is never empty")
 
 
-def _targets(data: dict[str, Any], case: Case, path: str, value: Any, where: str,
-             created: dict[str, _Created]) -> list[_Target] | Problem:
+def _targets(
+    data: dict[str, Any], case: Case, path: str, value: Any, where: str, created: dict[str, _Created]
+) -> list[_Target] | Problem:
     if not isinstance(path, str) or not path or path.strip() != path:
         return _bad(where, str(path), value, "a dotted path without spaces, e.g. 'pd.asset_growth'")
     head = path.split(".", 1)[0]
     if head in _FROZEN_SECTIONS:
-        return _bad(where, path, value, f"a path outside '{head}': a scenario changes assumptions, "
-                    "not the borrower's statements or the list of scenarios")
+        return _bad(
+            where,
+            path,
+            value,
+            f"a path outside '{head}': a scenario changes assumptions, "
+            "not the borrower's statements or the list of scenarios",
+        )
     if head == "facilities":
         split = _split_facility(path, case)
         if split is None:
             ids = ", ".join(f.id for f in case.facilities)
-            return _unknown(where, path, value, case, f" (facilities are addressed by id: {ids}, "
-                            "or * for all)")
+            return _unknown(where, path, value, case, f" (facilities are addressed by id: {ids}, or * for all)")
         indices, inner = split
         keys = inner.split(".")
         if keys[0] == "id":
-            return _bad(where, path, value, "a key other than 'id': facility ids identify the "
-                        "facilities across scenarios and cannot change")
+            return _bad(
+                where,
+                path,
+                value,
+                "a key other than 'id': facility ids identify the facilities across scenarios and cannot change",
+            )
         out: list[_Target] = []
         for index in indices:
-            found = _walk(data["facilities"][index], Facility, keys, f"facilities[{index}]", created,
-                          where, path, value, case)
+            found = _walk(
+                data["facilities"][index], Facility, keys, f"facilities[{index}]", created, where, path, value, case
+            )
             if isinstance(found, Problem):
                 return found
             out.append(found)
@@ -209,10 +235,10 @@ def apply_overrides(case: Case, overrides: typing.Mapping[str, ScenarioValue], *
     (suggesting the nearest valid one), a path into ``statements`` or ``scenarios``, an
     incomplete new block, or a value the case schema does not allow. ``case`` is not changed.
     """
-    data = case_to_dict(case)            # a fresh dict: model_dump copies
+    data = case_to_dict(case)  # a fresh dict: model_dump copies
     created: dict[str, _Created] = {}
     problems: list[Problem] = []
-    located: list[tuple[str, str, Any]] = []          # (pydantic location, path, value)
+    located: list[tuple[str, str, Any]] = []  # (pydantic location, path, value)
     # Wildcards first so that a facility named explicitly wins whatever the key order.
     ordered = sorted(overrides.items(), key=lambda kv: not str(kv[0]).startswith("facilities.*."))
     for path, value in ordered:
@@ -229,10 +255,18 @@ def apply_overrides(case: Case, overrides: typing.Mapping[str, ScenarioValue], *
         if block.holder and missing:
             path = block.paths[0]
             base = path[: len(path) - len(path.split(".")[-1]) - 1]
-            problems.append(_bad(where, path, overrides.get(path), (
-                f"'{base}' is not set in the case, so this change creates it; set all of "
-                f"{', '.join(base + '.' + n for n in required)} in the same scenario "
-                f"(missing: {', '.join(missing)})")))
+            problems.append(
+                _bad(
+                    where,
+                    path,
+                    overrides.get(path),
+                    (
+                        f"'{base}' is not set in the case, so this change creates it; set all of "
+                        f"{', '.join(base + '.' + n for n in required)} in the same scenario "
+                        f"(missing: {', '.join(missing)})"
+                    ),
+                )
+            )
     source = f"change set {where}"
     if problems:
         raise CaseError(problems, source=source)
@@ -246,8 +280,9 @@ def _tokens(location: str) -> list[str]:
     return [t for t in location.replace("[", ".[").split(".") if t]
 
 
-def remap_problems(problems: typing.Iterable[Problem], located: list[tuple[str, str, Any]],
-                   where: str) -> list[Problem]:
+def remap_problems(
+    problems: typing.Iterable[Problem], located: list[tuple[str, str, Any]], where: str
+) -> list[Problem]:
     """Attribute each case-level problem to the override whose location is nearest to it.
 
     ``located`` holds (pydantic location, override path, value). A problem sharing no leading
@@ -272,8 +307,13 @@ def remap_problems(problems: typing.Iterable[Problem], located: list[tuple[str, 
         if not best and len({path for _, path, _ in located}) == 1:
             best = located[:1]
         if not best:
-            out.append(Problem(f"{where}.set", p.value, f"{p.allowed} (the case check on "
-                               f"'{p.field}' fails with this scenario's changes)"))
+            out.append(
+                Problem(
+                    f"{where}.set",
+                    p.value,
+                    f"{p.allowed} (the case check on '{p.field}' fails with this scenario's changes)",
+                )
+            )
             continue
         location, path, value = best[0]
         if location == p.field:
@@ -281,34 +321,51 @@ def remap_problems(problems: typing.Iterable[Problem], located: list[tuple[str, 
             continue
         others = [b[1] for b in best[1:]]
         together = f" together with {', '.join(repr(o) for o in others)}" if others else ""
-        out.append(_bad(where, path, value, f"{p.allowed} (the case check on '{p.field}' fails "
-                                             f"after this change{together})"))
+        out.append(
+            _bad(where, path, value, f"{p.allowed} (the case check on '{p.field}' fails after this change{together})")
+        )
     return list(dict.fromkeys(out))
 
 
 # --------------------------------------------------------------------------- evaluating scenarios
 
 
-
-
-_NUMERIC = ("pd", "model_pd", "distance_to_default", "default_point", "asset_growth",
-            "asset_volatility", "ead", "expected_loss", "el_rate", "unexpected_loss", "rwa",
-            "economic_capital", "raroc")
-
-
+_NUMERIC = (
+    "pd",
+    "model_pd",
+    "distance_to_default",
+    "default_point",
+    "asset_growth",
+    "asset_volatility",
+    "ead",
+    "expected_loss",
+    "el_rate",
+    "unexpected_loss",
+    "rwa",
+    "economic_capital",
+    "raroc",
+)
 
 
 def headline_figures(results: Results) -> Headline:
     """The headline figures of one evaluated case."""
     pd, total = results.pd, results.total
     return Headline(
-        pd=pd.pd, model_pd=pd.model_pd, distance_to_default=pd.distance_to_default,
-        default_point=pd.default_point, asset_growth=pd.asset_growth,
-        asset_volatility=pd.asset_volatility, grade=pd.grade, ead=total.ead,
-        expected_loss=total.expected_loss, el_rate=total.el_rate,
-        unexpected_loss=total.unexpected_loss, rwa=total.rwa,
+        pd=pd.pd,
+        model_pd=pd.model_pd,
+        distance_to_default=pd.distance_to_default,
+        default_point=pd.default_point,
+        asset_growth=pd.asset_growth,
+        asset_volatility=pd.asset_volatility,
+        grade=pd.grade,
+        ead=total.ead,
+        expected_loss=total.expected_loss,
+        el_rate=total.el_rate,
+        unexpected_loss=total.unexpected_loss,
+        rwa=total.rwa,
         economic_capital=total.economic_capital,
-        raroc=results.pricing.raroc if results.pricing is not None else None)
+        raroc=results.pricing.raroc if results.pricing is not None else None,
+    )
 
 
 def headline_delta(scenario: Headline, base: Headline) -> HeadlineDelta:
@@ -319,15 +376,14 @@ def headline_delta(scenario: Headline, base: Headline) -> HeadlineDelta:
     return HeadlineDelta(**values, grade_changed=scenario.grade != base.grade)
 
 
-
-
 def checked_base(case: Case, base: Results) -> Results:
     """``base`` if it is the evaluation of ``case``; the scenario and sensitivity settings may
     differ, as they do not enter evaluate()."""
     unused = {"scenarios": [], "sensitivity": case.sensitivity}
     if base.case.model_copy(update=unused) != case.model_copy(update=unused):
-        raise ValueError("base: got the results of a different case; allowed: evaluate(case) "
-                         "of this very case, or None")
+        raise ValueError(
+            "base: got the results of a different case; allowed: evaluate(case) of this very case, or None"
+        )
     return base
 
 
@@ -353,20 +409,27 @@ def evaluate_scenarios(case: Case, base: Results | None = None) -> tuple[Scenari
         try:
             results = evaluate(changed)
         except CaseError as exc:
-            raise CaseError(remap_problems(exc.problems, _locations(case, scenario.set, where),
-                                           where), source=label) from None
+            raise CaseError(
+                remap_problems(exc.problems, _locations(case, scenario.set, where), where), source=label
+            ) from None
         figures = headline_figures(results)
-        out.append(ScenarioResult(
-            name=scenario.name, description=scenario.description,
-            overrides=tuple(scenario.set.items()), figures=figures, base=base_figures,
-            delta=headline_delta(figures, base_figures), results=results))
+        out.append(
+            ScenarioResult(
+                name=scenario.name,
+                description=scenario.description,
+                overrides=tuple(scenario.set.items()),
+                figures=figures,
+                base=base_figures,
+                delta=headline_delta(figures, base_figures),
+                results=results,
+            )
+        )
     return tuple(out)
 
 
-def _locations(case: Case, overrides: typing.Mapping[str, Any], where: str
-               ) -> list[tuple[str, str, Any]]:
+def _locations(case: Case, overrides: typing.Mapping[str, Any], where: str) -> list[tuple[str, str, Any]]:
     """The pydantic locations of valid overrides (for attributing engine-level problems)."""
-    data = case_to_dict(case)            # a fresh dict: model_dump copies
+    data = case_to_dict(case)  # a fresh dict: model_dump copies
     out: list[tuple[str, str, Any]] = []
     for path, value in overrides.items():
         found = _targets(data, case, path, value, where, {})

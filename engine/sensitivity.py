@@ -24,11 +24,9 @@ money [currency].
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-
 from obligor_memo.engine.case import Case, GridAxis
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.evaluate import PdResult, Results, estimate_pd, evaluate
@@ -38,8 +36,15 @@ from obligor_memo.engine.scenarios import apply_overrides, checked_base
 from obligor_memo.engine.structural import distance_to_default, pd_from_distance
 from obligor_memo.engine.whatif_types import FacilityShift, OneWaySensitivity, PdGrid, SensitivityRow
 
-ASSUMPTIONS = ("short_term_share", "long_term_share", "asset_growth", "asset_volatility",
-               "horizon_years", "ccf", "recovery_mean")
+ASSUMPTIONS = (
+    "short_term_share",
+    "long_term_share",
+    "asset_growth",
+    "asset_volatility",
+    "horizon_years",
+    "ccf",
+    "recovery_mean",
+)
 
 # Open lower bounds of the schema (volatility > 0, horizon > 0) need a concrete floor to clip to:
 # the same 1 % volatility floor as the PD grid's default axis, and one month of horizon.
@@ -50,23 +55,25 @@ _FEASIBILITY_MARGIN = 1e-6
 
 # name -> (override path, lowest, highest, unit, label)
 _CASE_LEVEL: dict[str, tuple[str, float, float, str, str]] = {
-    "short_term_share": ("pd.default_point.short_term_share", 0.0, 1.0, "[fraction]",
-                         "Default point: share of short-term liabilities"),
-    "long_term_share": ("pd.default_point.long_term_share", 0.0, 1.0, "[fraction]",
-                        "Default point: share of long-term liabilities"),
+    "short_term_share": (
+        "pd.default_point.short_term_share",
+        0.0,
+        1.0,
+        "[fraction]",
+        "Default point: share of short-term liabilities",
+    ),
+    "long_term_share": (
+        "pd.default_point.long_term_share",
+        0.0,
+        1.0,
+        "[fraction]",
+        "Default point: share of long-term liabilities",
+    ),
     "asset_growth": ("pd.asset_growth", -1.0, 1.0, "[1/year]", "Asset growth"),
-    "asset_volatility": ("pd.asset_volatility", MIN_ASSET_VOLATILITY, 3.0, "[1/sqrt(year)]",
-                         "Asset volatility"),
+    "asset_volatility": ("pd.asset_volatility", MIN_ASSET_VOLATILITY, 3.0, "[1/sqrt(year)]", "Asset volatility"),
     "horizon_years": ("pd.horizon_years", MIN_HORIZON_YEARS, 30.0, "[years]", "PD horizon"),
 }
-_PD_INPUTS = ("short_term_share", "long_term_share", "asset_growth", "asset_volatility",
-              "horizon_years")
-
-
-
-
-
-
+_PD_INPUTS = ("short_term_share", "long_term_share", "asset_growth", "asset_volatility", "horizon_years")
 
 
 def _clip_pair(base: float, step: float, lowest: float, highest: float) -> tuple[float, float, bool]:
@@ -116,9 +123,13 @@ class _Runner:
 
 
 def _case_level_base(name: str, pd: PdResult) -> float | None:
-    return {"short_term_share": pd.short_term_share, "long_term_share": pd.long_term_share,
-            "asset_growth": pd.asset_growth, "asset_volatility": pd.asset_volatility,
-            "horizon_years": pd.horizon_years}[name]
+    return {
+        "short_term_share": pd.short_term_share,
+        "long_term_share": pd.long_term_share,
+        "asset_growth": pd.asset_growth,
+        "asset_volatility": pd.asset_volatility,
+        "horizon_years": pd.horizon_years,
+    }[name]
 
 
 def _growth_drives_market(case: Case) -> bool:
@@ -126,8 +137,9 @@ def _growth_drives_market(case: Case) -> bool:
     return case.pd.measure == "physical" and case.market is not None and case.market.asset_drift is None
 
 
-def _facility_plan(name: str, case: Case, base: Results, step: float
-                   ) -> tuple[dict[str, Any], dict[str, Any], list[FacilityShift], list[str]]:
+def _facility_plan(
+    name: str, case: Case, base: Results, step: float
+) -> tuple[dict[str, Any], dict[str, Any], list[FacilityShift], list[str]]:
     low: dict[str, Any] = {}
     high: dict[str, Any] = {}
     shifts: list[FacilityShift] = []
@@ -149,16 +161,20 @@ def _facility_plan(name: str, case: Case, base: Results, step: float
                 side[f"{prefix}.recovery.std"], side[f"{prefix}.recovery.upper"] = std, upper
             preset.append(given.id)
         if clipped:
-            notes.append(f"{given.id}: mean recovery kept within [{max(0.0, lowest):.4f}, "
-                         f"{min(upper, highest):.4f}], where a beta law with std {std:.2f} on "
-                         f"[0, {upper:.2f}] exists")
+            notes.append(
+                f"{given.id}: mean recovery kept within [{max(0.0, lowest):.4f}, "
+                f"{min(upper, highest):.4f}], where a beta law with std {std:.2f} on "
+                f"[0, {upper:.2f}] exists"
+            )
         shifts.append(FacilityShift(given.id, mean, lo, hi, clipped))
     if preset:
-        notes.insert(0, f"no recovery block on {', '.join(preset)}: the law in use (seniority "
-                     "preset mean, lgd.default_recovery_std) was set explicitly and its mean moved")
+        notes.insert(
+            0,
+            f"no recovery block on {', '.join(preset)}: the law in use (seniority "
+            "preset mean, lgd.default_recovery_std) was set explicitly and its mean moved",
+        )
     if name == "ccf" and any(s.clipped for s in shifts):
-        notes.append("CCFs kept within [0, 1]: " + ", ".join(s.facility_id for s in shifts
-                                                             if s.clipped))
+        notes.append("CCFs kept within [0, 1]: " + ", ".join(s.facility_id for s in shifts if s.clipped))
     return low, high, shifts, notes
 
 
@@ -177,8 +193,10 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
     overridden = base.pd.overridden
     notes: list[str] = []
     if overridden:
-        notes.append(f"The PD in force is the analyst's override ({base.pd.pd:.4%}); default point, "
-                     "growth, volatility and horizon move only the model's PD, not PD or EL.")
+        notes.append(
+            f"The PD in force is the analyst's override ({base.pd.pd:.4%}); default point, "
+            "growth, volatility and horizon move only the model's PD, not PD or EL."
+        )
     rows: list[SensitivityRow] = []
     for name in ASSUMPTIONS:
         step = float(getattr(steps, name))
@@ -188,12 +206,15 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
             path, lowest, highest, unit, label = _CASE_LEVEL[name]
             value = _case_level_base(name, base.pd)
             if base.pd.method == "market" and name == "asset_volatility":
-                notes.append("Asset volatility is solved from the equity market in the market "
-                             "method, not an input: no row.")
+                notes.append(
+                    "Asset volatility is solved from the equity market in the market method, not an input: no row."
+                )
                 continue
             if base.pd.method == "market" and name == "asset_growth" and not _growth_drives_market(case):
-                notes.append("Asset growth does not enter the market PD here (risk-neutral measure, "
-                             "or market.asset_drift given): no row.")
+                notes.append(
+                    "Asset growth does not enter the market PD here (risk-neutral measure, "
+                    "or market.asset_drift given): no row."
+                )
                 continue
             if value is None:
                 continue
@@ -224,30 +245,58 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
         el_low = low.total.expected_loss if low_ok else None
         el_high = high.total.expected_loss if high_ok else None
         el_base = base.total.expected_loss
-        rows.append(SensitivityRow(
-            assumption=name, label=label, path=path, unit=unit, step=step, base_value=value,
-            low_value=low_value, high_value=high_value, facilities=tuple(shifts), clipped=clipped,
-            pd_base=base.pd.pd,
-            pd_low=low.pd.pd if low_ok else None, pd_high=high.pd.pd if high_ok else None,
-            model_pd_low=low.pd.model_pd if low_ok else None,
-            model_pd_high=high.pd.model_pd if high_ok else None,
-            el_base=el_base, el_low=el_low, el_high=el_high,
-            el_swing=abs((el_high if el_high is not None else el_base)
-                         - (el_low if el_low is not None else el_base)),
-            note="; ".join(row_notes)))
-    ordered = sorted(rows, key=lambda r: -r.el_swing)   # stable: ties keep ASSUMPTIONS order
-    return OneWaySensitivity(rows=tuple(ordered), pd_base=base.pd.pd, model_pd_base=base.pd.model_pd,
-                             el_base=base.total.expected_loss, pd_overridden=overridden,
-                             evaluations=runner.evaluations, notes=tuple(notes))
+        rows.append(
+            SensitivityRow(
+                assumption=name,
+                label=label,
+                path=path,
+                unit=unit,
+                step=step,
+                base_value=value,
+                low_value=low_value,
+                high_value=high_value,
+                facilities=tuple(shifts),
+                clipped=clipped,
+                pd_base=base.pd.pd,
+                pd_low=low.pd.pd if low_ok else None,
+                pd_high=high.pd.pd if high_ok else None,
+                model_pd_low=low.pd.model_pd if low_ok else None,
+                model_pd_high=high.pd.model_pd if high_ok else None,
+                el_base=el_base,
+                el_low=el_low,
+                el_high=el_high,
+                el_swing=abs(
+                    (el_high if el_high is not None else el_base) - (el_low if el_low is not None else el_base)
+                ),
+                note="; ".join(row_notes),
+            )
+        )
+    ordered = sorted(rows, key=lambda r: -r.el_swing)  # stable: ties keep ASSUMPTIONS order
+    return OneWaySensitivity(
+        rows=tuple(ordered),
+        pd_base=base.pd.pd,
+        model_pd_base=base.pd.model_pd,
+        el_base=base.total.expected_loss,
+        pd_overridden=overridden,
+        evaluations=runner.evaluations,
+        notes=tuple(notes),
+    )
 
 
 # --------------------------------------------------------------------------- two-way PD grid
 
 
-def balance_sheet_pd_grid(*, asset_value: float, asset_growth: float, short_term_liabilities: float,
-                          long_term_liabilities: float, short_term_share: float,
-                          long_term_shares: Any, asset_volatilities: Any, horizon_years: float
-                          ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def balance_sheet_pd_grid(
+    *,
+    asset_value: float,
+    asset_growth: float,
+    short_term_liabilities: float,
+    long_term_liabilities: float,
+    short_term_share: float,
+    long_term_shares: Any,
+    asset_volatilities: Any,
+    horizon_years: float,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Balance-sheet PD over long-term shares (columns) x asset volatilities (rows).
 
     asset_value V, liabilities [currency]; asset_growth g [1/year] (log drift: mu = g + s^2/2);
@@ -271,14 +320,15 @@ def balance_sheet_pd_grid(*, asset_value: float, asset_growth: float, short_term
     # A default point tiny against the assets overflows V/DP to inf: DD = +inf, PD = 0 is the
     # right limit there, so the overflow warning carries no information.
     with np.errstate(over="ignore"):
-        dd = distance_to_default(asset_value=asset_value,
-                                 default_point=np.where(positive, dp, 1.0)[None, :],
-                                 asset_return=asset_growth + s**2 / 2, asset_volatility=s,
-                                 horizon_years=horizon_years)
+        dd = distance_to_default(
+            asset_value=asset_value,
+            default_point=np.where(positive, dp, 1.0)[None, :],
+            asset_return=asset_growth + s**2 / 2,
+            asset_volatility=s,
+            horizon_years=horizon_years,
+        )
     dd = np.where(positive[None, :], dd, np.inf)
     return dp, dd, np.asarray(pd_from_distance(dd))
-
-
 
 
 def _axis(axis: GridAxis, field: str, highest: float | None = None) -> np.ndarray:
@@ -309,38 +359,54 @@ def pd_grid(case: Case, base: Results | None = None) -> PdGrid:
     latest = case.statements[-1]
     notes: list[str] = []
     if pd.overridden:
-        notes.append(f"The grid shows the model's PD; the PD in force is the analyst's override "
-                     f"({pd.pd:.4%}).")
+        notes.append(f"The grid shows the model's PD; the PD in force is the analyst's override ({pd.pd:.4%}).")
     if case.pd.method == "market" and case.market is not None:
         return _market_grid(case, pd, x, notes)
     if settings.asset_volatility_axis is not None:
         if settings.asset_volatility_axis.start <= 0:
-            raise CaseError.single("sensitivity.asset_volatility_axis.start",
-                                   settings.asset_volatility_axis.start,
-                                   "a volatility above 0 (at 0 the distance to default is infinite)")
+            raise CaseError.single(
+                "sensitivity.asset_volatility_axis.start",
+                settings.asset_volatility_axis.start,
+                "a volatility above 0 (at 0 the distance to default is infinite)",
+            )
         y = _axis(settings.asset_volatility_axis, "sensitivity.asset_volatility_axis")
     else:
         y = centred_volatility_axis(pd.asset_volatility)
     growth = pd.asset_growth if pd.asset_growth is not None else pd.asset_return - pd.asset_volatility**2 / 2
     dp, dd, pd_matrix = balance_sheet_pd_grid(
-        asset_value=pd.asset_value, asset_growth=growth,
+        asset_value=pd.asset_value,
+        asset_growth=growth,
         short_term_liabilities=latest.short_term_liabilities,
-        long_term_liabilities=latest.long_term_liabilities, short_term_share=pd.short_term_share,
-        long_term_shares=x, asset_volatilities=y, horizon_years=pd.horizon_years)
+        long_term_liabilities=latest.long_term_liabilities,
+        short_term_share=pd.short_term_share,
+        long_term_shares=x,
+        asset_volatilities=y,
+        horizon_years=pd.horizon_years,
+    )
     if not np.all(dp > 0):
         notes.append("Where the default point is 0 the PD is 0 (no debt to default on).")
-    return PdGrid(method="balance_sheet", x_name="long_term_share", x_values=tuple(x.tolist()),
-                  y_name="asset_volatility", y_values=tuple(y.tolist()),
-                  default_point=tuple(dp.tolist()), pd=_rows(pd_matrix),
-                  distance_to_default=_rows(dd), base_x=pd.long_term_share,
-                  base_y=pd.asset_volatility, base_pd=pd.model_pd, pd_overridden=pd.overridden,
-                  notes=tuple(notes))
+    return PdGrid(
+        method="balance_sheet",
+        x_name="long_term_share",
+        x_values=tuple(x.tolist()),
+        y_name="asset_volatility",
+        y_values=tuple(y.tolist()),
+        default_point=tuple(dp.tolist()),
+        pd=_rows(pd_matrix),
+        distance_to_default=_rows(dd),
+        base_x=pd.long_term_share,
+        base_y=pd.asset_volatility,
+        base_pd=pd.model_pd,
+        pd_overridden=pd.overridden,
+        notes=tuple(notes),
+    )
 
 
 def _rows(matrix: np.ndarray, ok: np.ndarray | None = None) -> tuple[tuple[float | None, ...], ...]:
     mask = np.ones(matrix.shape, dtype=bool) if ok is None else ok
-    return tuple(tuple(float(v) if good else None for v, good in zip(row, good_row))
-                 for row, good_row in zip(matrix, mask))
+    return tuple(
+        tuple(float(v) if good else None for v, good in zip(row, good_row)) for row, good_row in zip(matrix, mask)
+    )
 
 
 def _market_grid(case: Case, pd: PdResult, x: np.ndarray, notes: list[str]) -> PdGrid:
@@ -349,25 +415,41 @@ def _market_grid(case: Case, pd: PdResult, x: np.ndarray, notes: list[str]) -> P
     latest = case.statements[-1]
     share = case.pd.default_point.short_term_share
     y = centred_volatility_axis(market.equity_volatility)
-    notes.append("Market method: asset value and volatility are solved, so the y axis is the equity "
-                 "volatility and each cell re-solves the Merton equations; "
-                 "sensitivity.asset_volatility_axis applies to the balance-sheet method only.")
+    notes.append(
+        "Market method: asset value and volatility are solved, so the y axis is the equity "
+        "volatility and each cell re-solves the Merton equations; "
+        "sensitivity.asset_volatility_axis applies to the balance-sheet method only."
+    )
     # The engine's market PD carries its drift in asset_return (the risk-free rate when
     # risk-neutral); solve_merton_many takes None for the risk-neutral N(-d2).
     drift = pd.asset_return if pd.method == "market" and pd.measure == "physical" else None
     dp = share * latest.short_term_liabilities + x * latest.long_term_liabilities
-    batch = solve_merton_many(equity_value=market.equity_value, equity_volatility=y[:, None],
-                              default_point=dp[None, :], risk_free_rate=market.risk_free_rate,
-                              horizon_years=case.pd.horizon_years, asset_drift=drift,
-                              invalid="flag")
+    batch = solve_merton_many(
+        equity_value=market.equity_value,
+        equity_volatility=y[:, None],
+        default_point=dp[None, :],
+        risk_free_rate=market.risk_free_rate,
+        horizon_years=case.pd.horizon_years,
+        asset_drift=drift,
+        invalid="flag",
+    )
     ok = np.asarray(batch.converged)
     if not ok.all():
-        notes.append(f"{int((~ok).sum())} cell(s) have no Merton solution and are left empty; "
-                     f"first: {batch.failures[0][1]}")
-    return PdGrid(method="market", x_name="long_term_share", x_values=tuple(x.tolist()),
-                  y_name="equity_volatility", y_values=tuple(y.tolist()),
-                  default_point=tuple(dp.tolist()), pd=_rows(np.asarray(batch.pd), ok),
-                  distance_to_default=_rows(np.asarray(batch.distance_to_default), ok),
-                  base_x=case.pd.default_point.long_term_share, base_y=market.equity_volatility,
-                  base_pd=pd.model_pd,
-                  pd_overridden=pd.overridden, notes=tuple(notes))
+        notes.append(
+            f"{int((~ok).sum())} cell(s) have no Merton solution and are left empty; first: {batch.failures[0][1]}"
+        )
+    return PdGrid(
+        method="market",
+        x_name="long_term_share",
+        x_values=tuple(x.tolist()),
+        y_name="equity_volatility",
+        y_values=tuple(y.tolist()),
+        default_point=tuple(dp.tolist()),
+        pd=_rows(np.asarray(batch.pd), ok),
+        distance_to_default=_rows(np.asarray(batch.distance_to_default), ok),
+        base_x=case.pd.default_point.long_term_share,
+        base_y=market.equity_volatility,
+        base_pd=pd.model_pd,
+        pd_overridden=pd.overridden,
+        notes=tuple(notes),
+    )

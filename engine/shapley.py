@@ -8,9 +8,11 @@ Computed in rationals (fractions.Fraction), so efficiency holds exactly before r
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Hashable, Sequence
 from fractions import Fraction
 from itertools import combinations
-from typing import Any, Callable, Hashable, Sequence
+from typing import Any
+
 
 def shapley_values(players: Sequence[Hashable], value: Callable[[frozenset], Any]) -> dict[Hashable, Fraction]:
     """Exact Shapley values of a cooperative game, in rationals, by the formula over subsets.

@@ -27,31 +27,72 @@ IGNORE = "ignore"
 SYNONYMS: dict[str, tuple[str, ...]] = {
     "year": ("year", "years", "fiscal year", "financial year", "fy", "period", "year end", "year ended"),
     "total_assets": ("total assets", "assets total", "balance sheet total", "total balance sheet", "assets"),
-    "short_term_liabilities": ("current liabilities", "total current liabilities", "short term liabilities",
-                               "short term debt and liabilities", "liabilities current",
-                               "total short term liabilities"),
-    "long_term_liabilities": ("non current liabilities", "noncurrent liabilities", "total non current liabilities",
-                              "long term liabilities", "total long term liabilities", "liabilities non current"),
+    "short_term_liabilities": (
+        "current liabilities",
+        "total current liabilities",
+        "short term liabilities",
+        "short term debt and liabilities",
+        "liabilities current",
+        "total short term liabilities",
+    ),
+    "long_term_liabilities": (
+        "non current liabilities",
+        "noncurrent liabilities",
+        "total non current liabilities",
+        "long term liabilities",
+        "total long term liabilities",
+        "liabilities non current",
+    ),
     "total_liabilities": ("total liabilities", "liabilities total", "liabilities"),
-    "book_equity": ("equity", "total equity", "shareholders equity", "stockholders equity",
-                    "total shareholders equity", "book equity", "net assets", "net worth"),
+    "book_equity": (
+        "equity",
+        "total equity",
+        "shareholders equity",
+        "stockholders equity",
+        "total shareholders equity",
+        "book equity",
+        "net assets",
+        "net worth",
+    ),
     "working_capital": ("working capital", "net working capital"),
     "retained_earnings": ("retained earnings", "accumulated earnings", "retained profits"),
-    "ebit": ("ebit", "operating profit", "operating income", "earnings before interest and tax",
-             "earnings before interest and taxes"),
-    "ebitda": ("ebitda", "earnings before interest tax depreciation and amortisation",
-               "earnings before interest taxes depreciation and amortization"),
+    "ebit": (
+        "ebit",
+        "operating profit",
+        "operating income",
+        "earnings before interest and tax",
+        "earnings before interest and taxes",
+    ),
+    "ebitda": (
+        "ebitda",
+        "earnings before interest tax depreciation and amortisation",
+        "earnings before interest taxes depreciation and amortization",
+    ),
     "sales": ("sales", "revenue", "revenues", "turnover", "net sales", "total revenue", "net revenue"),
-    "interest_expense": ("interest expense", "interest expenses", "finance costs", "interest paid",
-                         "net interest expense"),
+    "interest_expense": (
+        "interest expense",
+        "interest expenses",
+        "finance costs",
+        "interest paid",
+        "net interest expense",
+    ),
     "cash": ("cash", "cash and equivalents", "cash and cash equivalents", "cash equivalents"),
     "total_debt": ("total debt", "gross debt", "borrowings", "total borrowings", "financial debt"),
     "short_term_debt": ("short term debt", "current borrowings", "short term borrowings", "current debt"),
     "long_term_debt": ("long term debt", "non current borrowings", "long term borrowings", "non current debt"),
-    "operating_cash_flow": ("operating cash flow", "cash flow from operations", "cash from operations",
-                            "net cash from operating activities", "cash flow from operating activities"),
-    "capital_expenditure": ("capital expenditure", "capital expenditures", "capex",
-                            "purchase of property plant and equipment"),
+    "operating_cash_flow": (
+        "operating cash flow",
+        "cash flow from operations",
+        "cash from operations",
+        "net cash from operating activities",
+        "cash flow from operating activities",
+    ),
+    "capital_expenditure": (
+        "capital expenditure",
+        "capital expenditures",
+        "capex",
+        "purchase of property plant and equipment",
+    ),
 }
 _LOOKUP = {phrase: key for key, phrases in SYNONYMS.items() for phrase in phrases}
 _LOOKUP.update({key.replace("_", " "): key for key in SYNONYMS})
@@ -63,7 +104,7 @@ _DATE = re.compile(r"^(?:\d{1,2}[./-]\d{1,2}[./-]((?:19|20|21)\d\d)|((?:19|20|21
 
 def normalise(label: Any) -> str:
     text = str(label).strip().lower().replace("&", " and ")
-    text = re.sub(r"\(.*?\)", " ", text)                 # "(EUR k)", "(note 4)"
+    text = re.sub(r"\(.*?\)", " ", text)  # "(EUR k)", "(note 4)"
     return " ".join(re.sub(r"[^a-z0-9]+", " ", text).split())
 
 
@@ -97,9 +138,9 @@ def year_of(cell: Any) -> int | None:
 class Layout:
     """What was found in a table: orientation, header row, recognised and unrecognised lines."""
 
-    orientation: str                                   # "wide" (years across) or "long" (years down)
-    header_row: int                                    # 1-based row of the header in the file
-    recognised: dict[str, str] = field(default_factory=dict)   # label in file -> field
+    orientation: str  # "wide" (years across) or "long" (years down)
+    header_row: int  # 1-based row of the header in the file
+    recognised: dict[str, str] = field(default_factory=dict)  # label in file -> field
     unrecognised: list[str] = field(default_factory=list)
     records: list[dict[str, Any]] = field(default_factory=list)  # year -> raw cells per field
 
@@ -112,8 +153,11 @@ def detect(rows: list[list[Any]], mapping: dict[str, str] | None = None, *, scan
     """The table's layout, or None when no header of either kind is found in the first rows."""
     for index, row in enumerate(rows[:scan]):
         years = [(c, year_of(v)) for c, v in enumerate(row) if year_of(v) is not None]
-        labels_below = [r for r in rows[index + 1:] if r and any(_text(v) for v in r[:max(1, years[0][0])])] \
-            if len(years) >= 2 else []
+        labels_below = (
+            [r for r in rows[index + 1 :] if r and any(_text(v) for v in r[: max(1, years[0][0])])]
+            if len(years) >= 2
+            else []
+        )
         if len(years) >= 2 and len({y for _, y in years}) == len(years) and labels_below:
             return _wide(rows, index, years, mapping)
         fields = [field_for(v, mapping) for v in row if v not in (None, "")]
@@ -122,12 +166,13 @@ def detect(rows: list[list[Any]], mapping: dict[str, str] | None = None, *, scan
     return None
 
 
-def _wide(rows: list[list[Any]], index: int, years: list[tuple[int, int | None]],
-          mapping: dict[str, str] | None) -> Layout:
+def _wide(
+    rows: list[list[Any]], index: int, years: list[tuple[int, int | None]], mapping: dict[str, str] | None
+) -> Layout:
     first_year_col = years[0][0]
     layout = Layout("wide", index + 1)
     by_year: dict[int, dict[str, Any]] = {y: {"year": y} for _, y in years if y is not None}
-    for row in rows[index + 1:]:
+    for row in rows[index + 1 :]:
         label_cells = [v for v in row[:first_year_col] if _text(v)] if first_year_col else []
         if not label_cells and row and _text(row[0]):
             label_cells = [row[0]]
@@ -137,7 +182,7 @@ def _wide(rows: list[list[Any]], index: int, years: list[tuple[int, int | None]]
         target = field_for(label, mapping)
         values = [row[c] if c < len(row) else None for c, _ in years]
         if all(v in (None, "") for v in values):
-            continue                              # a section heading ("Balance sheet")
+            continue  # a section heading ("Balance sheet")
         if target is None:
             layout.unrecognised.append(label)
             continue
@@ -164,7 +209,7 @@ def _long(rows: list[list[Any]], index: int, mapping: dict[str, str] | None) -> 
         elif target != IGNORE:
             layout.recognised[str(label).strip()] = target
             columns.append((c, target))
-    for row in rows[index + 1:]:
+    for row in rows[index + 1 :]:
         record: dict[str, Any] = {}
         for c, target in columns:
             value = row[c] if c < len(row) else None

@@ -16,13 +16,17 @@ import math
 from dataclasses import dataclass, replace
 
 import numpy as np
+from obligor_memo.engine.errors import InputError
 from scipy.special import ndtr
 
-from obligor_memo.engine.errors import InputError
 
-
-def default_point(*, short_term_liabilities: float, long_term_liabilities: float,
-                  short_term_share: float = 1.0, long_term_share: float = 0.5) -> float:
+def default_point(
+    *,
+    short_term_liabilities: float,
+    long_term_liabilities: float,
+    short_term_share: float = 1.0,
+    long_term_share: float = 0.5,
+) -> float:
     """DP = a x STL + b x LTL [currency] (common practice: a = 1, b = 0.5)."""
     for name, value in (("short_term_share", short_term_share), ("long_term_share", long_term_share)):
         if not (0 <= value <= 1):
@@ -41,8 +45,9 @@ def distance_to_default(*, asset_value, default_point, asset_return, asset_volat
     s = np.asarray(asset_volatility, dtype=float)
     t = np.asarray(horizon_years, dtype=float)
     if np.any(v <= 0) or np.any(dp <= 0):
-        raise ValueError("asset value and default point must both be above 0 "
-                         f"(got asset value {v!r}, default point {dp!r})")
+        raise ValueError(
+            f"asset value and default point must both be above 0 (got asset value {v!r}, default point {dp!r})"
+        )
     if np.any(s <= 0) or np.any(t <= 0):
         raise ValueError(f"asset volatility and horizon must be above 0 (got {s!r}, {t!r})")
     dd = (np.log(v) - np.log(dp) + (np.asarray(asset_return, dtype=float) - s**2 / 2) * t) / (s * np.sqrt(t))
@@ -59,39 +64,61 @@ def pd_from_distance(distance) -> float | np.ndarray:
 class BalanceSheetPd:
     """Every quantity of the balance-sheet structural PD."""
 
-    asset_value: float          # V: latest total assets [currency]
-    asset_growth: float         # g [1/year]
-    asset_volatility: float     # s [1/sqrt(year)]
-    asset_return: float         # mu = g + s^2/2 [1/year]
+    asset_value: float  # V: latest total assets [currency]
+    asset_growth: float  # g [1/year]
+    asset_volatility: float  # s [1/sqrt(year)]
+    asset_return: float  # mu = g + s^2/2 [1/year]
     short_term_liabilities: float  # latest [currency]
-    long_term_liabilities: float   # latest [currency]
-    short_term_share: float     # a [fraction]
-    long_term_share: float      # b [fraction]
-    default_point: float        # DP [currency]
-    horizon_years: float        # T [years]
+    long_term_liabilities: float  # latest [currency]
+    short_term_share: float  # a [fraction]
+    long_term_share: float  # b [fraction]
+    default_point: float  # DP [currency]
+    horizon_years: float  # T [years]
     distance_to_default: float  # DD
-    pd: float                   # N(-DD) [fraction]
+    pd: float  # N(-DD) [fraction]
 
 
-def balance_sheet_pd(*, asset_value: float, asset_growth: float, asset_volatility: float,
-                     short_term_liabilities: float, long_term_liabilities: float,
-                     short_term_share: float = 1.0, long_term_share: float = 0.5,
-                     horizon_years: float = 1.0) -> BalanceSheetPd:
+def balance_sheet_pd(
+    *,
+    asset_value: float,
+    asset_growth: float,
+    asset_volatility: float,
+    short_term_liabilities: float,
+    long_term_liabilities: float,
+    short_term_share: float = 1.0,
+    long_term_share: float = 0.5,
+    horizon_years: float = 1.0,
+) -> BalanceSheetPd:
     """Balance-sheet PD with mu = g + s^2/2, so the log-asset drift mu - s^2/2 equals g."""
-    dp = default_point(short_term_liabilities=short_term_liabilities,
-                       long_term_liabilities=long_term_liabilities,
-                       short_term_share=short_term_share, long_term_share=long_term_share)
+    dp = default_point(
+        short_term_liabilities=short_term_liabilities,
+        long_term_liabilities=long_term_liabilities,
+        short_term_share=short_term_share,
+        long_term_share=long_term_share,
+    )
     if dp <= 0:
         raise InputError("pd.default_point", dp, "shares and liabilities giving a default point above 0")
     mu = asset_growth + asset_volatility**2 / 2
-    dd = distance_to_default(asset_value=asset_value, default_point=dp, asset_return=mu,
-                             asset_volatility=asset_volatility, horizon_years=horizon_years)
+    dd = distance_to_default(
+        asset_value=asset_value,
+        default_point=dp,
+        asset_return=mu,
+        asset_volatility=asset_volatility,
+        horizon_years=horizon_years,
+    )
     return BalanceSheetPd(
-        asset_value=asset_value, asset_growth=asset_growth, asset_volatility=asset_volatility,
-        asset_return=mu, short_term_liabilities=short_term_liabilities,
-        long_term_liabilities=long_term_liabilities, short_term_share=short_term_share,
-        long_term_share=long_term_share, default_point=dp, horizon_years=horizon_years,
-        distance_to_default=dd, pd=pd_from_distance(dd),
+        asset_value=asset_value,
+        asset_growth=asset_growth,
+        asset_volatility=asset_volatility,
+        asset_return=mu,
+        short_term_liabilities=short_term_liabilities,
+        long_term_liabilities=long_term_liabilities,
+        short_term_share=short_term_share,
+        long_term_share=long_term_share,
+        default_point=dp,
+        horizon_years=horizon_years,
+        distance_to_default=dd,
+        pd=pd_from_distance(dd),
     )
 
 
@@ -101,16 +128,17 @@ class PdTermStructure:
 
     years: tuple[float, ...]
     cumulative: tuple[float, ...]
-    marginal: tuple[float, ...]        # cumulative(t) - cumulative(t-1)
-    conditional: tuple[float, ...]     # marginal / survival to t-1 (annual hazard)
+    marginal: tuple[float, ...]  # cumulative(t) - cumulative(t-1)
+    conditional: tuple[float, ...]  # marginal / survival to t-1 (annual hazard)
     basis: str
     running_max_from: float | None = None
     """Year after which the model's cumulative PD fell and the running maximum was taken
     (marginal PD 0 from there on) [years]; None when it never fell."""
 
 
-def structural_term_structure(*, asset_value: float, default_point: float, log_drift: float,
-                              asset_volatility: float, years: int, basis: str) -> PdTermStructure:
+def structural_term_structure(
+    *, asset_value: float, default_point: float, log_drift: float, asset_volatility: float, years: int, basis: str
+) -> PdTermStructure:
     """Cumulative PD(t) = N(-(ln(V/DP) + m t)/(s sqrt t)) for t = 1..years, m the log-asset drift
     (g on the balance sheet; r - s^2/2 risk-neutral in the market model). The default point is held
     at today's value: a simplification stated in the memo's cautions."""
@@ -127,8 +155,7 @@ def structural_term_structure(*, asset_value: float, default_point: float, log_d
     return out
 
 
-def constant_hazard_term_structure(*, pd: float, horizon_years: float, years: int,
-                                   basis: str) -> PdTermStructure:
+def constant_hazard_term_structure(*, pd: float, horizon_years: float, years: int, basis: str) -> PdTermStructure:
     """Cumulative PD(t) = 1 - (1 - PD)^(t / T): a constant annual hazard reproducing PD at T."""
     t = np.arange(1, years + 1, dtype=float)
     cumulative = 1.0 - (1.0 - pd) ** (t / horizon_years) if pd < 1 else np.ones_like(t)
@@ -140,6 +167,10 @@ def _from_cumulative(t: np.ndarray, cumulative: np.ndarray, basis: str) -> PdTer
     marginal = cumulative - previous
     survival = 1.0 - previous
     conditional = np.divide(marginal, survival, out=np.ones_like(marginal), where=survival > 0)
-    return PdTermStructure(years=tuple(t.tolist()), cumulative=tuple(cumulative.tolist()),
-                           marginal=tuple(marginal.tolist()), conditional=tuple(conditional.tolist()),
-                           basis=basis)
+    return PdTermStructure(
+        years=tuple(t.tolist()),
+        cumulative=tuple(cumulative.tolist()),
+        marginal=tuple(marginal.tolist()),
+        conditional=tuple(conditional.tolist()),
+        basis=basis,
+    )

@@ -11,7 +11,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-
 from obligor_memo.engine.errors import Caution, InputError
 
 
@@ -19,8 +18,8 @@ from obligor_memo.engine.errors import Caution, InputError
 class LinearFit:
     """y = intercept + slope * year, fitted by ordinary least squares."""
 
-    slope: float          # [y-units / year]
-    intercept: float      # [y-units] at year 0
+    slope: float  # [y-units / year]
+    intercept: float  # [y-units] at year 0
     r_squared: float | None  # None when y does not vary (R^2 undefined)
     n: int
 
@@ -59,8 +58,9 @@ def annual_log_changes(years: np.ndarray, values: np.ndarray) -> np.ndarray:
 def sample_volatility(changes: np.ndarray) -> float:
     """Sample standard deviation with n - 1 in the denominator (numpy ddof=1)."""
     if changes.size < 2:
-        raise InputError("annual log changes", changes.size,
-                         "at least 2 (three years of statements) to estimate a volatility")
+        raise InputError(
+            "annual log changes", changes.size, "at least 2 (three years of statements) to estimate a volatility"
+        )
     return float(np.std(changes, ddof=1))
 
 
@@ -68,25 +68,30 @@ def sample_volatility(changes: np.ndarray) -> float:
 class AssetTrend:
     """The asset history in the window and everything fitted from it."""
 
-    years: tuple[int, ...]               # window used, oldest first
-    total_assets: tuple[float, ...]      # [currency]
-    window_years: int                    # number of years in the window
-    log_fit: LinearFit                   # ln(total assets) on year; slope = growth g [1/year]
-    level_fit: LinearFit                 # total assets on year; slope [currency/year]
-    log_changes: tuple[float, ...]       # annual log changes [1/year]
-    growth_estimate: float               # g from the log fit [1/year]
-    volatility_estimate: float | None    # sample std of log changes [1/sqrt(year)]
-    growth_used: float                   # estimate or the analyst's override [1/year]
-    volatility_used: float               # estimate or the analyst's override [1/sqrt(year)]
+    years: tuple[int, ...]  # window used, oldest first
+    total_assets: tuple[float, ...]  # [currency]
+    window_years: int  # number of years in the window
+    log_fit: LinearFit  # ln(total assets) on year; slope = growth g [1/year]
+    level_fit: LinearFit  # total assets on year; slope [currency/year]
+    log_changes: tuple[float, ...]  # annual log changes [1/year]
+    growth_estimate: float  # g from the log fit [1/year]
+    volatility_estimate: float | None  # sample std of log changes [1/sqrt(year)]
+    growth_used: float  # estimate or the analyst's override [1/year]
+    volatility_used: float  # estimate or the analyst's override [1/sqrt(year)]
     growth_overridden: bool
     volatility_overridden: bool
-    expected_return: float               # mu = g + s^2 / 2 [1/year]
+    expected_return: float  # mu = g + s^2 / 2 [1/year]
     cautions: tuple[Caution, ...]
 
 
-def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years: int | None = None,
-                    growth_override: float | None = None,
-                    volatility_override: float | None = None) -> AssetTrend:
+def fit_asset_trend(
+    *,
+    years: list[int],
+    total_assets: list[float],
+    window_years: int | None = None,
+    growth_override: float | None = None,
+    volatility_override: float | None = None,
+) -> AssetTrend:
     """Fit the asset trend over the latest ``window_years`` years (None = all years).
 
     Growth g is the slope of ln(total assets) on year; volatility s the sample standard deviation
@@ -102,8 +107,11 @@ def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years
         y, a = y[-window_years:], a[-window_years:]
     cautions: list[Caution] = []
     if len(y) < 2 and growth_override is None:
-        raise InputError("statements", f"{len(y)} year(s) in the window",
-                         "at least 2 to estimate asset growth, or set pd.asset_growth")
+        raise InputError(
+            "statements",
+            f"{len(y)} year(s) in the window",
+            "at least 2 to estimate asset growth, or set pd.asset_growth",
+        )
     if len(y) >= 2:
         log_fit = least_squares_line(y, np.log(a))
         level_fit = least_squares_line(y, a)
@@ -113,43 +121,74 @@ def fit_asset_trend(*, years: list[int], total_assets: list[float], window_years
         level_fit = LinearFit(slope=0.0, intercept=float(a[0]), r_squared=None, n=1)
         changes = np.array([])
     if np.any(np.diff(y) > 1):
-        cautions.append(Caution("trend.gaps", "The statement years are not consecutive; annual log "
-                                "changes across a gap are scaled by 1/sqrt(gap).", "statements"))
+        cautions.append(
+            Caution(
+                "trend.gaps",
+                "The statement years are not consecutive; annual log changes across a gap are scaled by 1/sqrt(gap).",
+                "statements",
+            )
+        )
     vol_estimate = sample_volatility(changes) if changes.size >= 2 else None
     if vol_estimate is None and volatility_override is None:
-        raise InputError("statements", f"{len(y)} year(s) in the window",
-                         "at least 3 to estimate asset volatility, or set pd.asset_volatility")
+        raise InputError(
+            "statements",
+            f"{len(y)} year(s) in the window",
+            "at least 3 to estimate asset volatility, or set pd.asset_volatility",
+        )
     if len(y) < 5:
-        cautions.append(Caution("trend.short_history",
-                                f"Only {len(y)} years in the window: growth and volatility estimates "
-                                "from so short a history are very uncertain.", "pd.window_years"))
+        cautions.append(
+            Caution(
+                "trend.short_history",
+                f"Only {len(y)} years in the window: growth and volatility estimates "
+                "from so short a history are very uncertain.",
+                "pd.window_years",
+            )
+        )
     if vol_estimate is not None and vol_estimate == 0 and volatility_override is None:
-        raise InputError("pd.asset_volatility", 0.0,
-                         "a volatility above 0 (the estimate is 0: total assets changed by the same "
-                         "log amount every year): set pd.asset_volatility")
+        raise InputError(
+            "pd.asset_volatility",
+            0.0,
+            "a volatility above 0 (the estimate is 0: total assets changed by the same "
+            "log amount every year): set pd.asset_volatility",
+        )
     if vol_estimate is not None and vol_estimate > 3 and volatility_override is None:
-        raise InputError("pd.asset_volatility", round(vol_estimate, 4),
-                         "an estimate from the statements up to 3 (300 % a year); swings this wide "
-                         "make the structural model meaningless: review the statements or set "
-                         "pd.asset_volatility")
+        raise InputError(
+            "pd.asset_volatility",
+            round(vol_estimate, 4),
+            "an estimate from the statements up to 3 (300 % a year); swings this wide "
+            "make the structural model meaningless: review the statements or set "
+            "pd.asset_volatility",
+        )
     for fit, label in ((log_fit, "log-linear"), (level_fit, "straight-line")):
         if fit.r_squared is not None and fit.r_squared < 0.5 and fit.n >= 3:
-            cautions.append(Caution("trend.weak_fit", f"The {label} asset trend explains little "
-                                    f"(R^2 = {fit.r_squared:.2f}); the growth estimate is weak.",
-                                    "pd.window_years"))
+            cautions.append(
+                Caution(
+                    "trend.weak_fit",
+                    f"The {label} asset trend explains little "
+                    f"(R^2 = {fit.r_squared:.2f}); the growth estimate is weak.",
+                    "pd.window_years",
+                )
+            )
             break
     growth = growth_override if growth_override is not None else log_fit.slope
     if volatility_override is not None:
         vol = volatility_override
     else:
-        assert vol_estimate is not None      # refused above when neither is there
+        assert vol_estimate is not None  # refused above when neither is there
         vol = float(vol_estimate)
     return AssetTrend(
-        years=tuple(int(v) for v in y), total_assets=tuple(float(v) for v in a), window_years=len(y),
-        log_fit=log_fit, level_fit=level_fit, log_changes=tuple(float(c) for c in changes),
-        growth_estimate=log_fit.slope, volatility_estimate=vol_estimate, growth_used=float(growth),
-        volatility_used=float(vol), growth_overridden=growth_override is not None,
+        years=tuple(int(v) for v in y),
+        total_assets=tuple(float(v) for v in a),
+        window_years=len(y),
+        log_fit=log_fit,
+        level_fit=level_fit,
+        log_changes=tuple(float(c) for c in changes),
+        growth_estimate=log_fit.slope,
+        volatility_estimate=vol_estimate,
+        growth_used=float(growth),
+        volatility_used=float(vol),
+        growth_overridden=growth_override is not None,
         volatility_overridden=volatility_override is not None,
-        expected_return=float(growth) + float(vol) ** 2 / 2, cautions=tuple(cautions),
+        expected_return=float(growth) + float(vol) ** 2 / 2,
+        cautions=tuple(cautions),
     )
-

@@ -25,9 +25,10 @@ from __future__ import annotations
 
 import math
 import numbers
+from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType
-from typing import Literal, Mapping
+from typing import Literal
 
 Zone = Literal["safe", "grey", "distress"]
 
@@ -135,9 +136,7 @@ def altman_zone(*, score: float, distress_below: float, safe_above: float) -> Zo
     return "grey"
 
 
-def _check_column(
-    name: str, value: float | None, *, rule: str, allowed: str, required: bool = False
-) -> float | None:
+def _check_column(name: str, value: float | None, *, rule: str, allowed: str, required: bool = False) -> float | None:
     if value is None:
         if required:
             raise ValueError(f"{name} is required: {allowed}")
@@ -146,14 +145,10 @@ def _check_column(
         raise ValueError(f"{name} must be a number ({allowed}) or None if absent; got {value!r}")
     number = float(value)
     ok = math.isfinite(number) and (
-        rule == "any"
-        or (rule == "positive" and number > 0)
-        or (rule == "nonnegative" and number >= 0)
+        rule == "any" or (rule == "positive" and number > 0) or (rule == "nonnegative" and number >= 0)
     )
     if not ok:
-        raise ValueError(
-            f"{name} = {value!r} is not allowed: {allowed}; pass None for a column you do not have"
-        )
+        raise ValueError(f"{name} = {value!r} is not allowed: {allowed}; pass None for a column you do not have")
     return number
 
 
@@ -187,26 +182,27 @@ def altman_scores(
     any_sign = "a finite number of any sign [currency]"
     columns: dict[str, float | None] = {
         "total_assets": _check_column(
-            "total_assets", total_assets, rule="positive",
-            allowed="a finite number > 0 [currency]", required=True,
+            "total_assets",
+            total_assets,
+            rule="positive",
+            allowed="a finite number > 0 [currency]",
+            required=True,
         ),
-        "working_capital": _check_column(
-            "working_capital", working_capital, rule="any", allowed=any_sign
-        ),
-        "retained_earnings": _check_column(
-            "retained_earnings", retained_earnings, rule="any", allowed=any_sign
-        ),
+        "working_capital": _check_column("working_capital", working_capital, rule="any", allowed=any_sign),
+        "retained_earnings": _check_column("retained_earnings", retained_earnings, rule="any", allowed=any_sign),
         "ebit": _check_column("ebit", ebit, rule="any", allowed=any_sign),
-        "sales": _check_column(
-            "sales", sales, rule="nonnegative", allowed="a finite number >= 0 [currency]"
-        ),
+        "sales": _check_column("sales", sales, rule="nonnegative", allowed="a finite number >= 0 [currency]"),
         "market_equity": _check_column(
-            "market_equity", market_equity, rule="nonnegative",
+            "market_equity",
+            market_equity,
+            rule="nonnegative",
             allowed="a finite number >= 0 [currency] (a market value cannot be negative)",
         ),
         "book_equity": _check_column("book_equity", book_equity, rule="any", allowed=any_sign),
         "total_liabilities": _check_column(
-            "total_liabilities", total_liabilities, rule="positive",
+            "total_liabilities",
+            total_liabilities,
+            rule="positive",
             allowed="a finite number > 0 [currency]",
         ),
     }
@@ -246,9 +242,7 @@ def _score_variant(variant: _Variant, columns: Mapping[str, float | None]) -> ZS
         except OverflowError:  # finite terms whose sum is not: no meaningful score
             score = None
         if score is not None and math.isfinite(score):
-            zone = altman_zone(
-                score=score, distress_below=variant.distress_below, safe_above=variant.safe_above
-            )
+            zone = altman_zone(score=score, distress_below=variant.distress_below, safe_above=variant.safe_above)
         else:
             score = None
     return ZScore(
@@ -258,9 +252,7 @@ def _score_variant(variant: _Variant, columns: Mapping[str, float | None]) -> ZS
         components=MappingProxyType(components),
         ratio_definitions=MappingProxyType(ratio_definitions),
         coefficients=MappingProxyType(coefficients),
-        zone_cutoffs=MappingProxyType(
-            {"distress_below": variant.distress_below, "safe_above": variant.safe_above}
-        ),
+        zone_cutoffs=MappingProxyType({"distress_below": variant.distress_below, "safe_above": variant.safe_above}),
         missing=tuple(missing),
         source=variant.source,
     )

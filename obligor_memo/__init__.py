@@ -15,8 +15,7 @@ from __future__ import annotations
 import importlib
 from typing import TYPE_CHECKING, Any
 
-__all__ = ["load_case", "load_case_text", "parse_case", "evaluate", "analyse", "Results", "CaseError",
-           "__version__"]
+__all__ = ["load_case", "load_case_text", "parse_case", "evaluate", "analyse", "Results", "CaseError", "__version__"]
 
 _PUBLIC = {
     "load_case": "obligor_memo.engine.loading",

@@ -35,8 +35,14 @@ _MINIMAL_CASE: dict[str, Any] = {
         {"year": 2023, "total_assets": 120.0, "short_term_liabilities": 80.0, "long_term_liabilities": 30.0},
     ],
     "facilities": [
-        {"id": "F1", "kind": "term_loan", "committed": 50.0, "drawn": 30.0,
-         "seniority": "senior_unsecured", "maturity_years": 3.0},
+        {
+            "id": "F1",
+            "kind": "term_loan",
+            "committed": 50.0,
+            "drawn": 30.0,
+            "seniority": "senior_unsecured",
+            "maturity_years": 3.0,
+        },
     ],
 }
 

@@ -25,15 +25,22 @@ def installed_layout(tmp_path_factory) -> Path:
     package = base / "obligor_memo"
     shutil.copytree(ROOT / "obligor_memo", package, ignore=shutil.ignore_patterns("__pycache__"))
     for folder in ("engine", "app", "templates", "sample_data"):
-        shutil.copytree(ROOT / folder, package / folder,
-                        ignore=shutil.ignore_patterns("__pycache__", "*.js", "*.csv", "*.yaml"))
+        shutil.copytree(
+            ROOT / folder, package / folder, ignore=shutil.ignore_patterns("__pycache__", "*.js", "*.csv", "*.yaml")
+        )
     shutil.copy(ROOT / "pyproject.toml", base / "pyproject.toml")
     return base
 
 
 def _run(code: list[str], cwd: Path) -> subprocess.CompletedProcess[str]:
-    return subprocess.run(code, cwd=cwd, capture_output=True, text=True, timeout=300,
-                          env={"PYTHONPATH": str(cwd), "PATH": "/usr/bin:/bin", "HOME": str(cwd)})
+    return subprocess.run(
+        code,
+        cwd=cwd,
+        capture_output=True,
+        text=True,
+        timeout=300,
+        env={"PYTHONPATH": str(cwd), "PATH": "/usr/bin:/bin", "HOME": str(cwd)},
+    )
 
 
 def test_import_contracts_hold(installed_layout):

@@ -20,18 +20,23 @@ import pandas as pd
 import pytest
 import yaml
 from click.testing import CliRunner
-
 from conftest import SAMPLE_CASE, SAMPLE_STATEMENTS, VENV_BIN
 from obligor_memo.app.batch import BatchUsageError, run_batch
 from obligor_memo.app.cli import main
-from obligor_memo.batch import run
 from obligor_memo.engine.loading import parse_text
 
+from obligor_memo.batch import run
+
 FIGURES = {  # batch column -> path in evaluate --json
-    "pd": ("pd", "pd"), "grade": ("pd", "grade"), "ead": ("total", "ead"),
-    "expected_loss": ("total", "expected_loss"), "unexpected_loss": ("total", "unexpected_loss"),
-    "rwa": ("total", "rwa"), "economic_capital": ("total", "economic_capital"),
-    "raroc": ("pricing", "raroc"), "minimum_spread": ("pricing", "minimum_spread"),
+    "pd": ("pd", "pd"),
+    "grade": ("pd", "grade"),
+    "ead": ("total", "ead"),
+    "expected_loss": ("total", "expected_loss"),
+    "unexpected_loss": ("total", "unexpected_loss"),
+    "rwa": ("total", "rwa"),
+    "economic_capital": ("total", "economic_capital"),
+    "raroc": ("pricing", "raroc"),
+    "minimum_spread": ("pricing", "minimum_spread"),
 }
 
 
@@ -93,7 +98,7 @@ def test_no_memo_batch_gives_the_figures_of_evaluate_json_and_lists_the_bad_case
             if isinstance(expected, str):
                 assert str(row[column]) == expected, column
             else:
-                assert row[column] == pytest.approx(expected, rel=1e-12), column   # CSV keeps 17 digits
+                assert row[column] == pytest.approx(expected, rel=1e-12), column  # CSV keeps 17 digits
     # Each bad case names its field.
     by_case = errors.groupby("case_file")["field"].apply(set).to_dict()
     assert "facilities" in by_case[str(bads[0].resolve())]
@@ -155,9 +160,15 @@ def test_batch_on_a_real_scheduler_with_two_worker_processes(book, tmp_path):
     port = _free_port()
     dask = str(VENV_BIN / "dask") if (VENV_BIN / "dask").exists() else "dask"
     env = dict(os.environ, DASK_DISTRIBUTED__WORKER__DAEMON="False")
-    procs = [subprocess.Popen([dask, "scheduler", "--host", "127.0.0.1", "--port", str(port),
-                               "--no-dashboard"], stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
-                              start_new_session=True, env=env)]
+    procs = [
+        subprocess.Popen(
+            [dask, "scheduler", "--host", "127.0.0.1", "--port", str(port), "--no-dashboard"],
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
+            start_new_session=True,
+            env=env,
+        )
+    ]
     try:
         address = f"tcp://127.0.0.1:{port}"
         deadline = time.time() + 30
@@ -168,16 +179,23 @@ def test_batch_on_a_real_scheduler_with_two_worker_processes(book, tmp_path):
             except OSError:
                 time.sleep(0.2)
         for _ in range(2):
-            procs.append(subprocess.Popen([dask, "worker", address, "--nthreads", "1", "--no-dashboard",
-                                           "--host", "127.0.0.1"], stdout=subprocess.DEVNULL,
-                                          stderr=subprocess.DEVNULL, start_new_session=True, env=env))
+            procs.append(
+                subprocess.Popen(
+                    [dask, "worker", address, "--nthreads", "1", "--no-dashboard", "--host", "127.0.0.1"],
+                    stdout=subprocess.DEVNULL,
+                    stderr=subprocess.DEVNULL,
+                    start_new_session=True,
+                    env=env,
+                )
+            )
         from distributed import Client
 
         with Client(address, timeout="30s") as client:
             client.wait_for_workers(2, timeout=60)
-        done = CliRunner().invoke(main, ["batch", str(folder), "-o", str(tmp_path / "out"), "--no-memos",
-                                         "--scheduler", address])
-        assert done.exit_code == 1, done.output            # the bad cases are in the book
+        done = CliRunner().invoke(
+            main, ["batch", str(folder), "-o", str(tmp_path / "out"), "--no-memos", "--scheduler", address]
+        )
+        assert done.exit_code == 1, done.output  # the bad cases are in the book
         assert "on 2 worker(s)" in done.output
         portfolio = pd.read_csv(tmp_path / "out" / "portfolio.csv")
         assert len(portfolio) == len(goods)
@@ -233,8 +251,12 @@ def test_progress_line_reports_done_failed_and_rate():
 
 
 def test_the_module_is_importable_in_a_fresh_interpreter():
-    done = subprocess.run([sys.executable, "-c", "import obligor_memo.batch as b; print(b.run.__name__)"],
-                          capture_output=True, text=True, timeout=60)
+    done = subprocess.run(
+        [sys.executable, "-c", "import obligor_memo.batch as b; print(b.run.__name__)"],
+        capture_output=True,
+        text=True,
+        timeout=60,
+    )
     assert done.stdout.strip() == "run", done.stderr
 
 
@@ -243,9 +265,14 @@ def test_ctrl_c_stops_the_batch_cleanly(book, tmp_path):
     """SIGINT (Ctrl+C) while memos print: a plain message, exit 130, no worker or browser left."""
     folder, goods, _ = book
     script = VENV_BIN / "obligor-memo"
-    proc = subprocess.Popen([str(script), "batch", *map(str, goods), "-o", str(tmp_path / "out"), "--workers", "1"],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, start_new_session=True)
-    time.sleep(8)                      # the cluster is up and the first memo is printing
+    proc = subprocess.Popen(
+        [str(script), "batch", *map(str, goods), "-o", str(tmp_path / "out"), "--workers", "1"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        start_new_session=True,
+    )
+    time.sleep(8)  # the cluster is up and the first memo is printing
     os.killpg(proc.pid, signal.SIGINT)
     try:
         out, err = proc.communicate(timeout=60)

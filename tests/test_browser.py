@@ -20,8 +20,7 @@ CHROMIUM = "/usr/bin/chromium"
 ROOT = Path(__file__).resolve().parent.parent
 ARTIFACTS = ROOT / "test-artifacts"
 
-pytestmark = [pytest.mark.browser,
-              pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
+pytestmark = [pytest.mark.browser, pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
 
 
 def _free_port() -> int:
@@ -34,10 +33,13 @@ def _free_port() -> int:
 def server(tmp_path_factory):
     port = _free_port()
     workdir = tmp_path_factory.mktemp("workdir")
-    code = ("import sys; from obligor_memo.app.workbench.serve import serve; "
-            f"sys.exit(serve(port={port}, host='127.0.0.1', workdir=r'{workdir}'))")
-    proc = subprocess.Popen([sys.executable, "-c", code], cwd=ROOT, stdout=subprocess.PIPE,
-                            stderr=subprocess.STDOUT, start_new_session=True)
+    code = (
+        "import sys; from obligor_memo.app.workbench.serve import serve; "
+        f"sys.exit(serve(port={port}, host='127.0.0.1', workdir=r'{workdir}'))"
+    )
+    proc = subprocess.Popen(
+        [sys.executable, "-c", code], cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, start_new_session=True
+    )
     url = f"http://127.0.0.1:{port}"
     deadline = time.time() + 30
     while time.time() < deadline:
@@ -52,7 +54,7 @@ def server(tmp_path_factory):
         pytest.fail("the workbench did not start within 30 s")
     yield url, workdir
     os.killpg(proc.pid, 15)
-    proc.communicate(timeout=10)     # reads and closes the pipe
+    proc.communicate(timeout=10)  # reads and closes the pipe
 
 
 def _metric(page, label: str) -> str:
@@ -62,8 +64,7 @@ def _metric(page, label: str) -> str:
 
 def _settle(page) -> None:
     page.wait_for_timeout(300)
-    page.wait_for_function("() => !document.querySelector('[data-testid=\"stStatusWidget\"]')",
-                           timeout=15000)
+    page.wait_for_function("() => !document.querySelector('[data-testid=\"stStatusWidget\"]')", timeout=15000)
     page.wait_for_timeout(300)
 
 
@@ -73,9 +74,11 @@ def test_default_point_moves_pd(server):
     url, workdir = server
     ARTIFACTS.mkdir(exist_ok=True)
     with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True,
-                                    args=["--no-sandbox", "--headless=new", "--disable-gpu",
-                                          "--disable-dev-shm-usage"])
+        browser = p.chromium.launch(
+            executable_path=CHROMIUM,
+            headless=True,
+            args=["--no-sandbox", "--headless=new", "--disable-gpu", "--disable-dev-shm-usage"],
+        )
         page = browser.new_page(viewport={"width": 1500, "height": 1100})
         page.goto(url, wait_until="networkidle")
         page.get_by_text("Hollowmere Lifting Group").first.wait_for(timeout=20000)
@@ -94,7 +97,9 @@ def test_default_point_moves_pd(server):
         page.wait_for_function(
             "(old) => [...document.querySelectorAll('[data-testid=\"stMetric\"]')]"
             ".some(m => m.innerText.includes('PD in force') && !m.innerText.includes(old))",
-            arg=before, timeout=15000)
+            arg=before,
+            timeout=15000,
+        )
         _settle(page)
         after = _metric(page, "PD in force")
         page.screenshot(path=str(ARTIFACTS / "03_asset_pd_after.png"), full_page=True)
@@ -113,14 +118,22 @@ def test_default_point_moves_pd(server):
         page.screenshot(path=str(ARTIFACTS / "04_bad_value.png"), full_page=True)
         assert not page.get_by_text("Traceback").count()
 
-        for index, name in enumerate(["Facilities and exposure", "Recovery and LGD",
-                                      "Loss, capital and pricing", "What-if and scenarios",
-                                      "Memo and files"], start=5):
+        for index, name in enumerate(
+            [
+                "Facilities and exposure",
+                "Recovery and LGD",
+                "Loss, capital and pricing",
+                "What-if and scenarios",
+                "Memo and files",
+            ],
+            start=5,
+        ):
             page.get_by_role("link", name=name).click()
             page.get_by_role("heading", name=name).first.wait_for(timeout=20000)
             _settle(page)
-            page.screenshot(path=str(ARTIFACTS / f"{index:02d}_{name.split()[0].lower().strip(',-')}.png"),
-                            full_page=True)
+            page.screenshot(
+                path=str(ARTIFACTS / f"{index:02d}_{name.split()[0].lower().strip(',-')}.png"), full_page=True
+            )
             assert not page.get_by_text("Traceback").count()
 
         # What-if: a control moves the PD metric and redraws the heat map and tornado.
@@ -135,7 +148,9 @@ def test_default_point_moves_pd(server):
         page.wait_for_function(
             "(old) => [...document.querySelectorAll('[data-testid=\"stMetric\"]')]"
             ".some(m => m.innerText.includes('PD in force') && !m.innerText.includes(old))",
-            arg=before, timeout=15000)
+            arg=before,
+            timeout=15000,
+        )
         _settle(page)
         page.locator(".js-plotly-plot").nth(1).wait_for(timeout=15000)
         # Streamlit scrolls inside its own container: a tall window shows the whole page.

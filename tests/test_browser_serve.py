@@ -13,17 +13,22 @@ from pathlib import Path
 
 import psutil
 import pytest
-
 from conftest import VENV_BIN
 
 CHROMIUM = "/usr/bin/chromium"
 ROOT = Path(__file__).resolve().parent.parent
 ARTIFACTS = ROOT / "test-artifacts"
-FLOW = ["Borrower and statements", "Asset trend and PD", "Facilities and exposure", "Recovery and LGD",
-        "Loss, capital and pricing", "What-if and scenarios", "Memo and files"]
+FLOW = [
+    "Borrower and statements",
+    "Asset trend and PD",
+    "Facilities and exposure",
+    "Recovery and LGD",
+    "Loss, capital and pricing",
+    "What-if and scenarios",
+    "Memo and files",
+]
 
-pytestmark = [pytest.mark.browser,
-              pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
+pytestmark = [pytest.mark.browser, pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
 
 
 def _free_port() -> int:
@@ -34,8 +39,11 @@ def _free_port() -> int:
 
 def _start(tmp_path: Path) -> tuple[subprocess.Popen[bytes], str]:
     port = _free_port()
-    proc = subprocess.Popen([str(VENV_BIN / "obligor-memo"), "app", "--port", str(port), "--workdir",
-                             str(tmp_path / "work")], stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    proc = subprocess.Popen(
+        [str(VENV_BIN / "obligor-memo"), "app", "--port", str(port), "--workdir", str(tmp_path / "work")],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
     url = f"http://127.0.0.1:{port}"
     deadline = time.time() + 40
     while time.time() < deadline:
@@ -50,8 +58,11 @@ def _start(tmp_path: Path) -> tuple[subprocess.Popen[bytes], str]:
 
 
 def _browser(p):
-    return p.chromium.launch(executable_path=CHROMIUM, headless=True,
-                             args=["--no-sandbox", "--headless=new", "--disable-gpu", "--disable-dev-shm-usage"])
+    return p.chromium.launch(
+        executable_path=CHROMIUM,
+        headless=True,
+        args=["--no-sandbox", "--headless=new", "--disable-gpu", "--disable-dev-shm-usage"],
+    )
 
 
 def test_sigterm_leaves_no_process_and_frees_the_port(tmp_path):
@@ -63,22 +74,23 @@ def test_sigterm_leaves_no_process_and_frees_the_port(tmp_path):
             browser = _browser(p)
             page = browser.new_page()
             page.goto(url + "/memo", wait_until="networkidle")
-            page.wait_for_timeout(4000)           # the memo page starts the chart browser
+            page.wait_for_timeout(4000)  # the memo page starts the chart browser
             browser.close()
         tree = [proc.pid] + [c.pid for c in psutil.Process(proc.pid).children(recursive=True)]
-        assert len(tree) >= 2                     # the command and Streamlit (and the chart browser)
+        assert len(tree) >= 2  # the command and Streamlit (and the chart browser)
         os.kill(proc.pid, signal.SIGTERM)
         proc.wait(timeout=30)
         deadline = time.time() + 20
-        while time.time() < deadline and any(psutil.pid_exists(pid) and psutil.Process(pid).status() != "zombie"
-                                             for pid in tree):
+        while time.time() < deadline and any(
+            psutil.pid_exists(pid) and psutil.Process(pid).status() != "zombie" for pid in tree
+        ):
             time.sleep(0.3)
         left = [pid for pid in tree if psutil.pid_exists(pid) and psutil.Process(pid).status() != "zombie"]
         assert left == [], [psutil.Process(pid).cmdline()[:2] for pid in left]
         port = int(url.rsplit(":", 1)[1])
-        with socket.socket() as s:              # free again, as a server binds it (connections
-            s.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)   # of the old one may linger
-            s.bind(("127.0.0.1", port))           # in TIME_WAIT): the next start would not fail
+        with socket.socket() as s:  # free again, as a server binds it (connections
+            s.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)  # of the old one may linger
+            s.bind(("127.0.0.1", port))  # in TIME_WAIT): the next start would not fail
             s.listen()
     finally:
         if proc.poll() is None:
@@ -104,7 +116,7 @@ def test_fresh_server_serves_a_page_address_with_only_the_flow_in_the_navigation
             assert [name for name in FLOW if name in nav] == FLOW
             for internal in ("ui", "whatif", "asset_pd", "steps", "main"):
                 assert internal not in nav.split("\n"), nav
-            assert "streamlit.io" not in page.content()       # no framework error page with its links
+            assert "streamlit.io" not in page.content()  # no framework error page with its links
             browser.close()
     finally:
         proc.send_signal(signal.SIGTERM)

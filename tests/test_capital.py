@@ -8,15 +8,14 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy.optimize import brentq
-from scipy.stats import norm
-
 from obligor_memo.engine.capital import (
     BASEL_II_PD_FLOOR,
     BASEL_SCALING_FACTOR,
     IrbCapital,
     irb_corporate_capital,
 )
+from scipy.optimize import brentq
+from scipy.stats import norm
 
 # Basel II (BCBS, June 2006, "International Convergence of Capital Measurement and
 # Capital Standards: A Revised Framework - Comprehensive Version"), Annex 5,

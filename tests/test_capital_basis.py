@@ -11,17 +11,15 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy import integrate
-from scipy.stats import norm
-
-from obligor_memo.engine.capital import (irb_corporate_capital, irb_corporate_correlation,
-                                         single_factor_capital)
+from obligor_memo.engine.capital import irb_corporate_capital, irb_corporate_correlation, single_factor_capital
 from obligor_memo.engine.case import parse_case
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.evaluate import evaluate
 from obligor_memo.engine.loss import borrower_unexpected_loss
 from obligor_memo.engine.lossdist import loss_distribution
 from obligor_memo.engine.recovery import recovery_law
+from scipy import integrate
+from scipy.stats import norm
 
 
 def _case(make_case, **sections):
@@ -40,13 +38,12 @@ def test_capital_uses_the_one_year_pd_of_the_model(make_case):
     data = _case(make_case, pd={"horizon_years": 2.0})
     r = evaluate(parse_case(data))
     p = r.pd
-    dd1 = (math.log(p.asset_value / p.default_point) + p.asset_return - p.asset_volatility**2 / 2) \
-        / p.asset_volatility
+    dd1 = (math.log(p.asset_value / p.default_point) + p.asset_return - p.asset_volatility**2 / 2) / p.asset_volatility
     assert p.pd_one_year == pytest.approx(norm.cdf(-dd1), rel=1e-12)
-    assert p.pd_one_year != pytest.approx(p.pd, rel=1e-3)          # the 2-year PD differs
+    assert p.pd_one_year != pytest.approx(p.pd, rel=1e-3)  # the 2-year PD differs
     f = r.facilities[0]
     assert f.capital_pd == max(p.pd_one_year, 0.0005)
-    assert f.expected_loss == pytest.approx(f.ead * p.pd * f.lgd, rel=1e-12)             # horizon EL
+    assert f.expected_loss == pytest.approx(f.ead * p.pd * f.lgd, rel=1e-12)  # horizon EL
     assert f.expected_loss_one_year == pytest.approx(f.ead * p.pd_one_year * f.lgd, rel=1e-12)
     assert r.total.pd_horizon == p.pd and r.total.pd_one_year == p.pd_one_year
     assert "pd.one_year" in {c.code for c in r.cautions}
@@ -55,8 +52,10 @@ def test_capital_uses_the_one_year_pd_of_the_model(make_case):
 @pytest.mark.parametrize("stated, horizon", [(1.0, 1.0), (1.0, 3.0), (5.0, 1.0), (5.0, 2.0)])
 def test_override_horizon_is_converted_at_a_constant_hazard(make_case, stated, horizon):
     # Constant hazard: 1 - PD_T = (1 - PD_1)^T (common practice; the term structure's own rule).
-    data = _case(make_case, pd={"horizon_years": horizon, "override": 0.10,
-                                "override_reason": "sector", "override_horizon_years": stated})
+    data = _case(
+        make_case,
+        pd={"horizon_years": horizon, "override": 0.10, "override_reason": "sector", "override_horizon_years": stated},
+    )
     r = evaluate(parse_case(data))
     annual = 1 - (1 - 0.10) ** (1 / stated)
     assert r.pd.pd_one_year == pytest.approx(annual, rel=1e-12)
@@ -80,16 +79,15 @@ def test_override_horizon_defaults_to_the_case_horizon(make_case):
 def test_single_factor_equals_irb_k_with_irb_inputs(pd, sales):
     # With the IRB correlation, q = 99.9 %, the same LGD and M = 1 the one-factor capital is the
     # IRB K (Basel II para 272; the check needs no other source).
-    irb = irb_corporate_capital(pd=pd, lgd=0.45, maturity_years=1.0, annual_sales_eur_millions=sales,
-                                pd_floor=0.0)
+    irb = irb_corporate_capital(pd=pd, lgd=0.45, maturity_years=1.0, annual_sales_eur_millions=sales, pd_floor=0.0)
     rho = irb_corporate_correlation(pd, sales)
     assert rho == pytest.approx(irb.correlation, rel=1e-14)
     assert single_factor_capital(pd=pd, lgd=0.45, correlation=rho) == pytest.approx(irb.k, rel=1e-12)
     # ... and with the maturity adjustment at any M, the IRB K at that M.
-    irb3 = irb_corporate_capital(pd=pd, lgd=0.45, maturity_years=3.0, annual_sales_eur_millions=sales,
-                                 pd_floor=0.0)
-    assert single_factor_capital(pd=pd, lgd=0.45, correlation=rho, maturity_years=3.0) == \
-        pytest.approx(irb3.k, rel=1e-12)
+    irb3 = irb_corporate_capital(pd=pd, lgd=0.45, maturity_years=3.0, annual_sales_eur_millions=sales, pd_floor=0.0)
+    assert single_factor_capital(pd=pd, lgd=0.45, correlation=rho, maturity_years=3.0) == pytest.approx(
+        irb3.k, rel=1e-12
+    )
 
 
 def test_single_factor_capital_against_the_vasicek_quantile():
@@ -97,8 +95,7 @@ def test_single_factor_capital_against_the_vasicek_quantile():
     # sqrt(1 - rho)); scipy.stats.norm as reference.
     pd, rho, q = 0.01, 0.15, 0.995
     expected = 0.6 * (norm.cdf((norm.ppf(pd) + math.sqrt(rho) * norm.ppf(q)) / math.sqrt(1 - rho)) - pd)
-    assert single_factor_capital(pd=pd, lgd=0.6, correlation=rho, confidence=q) == \
-        pytest.approx(expected, rel=1e-12)
+    assert single_factor_capital(pd=pd, lgd=0.6, correlation=rho, confidence=q) == pytest.approx(expected, rel=1e-12)
 
 
 @settings(max_examples=60, deadline=None)
@@ -154,12 +151,11 @@ def test_secured_lgd_on_the_covered_part_only(make_case):
     # Basel III CRE32 (foundation approach, collateralised exposures; from memory):
     # LGD* = LGD_S x covered share + LGD_U x uncovered share, LGD_S 20 %, LGD_U 40 %.
     data = make_case()
-    data["facilities"][0].update(seniority="senior_secured", drawn=50.0,
-                                 collateral={"value": 25.0, "haircut": 0.0})
+    data["facilities"][0].update(seniority="senior_secured", drawn=50.0, collateral={"value": 25.0, "haircut": 0.0})
     f = evaluate(parse_case(data)).facilities[0]
     assert f.collateral_cover == 0.5
-    assert f.lgd == pytest.approx(0.5 * 0.20 + 0.5 * 0.40, rel=1e-12)   # not 10 %
-    data["lgd"] = {"standard": "basel_ii"}   # Basel II paras 287, 295: 45 % and 35 %
+    assert f.lgd == pytest.approx(0.5 * 0.20 + 0.5 * 0.40, rel=1e-12)  # not 10 %
+    data["lgd"] = {"standard": "basel_ii"}  # Basel II paras 287, 295: 45 % and 35 %
     f = evaluate(parse_case(data)).facilities[0]
     assert f.lgd == pytest.approx(0.5 * 0.35 + 0.5 * 0.45, rel=1e-12)
 
@@ -173,7 +169,7 @@ def test_effective_maturity_and_foundation_ccf_options(make_case):
     data = _case(make_case, capital={"capital_ccf": "foundation"}, exposure={"ccf_standard": "basel_ii"})
     f = evaluate(parse_case(data)).facilities[0]
     assert f.capital_ccf == 0.75 and f.capital_ead == pytest.approx(30 + 0.75 * 20, rel=1e-15)
-    assert f.ccf == 0.5 and f.ead == pytest.approx(30 + 0.5 * 20, rel=1e-15)   # EL keeps its CCF
+    assert f.ccf == 0.5 and f.ead == pytest.approx(30 + 0.5 * 20, rel=1e-15)  # EL keeps its CCF
 
 
 def test_pd_floor_on_the_regulatory_el(make_case):
@@ -192,21 +188,45 @@ def test_pd_floor_on_the_regulatory_el(make_case):
 def _priced(make_case, facilities, **pricing):
     data = make_case()
     data["facilities"] = facilities
-    data["pricing"] = {"proposed_spread": 0.02, "base_rate": 0.03, "funding_spread": 0.005,
-                       "operating_cost_rate": 0.002, "hurdle_rate": 0.12, "capital_basis": "regulatory",
-                       **pricing}
+    data["pricing"] = {
+        "proposed_spread": 0.02,
+        "base_rate": 0.03,
+        "funding_spread": 0.005,
+        "operating_cost_rate": 0.002,
+        "hurdle_rate": 0.12,
+        "capital_basis": "regulatory",
+        **pricing,
+    }
     return evaluate(parse_case(data))
 
 
 def test_each_rate_on_its_amount(make_case):
     # Common practice: interest and funding on the drawn amount, commitment fee on the undrawn,
     # issuance fee on the amount issued; operating cost, EL and capital on the EAD.
-    r = _priced(make_case, [
-        {"id": "L", "kind": "revolver", "committed": 100.0, "drawn": 40.0, "seniority": "senior_unsecured",
-         "maturity_years": 3.0},
-        {"id": "G", "kind": "guarantee", "committed": 20.0, "drawn": 0.0, "seniority": "senior_unsecured",
-         "maturity_years": 2.0, "pricing": {"issuance_fee_rate": 0.015}},
-    ], commitment_fee_rate=0.004, issuance_fee_rate=0.01)
+    r = _priced(
+        make_case,
+        [
+            {
+                "id": "L",
+                "kind": "revolver",
+                "committed": 100.0,
+                "drawn": 40.0,
+                "seniority": "senior_unsecured",
+                "maturity_years": 3.0,
+            },
+            {
+                "id": "G",
+                "kind": "guarantee",
+                "committed": 20.0,
+                "drawn": 0.0,
+                "seniority": "senior_unsecured",
+                "maturity_years": 2.0,
+                "pricing": {"issuance_fee_rate": 0.015},
+            },
+        ],
+        commitment_fee_rate=0.004,
+        issuance_fee_rate=0.01,
+    )
     loan, gte = r.pricing.facilities
     fl, fg = r.facilities
     assert loan.interest_income == pytest.approx(0.05 * 40, rel=1e-12)
@@ -214,7 +234,7 @@ def test_each_rate_on_its_amount(make_case):
     assert loan.funding_cost == pytest.approx(0.035 * 40, rel=1e-12)
     assert loan.operating_cost == pytest.approx(0.002 * fl.ead, rel=1e-12)
     assert loan.expected_loss == pytest.approx(fl.expected_loss_one_year, rel=1e-12)
-    assert gte.issuance_fee_income == pytest.approx(0.015 * 20, rel=1e-12)    # facility's own rate
+    assert gte.issuance_fee_income == pytest.approx(0.015 * 20, rel=1e-12)  # facility's own rate
     assert gte.interest_income == 0 and gte.funding_cost == 0 and gte.minimum_spread is None
     raroc = (loan.income - loan.funding_cost - loan.operating_cost - loan.expected_loss) / fl.regulatory_capital
     assert loan.raroc == pytest.approx(raroc, rel=1e-12)
@@ -222,41 +242,79 @@ def test_each_rate_on_its_amount(make_case):
     assert rel.income == pytest.approx(loan.income + gte.income, rel=1e-12)
     assert rel.capital == pytest.approx(r.total.regulatory_capital, rel=1e-12)
     # The relationship's minimum spread brings its RAROC to the hurdle (the definition solved).
-    at_min = _priced(make_case, [
-        {"id": "L", "kind": "revolver", "committed": 100.0, "drawn": 40.0, "seniority": "senior_unsecured",
-         "maturity_years": 3.0},
-        {"id": "G", "kind": "guarantee", "committed": 20.0, "drawn": 0.0, "seniority": "senior_unsecured",
-         "maturity_years": 2.0, "pricing": {"issuance_fee_rate": 0.015}},
-    ], commitment_fee_rate=0.004, issuance_fee_rate=0.01, proposed_spread=rel.minimum_spread)
+    at_min = _priced(
+        make_case,
+        [
+            {
+                "id": "L",
+                "kind": "revolver",
+                "committed": 100.0,
+                "drawn": 40.0,
+                "seniority": "senior_unsecured",
+                "maturity_years": 3.0,
+            },
+            {
+                "id": "G",
+                "kind": "guarantee",
+                "committed": 20.0,
+                "drawn": 0.0,
+                "seniority": "senior_unsecured",
+                "maturity_years": 2.0,
+                "pricing": {"issuance_fee_rate": 0.015},
+            },
+        ],
+        commitment_fee_rate=0.004,
+        issuance_fee_rate=0.01,
+        proposed_spread=rel.minimum_spread,
+    )
     assert at_min.pricing.raroc == pytest.approx(0.12, abs=1e-9)
     assert r.pricing.raroc_economic is not None and r.pricing.raroc_regulatory == r.pricing.raroc
 
 
 @settings(max_examples=30, deadline=None)
-@given(st.floats(min_value=0.0, max_value=0.1), st.floats(min_value=0.0, max_value=0.2),
-       st.floats(min_value=1.0, max_value=1e6))
+@given(
+    st.floats(min_value=0.0, max_value=0.1),
+    st.floats(min_value=0.0, max_value=0.2),
+    st.floats(min_value=1.0, max_value=1e6),
+)
 def test_undrawn_revolver_earns_no_interest(spread, base, committed):
     # Property: a fully undrawn revolver's RAROC counts no interest or funding on money not lent.
     from tests.conftest import minimal_case_dict
 
     data = minimal_case_dict()
-    data["facilities"] = [{"id": "R", "kind": "revolver", "committed": committed, "drawn": 0.0,
-                           "seniority": "senior_unsecured", "maturity_years": 2.0}]
-    data["pricing"] = {"proposed_spread": spread, "base_rate": base, "commitment_fee_rate": 0.003,
-                       "capital_basis": "regulatory"}
+    data["facilities"] = [
+        {
+            "id": "R",
+            "kind": "revolver",
+            "committed": committed,
+            "drawn": 0.0,
+            "seniority": "senior_unsecured",
+            "maturity_years": 2.0,
+        }
+    ]
+    data["pricing"] = {
+        "proposed_spread": spread,
+        "base_rate": base,
+        "commitment_fee_rate": 0.003,
+        "capital_basis": "regulatory",
+    }
     r = evaluate(parse_case(data))
     p = r.pricing.facilities[0]
     assert p.interest_income == 0 and p.funding_cost == 0
     assert p.income == pytest.approx(0.003 * committed, rel=1e-12)
     if p.raroc is not None:
-        assert p.raroc == pytest.approx((p.income - p.operating_cost - p.expected_loss)
-                                        / r.facilities[0].regulatory_capital, rel=1e-9)
+        assert p.raroc == pytest.approx(
+            (p.income - p.operating_cost - p.expected_loss) / r.facilities[0].regulatory_capital, rel=1e-9
+        )
 
 
 def test_raroc_is_undefined_where_capital_is_zero(make_case):
-    data = _case(make_case, pd={"override": 0.0001, "override_reason": "x"},
-                 capital={"economic_method": "standalone"},
-                 pricing={"proposed_spread": 0.02, "capital_basis": "economic"})
+    data = _case(
+        make_case,
+        pd={"override": 0.0001, "override_reason": "x"},
+        capital={"economic_method": "standalone"},
+        pricing={"proposed_spread": 0.02, "capital_basis": "economic"},
+    )
     r = evaluate(parse_case(data))
     assert r.total.economic_capital == 0
     assert r.pricing.raroc is None and "undefined" in r.pricing.note
@@ -266,11 +324,18 @@ def test_raroc_is_undefined_where_capital_is_zero(make_case):
 
 def test_raroc_uses_one_year_el_and_capital(make_case):
     # A 2-year horizon must not mix annual income with 2-year EL.
-    one = evaluate(parse_case(_case(make_case, pd={"override": 0.02, "override_reason": "x"},
-                                    pricing={"proposed_spread": 0.02})))
-    two = evaluate(parse_case(_case(make_case, pd={"override": 0.02, "override_reason": "x",
-                                                   "horizon_years": 2.0, "override_horizon_years": 1.0},
-                                    pricing={"proposed_spread": 0.02})))
+    one = evaluate(
+        parse_case(_case(make_case, pd={"override": 0.02, "override_reason": "x"}, pricing={"proposed_spread": 0.02}))
+    )
+    two = evaluate(
+        parse_case(
+            _case(
+                make_case,
+                pd={"override": 0.02, "override_reason": "x", "horizon_years": 2.0, "override_horizon_years": 1.0},
+                pricing={"proposed_spread": 0.02},
+            )
+        )
+    )
     assert two.pricing.raroc == pytest.approx(one.pricing.raroc, rel=1e-12)
     assert two.total.expected_loss > one.total.expected_loss
 
@@ -278,8 +343,14 @@ def test_raroc_uses_one_year_el_and_capital(make_case):
 # --------------------------------------------------------------------------- findings 5, 6, 7
 
 
-LAWS_BELOW_ONE = [(0.3, 0.28, 1.0), (0.8, 0.35, 1.0), (0.5, 0.45, 1.0), (0.2, 0.15, 0.9),
-                  (0.6, 0.3, 1.1), (0.99, 0.09, 1.0)]
+LAWS_BELOW_ONE = [
+    (0.3, 0.28, 1.0),
+    (0.8, 0.35, 1.0),
+    (0.5, 0.45, 1.0),
+    (0.2, 0.15, 0.9),
+    (0.6, 0.3, 1.1),
+    (0.99, 0.09, 1.0),
+]
 
 
 # The reference's x-domain quadrature meets the singular densities at the ends and says so; the
@@ -305,14 +376,16 @@ def test_borrower_ul_and_es_match_adaptive_quadrature(first, second):
 
     def quad(f, a, b):
         edges = [a] + [p for p in points if a < p < b] + [b]
-        return sum(integrate.quad(f, lo, hi, epsabs=0, epsrel=1e-12, limit=500)[0]
-                   for lo, hi in zip(edges[:-1], edges[1:]))
+        return sum(
+            integrate.quad(f, lo, hi, epsabs=0, epsrel=1e-12, limit=500)[0] for lo, hi in zip(edges[:-1], edges[1:])
+        )
 
     mean = quad(g, 0, 1)
     second_moment = quad(lambda u: g(u) ** 2, 0, 1)
     ul_ref = math.sqrt(pd * second_moment - (pd * mean) ** 2)
-    ul = borrower_unexpected_loss(eads=eads, lgds=[law.lgd for law in laws],
-                                  lgd_stds=[law.std() for law in laws], pd=pd, laws=laws)
+    ul = borrower_unexpected_loss(
+        eads=eads, lgds=[law.lgd for law in laws], lgd_stds=[law.std() for law in laws], pd=pd, laws=laws
+    )
     assert ul == pytest.approx(ul_ref, rel=1e-6)
     u_star = (1 - q) / pd
     # ES in the recovery domain: integral_0^u* F^-1 = E[R 1{R <= F^-1(u*)}] = integral x f(x) dx.
@@ -320,8 +393,12 @@ def test_borrower_ul_and_es_match_adaptive_quadrature(first, second):
     for ref in refs:
         x_star = float(ref.ppf(u_star))
         edges = [0.0] + [x for x in (1e-9, 1e-6, 1e-3, 0.1, 0.5, 0.9) if x < x_star] + [x_star]
-        partial.append(sum(integrate.quad(lambda x: x * ref.pdf(x), lo, hi, epsabs=0, epsrel=1e-12,
-                                          limit=500)[0] for lo, hi in zip(edges[:-1], edges[1:])))
+        partial.append(
+            sum(
+                integrate.quad(lambda x: x * ref.pdf(x), lo, hi, epsabs=0, epsrel=1e-12, limit=500)[0]
+                for lo, hi in zip(edges[:-1], edges[1:])
+            )
+        )
     es_ref = pd / (1 - q) * sum(e * (u_star - part) for e, part in zip(eads, partial))
     assert es_ref == pytest.approx(pd / (1 - q) * quad(g, 0, u_star), rel=1e-6)
     dist = loss_distribution(pd=pd, exposures=eads, recovery_laws=laws, confidence=q)
@@ -348,8 +425,7 @@ def test_std_at_its_limit_computes_or_names_the_field(make_case, mean, upper, ga
 
 def test_recoveries_above_par_are_accepted_with_a_caution(make_case):
     data = make_case()
-    data["facilities"][0].update(kind="bond", drawn=50.0,
-                                 recovery={"mean": 0.9, "std": 0.2, "upper": 1.1})
+    data["facilities"][0].update(kind="bond", drawn=50.0, recovery={"mean": 0.9, "std": 0.2, "upper": 1.1})
     r = evaluate(parse_case(data))
     assert "recovery.above_par" in {c.code for c in r.cautions}
     law = r.laws["F1"]

@@ -7,7 +7,6 @@ import json
 
 import pydantic
 import pytest
-
 from obligor_memo.engine.case import Case, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError, Caution, Problem, show_value
 
@@ -81,13 +80,16 @@ def test_paragraph_counts_and_limits_problems() -> None:
     assert isinstance(single, ValueError)
 
 
-@pytest.mark.parametrize(("value", "shown"), [
-    ("euro", "'euro'"),
-    (None, "empty (null)"),
-    (0.1, "0.1"),
-    (float("nan"), "nan"),
-    (2019, "2019"),
-])
+@pytest.mark.parametrize(
+    ("value", "shown"),
+    [
+        ("euro", "'euro'"),
+        (None, "empty (null)"),
+        (0.1, "0.1"),
+        (float("nan"), "nan"),
+        (2019, "2019"),
+    ],
+)
 def test_show_value_is_unambiguous(value, shown) -> None:
     assert show_value(value) == shown
 

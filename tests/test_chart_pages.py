@@ -12,9 +12,8 @@ import stat
 import subprocess
 
 import pytest
-
-from obligor_memo.app.memo import chart_pages
 from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
+
 from tests.test_memo_svg import PLOT_LIKE
 
 needs_poppler = pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="needs poppler-utils")
@@ -22,9 +21,11 @@ needs_rsvg = pytest.mark.skipif(shutil.which("rsvg-convert") is None, reason="ne
 
 
 def _solid(width: int, height: int, colour: str) -> str:
-    return (f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
-            f'viewBox="0 0 {width} {height}"><rect x="0" y="0" width="{width}" height="{height}" '
-            f'fill="{colour}"/></svg>')
+    return (
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
+        f'viewBox="0 0 {width} {height}"><rect x="0" y="0" width="{width}" height="{height}" '
+        f'fill="{colour}"/></svg>'
+    )
 
 
 def _raster(pdf: bytes, tmp_path, name: str, page: int = 1, dpi: int = 72):
@@ -32,8 +33,23 @@ def _raster(pdf: bytes, tmp_path, name: str, page: int = 1, dpi: int = 72):
 
     path = tmp_path / f"{name}.pdf"
     path.write_bytes(pdf)
-    subprocess.run(["pdftoppm", "-r", str(dpi), "-png", "-singlefile", "-f", str(page), "-l", str(page),
-                    str(path), str(tmp_path / name)], check=True, capture_output=True)
+    subprocess.run(
+        [
+            "pdftoppm",
+            "-r",
+            str(dpi),
+            "-png",
+            "-singlefile",
+            "-f",
+            str(page),
+            "-l",
+            str(page),
+            str(path),
+            str(tmp_path / name),
+        ],
+        check=True,
+        capture_output=True,
+    )
     return Image.open(tmp_path / f"{name}.png").convert("RGB")
 
 
@@ -68,29 +84,37 @@ class _Drawn:
 def test_each_chart_lands_in_the_box_the_layout_gave_it(converter, monkeypatch, tmp_path, sample_case):
     """A blue chart in a full-width box, a red one in a half-width box further down: the coloured
     pixels of the printed page sit where WeasyPrint laid the boxes out, to a pixel."""
-    from weasyprint import HTML
-
     from obligor_memo.app import memo
     from obligor_memo.engine.evaluate import evaluate
+    from weasyprint import HTML
 
     if converter == "rsvg" and shutil.which("rsvg-convert") is None:
         pytest.skip("needs librsvg2-bin")
     monkeypatch.setenv(chart_pages.CONVERTER_VARIABLE, "" if converter == "rsvg" else "none")
     chart_pages._PAGES_CACHE.clear()
-    html = ("<body><p>before</p><img src='memo-chart:0' id='memo-chart-0' style='width: 100%'>"
-            "<p>between</p><img src='memo-chart:1' id='memo-chart-1' style='width: 50%; margin-left: 20mm'>"
-            "<p>after</p></body>")
+    html = (
+        "<body><p>before</p><img src='memo-chart:0' id='memo-chart-0' style='width: 100%'>"
+        "<p>between</p><img src='memo-chart:1' id='memo-chart-1' style='width: 50%; margin-left: 20mm'>"
+        "<p>after</p></body>"
+    )
     sizes = [(300, 200), (400, 100)]
     job = _Drawn([_solid(300, 200, "rgb(0,0,255)"), _solid(400, 100, "rgb(255,0,0)")], sizes)
-    pdf = render.html_to_pdf(html, results=evaluate(sample_case), page_size="A4", generated_at="2031-01-02",
-                           allowed_data_uris=set(), charts=job)
+    pdf = render.html_to_pdf(
+        html,
+        results=evaluate(sample_case),
+        page_size="A4",
+        generated_at="2031-01-02",
+        allowed_data_uris=set(),
+        charts=job,
+    )
     # The boxes as WeasyPrint lays out the same HTML with the same stand-ins [CSS px].
     laid_out = HTML(string=html, url_fetcher=fetch.memo_fetcher(set(), sizes)).render(
-        stylesheets=[templates.TEMPLATES_DIR / "memo.css"])
+        stylesheets=[templates.TEMPLATES_DIR / "memo.css"]
+    )
     anchors = laid_out.pages[0].anchors
     page = _raster(pdf, tmp_path, "placed")
     for anchor, colour in (("memo-chart-0", (0, 0, 255)), ("memo-chart-1", (255, 0, 0))):
-        x1, y1, x2, y2 = (v * 0.75 for v in anchors[anchor])     # CSS px -> pt = pixels at 72 dpi
+        x1, y1, x2, y2 = (v * 0.75 for v in anchors[anchor])  # CSS px -> pt = pixels at 72 dpi
         found = _box_of(page, colour)
         assert found is not None, anchor
         assert found == pytest.approx((x1, y1, x2, y2), abs=1.5), (anchor, found)
@@ -107,10 +131,9 @@ def test_both_converters_draw_the_same_chart(monkeypatch, tmp_path):
     for setting in ("", "none"):
         monkeypatch.setenv(chart_pages.CONVERTER_VARIABLE, setting)
         chart_pages._PAGES_CACHE.clear()
-        pictures[setting or "rsvg"] = _raster(chart_pages.charts_pdf([PLOT_LIKE]), tmp_path,
-                                              setting or "rsvg", dpi=96)
+        pictures[setting or "rsvg"] = _raster(chart_pages.charts_pdf([PLOT_LIKE]), tmp_path, setting or "rsvg", dpi=96)
     rsvg, weasy = pictures["rsvg"], pictures["none"]
-    assert rsvg.size == weasy.size == (300, 200)      # 300 x 200 px at 96 dpi
+    assert rsvg.size == weasy.size == (300, 200)  # 300 x 200 px at 96 dpi
     assert ImageChops.difference(rsvg, Image.new("RGB", rsvg.size, "white")).getbbox()
     mean_difference = sum(ImageStat.Stat(ImageChops.difference(rsvg, weasy)).mean) / 3
     assert mean_difference < 4.0, mean_difference
@@ -127,14 +150,21 @@ def test_pages_follow_the_charts_and_repeat_byte_for_byte(monkeypatch):
     chart_pages._PAGES_CACHE.clear()
     first = chart_pages.charts_pdf(svgs)
     chart_pages._PAGES_CACHE.clear()
-    assert chart_pages.charts_pdf(svgs) == first          # fixed SOURCE_DATE_EPOCH
+    assert chart_pages.charts_pdf(svgs) == first  # fixed SOURCE_DATE_EPOCH
     sizes = [tuple(float(v) for v in page.mediabox[2:]) for page in PdfReader(io.BytesIO(first)).pages]
-    assert sizes == [(225.0, 150.0), (570.0, 315.0), (225.0, 150.0)]     # px x 0.75 = pt
+    assert sizes == [(225.0, 150.0), (570.0, 315.0), (225.0, 150.0)]  # px x 0.75 = pt
 
 
-@pytest.mark.parametrize("url", ["file:///etc/passwd", "http://example.invalid/x.png",
-                                 "https://example.invalid/", "data:text/html;base64,PHA+eDwvcD4=",
-                                 "chart-1.svg"])
+@pytest.mark.parametrize(
+    "url",
+    [
+        "file:///etc/passwd",
+        "http://example.invalid/x.png",
+        "https://example.invalid/",
+        "data:text/html;base64,PHA+eDwvcD4=",
+        "chart-1.svg",
+    ],
+)
 def test_a_chart_may_not_refer_outside_itself(url):
     svg = PLOT_LIKE.replace("<defs", f'<image href="{url}" width="5" height="5"/><defs', 1)
     with pytest.raises(chart_pages.ChartPagesError, match="only use their own parts"):

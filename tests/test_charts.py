@@ -8,13 +8,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from scipy import integrate, stats
-
 from obligor_memo.app import charts
-
 from obligor_memo.app.charts import whatif as charts_whatif
 from obligor_memo.engine.evaluate import evaluate
 from obligor_memo.engine.loading import load_case
+from scipy import integrate, stats
 
 SAMPLE = Path(__file__).resolve().parent.parent / "sample_data" / "hollowmere.yaml"
 
@@ -54,10 +52,16 @@ def test_series_differ_by_more_than_colour(results):
             line = getattr(t, "line", None)
             marker = getattr(t, "marker", None)
             pattern = getattr(marker, "pattern", None) if marker is not None else None
-            looks.append((t.type, getattr(t, "mode", None), getattr(line, "dash", None) if line else None,
-                          str(getattr(marker, "symbol", None)) if marker is not None else None,
-                          getattr(pattern, "shape", None) if pattern is not None else None,
-                          getattr(marker, "color", None) if t.type == "bar" else None))
+            looks.append(
+                (
+                    t.type,
+                    getattr(t, "mode", None),
+                    getattr(line, "dash", None) if line else None,
+                    str(getattr(marker, "symbol", None)) if marker is not None else None,
+                    getattr(pattern, "shape", None) if pattern is not None else None,
+                    getattr(marker, "color", None) if t.type == "bar" else None,
+                )
+            )
         assert len(set(looks)) == len(looks), f"{name}: two series look alike in grayscale"
 
 
@@ -183,9 +187,17 @@ def test_what_if_figures_have_units_and_differ_by_more_than_colour(analysed):
         if name == "scenarios":
             titles.append(fig.layout.xaxis2.title.text)
         assert any("[" in t for t in titles), (name, titles)
-        looks = [(t.type, getattr(t, "mode", None), str(getattr(getattr(t, "marker", None), "symbol", None)),
-                  getattr(getattr(getattr(t, "marker", None), "pattern", None), "shape", None),
-                  getattr(getattr(t, "line", None), "dash", None), t.xaxis) for t in fig.data]
+        looks = [
+            (
+                t.type,
+                getattr(t, "mode", None),
+                str(getattr(getattr(t, "marker", None), "symbol", None)),
+                getattr(getattr(getattr(t, "marker", None), "pattern", None), "shape", None),
+                getattr(getattr(t, "line", None), "dash", None),
+                t.xaxis,
+            )
+            for t in fig.data
+        ]
         assert len(set(looks)) == len(looks), f"{name}: two series look alike in grayscale"
 
 
@@ -194,7 +206,7 @@ def test_tornado_bar_ends_are_the_tables_values(analysed, measure, low, high):
     fig = charts.sensitivity_figure(analysed, measure=measure)
     title = fig.layout.xaxis.title.text
     # The axis says its unit: money in EUR thousands or millions, PD as a fraction shown in %.
-    scale = {"[EUR m]": 1e6, "[EUR k]": 1e3, "[%]": 1.0}[title[title.index("["):]]
+    scale = {"[EUR m]": 1e6, "[EUR k]": 1e3, "[%]": 1.0}[title[title.index("[") :]]
     down, up = fig.data[0], fig.data[1]
     table = {charts_whatif._row_label(r): r for r in analysed.sensitivity.rows}
     base = (analysed.sensitivity.el_base if measure == "el" else analysed.sensitivity.pd_base) / scale
@@ -205,7 +217,7 @@ def test_tornado_bar_ends_are_the_tables_values(analysed, measure, low, high):
         assert down.base + dx == pytest.approx(getattr(row, low) / scale, rel=1e-12)
         assert up.base + ux == pytest.approx(getattr(row, high) / scale, rel=1e-12)
     swings = [abs(getattr(table[y], high) - getattr(table[y], low)) for y in down.y]
-    assert swings == sorted(swings)           # plotly's first row is the bottom: largest on top
+    assert swings == sorted(swings)  # plotly's first row is the bottom: largest on top
 
 
 def test_tornado_labels_name_the_moved_input(analysed):
@@ -228,8 +240,9 @@ def test_tornado_labels_name_the_moved_input(analysed):
 
 def test_tornado_row_whose_point_failed_shows_the_note(analysed):
     sens = analysed.sensitivity
-    row = dataclasses.replace(sens.rows[0], el_high=None, pd_high=None,
-                              note="the up case does not validate: pd.horizon_years too long")
+    row = dataclasses.replace(
+        sens.rows[0], el_high=None, pd_high=None, note="the up case does not validate: pd.horizon_years too long"
+    )
     broken = dataclasses.replace(analysed, sensitivity=dataclasses.replace(sens, rows=(row,) + sens.rows[1:]))
     fig = charts.sensitivity_figure(broken)
     label = charts_whatif._row_label(row)
@@ -264,15 +277,16 @@ def test_heat_map_cells_match_merton_distance_to_default_by_scipy(analysed):
         dp = p.short_term_share * latest.short_term_liabilities + b * latest.long_term_liabilities
         dd = (np.log(p.asset_value / dp) + p.asset_growth * p.horizon_years) / (s * np.sqrt(p.horizon_years))
         # rel 1e-9 in the log: two routes to the same normal tail.
-        assert heat.z[iy][ix] == pytest.approx(np.log10(max(stats.norm.sf(dd), charts_whatif.PD_COLOUR_FLOOR)),
-                                               rel=1e-9)
+        assert heat.z[iy][ix] == pytest.approx(
+            np.log10(max(stats.norm.sf(dd), charts_whatif.PD_COLOUR_FLOOR)), rel=1e-9
+        )
 
 
 def test_heat_map_log_scale_ticks_are_decades(analysed):
     bar = charts.pd_grid_figure(analysed).data[0].colorbar
     vals = np.asarray(bar.tickvals)
     assert np.allclose(vals, np.round(vals)) and len(vals) >= 2
-    assert bar.ticktext[0].startswith("\u2264")   # the floor is an "at most", not an exact PD
+    assert bar.ticktext[0].startswith("\u2264")  # the floor is an "at most", not an exact PD
 
 
 def test_scenarios_figure_shows_the_engines_scenarios(analysed):
@@ -281,6 +295,9 @@ def test_scenarios_figure_shows_the_engines_scenarios(analysed):
     names = ["Base case"] + [s.name for s in analysed.scenarios]
     assert list(pd_dots.y) == names and list(el_dots.y) == names
     assert list(pd_dots.x) == [analysed.pd.pd] + [s.figures.pd for s in analysed.scenarios]
-    np.testing.assert_allclose(el_dots.x, [analysed.total.expected_loss / 1e6]
-                               + [s.figures.expected_loss / 1e6 for s in analysed.scenarios], rtol=1e-12)
+    np.testing.assert_allclose(
+        el_dots.x,
+        [analysed.total.expected_loss / 1e6] + [s.figures.expected_loss / 1e6 for s in analysed.scenarios],
+        rtol=1e-12,
+    )
     assert "EUR m" in fig.layout.xaxis2.title.text

@@ -8,12 +8,20 @@ import sys
 from pathlib import Path
 
 import pytest
-
 from conftest import ROOT, SAMPLE_CASE, VENV_BIN, minimal_case_dict, write_case
 
 CONTRACT = {
-    "pd": {"method", "asset_value", "asset_growth", "asset_volatility", "default_point",
-           "distance_to_default", "pd", "horizon_years", "grade"},
+    "pd": {
+        "method",
+        "asset_value",
+        "asset_growth",
+        "asset_volatility",
+        "default_point",
+        "distance_to_default",
+        "pd",
+        "horizon_years",
+        "grade",
+    },
     "facility": {"id", "ead", "ccf", "lgd", "expected_loss", "unexpected_loss", "risk_weight", "rwa"},
     "total": {"ead", "expected_loss", "unexpected_loss", "rwa", "economic_capital"},
 }
@@ -50,9 +58,10 @@ def runs(tmp_path_factory) -> dict[str, subprocess.CompletedProcess[str]]:
     }
     commands = {name: [*_command(), *args] for name, args in scenarios.items()}
     commands["modules"] = [sys.executable, "-c", _MODULES_PROBE]
-    started = {name: subprocess.Popen(command, cwd=ROOT, stdout=subprocess.PIPE,
-                                      stderr=subprocess.PIPE, text=True)
-               for name, command in commands.items()}
+    started = {
+        name: subprocess.Popen(command, cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+        for name, command in commands.items()
+    }
     done = {}
     for name, process in started.items():
         out, err = process.communicate(timeout=120)
@@ -70,7 +79,6 @@ def sample_json(runs) -> dict:
 def invoke(*args: str):
     """In-process run through click's test runner (same code path, no interpreter start)."""
     from click.testing import CliRunner
-
     from obligor_memo.app.cli import main
 
     return CliRunner().invoke(main, list(args))
@@ -119,10 +127,13 @@ def test_bad_case_exits_2_with_one_paragraph(runs) -> None:
     assert "Traceback" not in done.stderr
 
 
-@pytest.mark.parametrize(("text", "field"), [
-    ("borrower: {name: A, currency: EUR\n", "case.yaml, line 2"),
-    ("borrower: {name: A, name: B}\n", "case.yaml, line 1"),
-])
+@pytest.mark.parametrize(
+    ("text", "field"),
+    [
+        ("borrower: {name: A, currency: EUR\n", "case.yaml, line 2"),
+        ("borrower: {name: A, name: B}\n", "case.yaml, line 1"),
+    ],
+)
 def test_broken_yaml_exits_2(tmp_path: Path, text: str, field: str) -> None:
     path = tmp_path / "case.yaml"
     path.write_text(text)

@@ -16,8 +16,8 @@ from fractions import Fraction
 
 import pytest
 from click.testing import CliRunner
-from hypothesis import given, settings, strategies as st
-
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from obligor_memo.app.cli import main
 from obligor_memo.engine import compare as cmp
 from obligor_memo.engine.case import case_to_dict, parse_case
@@ -80,8 +80,13 @@ def test_every_figure_sums_to_its_change_across_many_blocks(sample_case, sample_
     c = compare_cases(sample_case, parse_case(d))
     assert c.evaluations == 32
     assert_sums(c)
-    assert {b.block for b in c.attribution if b.changes} == {"statements", "pd", "facilities", "recovery",
-                                                             "capital_pricing"}
+    assert {b.block for b in c.attribution if b.changes} == {
+        "statements",
+        "pd",
+        "facilities",
+        "recovery",
+        "capital_pricing",
+    }
     # pricing moves RAROC only; the PD is moved only by statements and PD assumptions
     pricing = next(b for b in c.attribution if b.block == "capital_pricing")
     assert next(b for b in c.attribution if b.block == "recovery").deltas["pd"] == 0
@@ -135,7 +140,7 @@ def test_memo_pdfs_are_read_as_inputs(tmp_path, sample_case_path, sample_dict):
     new_path.write_text(json.dumps(rolled(sample_dict)))
     from_pdf = json.loads(runner.invoke(main, ["compare", str(pdf), str(new_path), "--json"]).output)
     from_yaml = json.loads(runner.invoke(main, ["compare", str(sample_case_path), str(new_path), "--json"]).output)
-    assert from_pdf == from_yaml                       # same engine version: OLD recomputed exactly
+    assert from_pdf == from_yaml  # same engine version: OLD recomputed exactly
     same = json.loads(runner.invoke(main, ["compare", str(pdf), str(pdf), "--json"]).output)
     assert all(v == 0 for v in same["change"].values())
 
@@ -145,8 +150,7 @@ def test_an_older_engine_shows_the_method_effect_as_its_own_block(sample_case, s
 
     figures = cmp.key_figures(evaluate(sample_case, detail=False))
     printed = {k: (v * 1.01 if isinstance(v, float) else v) for k, v in figures.items()}
-    c = compare_cases(sample_case, parse_case(rolled(sample_dict)),
-                      old_recorded=RecordedFigures("0.0.9", printed))
+    c = compare_cases(sample_case, parse_case(rolled(sample_dict)), old_recorded=RecordedFigures("0.0.9", printed))
     engine = c.attribution[-1]
     assert engine.block == "engine" and "0.0.9" in engine.label
     assert engine.deltas["expected_loss"] == pytest.approx(figures["expected_loss"] - printed["expected_loss"])
@@ -157,9 +161,10 @@ def test_an_older_engine_shows_the_method_effect_as_its_own_block(sample_case, s
 def test_a_hybrid_that_does_not_validate_joins_its_blocks(make_case):
     old_d = make_case()
     new_d = copy.deepcopy(old_d)
-    new_d["statements"].append({"year": 2024, "total_assets": 125.0, "short_term_liabilities": 82.0,
-                                "long_term_liabilities": 30.0})
-    new_d["pd"] = {"window_years": 5}          # longer than OLD's four years: that hybrid is invalid
+    new_d["statements"].append(
+        {"year": 2024, "total_assets": 125.0, "short_term_liabilities": 82.0, "long_term_liabilities": 30.0}
+    )
+    new_d["pd"] = {"window_years": 5}  # longer than OLD's four years: that hybrid is invalid
     c = compare_cases(parse_case(old_d), parse_case(new_d))
     assert [b.block for b in c.attribution if b.changes] == ["statements+pd"]
     assert any("Joined" in n for n in c.notes)
@@ -186,8 +191,9 @@ def test_different_currencies_are_refused_naming_the_field(sample_case, sample_d
 
 
 def games(max_players=6):
-    return st.integers(1, max_players).flatmap(lambda n: st.tuples(
-        st.just(n), st.lists(st.floats(-1e6, 1e6, allow_nan=False), min_size=2 ** n, max_size=2 ** n)))
+    return st.integers(1, max_players).flatmap(
+        lambda n: st.tuples(st.just(n), st.lists(st.floats(-1e6, 1e6, allow_nan=False), min_size=2**n, max_size=2**n))
+    )
 
 
 def as_game(n, values):

@@ -5,7 +5,6 @@ from __future__ import annotations
 import csv
 
 import pytest
-
 from conftest import SAMPLE_CASE, SAMPLE_STATEMENTS
 from obligor_memo.engine.credit_metrics import credit_metrics, credit_year
 from obligor_memo.engine.evaluate import evaluate
@@ -21,19 +20,33 @@ def test_definitions_on_a_worked_year():
     # Hand example (common practice): debt 300, cash 50 -> net debt 250; EBITDA 100 -> 2.5x;
     # interest 20 -> cover 5x; equity 150 -> debt/equity 2x; sales 400 -> margin 25 %;
     # operating cash flow 80, capex 30 -> free cash flow 50.
-    y = credit_year(Row(year=2024, sales=400.0, ebitda=100.0, cash=50.0, total_debt=300.0, interest_expense=20.0,
-                        book_equity=150.0, operating_cash_flow=80.0, capital_expenditure=30.0))
+    y = credit_year(
+        Row(
+            year=2024,
+            sales=400.0,
+            ebitda=100.0,
+            cash=50.0,
+            total_debt=300.0,
+            interest_expense=20.0,
+            book_equity=150.0,
+            operating_cash_flow=80.0,
+            capital_expenditure=30.0,
+        )
+    )
     assert (y.net_debt, y.net_debt_to_ebitda, y.interest_cover, y.debt_to_equity) == (250.0, 2.5, 5.0, 2.0)
     assert (y.ebitda_margin, y.free_cash_flow, y.revenue) == (0.25, 50.0, 400.0)
 
 
-@pytest.mark.parametrize(("values", "missing"), [
-    ({"ebitda": -5.0, "total_debt": 100.0, "cash": 10.0}, "net_debt_to_ebitda"),   # negative EBITDA: undefined
-    ({"ebitda": 10.0, "interest_expense": 0.0}, "interest_cover"),
-    ({"total_debt": 10.0, "book_equity": -1.0}, "debt_to_equity"),
-    ({"operating_cash_flow": 10.0}, "free_cash_flow"),
-    ({"total_debt": 10.0}, "net_debt"),
-])
+@pytest.mark.parametrize(
+    ("values", "missing"),
+    [
+        ({"ebitda": -5.0, "total_debt": 100.0, "cash": 10.0}, "net_debt_to_ebitda"),  # negative EBITDA: undefined
+        ({"ebitda": 10.0, "interest_expense": 0.0}, "interest_cover"),
+        ({"total_debt": 10.0, "book_equity": -1.0}, "debt_to_equity"),
+        ({"operating_cash_flow": 10.0}, "free_cash_flow"),
+        ({"total_debt": 10.0}, "net_debt"),
+    ],
+)
 def test_undefined_or_missing_inputs_give_none(values, missing):
     assert getattr(credit_year(Row(year=2024, **values)), missing) is None
 
@@ -47,7 +60,7 @@ def test_sample_metrics_match_its_statements_file():
         assert metrics.net_debt_to_ebitda == pytest.approx(net_debt / float(row["ebitda"]), rel=1e-12)
         assert metrics.interest_cover == pytest.approx(float(row["ebitda"]) / float(row["interest_expense"]), rel=1e-12)
     latest = results.credit_metrics[-1]
-    assert latest.net_debt_to_ebitda < 4.0          # the sample's proposed covenant holds today
+    assert latest.net_debt_to_ebitda < 4.0  # the sample's proposed covenant holds today
     assert results.to_dict()["credit_metrics"][-1]["year"] == latest.year
 
 

@@ -18,7 +18,6 @@ import time
 from pathlib import Path
 
 import pytest
-
 from obligor_memo.app.workbench.state import autosave_path, new_case_id, restore
 from obligor_memo.engine.case import parse_case
 
@@ -44,12 +43,16 @@ WRITER = textwrap.dedent("""
 
 
 def _kill_after(workdir: Path, case_id: str, delay: float) -> None:
-    proc = subprocess.Popen([sys.executable, "-c", WRITER, str(workdir), case_id, str(ROOT)],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, cwd=ROOT)
+    proc = subprocess.Popen(
+        [sys.executable, "-c", WRITER, str(workdir), case_id, str(ROOT)],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        cwd=ROOT,
+    )
     assert proc.stdout.readline().strip() == b"ready", proc.stderr.read().decode()
     time.sleep(delay)
     os.kill(proc.pid, signal.SIGKILL)
-    proc.communicate(timeout=10)                 # reads and closes both pipes
+    proc.communicate(timeout=10)  # reads and closes both pipes
     assert proc.returncode == -signal.SIGKILL
 
 

@@ -5,7 +5,6 @@ from __future__ import annotations
 import logging
 
 import pytest
-
 from obligor_memo.engine.errors import CaseError, InputError, Problem
 from obligor_memo.engine.pd_estimate import engine_error
 from obligor_memo.engine.structural import default_point
@@ -28,8 +27,9 @@ def test_engine_error_reads_the_attributes_not_the_text():
     err = InputError("pd.asset_volatility", 0.0, "a volatility above 0: set pd.asset_volatility")
     case_error = engine_error("statements", err)
     assert isinstance(case_error, CaseError)
-    assert case_error.problems == (Problem("pd.asset_volatility", 0.0,
-                                           "a volatility above 0: set pd.asset_volatility"),)
+    assert case_error.problems == (
+        Problem("pd.asset_volatility", 0.0, "a volatility above 0: set pd.asset_volatility"),
+    )
 
 
 def test_a_plain_value_error_is_reported_on_the_given_field_whole():
@@ -39,8 +39,13 @@ def test_a_plain_value_error_is_reported_on_the_given_field_whole():
 
 def test_trend_step_error_reaches_the_user_with_its_field():
     with pytest.raises(InputError) as caught:
-        fit_asset_trend(years=[2020, 2021], total_assets=[1.0, 2.0], window_years=None,
-                        growth_override=None, volatility_override=None)
+        fit_asset_trend(
+            years=[2020, 2021],
+            total_assets=[1.0, 2.0],
+            window_years=None,
+            growth_override=None,
+            volatility_override=None,
+        )
     assert caught.value.field == "statements"
     assert "pd.asset_volatility" in caught.value.allowed
 

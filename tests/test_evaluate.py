@@ -8,11 +8,10 @@ import math
 
 import numpy as np
 import pytest
-from scipy import stats
-
 from obligor_memo.engine.case import case_to_dict, parse_case
 from obligor_memo.engine.evaluate import evaluate
 from obligor_memo.engine.loss import borrower_unexpected_loss
+from scipy import stats
 
 
 def test_totals_equal_sums(sample_results) -> None:
@@ -40,13 +39,14 @@ def test_borrower_ul_is_the_exact_comonotonic_std(sample_results) -> None:
     from scipy import integrate
 
     laws = [sample_results.laws[x.id] for x in f]
-    second = integrate.quad(lambda u: sum(x.ead * (1 - float(law.ppf(u))) for x, law in zip(f, laws)) ** 2,
-                            0, 1, epsrel=1e-11, limit=400)[0]
+    second = integrate.quad(
+        lambda u: sum(x.ead * (1 - float(law.ppf(u))) for x, law in zip(f, laws)) ** 2, 0, 1, epsrel=1e-11, limit=400
+    )[0]
     mean = sum(x.ead * x.lgd for x in f)
     expected = math.sqrt(pd * second - (pd * mean) ** 2)
     assert sample_results.total.unexpected_loss == pytest.approx(expected, rel=1e-8)
     # Below the bound with perfectly correlated LGDs, sqrt(PD (sum EAD sigma)^2 + E[S]^2 PD (1 - PD)).
-    bound = math.sqrt(pd * sum(x.ead * x.lgd_std for x in f) ** 2 + mean ** 2 * pd * (1 - pd))
+    bound = math.sqrt(pd * sum(x.ead * x.lgd_std for x in f) ** 2 + mean**2 * pd * (1 - pd))
     assert sample_results.total.unexpected_loss <= bound * (1 + 1e-12)
     assert sample_results.total.unexpected_loss_sum == pytest.approx(sum(x.unexpected_loss for x in f))
     # Never below the largest single facility's UL, never above their sum.
@@ -78,7 +78,7 @@ def test_sample_facility_figures(sample_case, sample_results) -> None:
     # The revolver takes the Basel III commitment CCF of 40 % (from memory, CRE20).
     assert by_id["RCF-1"].ccf == 0.40
     assert by_id["RCF-1"].ead == pytest.approx(22e6 + 0.4 * 38e6, rel=1e-15)
-    assert by_id["GTE-SF"].ead == pytest.approx(15e6, rel=1e-15)   # guarantee: 100 %
+    assert by_id["GTE-SF"].ead == pytest.approx(15e6, rel=1e-15)  # guarantee: 100 %
     assert by_id["LC-IMP"].ead == pytest.approx(1.6e6, rel=1e-15)  # trade LC: 20 %
     # TL-A: collateral 90m less a 40 % haircut covers 54m of 120m. The covered part takes the
     # secured LGD_S of 20 % (Basel III CRE32, foundation approach; from memory), the rest recovers
@@ -107,27 +107,36 @@ def test_override_pd_is_used_downstream(make_case) -> None:
     f = results.facilities[0]
     assert f.expected_loss == pytest.approx(f.ead * 0.05 * f.lgd, rel=1e-12)
     assert f.unexpected_loss == pytest.approx(
-        f.ead * math.sqrt(0.05 * f.lgd_std**2 + f.lgd**2 * 0.05 * 0.95), rel=1e-12)
+        f.ead * math.sqrt(0.05 * f.lgd_std**2 + f.lgd**2 * 0.05 * 0.95), rel=1e-12
+    )
     assert f.capital_pd == 0.05
     # One facility: the exact comonotonic std (quadrature, ~1e-10) equals the closed form.
-    assert results.total.unexpected_loss == pytest.approx(borrower_unexpected_loss(
-        eads=[f.ead], lgds=[f.lgd], lgd_stds=[f.lgd_std], pd=0.05), rel=1e-8)
+    assert results.total.unexpected_loss == pytest.approx(
+        borrower_unexpected_loss(eads=[f.ead], lgds=[f.lgd], lgd_stds=[f.lgd_std], pd=0.05), rel=1e-8
+    )
     assert results.pd.grade_lower < 0.05 <= results.pd.grade_upper
     # The term structure is built from the override (constant hazard), so year 1 is the override.
     assert results.term_structure.cumulative[0] == pytest.approx(0.05, rel=1e-12)
     assert "pd.override" in {c.code for c in results.cautions}
 
 
-@pytest.mark.parametrize(("change", "code"), [
-    (lambda d: None, "trend.short_history"),
-    (lambda d: d["facilities"][0].update(drawn=60.0), "exposure.overdrawn"),
-    (lambda d: d.update(pd={"override": 0.0001, "override_reason": "Parent guarantee"}), "capital.pd_floor"),
-    (lambda d: d.update(pd={"override": 0.0001, "override_reason": "Parent guarantee"}),
-     "capital.economic_floor"),
-    (lambda d: d.update(pricing={"proposed_spread": 0.02}, capital={"economic_method": "standalone"},
-                        pd={"override": 0.0001, "override_reason": "Parent guarantee"}),
-     "pricing.undefined"),
-])
+@pytest.mark.parametrize(
+    ("change", "code"),
+    [
+        (lambda d: None, "trend.short_history"),
+        (lambda d: d["facilities"][0].update(drawn=60.0), "exposure.overdrawn"),
+        (lambda d: d.update(pd={"override": 0.0001, "override_reason": "Parent guarantee"}), "capital.pd_floor"),
+        (lambda d: d.update(pd={"override": 0.0001, "override_reason": "Parent guarantee"}), "capital.economic_floor"),
+        (
+            lambda d: d.update(
+                pricing={"proposed_spread": 0.02},
+                capital={"economic_method": "standalone"},
+                pd={"override": 0.0001, "override_reason": "Parent guarantee"},
+            ),
+            "pricing.undefined",
+        ),
+    ],
+)
 def test_cautions(make_case, change, code) -> None:
     data = make_case()
     change(data)

@@ -8,7 +8,6 @@ import json
 import openpyxl
 import pytest
 from click.testing import CliRunner
-
 from conftest import SAMPLE_CASE
 from obligor_memo.app.cli import main
 
@@ -54,8 +53,18 @@ def test_every_facility_figure_equals_the_json(exported):
 
 def test_sheets_have_frozen_headers_and_the_statements_their_unit(exported):
     _, book, reference = exported
-    assert {"inputs", "statements", "facilities", "totals", "pd", "term structure", "sensitivity", "pd grid",
-            "scenarios", "credit metrics"} <= set(book.sheetnames)
+    assert {
+        "inputs",
+        "statements",
+        "facilities",
+        "totals",
+        "pd",
+        "term structure",
+        "sensitivity",
+        "pd grid",
+        "scenarios",
+        "credit metrics",
+    } <= set(book.sheetnames)
     assert all(book[name].freeze_panes == "A2" for name in book.sheetnames)
     statements = book["statements"]
     header = [c.value for c in statements[1]]

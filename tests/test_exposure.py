@@ -3,18 +3,20 @@
 from __future__ import annotations
 
 import pytest
-
 from obligor_memo.engine.exposure import ccf_preset, exposure_at_default, facility_exposure, resolve_ccf
 
 
-@pytest.mark.parametrize(("drawn", "committed", "ccf", "expected"), [
-    (30.0, 50.0, 0.4, 30.0 + 0.4 * 20.0),
-    (0.0, 100.0, 1.0, 100.0),        # an undrawn guarantee converts in full
-    (0.0, 100.0, 0.0, 0.0),
-    (50.0, 50.0, 0.75, 50.0),        # fully drawn: nothing left to convert
-    (60.0, 50.0, 0.4, 60.0),         # overdrawn: the undrawn part is max(committed - drawn, 0)
-    (22e6, 60e6, 0.4, 37.2e6),
-])
+@pytest.mark.parametrize(
+    ("drawn", "committed", "ccf", "expected"),
+    [
+        (30.0, 50.0, 0.4, 30.0 + 0.4 * 20.0),
+        (0.0, 100.0, 1.0, 100.0),  # an undrawn guarantee converts in full
+        (0.0, 100.0, 0.0, 0.0),
+        (50.0, 50.0, 0.75, 50.0),  # fully drawn: nothing left to convert
+        (60.0, 50.0, 0.4, 60.0),  # overdrawn: the undrawn part is max(committed - drawn, 0)
+        (22e6, 60e6, 0.4, 37.2e6),
+    ],
+)
 def test_ead_is_drawn_plus_ccf_times_undrawn(drawn, committed, ccf, expected) -> None:
     # EAD = drawn + CCF x max(committed - drawn, 0) (DESIGN.md section 4; common practice).
     assert exposure_at_default(drawn=drawn, committed=committed, ccf=ccf) == pytest.approx(expected, rel=1e-15)
@@ -60,8 +62,9 @@ def test_ccf_preset_refuses_unknowns() -> None:
         ccf_preset("overdraft")  # type: ignore[arg-type]
 
 
-@pytest.mark.parametrize(("drawn", "committed", "ccf"), [(-1.0, 10.0, 0.5), (1.0, -10.0, 0.5),
-                                                         (1.0, 10.0, 1.5), (1.0, 10.0, -0.1)])
+@pytest.mark.parametrize(
+    ("drawn", "committed", "ccf"), [(-1.0, 10.0, 0.5), (1.0, -10.0, 0.5), (1.0, 10.0, 1.5), (1.0, 10.0, -0.1)]
+)
 def test_ead_refuses_bad_parameters(drawn, committed, ccf) -> None:
     with pytest.raises(ValueError):
         exposure_at_default(drawn=drawn, committed=committed, ccf=ccf)
@@ -70,28 +73,37 @@ def test_ead_refuses_bad_parameters(drawn, committed, ccf) -> None:
 GRADE_TABLE = [("5", 0.55, None), ("5", 0.65, "revolver"), ("6", 0.75, None)]
 
 
-@pytest.mark.parametrize(("own", "grade", "table", "kind", "expected", "source_fragment"), [
-    (0.9, "5", GRADE_TABLE, "revolver", 0.9, "facility"),          # facility beats the table
-    (None, "5", GRADE_TABLE, "revolver", 0.65, "grade 5, revolver"),  # kind row beats any-kind row
-    (None, "5", GRADE_TABLE, "term_loan", 0.55, "grade 5"),
-    (None, "6", GRADE_TABLE, "revolver", 0.75, "grade 6"),
-    (None, "7", GRADE_TABLE, "revolver", 0.40, "commitment"),     # no row: the preset
-    (None, None, GRADE_TABLE, "revolver", 0.40, "commitment"),    # no grade: the preset
-    (None, "5", None, "revolver", 0.40, "commitment"),
-    (0.0, "5", GRADE_TABLE, "revolver", 0.0, "facility"),         # a facility's 0 is a value, not "unset"
-])
-def test_ccf_precedence_facility_then_grade_table_then_preset(own, grade, table, kind, expected,
-                                                              source_fragment) -> None:
-    ccf, source = resolve_ccf(kind=kind, own_ccf=own, grade=grade, grade_table=table, standard="basel_iii",
-                              maturity_years=3.0, cancellable=False)
+@pytest.mark.parametrize(
+    ("own", "grade", "table", "kind", "expected", "source_fragment"),
+    [
+        (0.9, "5", GRADE_TABLE, "revolver", 0.9, "facility"),  # facility beats the table
+        (None, "5", GRADE_TABLE, "revolver", 0.65, "grade 5, revolver"),  # kind row beats any-kind row
+        (None, "5", GRADE_TABLE, "term_loan", 0.55, "grade 5"),
+        (None, "6", GRADE_TABLE, "revolver", 0.75, "grade 6"),
+        (None, "7", GRADE_TABLE, "revolver", 0.40, "commitment"),  # no row: the preset
+        (None, None, GRADE_TABLE, "revolver", 0.40, "commitment"),  # no grade: the preset
+        (None, "5", None, "revolver", 0.40, "commitment"),
+        (0.0, "5", GRADE_TABLE, "revolver", 0.0, "facility"),  # a facility's 0 is a value, not "unset"
+    ],
+)
+def test_ccf_precedence_facility_then_grade_table_then_preset(
+    own, grade, table, kind, expected, source_fragment
+) -> None:
+    ccf, source = resolve_ccf(
+        kind=kind,
+        own_ccf=own,
+        grade=grade,
+        grade_table=table,
+        standard="basel_iii",
+        maturity_years=3.0,
+        cancellable=False,
+    )
     assert ccf == expected
     assert source_fragment in source
 
 
 def test_facility_exposure_keeps_every_intermediate() -> None:
-    exposure = facility_exposure(id="RCF", kind="revolver", drawn=22.0, committed=60.0, ccf=0.4,
-                                 ccf_source="preset")
+    exposure = facility_exposure(id="RCF", kind="revolver", drawn=22.0, committed=60.0, ccf=0.4, ccf_source="preset")
     assert (exposure.undrawn, exposure.ccf, exposure.ead) == (38.0, 0.4, pytest.approx(22.0 + 0.4 * 38.0))
-    overdrawn = facility_exposure(id="X", kind="revolver", drawn=70.0, committed=60.0, ccf=0.4,
-                                  ccf_source="preset")
+    overdrawn = facility_exposure(id="X", kind="revolver", drawn=70.0, committed=60.0, ccf=0.4, ccf_source="preset")
     assert (overdrawn.undrawn, overdrawn.ead) == (0.0, 70.0)

@@ -16,14 +16,12 @@ from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
-
 from obligor_memo.app import memo
-
-from obligor_memo.app.memo import figures as memo_figures
 from obligor_memo.app.cli import main
 from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
+from obligor_memo.app.memo import figures as memo_figures
 
-SHORT_TIMEOUT = "1"     # seconds: long enough for a script to start, short enough for the suite
+SHORT_TIMEOUT = "1"  # seconds: long enough for a script to start, short enough for the suite
 
 HANG = "sleep 600\n"
 CRASH_AT_ONCE = "exit 1\n"
@@ -34,18 +32,17 @@ FAKES = {"hanging": HANG, "crashing at once": CRASH_AT_ONCE, "starting then dyin
 def fake_browser(folder: Path, body: str) -> Path:
     """An executable that records its process group (field 5 of /proc/PID/stat), then ``body``."""
     script = folder / "fake-chromium"
-    script.write_text("#!/bin/sh\n"
-                      f"cut -d' ' -f5 /proc/$$/stat > '{folder / 'pgid'}'\n" + body)
+    script.write_text(f"#!/bin/sh\ncut -d' ' -f5 /proc/$$/stat > '{folder / 'pgid'}'\n" + body)
     script.chmod(0o755)
     return script
 
 
 def assert_group_gone(folder: Path) -> None:
     pgid_file = folder / "pgid"
-    if not pgid_file.exists():            # the script never ran (missing) or died before writing
+    if not pgid_file.exists():  # the script never ran (missing) or died before writing
         return
     group = int(pgid_file.read_text().split()[0])
-    deadline = time.monotonic() + 3       # the kernel reaps a killed group within moments
+    deadline = time.monotonic() + 3  # the kernel reaps a killed group within moments
     while chart_browser.process_group_members(group) and time.monotonic() < deadline:
         time.sleep(0.05)
     assert chart_browser.process_group_members(group) == [], f"browser processes left in group {group}"
@@ -94,7 +91,7 @@ def test_memo_command_without_charts_needs_no_browser(tmp_path, monkeypatch, sam
     result = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(out), "--no-charts"])
     assert result.exit_code == 0, result.output
     assert out.read_bytes().startswith(b"%PDF-")
-    assert not (tmp_path / "pgid").exists()       # the fake browser was never started
+    assert not (tmp_path / "pgid").exists()  # the fake browser was never started
 
 
 @pytest.mark.parametrize("text", ["0", "-3", "soon", "1e9"])
@@ -112,12 +109,12 @@ def test_browser_killed_after_start_is_replaced_once_and_cleaned_up(sample_case,
     single retry), draws, and leaves nothing of the dead one behind."""
     from obligor_memo.engine.evaluate import evaluate
 
-    monkeypatch.setenv(chart_browser.TIMEOUT_VARIABLE, "60")     # a real start-up on a busy machine
+    monkeypatch.setenv(chart_browser.TIMEOUT_VARIABLE, "60")  # a real start-up on a busy machine
 
     exporter = memo.start_chart_exporter()
     group = exporter.process_group
     assert group is not None and chart_browser.process_group_members(group)
-    os.killpg(group, signal.SIGKILL)          # as an out-of-memory kill would
+    os.killpg(group, signal.SIGKILL)  # as an out-of-memory kill would
     built, _ = memo_figures.build_figures(evaluate(sample_case))
     try:
         svgs = exporter.export_svg(dict(list(built.items())[:1]))
@@ -147,13 +144,13 @@ def test_a_browser_that_keeps_failing_is_reported_after_one_retry(monkeypatch):
 
 
 def _memo_page(tmp_path: Path, monkeypatch):
+    from obligor_memo.app.workbench.state import WORKDIR_ENV
     from streamlit.testing.v1 import AppTest
 
-    from obligor_memo.app.workbench.state import WORKDIR_ENV
-
     monkeypatch.setenv(WORKDIR_ENV, str(tmp_path / "work"))
-    at = AppTest.from_file(str(Path(__file__).resolve().parent.parent / "app" / "workbench" / "main.py"),
-                           default_timeout=60)
+    at = AppTest.from_file(
+        str(Path(__file__).resolve().parent.parent / "app" / "workbench" / "main.py"), default_timeout=60
+    )
     at.run()
     at.switch_page("steps/memo.py")
     at.run()

@@ -24,17 +24,20 @@ from typing import Any
 import pytest
 import yaml
 from click.testing import CliRunner
+from conftest import SAMPLE_CASE, minimal_case_dict
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-
-from conftest import SAMPLE_CASE, minimal_case_dict
 from obligor_memo.engine.case import parse_case
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.evaluate import evaluate
 from obligor_memo.engine.loading import load_case_text, parse_text, resolve_statements
 
-FUZZ = settings(derandomize=True, deadline=None, database=None,
-                suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+FUZZ = settings(
+    derandomize=True,
+    deadline=None,
+    database=None,
+    suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large],
+)
 
 
 def _sample_case_dict() -> dict[str, Any]:
@@ -48,15 +51,68 @@ BASES = {"sample": SAMPLE, "minimal": minimal_case_dict()}
 # ------------------------------------------------------------------ hostile values
 
 EDGE_NUMBERS: list[Any] = [
-    math.nan, math.inf, -math.inf, 1e308, -1e308, 5e-324, -5e-324, 0, 0.0, -0.0, -1, -1e-9,
-    1, 1.0000001, 0.9999999, 0.5, 2, 3, 5, 30, 50, 100, 1900, 2200, 2201, 1e15, 1.0000001e15,
-    10**400, -(10**400), 2**63, 2**64 + 1,
+    math.nan,
+    math.inf,
+    -math.inf,
+    1e308,
+    -1e308,
+    5e-324,
+    -5e-324,
+    0,
+    0.0,
+    -0.0,
+    -1,
+    -1e-9,
+    1,
+    1.0000001,
+    0.9999999,
+    0.5,
+    2,
+    3,
+    5,
+    30,
+    50,
+    100,
+    1900,
+    2200,
+    2201,
+    1e15,
+    1.0000001e15,
+    10**400,
+    -(10**400),
+    2**63,
+    2**64 + 1,
 ]
 EDGE_TEXT: list[str] = [
-    "", " ", "\u200f", "\u200b", "\u202e", "\ufeff", "\U0001F600", "\x00", "a\x00b", "\ud7ff",
-    "x" * 100_000, "\u05e9\u05dc\u05d5\u05dd", "NaN", "inf", "-1", "1e6", "1,5", "null", "true",
-    "=cmd|' /C calc'!A0", "../../etc/passwd", "{{ 7*7 }}", "<script>alert(1)</script>",
-    "EUR", "market", "balance_sheet", "term_loan", "senior_secured", "comonotonic",
+    "",
+    " ",
+    "\u200f",
+    "\u200b",
+    "\u202e",
+    "\ufeff",
+    "\U0001f600",
+    "\x00",
+    "a\x00b",
+    "\ud7ff",
+    "x" * 100_000,
+    "\u05e9\u05dc\u05d5\u05dd",
+    "NaN",
+    "inf",
+    "-1",
+    "1e6",
+    "1,5",
+    "null",
+    "true",
+    "=cmd|' /C calc'!A0",
+    "../../etc/passwd",
+    "{{ 7*7 }}",
+    "<script>alert(1)</script>",
+    "EUR",
+    "market",
+    "balance_sheet",
+    "term_loan",
+    "senior_secured",
+    "comonotonic",
 ]
 scalars = st.one_of(
     st.sampled_from(EDGE_NUMBERS),
@@ -75,8 +131,33 @@ hostile = st.one_of(
 )
 # Numbers that a careful user might type: the edges of the allowed ranges and plain values.
 plausible_numbers = st.one_of(
-    st.sampled_from([0, 0.0, 5e-324, 1e-300, 1e-12, 1e-6, 0.001, 0.01, 0.5, 0.999999, 1, 1.0, 2.5,
-                     3, 5, 29.999, 30, 49.9, 50, 100, 1e6, 1e12, 1e15]),
+    st.sampled_from(
+        [
+            0,
+            0.0,
+            5e-324,
+            1e-300,
+            1e-12,
+            1e-6,
+            0.001,
+            0.01,
+            0.5,
+            0.999999,
+            1,
+            1.0,
+            2.5,
+            3,
+            5,
+            29.999,
+            30,
+            49.9,
+            50,
+            100,
+            1e6,
+            1e12,
+            1e15,
+        ]
+    ),
     st.floats(min_value=0, max_value=1),
     st.floats(min_value=0, max_value=1e15),
 )
@@ -146,8 +227,13 @@ def mutated_cases(draw: st.DrawFn, max_mutations: int = 4) -> dict[str, Any]:
             doc = _set(doc, path, [target])
         elif operation == "extra" and isinstance(target, dict):
             keys = [str(k) for k in target] or ["key"]
-            key = draw(st.one_of(st.sampled_from([_near_miss(k) for k in keys]), st.sampled_from(EDGE_TEXT),
-                                 st.text(min_size=1, max_size=12)))
+            key = draw(
+                st.one_of(
+                    st.sampled_from([_near_miss(k) for k in keys]),
+                    st.sampled_from(EDGE_TEXT),
+                    st.text(min_size=1, max_size=12),
+                )
+            )
             target.setdefault(key, draw(hostile))
         elif operation == "duplicate" and isinstance(target, list) and target:
             target.append(copy.deepcopy(draw(st.sampled_from(target))))
@@ -169,12 +255,20 @@ def numeric_variants(draw: st.DrawFn) -> dict[str, Any]:
     return doc
 
 
-NUMERIC_PATHS = {name: [p for p in _paths(doc) if isinstance(_get(doc, p), (int, float))
-                        and not isinstance(_get(doc, p), bool) and "year" not in p]
-                 for name, doc in BASES.items()}
+NUMERIC_PATHS = {
+    name: [
+        p
+        for p in _paths(doc)
+        if isinstance(_get(doc, p), (int, float)) and not isinstance(_get(doc, p), bool) and "year" not in p
+    ]
+    for name, doc in BASES.items()
+}
 
-json_like = st.recursive(scalars, lambda inner: st.one_of(
-    st.lists(inner, max_size=4), st.dictionaries(st.text(max_size=12), inner, max_size=4)), max_leaves=12)
+json_like = st.recursive(
+    scalars,
+    lambda inner: st.one_of(st.lists(inner, max_size=4), st.dictionaries(st.text(max_size=12), inner, max_size=4)),
+    max_leaves=12,
+)
 
 
 @st.composite
@@ -182,8 +276,20 @@ def random_cases(draw: st.DrawFn) -> Any:
     """Random structures, often with the top-level keys a case has, to reach the deeper checks."""
     if draw(st.booleans()):
         return draw(json_like)
-    keys = ["borrower", "statements", "facilities", "market", "pd", "capital", "exposure", "lgd",
-            "pricing", "sensitivity", "scenarios", "memo"]
+    keys = [
+        "borrower",
+        "statements",
+        "facilities",
+        "market",
+        "pd",
+        "capital",
+        "exposure",
+        "lgd",
+        "pricing",
+        "sensitivity",
+        "scenarios",
+        "memo",
+    ]
     chosen = draw(st.lists(st.sampled_from(keys), unique=True, max_size=len(keys)))
     return {key: draw(json_like) for key in chosen}
 
@@ -208,8 +314,7 @@ def _assert_finite_contract(results: Any) -> None:
                 assert isinstance(value, (int, float)) and math.isfinite(value), (block, key, value)
 
 
-def check_contract(make: Callable[[], Any], run: Callable[[Any], Any] = evaluate,
-                   tolerate_known: bool = False) -> str:
+def check_contract(make: Callable[[], Any], run: Callable[[Any], Any] = evaluate, tolerate_known: bool = False) -> str:
     """Run one input through validation and evaluation; assert the contract; say what happened.
 
     Returns "accepted" or "rejected"; any other exception fails the test. (``tolerate_known`` is
@@ -258,12 +363,31 @@ def test_random_structures_are_refused_field_by_field(data: Any) -> None:
 
 
 YAML_NASTIES = [
-    "", "---\n...\n", "- 1\n- 2\n", "just text", "a: b: c", "a: [1, 2", "\t- x", "? [a, b]\n: 1\n",
-    "!!python/object/apply:os.system ['true']\n", "a: !!binary aGVsbG8=\n", "a: 2024-01-31\n",
-    "a: &x 1\nb: *x\n", "a: *undefined\n", "<<: {a: 1}\n", "--- 1\n--- 2\n", "a: 1\na: 2\n",
-    "%YAML 9.9\n--- a\n", "a: &a [x, x]\nb: &b [*a, *a]\nc: [*b, *b]\n", "borrower: {name: \x00}\n",
-    "\ufeffborrower: {}\n", "[" * 5000 + "]" * 5000, '{"a": NaN, "b": Infinity}', '{"a": 1, "a": 2}',
-    "{" * 5000, '{"a": 1e400}',
+    "",
+    "---\n...\n",
+    "- 1\n- 2\n",
+    "just text",
+    "a: b: c",
+    "a: [1, 2",
+    "\t- x",
+    "? [a, b]\n: 1\n",
+    "!!python/object/apply:os.system ['true']\n",
+    "a: !!binary aGVsbG8=\n",
+    "a: 2024-01-31\n",
+    "a: &x 1\nb: *x\n",
+    "a: *undefined\n",
+    "<<: {a: 1}\n",
+    "--- 1\n--- 2\n",
+    "a: 1\na: 2\n",
+    "%YAML 9.9\n--- a\n",
+    "a: &a [x, x]\nb: &b [*a, *a]\nc: [*b, *b]\n",
+    "borrower: {name: \x00}\n",
+    "\ufeffborrower: {}\n",
+    "[" * 5000 + "]" * 5000,
+    '{"a": NaN, "b": Infinity}',
+    '{"a": 1, "a": 2}',
+    "{" * 5000,
+    '{"a": 1e400}',
 ]
 
 
@@ -276,9 +400,12 @@ def _corrupt(text: str, draw: st.DrawFn) -> str:
     if kind == "truncate":
         return text[:at]
     if kind == "insert":
-        return text[:at] + draw(st.one_of(st.text(min_size=1, max_size=5),
-                                          st.sampled_from(list(":-[]{}&*!|>#'\"\t\n%@`")))) + text[at:]
-    return text[:at] + text[at + draw(st.integers(min_value=1, max_value=40)):]
+        return (
+            text[:at]
+            + draw(st.one_of(st.text(min_size=1, max_size=5), st.sampled_from(list(":-[]{}&*!|>#'\"\t\n%@`"))))
+            + text[at:]
+        )
+    return text[:at] + text[at + draw(st.integers(min_value=1, max_value=40)) :]
 
 
 @st.composite
@@ -329,10 +456,28 @@ def test_command_line_exits_0_or_2_without_traceback(data: dict[str, Any], as_ya
 
 # Scenarios re-validate dotted-path overrides against the schema and re-run the engine: the full
 # analysis (sensitivities, PD grid, scenarios) is held to the same contract.
-_ODD_PATHS = ["", ".", "..", "pd", "pd..override", "facilities", "facilities.*", "facilities.NOPE.ccf",
-              "facilities.F1.id", "facilities.*.recovery", "facilities.F1.recovery.std",
-              "statements", "statements.0.year", "scenarios", "borrower.name", "market.equity_value",
-              "pricing.proposed_spread", "capital.confidence", "\u200b", "x" * 300]
+_ODD_PATHS = [
+    "",
+    ".",
+    "..",
+    "pd",
+    "pd..override",
+    "facilities",
+    "facilities.*",
+    "facilities.NOPE.ccf",
+    "facilities.F1.id",
+    "facilities.*.recovery",
+    "facilities.F1.recovery.std",
+    "statements",
+    "statements.0.year",
+    "scenarios",
+    "borrower.name",
+    "market.equity_value",
+    "pricing.proposed_spread",
+    "capital.confidence",
+    "\u200b",
+    "x" * 300,
+]
 
 
 @st.composite
@@ -383,9 +528,14 @@ def _minimal_with(**changes: Any) -> Callable[[], Any]:
     return lambda: parse_case(doc)
 
 
-@pytest.mark.parametrize("text, name", [("[" * 100_000 + "]" * 100_000, "c.json"),
-                                        ("[" * 3_000 + "]" * 3_000, "c.yaml"),
-                                        ("a: " + "{b: " * 3_000 + "1" + "}" * 3_000, "c.yaml")])
+@pytest.mark.parametrize(
+    "text, name",
+    [
+        ("[" * 100_000 + "]" * 100_000, "c.json"),
+        ("[" * 3_000 + "]" * 3_000, "c.yaml"),
+        ("a: " + "{b: " * 3_000 + "1" + "}" * 3_000, "c.yaml"),
+    ],
+)
 def test_deeply_nested_text_is_refused_with_a_message(text: str, name: str) -> None:
     with pytest.raises(CaseError) as caught:
         load_case_text(text, name)
@@ -400,18 +550,25 @@ def test_yaml_key_that_is_a_list_or_mapping_is_refused(text: str) -> None:
 
 
 def test_recovery_std_whose_square_underflows() -> None:
-    check_contract(_minimal_with(facilities__0__recovery={"mean": 0.5, "std": 1e-170}),
-                   tolerate_known=False)
+    check_contract(_minimal_with(facilities__0__recovery={"mean": 0.5, "std": 1e-170}), tolerate_known=False)
 
 
 def test_total_assets_that_collapse_by_300_orders_of_magnitude() -> None:
-    check_contract(_minimal_with(statements__2__total_assets=1e15, statements__3__total_assets=1e-310,
-                                 pd={"asset_volatility": 0.2, "asset_growth": 0.0}), tolerate_known=False)
+    check_contract(
+        _minimal_with(
+            statements__2__total_assets=1e15,
+            statements__3__total_assets=1e-310,
+            pd={"asset_volatility": 0.2, "asset_growth": 0.0},
+        ),
+        tolerate_known=False,
+    )
 
 
 def test_tiny_assets_against_the_default_point() -> None:
-    check_contract(_minimal_with(statements__3__total_assets=5e-324,
-                                 pd={"asset_volatility": 0.2, "asset_growth": 0.0}), tolerate_known=False)
+    check_contract(
+        _minimal_with(statements__3__total_assets=5e-324, pd={"asset_volatility": 0.2, "asset_growth": 0.0}),
+        tolerate_known=False,
+    )
 
 
 def test_z_score_whose_sum_overflows() -> None:
@@ -433,8 +590,12 @@ def test_unknown_blank_key_is_visible_in_the_field(key: str) -> None:
 def test_full_analysis_of_statements_with_wild_swings() -> None:
     from obligor_memo.engine.analysis import analyse
 
-    make = _minimal_with(statements__0__total_assets=1.0, statements__1__total_assets=1e15,
-                         statements__2__total_assets=1.0, statements__3__total_assets=1e15)
+    make = _minimal_with(
+        statements__0__total_assets=1.0,
+        statements__1__total_assets=1e15,
+        statements__2__total_assets=1.0,
+        statements__3__total_assets=1e15,
+    )
     # An estimated asset volatility beyond 300 % a year is refused at evaluation, naming the field.
     with pytest.raises(CaseError) as caught:
         evaluate(make())

@@ -19,22 +19,24 @@ from typing import Any
 
 import pytest
 import yaml
+from conftest import SAMPLE_CASE, minimal_case_dict
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-
-from conftest import SAMPLE_CASE, minimal_case_dict
 from obligor_memo.engine.analysis import analyse
 from obligor_memo.engine.case import LIMITS, parse_case
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.loading import load_case_text, parse_text, resolve_statements
 
-TIME_BUDGET = 2.0      # seconds, the budget for a valid case on the 2-core machine
-HARD_STOP = 10.0       # a case still running then is a hang
-FUZZ = settings(derandomize=True, deadline=None, database=None,
-                suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+TIME_BUDGET = 2.0  # seconds, the budget for a valid case on the 2-core machine
+HARD_STOP = 10.0  # a case still running then is a hang
+FUZZ = settings(
+    derandomize=True,
+    deadline=None,
+    database=None,
+    suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large],
+)
 
-SAMPLE = resolve_statements(parse_text(SAMPLE_CASE.read_text(encoding="utf-8"), SAMPLE_CASE.name),
-                            SAMPLE_CASE.parent)
+SAMPLE = resolve_statements(parse_text(SAMPLE_CASE.read_text(encoding="utf-8"), SAMPLE_CASE.name), SAMPLE_CASE.parent)
 BASES = {"sample": SAMPLE, "minimal": minimal_case_dict()}
 TIMINGS: list[float] = []
 
@@ -152,10 +154,12 @@ def extreme_valid(draw: st.DrawFn) -> dict[str, Any]:
         if path in (("pd", "override"), ("pd", "override_horizon_years")):
             doc["pd"].setdefault("override", 0.01)
             doc["pd"]["override_reason"] = "analyst's view"
-    if draw(st.booleans()):      # facilities at scale too
+    if draw(st.booleans()):  # facilities at scale too
         facilities = doc["facilities"]
-        doc["facilities"] = [dict(copy.deepcopy(facilities[i % len(facilities)]), id=f"X{i}")
-                             for i in range(draw(st.sampled_from([20, LIMITS["facilities"]])))]
+        doc["facilities"] = [
+            dict(copy.deepcopy(facilities[i % len(facilities)]), id=f"X{i}")
+            for i in range(draw(st.sampled_from([20, LIMITS["facilities"]])))
+        ]
         doc["scenarios"] = [s for s in doc.get("scenarios", []) if "facilities." not in json.dumps(s)]
     return doc
 
@@ -181,7 +185,12 @@ HOSTILE_TEXTS = [
     '{"a": ' * 5000 + "1" + "}" * 5000,
     "borrower: {name: " + "é" * 1_000_000 + ", currency: EUR}\n",
     "memo: {summary: '" + "x" * 3_000_000 + "'}\n",
-    "v: 0x_\n", "v: 0b2\n", "v: 1:2:3:4\n", "v: !!int 12x\n", "v: !!float abc\n", "v: !!bool maybe\n",
+    "v: 0x_\n",
+    "v: 0b2\n",
+    "v: 1:2:3:4\n",
+    "v: !!int 12x\n",
+    "v: !!float abc\n",
+    "v: !!bool maybe\n",
 ]
 
 

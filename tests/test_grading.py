@@ -8,8 +8,6 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy import stats
-
 from obligor_memo.engine.grading import (
     DEFAULT_GRADE_RATIO,
     DEFAULT_MASTER_SCALE,
@@ -18,6 +16,7 @@ from obligor_memo.engine.grading import (
     assign_grade,
     master_scale_from_rows,
 )
+from scipy import stats
 
 PERFORMING = [str(k) for k in range(1, 11)]
 
@@ -119,9 +118,7 @@ def test_rows_in_any_order_give_the_same_scale():
     ]
     scale = master_scale_from_rows(rows)
     assert scale.labels == ("A", "B", "C", "D")
-    assert [(g.pd_lower, g.pd_upper) for g in scale.grades] == [
-        (0.0, 0.01), (0.01, 0.05), (0.05, 0.20), (0.20, 1.0)
-    ]
+    assert [(g.pd_lower, g.pd_upper) for g in scale.grades] == [(0.0, 0.01), (0.01, 0.05), (0.05, 0.20), (0.20, 1.0)]
     assert scale == master_scale_from_rows(sorted(rows, key=lambda r: r["pd_upper"]))
     assert assign_grade(0.03, scale).grade == "B"
 

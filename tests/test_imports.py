@@ -8,7 +8,6 @@ import subprocess
 import sys
 
 import pytest
-
 from conftest import ROOT
 
 ENGINE = ROOT / "engine"
@@ -33,8 +32,9 @@ def _module_level_imports(tree: ast.Module) -> set[str]:
 
 
 def test_engine_has_modules() -> None:
-    assert {"case", "loading", "statements", "trend", "structural", "exposure", "recovery", "loss",
-            "evaluate"} <= set(MODULES)
+    assert {"case", "loading", "statements", "trend", "structural", "exposure", "recovery", "loss", "evaluate"} <= set(
+        MODULES
+    )
 
 
 @pytest.mark.parametrize("path", sorted(ENGINE.glob("*.py")), ids=lambda p: p.name)
@@ -44,8 +44,7 @@ def test_no_forbidden_import_at_module_level(path) -> None:
 
 
 def test_scanner_sees_imports_inside_module_level_blocks() -> None:
-    tree = ast.parse("try:\n    import pandas as pd\nexcept ImportError:\n    pass\n"
-                     "def f():\n    import plotly\n")
+    tree = ast.parse("try:\n    import pandas as pd\nexcept ImportError:\n    pass\ndef f():\n    import plotly\n")
     assert _module_level_imports(tree) == {"pandas"}
 
 

@@ -8,7 +8,6 @@ from pathlib import Path
 import openpyxl
 import pytest
 import yaml
-
 from conftest import DATA, SAMPLE_CASE, SAMPLE_STATEMENTS, copy_data, minimal_case_dict, write_case
 from obligor_memo.engine.case import parse_case
 from obligor_memo.engine.errors import CaseError
@@ -120,10 +119,13 @@ def test_unknown_sheet_lists_the_sheets(tmp_path: Path, make_case) -> None:
     assert "Figures" in caught.value.problems[0].allowed
 
 
-@pytest.mark.parametrize(("spec", "field", "allowed"), [
-    ({"path": "s.csv"}, "statements", "a list of yearly rows"),
-    ({"file": "statements_ok.csv", "decimal": ";"}, "statements.decimal", "'.' or ','"),
-])
+@pytest.mark.parametrize(
+    ("spec", "field", "allowed"),
+    [
+        ({"path": "s.csv"}, "statements", "a list of yearly rows"),
+        ({"file": "statements_ok.csv", "decimal": ";"}, "statements.decimal", "'.' or ','"),
+    ],
+)
 def test_bad_statements_spec(tmp_path: Path, make_case, spec, field, allowed) -> None:
     copy_data(tmp_path, "statements_ok.csv")
     data = make_case()
@@ -173,12 +175,34 @@ def test_sample_case_reads_its_ten_years() -> None:
 # --------------------------------------------------------------------------- YAML 1.2 core schema
 
 
-@pytest.mark.parametrize(("text", "expected"), [
-    ("NO", "NO"), ("no", "no"), ("yes", "yes"), ("on", "on"), ("off", "off"), ("Y", "Y"),
-    ("012", "012"), ("0o17", "0o17"), ("0x1F", "0x1F"), ("1:20", "1:20"), ("2024-03-31", "2024-03-31"),
-    ("1_000", "1_000"), ("true", True), ("False", False), ("null", None), ("~", None),
-    ("12", 12), ("-3", -3), ("0", 0), ("1e6", 1e6), ("2.75", 2.75), ("-0.5", -0.5), (".5", 0.5),
-])
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [
+        ("NO", "NO"),
+        ("no", "no"),
+        ("yes", "yes"),
+        ("on", "on"),
+        ("off", "off"),
+        ("Y", "Y"),
+        ("012", "012"),
+        ("0o17", "0o17"),
+        ("0x1F", "0x1F"),
+        ("1:20", "1:20"),
+        ("2024-03-31", "2024-03-31"),
+        ("1_000", "1_000"),
+        ("true", True),
+        ("False", False),
+        ("null", None),
+        ("~", None),
+        ("12", 12),
+        ("-3", -3),
+        ("0", 0),
+        ("1e6", 1e6),
+        ("2.75", 2.75),
+        ("-0.5", -0.5),
+        (".5", 0.5),
+    ],
+)
 def test_plain_scalars_follow_the_yaml_1_2_core_schema(text, expected):
     """YAML 1.2.2 spec, section 10.3.2 (core schema): only true/false are booleans, no octal,
     base 60 or timestamps; whole numbers with a leading zero stay text (a stricter choice)."""

@@ -8,7 +8,6 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
 from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
 from obligor_memo.engine.recovery import recovery_law
 
@@ -21,41 +20,55 @@ def test_published_el_and_ul_example() -> None:
     assert ul == pytest.approx(806_129, abs=1.0)  # the source rounds to the currency unit
 
 
-@pytest.mark.parametrize(("ead", "pd", "lgd", "lgd_std"), [
-    (1.0, 0.01, 0.45, 0.0), (250e6, 0.3, 0.8, 0.15), (5.0, 1.0, 0.5, 0.2), (5.0, 0.0, 0.5, 0.2),
-])
+@pytest.mark.parametrize(
+    ("ead", "pd", "lgd", "lgd_std"),
+    [
+        (1.0, 0.01, 0.45, 0.0),
+        (250e6, 0.3, 0.8, 0.15),
+        (5.0, 1.0, 0.5, 0.2),
+        (5.0, 0.0, 0.5, 0.2),
+    ],
+)
 def test_ul_is_the_std_of_bernoulli_times_an_independent_lgd(ead, pd, lgd, lgd_std) -> None:
     # Var(D L) = E[D] E[L^2] - (E[D] E[L])^2 for independent D ~ Bernoulli(PD) and L.
     second_moment = lgd_std**2 + lgd**2
     variance = pd * second_moment - (pd * lgd) ** 2
     assert unexpected_loss(ead=ead, pd=pd, lgd=lgd, lgd_std=lgd_std) == pytest.approx(
-        ead * math.sqrt(max(variance, 0.0)), rel=1e-12, abs=1e-12)
+        ead * math.sqrt(max(variance, 0.0)), rel=1e-12, abs=1e-12
+    )
 
 
 def _formula(eads, lgds, stds, pd):
-    return math.sqrt(pd * sum(e * s for e, s in zip(eads, stds)) ** 2
-                     + sum(e * l for e, l in zip(eads, lgds)) ** 2 * pd * (1 - pd))
+    return math.sqrt(
+        pd * sum(e * s for e, s in zip(eads, stds)) ** 2 + sum(e * l for e, l in zip(eads, lgds)) ** 2 * pd * (1 - pd)
+    )
 
 
 def test_borrower_ul_comonotonic_formula() -> None:
     eads, lgds, stds, pd = [120.0, 37.2, 25.0], [0.25, 0.4, 0.8], [0.12, 0.25, 0.2], 0.02
     assert borrower_unexpected_loss(eads=eads, lgds=lgds, lgd_stds=stds, pd=pd) == pytest.approx(
-        _formula(eads, lgds, stds, pd), rel=1e-12)
+        _formula(eads, lgds, stds, pd), rel=1e-12
+    )
 
 
 def test_borrower_ul_independent_join_adds_variances() -> None:
     eads, lgds, stds, pd = [120.0, 37.2], [0.25, 0.4], [0.12, 0.25], 0.02
-    expected = math.sqrt(pd * ((120 * 0.12) ** 2 + (37.2 * 0.25) ** 2) + (120 * 0.25 + 37.2 * 0.4) ** 2
-                         * pd * (1 - pd))
-    assert borrower_unexpected_loss(eads=eads, lgds=lgds, lgd_stds=stds, pd=pd,
-                                    join="independent") == pytest.approx(expected, rel=1e-12)
+    expected = math.sqrt(pd * ((120 * 0.12) ** 2 + (37.2 * 0.25) ** 2) + (120 * 0.25 + 37.2 * 0.4) ** 2 * pd * (1 - pd))
+    assert borrower_unexpected_loss(eads=eads, lgds=lgds, lgd_stds=stds, pd=pd, join="independent") == pytest.approx(
+        expected, rel=1e-12
+    )
     with pytest.raises(ValueError, match="capital.recovery_join: got 'gaussian'"):
         borrower_unexpected_loss(eads=eads, lgds=lgds, lgd_stds=stds, pd=pd, join="gaussian")
 
 
 @settings(max_examples=200, deadline=None)
-@given(ead=st.floats(0, 1e12), pd=st.floats(0, 1), lgd=st.floats(0, 1), lgd_std=st.floats(0, 0.5),
-       join=st.sampled_from(["comonotonic", "independent"]))
+@given(
+    ead=st.floats(0, 1e12),
+    pd=st.floats(0, 1),
+    lgd=st.floats(0, 1),
+    lgd_std=st.floats(0, 0.5),
+    join=st.sampled_from(["comonotonic", "independent"]),
+)
 def test_borrower_ul_of_one_facility_is_the_facility_ul(ead, pd, lgd, lgd_std, join) -> None:
     single = unexpected_loss(ead=ead, pd=pd, lgd=lgd, lgd_std=lgd_std)
     joined = borrower_unexpected_loss(eads=[ead], lgds=[lgd], lgd_stds=[lgd_std], pd=pd, join=join)
@@ -70,31 +83,39 @@ def test_borrower_ul_matches_a_simulation(join) -> None:
     rng = np.random.default_rng(20240611)
     n, pd = 400_000, 0.2
     eads = [120.0, 40.0, 25.0]
-    laws = [recovery_law(mean=0.55, std=0.22), recovery_law(mean=0.6, std=0.25),
-            recovery_law(mean=0.2, std=0.18, upper=0.9)]
+    laws = [
+        recovery_law(mean=0.55, std=0.22),
+        recovery_law(mean=0.6, std=0.25),
+        recovery_law(mean=0.2, std=0.18, upper=0.9),
+    ]
     recoveries = [law.upper * rng.beta(law.alpha, law.beta, size=n) for law in laws]
     if join == "comonotonic":
         recoveries = [np.sort(r) for r in recoveries]
     default = rng.random(n) < pd
     loss = default * sum(e * (1 - r) for e, r in zip(eads, recoveries))
-    ul = borrower_unexpected_loss(eads=eads, lgds=[law.lgd for law in laws],
-                                  lgd_stds=[law.std() for law in laws], pd=pd, join=join)
+    ul = borrower_unexpected_loss(
+        eads=eads, lgds=[law.lgd for law in laws], lgd_stds=[law.std() for law in laws], pd=pd, join=join
+    )
     assert np.std(loss) == pytest.approx(ul, rel=0.02)
     # With the laws, the comonotonic std is exact (quadrature) rather than the correlation-one bound.
-    exact = borrower_unexpected_loss(eads=eads, lgds=[law.lgd for law in laws],
-                                     lgd_stds=[law.std() for law in laws], pd=pd, join=join, laws=laws)
+    exact = borrower_unexpected_loss(
+        eads=eads, lgds=[law.lgd for law in laws], lgd_stds=[law.std() for law in laws], pd=pd, join=join, laws=laws
+    )
     assert np.std(loss) == pytest.approx(exact, rel=0.01)
     assert exact <= ul * (1 + 1e-12)
     assert np.mean(loss) == pytest.approx(sum(e * pd * law.lgd for e, law in zip(eads, laws)), rel=0.02)
 
 
-@pytest.mark.parametrize(("kwargs", "fragment"), [
-    ({"ead": -1.0}, "ead: got -1.0"),
-    ({"ead": math.inf}, "ead: got inf"),
-    ({"pd": 1.2}, "pd: got 1.2"),
-    ({"lgd": -0.6}, "lgd: got -0.6"),  # down to -0.5 allowed: recoveries above par
-    ({"pd": math.nan}, "pd: got nan"),
-])
+@pytest.mark.parametrize(
+    ("kwargs", "fragment"),
+    [
+        ({"ead": -1.0}, "ead: got -1.0"),
+        ({"ead": math.inf}, "ead: got inf"),
+        ({"pd": 1.2}, "pd: got 1.2"),
+        ({"lgd": -0.6}, "lgd: got -0.6"),  # down to -0.5 allowed: recoveries above par
+        ({"pd": math.nan}, "pd: got nan"),
+    ],
+)
 def test_bad_parameters_are_named(kwargs, fragment) -> None:
     arguments = {"ead": 10.0, "pd": 0.1, "lgd": 0.4, **kwargs}
     with pytest.raises(ValueError, match=fragment):

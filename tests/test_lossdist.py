@@ -9,9 +9,8 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy import integrate, optimize, stats
-
 from obligor_memo.engine.lossdist import LossDistribution, loss_distribution, monte_carlo_loss
+from scipy import integrate, optimize, stats
 
 
 @dataclass(frozen=True)
@@ -60,9 +59,7 @@ ONE_FACILITY_CASES = [
 
 @pytest.mark.parametrize("pd, q, ead, a, b, upper", ONE_FACILITY_CASES)
 def test_one_facility_var_matches_design_formula(pd, q, ead, a, b, upper):
-    result = loss_distribution(
-        pd=pd, exposures=[ead], recovery_laws=[beta_law(a, b, upper)], confidence=q
-    )
+    result = loss_distribution(pd=pd, exposures=[ead], recovery_laws=[beta_law(a, b, upper)], confidence=q)
     expected = ead * (1.0 - stats.beta.ppf((1.0 - q) / pd, a, b, loc=0.0, scale=upper))
     assert result.var == pytest.approx(expected, rel=1e-12)
     assert result.method == "exact"
@@ -78,9 +75,7 @@ def test_one_facility_expected_shortfall_matches_beta_partial_moment(pd, q, ead,
     t_star = stats.beta.ppf(u_star, a, b)
     partial = upper * a / (a + b) * stats.beta.cdf(t_star, a + 1.0, b)
     expected = pd / (1.0 - q) * ead * (u_star - partial)
-    result = loss_distribution(
-        pd=pd, exposures=[ead], recovery_laws=[beta_law(a, b, upper)], confidence=q
-    )
+    result = loss_distribution(pd=pd, exposures=[ead], recovery_laws=[beta_law(a, b, upper)], confidence=q)
     # The brief asks for 1e-6 relative; the quadrature is set to 1e-10.
     assert result.expected_shortfall == pytest.approx(expected, rel=1e-6)
     assert result.expected_shortfall >= result.var
@@ -100,9 +95,7 @@ def test_expected_loss_is_pd_times_sum_of_ead_times_lgd():
 def test_pd_inside_tail_gives_zero_var_and_floored_capital(join):
     # PD = 0.05 % <= 1 - q = 0.1 %: the no-default atom alone reaches q, so VaR is 0.
     # ES then averages the whole default mass over the tail: EL / (1 - q) (definition).
-    result = loss_distribution(
-        pd=0.0005, exposures=THREE_EXPOSURES, recovery_laws=three_laws(), join=join
-    )
+    result = loss_distribution(pd=0.0005, exposures=THREE_EXPOSURES, recovery_laws=three_laws(), join=join)
     assert result.var == 0.0
     assert result.capital_floored is True
     assert result.economic_capital == 0.0
@@ -120,9 +113,7 @@ def test_pd_inside_tail_gives_zero_var_and_floored_capital(join):
     ],
 )
 def test_point_mass_recovery_by_hand(pd, q, rate, expected_var, expected_es):
-    result = loss_distribution(
-        pd=pd, exposures=[1000.0], recovery_laws=[PointMass(rate)], confidence=q
-    )
+    result = loss_distribution(pd=pd, exposures=[1000.0], recovery_laws=[PointMass(rate)], confidence=q)
     assert result.var == pytest.approx(expected_var, abs=1e-9)
     assert result.expected_shortfall == pytest.approx(expected_es, rel=1e-9)
 
@@ -138,14 +129,9 @@ def test_comonotonic_var_and_es_are_additive():
     # and Economics 31(1)): the three-facility tail equals the sum of one-facility tails.
     pd, laws = 0.04, three_laws()
     whole = loss_distribution(pd=pd, exposures=THREE_EXPOSURES, recovery_laws=laws)
-    parts = [
-        loss_distribution(pd=pd, exposures=[e], recovery_laws=[law])
-        for e, law in zip(THREE_EXPOSURES, laws)
-    ]
+    parts = [loss_distribution(pd=pd, exposures=[e], recovery_laws=[law]) for e, law in zip(THREE_EXPOSURES, laws)]
     assert whole.var == pytest.approx(sum(p.var for p in parts), rel=1e-12)
-    assert whole.expected_shortfall == pytest.approx(
-        sum(p.expected_shortfall for p in parts), rel=1e-8
-    )
+    assert whole.expected_shortfall == pytest.approx(sum(p.expected_shortfall for p in parts), rel=1e-8)
 
 
 # ---------------------------------------------------------------- Monte Carlo agreement
@@ -188,8 +174,12 @@ def test_comonotonic_exact_tail_agrees_with_simulation(exposures, laws):
     pd, q = 0.02, 0.999
     exact = loss_distribution(pd=pd, exposures=exposures, recovery_laws=laws, confidence=q)
     losses = monte_carlo_loss(
-        pd=pd, exposures=exposures, recovery_laws=laws, join="comonotonic",
-        n_sims=N_DRAWS, seed=7,
+        pd=pd,
+        exposures=exposures,
+        recovery_laws=laws,
+        join="comonotonic",
+        n_sims=N_DRAWS,
+        seed=7,
     )
     low, high, es_hat, es_se = empirical_tail_band(losses, q)
     assert low <= exact.var <= high
@@ -225,8 +215,12 @@ def test_independent_join_agrees_with_quadrature_reference():
     exposures, shapes = (600.0, 400.0), ((2.0, 3.0), (3.0, 2.0))
     ref_var, ref_es = independent_reference(pd, q, exposures, shapes)
     result = loss_distribution(
-        pd=pd, exposures=exposures, recovery_laws=[beta_law(a, b) for a, b in shapes],
-        confidence=q, join="independent", independent_method="monte_carlo",
+        pd=pd,
+        exposures=exposures,
+        recovery_laws=[beta_law(a, b) for a, b in shapes],
+        confidence=q,
+        join="independent",
+        independent_method="monte_carlo",
     )
     assert result.method == "monte carlo" and result.n_sims > 0
     assert 0.0 < result.var_standard_error < 0.02 * result.var
@@ -241,8 +235,11 @@ def test_independent_fft_agrees_with_quadrature_reference_to_the_grid():
     exposures, shapes = (600.0, 400.0), ((2.0, 3.0), (3.0, 2.0))
     ref_var, ref_es = independent_reference(pd, q, exposures, shapes)
     result = loss_distribution(
-        pd=pd, exposures=exposures, recovery_laws=[beta_law(a, b) for a, b in shapes],
-        confidence=q, join="independent",
+        pd=pd,
+        exposures=exposures,
+        recovery_laws=[beta_law(a, b) for a, b in shapes],
+        confidence=q,
+        join="independent",
     )
     assert result.method == "fft convolution" and result.n_sims == 0
     assert 0 < result.quadrature_error < 1e-4 * sum(exposures)
@@ -256,14 +253,14 @@ def test_independent_fft_agrees_with_seeded_monte_carlo_above_par():
     laws = [beta_law(2.0, 1.0, 1.1), beta_law(4.0, 1.5, 1.3)]
     exposures = [600.0, 400.0]
     pd, q = 0.2, 0.95
-    result = loss_distribution(pd=pd, exposures=exposures, recovery_laws=laws, confidence=q,
-                               join="independent")
-    losses = monte_carlo_loss(pd=pd, exposures=exposures, recovery_laws=laws, join="independent",
-                              n_sims=2_000_000, seed=7)
+    result = loss_distribution(pd=pd, exposures=exposures, recovery_laws=laws, confidence=q, join="independent")
+    losses = monte_carlo_loss(
+        pd=pd, exposures=exposures, recovery_laws=laws, join="independent", n_sims=2_000_000, seed=7
+    )
     assert losses.min() < 0.0
     ordered = np.sort(losses)
     var_mc = ordered[int(np.ceil(q * losses.size)) - 1]
-    es_mc = ordered[int(q * losses.size):].mean()
+    es_mc = ordered[int(q * losses.size) :].mean()
     assert result.var == pytest.approx(var_mc, abs=0.02 * abs(var_mc) + 1.0)
     assert result.expected_shortfall == pytest.approx(es_mc, rel=0.01)
     assert result.expected_loss == pytest.approx(losses.mean(), abs=5 * losses.std() / np.sqrt(losses.size))
@@ -276,11 +273,12 @@ def test_comonotonic_above_par_agrees_with_seeded_monte_carlo():
     exposures = [600.0, 400.0]
     for pd, q in ((0.2, 0.95), (0.9, 0.6), (0.99, 0.55)):
         result = loss_distribution(pd=pd, exposures=exposures, recovery_laws=laws, confidence=q)
-        losses = monte_carlo_loss(pd=pd, exposures=exposures, recovery_laws=laws, join="comonotonic",
-                                  n_sims=2_000_000, seed=11)
+        losses = monte_carlo_loss(
+            pd=pd, exposures=exposures, recovery_laws=laws, join="comonotonic", n_sims=2_000_000, seed=11
+        )
         ordered = np.sort(losses)
         var_mc = ordered[int(np.ceil(q * losses.size)) - 1]
-        es_mc = ordered[int(q * losses.size):].mean()
+        es_mc = ordered[int(q * losses.size) :].mean()
         assert result.var == pytest.approx(var_mc, abs=0.01 * 1000 + 0.0)
         assert result.expected_shortfall == pytest.approx(es_mc, abs=0.005 * 1000)
 
@@ -288,12 +286,14 @@ def test_comonotonic_above_par_agrees_with_seeded_monte_carlo():
 def test_independent_curve_agrees_with_unconditional_simulation():
     pd, q = 0.05, 0.995
     laws = three_laws()
-    result = loss_distribution(
-        pd=pd, exposures=THREE_EXPOSURES, recovery_laws=laws, confidence=q, join="independent"
-    )
+    result = loss_distribution(pd=pd, exposures=THREE_EXPOSURES, recovery_laws=laws, confidence=q, join="independent")
     losses = monte_carlo_loss(
-        pd=pd, exposures=THREE_EXPOSURES, recovery_laws=laws, join="independent",
-        n_sims=N_DRAWS, seed=11,
+        pd=pd,
+        exposures=THREE_EXPOSURES,
+        recovery_laws=laws,
+        join="independent",
+        n_sims=N_DRAWS,
+        seed=11,
     )
     low, high, _, _ = empirical_tail_band(losses, q)
     slack = Z_BAND * result.var_standard_error
@@ -316,13 +316,15 @@ def test_comonotonic_is_the_conservative_join(pd, q):
     laws = three_laws()
     como = loss_distribution(pd=pd, exposures=THREE_EXPOSURES, recovery_laws=laws, confidence=q)
     indep = loss_distribution(
-        pd=pd, exposures=THREE_EXPOSURES, recovery_laws=laws, confidence=q, join="independent",
+        pd=pd,
+        exposures=THREE_EXPOSURES,
+        recovery_laws=laws,
+        confidence=q,
+        join="independent",
         n_sims=100_000,
     )
     assert como.var >= indep.var - Z_BAND * indep.var_standard_error
-    assert como.expected_shortfall >= (
-        indep.expected_shortfall - Z_BAND * indep.expected_shortfall_standard_error
-    )
+    assert como.expected_shortfall >= (indep.expected_shortfall - Z_BAND * indep.expected_shortfall_standard_error)
     assert como.var > indep.var  # strictly, on these examples
     assert como.expected_loss == pytest.approx(indep.expected_loss, rel=1e-12)
 
@@ -361,8 +363,7 @@ def test_curve_has_atom_at_zero_and_reaches_one():
 # ---------------------------------------------------------------- properties
 
 shape = st.floats(min_value=0.5, max_value=8.0)
-facility = st.tuples(st.floats(min_value=1.0, max_value=1e7), shape, shape,
-                     st.floats(min_value=0.5, max_value=1.0))
+facility = st.tuples(st.floats(min_value=1.0, max_value=1e7), shape, shape, st.floats(min_value=0.5, max_value=1.0))
 
 
 @settings(max_examples=30, deadline=None)
@@ -374,8 +375,7 @@ facility = st.tuples(st.floats(min_value=1.0, max_value=1e7), shape, shape,
 def test_tail_measures_are_ordered_and_bounded(pd, q, facilities):
     exposures = [f[0] for f in facilities]
     laws = [beta_law(a, b, u) for _, a, b, u in facilities]
-    result = loss_distribution(pd=pd, exposures=exposures, recovery_laws=laws,
-                               confidence=q, n_curve=5)
+    result = loss_distribution(pd=pd, exposures=exposures, recovery_laws=laws, confidence=q, n_curve=5)
     total = sum(exposures)
     tol = 1e-9 * total
     assert isinstance(result, LossDistribution)
@@ -415,7 +415,8 @@ def test_tail_measures_are_ordered_and_bounded(pd, q, facilities):
 )
 def test_bad_arguments_are_rejected_with_name_value_and_range(changes, fragments):
     arguments = {
-        "pd": 0.02, "exposures": [100.0, 50.0],
+        "pd": 0.02,
+        "exposures": [100.0, 50.0],
         "recovery_laws": [PointMass(0.4), PointMass(0.2)],
     }
     arguments.update(changes)
@@ -428,12 +429,9 @@ def test_bad_arguments_are_rejected_with_name_value_and_range(changes, fragments
 def test_monte_carlo_loss_validates_and_is_reproducible():
     laws = [PointMass(0.25)]
     with pytest.raises(ValueError, match="n_sims"):
-        monte_carlo_loss(pd=0.1, exposures=[1.0], recovery_laws=laws, join="comonotonic",
-                         n_sims=0, seed=1)
-    first = monte_carlo_loss(pd=0.1, exposures=[8.0], recovery_laws=laws, join="independent",
-                             n_sims=1000, seed=3)
-    second = monte_carlo_loss(pd=0.1, exposures=[8.0], recovery_laws=laws, join="independent",
-                              n_sims=1000, seed=3)
+        monte_carlo_loss(pd=0.1, exposures=[1.0], recovery_laws=laws, join="comonotonic", n_sims=0, seed=1)
+    first = monte_carlo_loss(pd=0.1, exposures=[8.0], recovery_laws=laws, join="independent", n_sims=1000, seed=3)
+    second = monte_carlo_loss(pd=0.1, exposures=[8.0], recovery_laws=laws, join="independent", n_sims=1000, seed=3)
     np.testing.assert_array_equal(first, second)
     # Every draw is either no default (0) or the certain loss 8 * (1 - 0.25) = 6.
     assert set(np.unique(first)) <= {0.0, 6.0}
@@ -447,8 +445,12 @@ def test_closed_form_tail_integral_of_recovery_laws_matches_quadrature():
     same expected shortfall as adaptive quadrature (scipy.integrate.quad) of the quantile function."""
     from obligor_memo.engine.recovery import recovery_law
 
-    laws = [recovery_law(mean=0.55, std=0.22, collateral_cover=0.3), recovery_law(mean=0.6, std=0.25),
-            recovery_law(mean=0.2, std=0.18, upper=0.9), recovery_law(mean=0.4, std=0.0)]
+    laws = [
+        recovery_law(mean=0.55, std=0.22, collateral_cover=0.3),
+        recovery_law(mean=0.6, std=0.25),
+        recovery_law(mean=0.2, std=0.18, upper=0.9),
+        recovery_law(mean=0.4, std=0.0),
+    ]
     exposures = [120.0, 37.2, 25.0, 15.0]
     fast = loss_distribution(pd=0.01, exposures=exposures, recovery_laws=laws)
 

@@ -13,30 +13,40 @@ import json
 import re
 import shutil
 import subprocess
-from datetime import datetime, timezone
+from datetime import UTC, datetime, timezone
 from html.parser import HTMLParser
 from pathlib import Path
 
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-from scipy.stats import norm
-
-from obligor_memo.app.present import formatting as fmt
 from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
+from obligor_memo.app.present import formatting as fmt
+from scipy.stats import norm
 
 pytestmark = pytest.mark.skipif(shutil.which("pdftotext") is None, reason="needs poppler-utils")
 
 ROOT = Path(__file__).resolve().parents[1]
 ARTIFACTS = ROOT / "test-artifacts"
-STAMP = datetime(2031, 5, 6, 7, 8, 9, tzinfo=timezone.utc)
+STAMP = datetime(2031, 5, 6, 7, 8, 9, tzinfo=UTC)
 
 # Section headings as printed, in order; the text between two headings belongs to the first.
-HEADINGS = ["Decision", "1 The borrower and its accounts", "2 Probability of default",
-            "3 Scenarios and the analyst's view", "4 Sign-off", "Appendix A PD term structure",
-            "Appendix B Exposure at default", "Appendix C Recovery and loss given default",
-            "Appendix D Loss and capital", "Appendix E Pricing", "Appendix F Sensitivities and scenarios",
-            "Appendix G Cautions", "Appendix H Methods and sources", "Appendix I Inputs and record"]
+HEADINGS = [
+    "Decision",
+    "1 The borrower and its accounts",
+    "2 Probability of default",
+    "3 Scenarios and the analyst's view",
+    "4 Sign-off",
+    "Appendix A PD term structure",
+    "Appendix B Exposure at default",
+    "Appendix C Recovery and loss given default",
+    "Appendix D Loss and capital",
+    "Appendix E Pricing",
+    "Appendix F Sensitivities and scenarios",
+    "Appendix G Cautions",
+    "Appendix H Methods and sources",
+    "Appendix I Inputs and record",
+]
 
 HOSTILE = {
     "script": "<script>alert('memo')</script>",
@@ -48,8 +58,7 @@ HOSTILE = {
 
 
 def pdf_text(pdf: bytes) -> str:
-    out = subprocess.run(["pdftotext", "-enc", "UTF-8", "-", "-"], input=pdf, capture_output=True,
-                         check=True)
+    out = subprocess.run(["pdftotext", "-enc", "UTF-8", "-", "-"], input=pdf, capture_output=True, check=True)
     # pdftotext may print the en-space of the headings as a plain space.
     return out.stdout.decode("utf-8").replace("\u2002", " ")
 
@@ -98,9 +107,14 @@ def hostile_results(make_case):
 
     data = make_case()
     data["borrower"]["name"] = "Acme <i>&amp;</i> Sons"
-    data["memo"] = {"prepared_by": HOSTILE["script"], "summary": HOSTILE["img_file"],
-                    "recommendation": HOSTILE["img_http"], "conditions": HOSTILE["jinja"],
-                    "request": HOSTILE["css"], "page_size": "Letter"}
+    data["memo"] = {
+        "prepared_by": HOSTILE["script"],
+        "summary": HOSTILE["img_file"],
+        "recommendation": HOSTILE["img_http"],
+        "conditions": HOSTILE["jinja"],
+        "request": HOSTILE["css"],
+        "page_size": "Letter",
+    }
     data["facilities"][0]["description"] = "<a href='file:///etc/hosts'>link</a>"
     return evaluate(parse_case(data))
 
@@ -141,15 +155,31 @@ def test_decision_page_prints_what_the_committee_decides_on(sample_results, samp
     text = " ".join(sample_sections["Decision"].split())
     committed = sum(f.committed for f in r.case.facilities)
     worst = max(r.scenarios, key=lambda s: s.figures.pd)
-    for value in (fmt.money(r.total.ead), fmt.money(committed), fmt.money(r.total.expected_loss, cur),
-                  fmt.pct(r.total.el_rate, 3), fmt.money(r.total.rwa, cur), fmt.money(r.pricing.capital, cur),
-                  fmt.pd_pct(r.pd.pd), fmt.pct(r.pricing.minimum_spread), fmt.pct(r.pricing.raroc, 1),
-                  fmt.pct(r.pricing.hurdle_rate, 1), fmt.pct(r.pricing.proposed_spread),
-                  fmt.pct(worst.figures.raroc, 1), f"grade {worst.figures.grade}",
-                  r.case.borrower.name, r.case.memo.request[:40], "regulatory capital",
-                  "renewal", "unchanged", "new", r.case.memo.risks[0].risk[:30],
-                  r.case.memo.risks[2].mitigant[:30], r.case.memo.conditions[:30],
-                  "A model estimate, not a credit decision"):
+    for value in (
+        fmt.money(r.total.ead),
+        fmt.money(committed),
+        fmt.money(r.total.expected_loss, cur),
+        fmt.pct(r.total.el_rate, 3),
+        fmt.money(r.total.rwa, cur),
+        fmt.money(r.pricing.capital, cur),
+        fmt.pd_pct(r.pd.pd),
+        fmt.pct(r.pricing.minimum_spread),
+        fmt.pct(r.pricing.raroc, 1),
+        fmt.pct(r.pricing.hurdle_rate, 1),
+        fmt.pct(r.pricing.proposed_spread),
+        fmt.pct(worst.figures.raroc, 1),
+        f"grade {worst.figures.grade}",
+        r.case.borrower.name,
+        r.case.memo.request[:40],
+        "regulatory capital",
+        "renewal",
+        "unchanged",
+        "new",
+        r.case.memo.risks[0].risk[:30],
+        r.case.memo.risks[2].mitigant[:30],
+        r.case.memo.conditions[:30],
+        "A model estimate, not a credit decision",
+    ):
         assert value in text, value
     # Secured facility: committed against the collateral before haircut (TL-A: 120m / 90m).
     assert fmt.pct(120e6 / 90e6, 0) in text
@@ -158,13 +188,17 @@ def test_decision_page_prints_what_the_committee_decides_on(sample_results, samp
 def test_body_is_at_most_six_pages_between_decision_page_and_appendices(sample_pdf):
     pages = pdf_text(sample_pdf).split("\f")
     first_appendix = next(i for i, t in enumerate(pages) if re.search(r"^Appendix A", t, flags=re.M))
-    assert re.search(r"^1\s+The borrower", pages[1], flags=re.M)     # the body starts on page 2
+    assert re.search(r"^1\s+The borrower", pages[1], flags=re.M)  # the body starts on page 2
     assert first_appendix - 1 <= 6, f"body runs to {first_appendix - 1} pages"
 
 
 def test_decision_page_is_one_page_and_has_no_exponent_notation(sample_pdf):
-    first = subprocess.run(["pdftotext", "-f", "1", "-l", "1", "-enc", "UTF-8", "-", "-"], input=sample_pdf,
-                           capture_output=True, check=True).stdout.decode()
+    first = subprocess.run(
+        ["pdftotext", "-f", "1", "-l", "1", "-enc", "UTF-8", "-", "-"],
+        input=sample_pdf,
+        capture_output=True,
+        check=True,
+    ).stdout.decode()
     assert "Key risks and mitigants" in first and "A model estimate, not a credit decision" in first
     everything = pdf_text(sample_pdf)
     assert not re.search(r"\d[eE][+-]\d", everything), re.search(r".{20}\d[eE][+-]\d.{20}", everything)
@@ -176,7 +210,7 @@ def test_printed_pd_is_normal_tail_of_printed_distance_to_default(sample_results
     text = sample_sections["2 Probability of default"]
     assert fmt.num(r.pd.distance_to_default, 3) in text
     assert fmt.pd_pct(float(norm.sf(r.pd.distance_to_default))) in text
-    assert fmt.pd_pct(r.market.merton.pd) in text          # market cross-check
+    assert fmt.pd_pct(r.market.merton.pd) in text  # market cross-check
     term = sample_sections["Appendix A PD term structure"]
     for cumulative in r.term_structure.cumulative:
         assert fmt.pd_pct(cumulative) in term
@@ -217,8 +251,11 @@ def test_sensitivity_section_prints_scenarios_side_by_side(sample_results, sampl
     text = " ".join(sample_sections["Appendix F Sensitivities and scenarios"].split())
     for scenario in sample_results.scenarios:
         assert scenario.name in text
-        for value in (fmt.pd_pct(scenario.figures.pd), fmt.money(scenario.figures.expected_loss),
-                      fmt.money(scenario.figures.rwa)):
+        for value in (
+            fmt.pd_pct(scenario.figures.pd),
+            fmt.money(scenario.figures.expected_loss),
+            fmt.money(scenario.figures.rwa),
+        ):
             assert value in text, (scenario.name, value)
     for row in sample_results.sensitivity.rows:
         assert fmt.money(row.el_low) in text and fmt.money(row.el_high) in text, row.label
@@ -242,9 +279,16 @@ def test_financials_narrative_and_appendix(sample_results, sample_sections):
 
 def test_cautions_print_the_fixed_warnings_and_every_engine_caution(sample_results, sample_sections):
     text = " ".join(sample_sections["Appendix G Cautions"].split())
-    for phrase in ("not a credit decision", "credit policy", "supervisor", "qualified credit officer",
-                   "Structural-model assumptions", "Accounting values stand in for market values",
-                   "Short histories", "Recovery laws fitted to two moments"):
+    for phrase in (
+        "not a credit decision",
+        "credit policy",
+        "supervisor",
+        "qualified credit officer",
+        "Structural-model assumptions",
+        "Accounting values stand in for market values",
+        "Short histories",
+        "Recovery laws fitted to two moments",
+    ):
         assert phrase in text, phrase
     for caution in sample_results.cautions:
         assert " ".join(caution.message.split()) in text
@@ -293,8 +337,9 @@ def test_embedded_case_is_the_fingerprinted_input(sample_results, sample_pdf):
 
     embedded = read_attachments(sample_pdf)[CASE_FILE]
     # Reference: hashlib's SHA-256 over the canonical JSON, built here independently.
-    canonical = json.dumps(case_to_dict(sample_results.case), sort_keys=True, separators=(",", ":"),
-                           ensure_ascii=True).encode("ascii")
+    canonical = json.dumps(
+        case_to_dict(sample_results.case), sort_keys=True, separators=(",", ":"), ensure_ascii=True
+    ).encode("ascii")
     assert embedded == canonical
     assert hashlib.sha256(embedded).hexdigest() == sample_results.fingerprint
 
@@ -338,8 +383,13 @@ def test_fetcher_refuses_files_and_network_and_serves_its_own_data():
     fetcher = memo_fetcher({ours})
     assert fetcher.fetch(ours).read() == b"<svg/>"
     foreign = "data:text/html;base64," + base64.b64encode(b"<p>x</p>").decode("ascii")
-    for url in ("file:///etc/passwd", "http://example.invalid/x.png", "https://example.invalid/",
-                foreign, f"file://{ROOT / 'pyproject.toml'}"):
+    for url in (
+        "file:///etc/passwd",
+        "http://example.invalid/x.png",
+        "https://example.invalid/",
+        foreign,
+        f"file://{ROOT / 'pyproject.toml'}",
+    ):
         with pytest.raises(ValueError, match="refused"):
             fetcher.fetch(url)
 
@@ -398,7 +448,6 @@ def test_appendix_inputs_read_back_as_the_case(sample_results, make_case, sample
     """The appendix prints the inputs as YAML; PyYAML reading it back gives the case exactly
     (statements excepted: they are the table above it), hostile free text included."""
     import yaml
-
     from obligor_memo.app import memo
     from obligor_memo.engine.case import case_to_dict
 

@@ -9,14 +9,13 @@ from __future__ import annotations
 import io
 import shutil
 import subprocess
-from datetime import datetime, timezone
+from datetime import UTC, datetime, timezone
 from pathlib import Path
 
 import pytest
-
 from obligor_memo.app import memo
-from obligor_memo.app.memo import figures as memo_figures
 from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
+from obligor_memo.app.memo import figures as memo_figures
 
 ROOT = Path(__file__).resolve().parents[1]
 ARTIFACTS = ROOT / "test-artifacts"
@@ -29,8 +28,9 @@ def _browser() -> str | None:
         return None
 
 
-_skip = pytest.mark.skipif(_browser() is None or shutil.which("pdftoppm") is None,
-                           reason="needs Chrome/Chromium and poppler-utils")
+_skip = pytest.mark.skipif(
+    _browser() is None or shutil.which("pdftoppm") is None, reason="needs Chrome/Chromium and poppler-utils"
+)
 
 
 def needs_browser(test):
@@ -56,15 +56,14 @@ def analysed(sample_case):
 def charted_pdf(analysed) -> bytes:
     exporter = memo.start_chart_exporter()
     try:
-        pdf = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
+        pdf = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=UTC))
     finally:
         pass  # kept running for the reuse test below; stopped by the last test
     ARTIFACTS.mkdir(exist_ok=True)
     (ARTIFACTS / "memo_sample.pdf").write_bytes(pdf)
     for old in ARTIFACTS.glob("memo_sample-page-*.png"):
         old.unlink()
-    subprocess.run(["pdftoppm", "-r", "75", "-png", "-", str(ARTIFACTS / "memo_sample-page")],
-                   input=pdf, check=True)
+    subprocess.run(["pdftoppm", "-r", "75", "-png", "-", str(ARTIFACTS / "memo_sample-page")], input=pdf, check=True)
     assert exporter.running
     return pdf
 
@@ -80,9 +79,12 @@ def test_charts_are_vector_text_not_pictures(charted_pdf, analysed):
     # embeds for a heatmap (one per heatmap trace).
     figures, _ = memo_figures.build_figures(analysed)
     heatmaps = sum(trace.type == "heatmap" for fig in figures.values() for trace in fig.data)
-    listing = subprocess.run(["pdfimages", "-list", "-"], input=charted_pdf, capture_output=True,
-                             check=True).stdout.decode().splitlines()
-    pictures = [line for line in listing[2:] if line.split()[2] == "image"]   # not their alpha masks
+    listing = (
+        subprocess.run(["pdfimages", "-list", "-"], input=charted_pdf, capture_output=True, check=True)
+        .stdout.decode()
+        .splitlines()
+    )
+    pictures = [line for line in listing[2:] if line.split()[2] == "image"]  # not their alpha masks
     assert len(pictures) == heatmaps, listing
     text = _text(charted_pdf)
     # Axis titles and chart titles come through as text, which only vector charts allow.
@@ -148,11 +150,10 @@ def test_no_usual_browser_names_the_fix(monkeypatch):
 
 def test_memo_command_without_browser_fails_with_the_fix(monkeypatch, tmp_path, sample_case_path):
     from click.testing import CliRunner
-
     from obligor_memo.app.cli import main
 
     monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "missing"))
-    memo.stop_chart_exporter()        # a browser kept by an earlier test would hide the fault
+    memo.stop_chart_exporter()  # a browser kept by an earlier test would hide the fault
     result = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(tmp_path / "m.pdf")])
     assert result.exit_code == 2
     assert "--no-charts" in result.output and not (tmp_path / "m.pdf").exists()
@@ -166,7 +167,7 @@ def test_same_case_prints_the_same_bytes_with_charts(charted_pdf, analysed):
 
     memo_figures._SVG_CACHE.clear()
     chart_pages._PAGES_CACHE.clear()
-    again = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=timezone.utc))
+    again = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=UTC))
     assert again == charted_pdf
 
 
@@ -192,7 +193,7 @@ def test_partial_plotly_bundle_is_used_only_at_the_full_bundles_version(monkeypa
     other = tmp_path / "plotly-cartesian.min.js"
     other.write_text("/**\n* plotly.js (cartesian - minified) v0.0.1\n*/\nvar Plotly = {};\n")
     monkeypatch.setattr(chart_browser, "PARTIAL_BUNDLE", other)
-    assert chart_browser.plotly_bundle() is None          # kaleido's default: plotly.py's full bundle
+    assert chart_browser.plotly_bundle() is None  # kaleido's default: plotly.py's full bundle
     monkeypatch.setattr(chart_browser, "PARTIAL_BUNDLE", tmp_path / "absent.js")
     assert chart_browser.plotly_bundle() is None
 
@@ -201,13 +202,9 @@ def test_partial_plotly_bundle_is_used_only_at_the_full_bundles_version(monkeypa
 def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analysed, monkeypatch, tmp_path):
     """Every figure of the sample memo (scatter, bar with patterns, heatmap, shapes and
     annotations), drawn with each bundle and rasterised by poppler: not one pixel differs."""
-    from PIL import Image, ImageChops
-
-    from obligor_memo.app.memo import chart_browser
-
-    from obligor_memo.app.memo import chart_pages
-
+    from obligor_memo.app.memo import chart_browser, chart_pages
     from obligor_memo.app.memo import figures as memo_figures
+    from PIL import Image, ImageChops
 
     figures, _ = memo_figures.build_figures(analysed)
     pictures = {}
@@ -226,5 +223,3 @@ def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analys
     for partial, full in zip(pictures["partial"], pictures["full"]):
         a, b = Image.open(partial).convert("RGB"), Image.open(full).convert("RGB")
         assert a.size == b.size and ImageChops.difference(a, b).getbbox() is None, partial.name
-
-

@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from scipy.stats import norm
-
 from obligor_memo.app.present import formatting as fmt
 from obligor_memo.engine.analysis import analyse
 from obligor_memo.engine.decision import decision_summary
@@ -13,6 +11,7 @@ from obligor_memo.engine.drivers import break_evens, leave_one_year_out, pd_driv
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.evaluate import evaluate
 from obligor_memo.engine.scenarios import apply_overrides
+from scipy.stats import norm
 
 
 @pytest.fixture(scope="module")
@@ -42,11 +41,11 @@ def test_leave_one_year_out_matches_numpy_and_the_normal_tail(sample_results):
     assert len(out) == len(changes)
     latest, dp = r.case.statements[-1], r.pd.default_point
     for i, y in enumerate(out):
-        vol = np.std(np.delete(changes, i), ddof=1)            # numpy reference
+        vol = np.std(np.delete(changes, i), ddof=1)  # numpy reference
         assert y.volatility == pytest.approx(vol, rel=1e-12)
-        g = r.trend.growth_used                                 # mu - s^2/2 = g (log drift)
+        g = r.trend.growth_used  # mu - s^2/2 = g (log drift)
         dd = (np.log(latest.total_assets / dp) + g * r.case.pd.horizon_years) / (vol * np.sqrt(r.case.pd.horizon_years))
-        assert y.pd == pytest.approx(norm.cdf(-dd), rel=1e-9)   # scipy reference
+        assert y.pd == pytest.approx(norm.cdf(-dd), rel=1e-9)  # scipy reference
     # The sample's fall of 2020 drives the volatility: without it about 8 % instead of 12.6 %.
     worst = max(out, key=lambda y: abs(y.volatility - r.trend.volatility_used))
     assert worst.year == 2020 and worst.volatility == pytest.approx(0.082, abs=0.001)
@@ -54,8 +53,11 @@ def test_leave_one_year_out_matches_numpy_and_the_normal_tail(sample_results):
 
 def test_break_evens_land_on_the_grade_edge_and_the_hurdle(sample_results):
     r = sample_results
-    paths = {"Long-term share in the default point": "pd.default_point.long_term_share",
-             "Asset volatility": "pd.asset_volatility", "Asset growth": "pd.asset_growth"}
+    paths = {
+        "Long-term share in the default point": "pd.default_point.long_term_share",
+        "Asset volatility": "pd.asset_volatility",
+        "Asset growth": "pd.asset_growth",
+    }
     found = {b.input: b for b in break_evens(r)}
     for label, path in paths.items():
         b = found[label]

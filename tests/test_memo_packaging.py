@@ -21,8 +21,12 @@ ROOT = Path(__file__).resolve().parents[1]
 @pytest.fixture(scope="module")
 def wheel(tmp_path_factory) -> Path:
     out = tmp_path_factory.mktemp("wheel")
-    subprocess.run([sys.executable, "-m", "pip", "wheel", "--no-deps", "-q", "-w",
-                    str(out), str(ROOT)], check=True, capture_output=True, timeout=300)
+    subprocess.run(
+        [sys.executable, "-m", "pip", "wheel", "--no-deps", "-q", "-w", str(out), str(ROOT)],
+        check=True,
+        capture_output=True,
+        timeout=300,
+    )
     return next(out.glob("obligor_memo-*.whl"))
 
 
@@ -47,22 +51,36 @@ def test_wheel_installed_in_a_fresh_environment_lists_only_its_namespace(wheel, 
     env = tmp_path / "env"
     venv.EnvBuilder(with_pip=True, system_site_packages=False).create(env)
     python = env / "bin" / "python"
-    subprocess.run([str(python), "-m", "pip", "install", "--no-deps", "--no-index", "-q", str(wheel)],
-                   check=True, capture_output=True, timeout=300)
-    site = subprocess.run([str(python), "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
-                          check=True, capture_output=True, text=True).stdout.strip()
+    subprocess.run(
+        [str(python), "-m", "pip", "install", "--no-deps", "--no-index", "-q", str(wheel)],
+        check=True,
+        capture_output=True,
+        timeout=300,
+    )
+    site = subprocess.run(
+        [str(python), "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
+        check=True,
+        capture_output=True,
+        text=True,
+    ).stdout.strip()
     entries = {p.name for p in Path(site).iterdir()}
-    ours = {e for e in entries if not e.startswith(("pip", "_distutils_hack", "distutils-precedence", "setuptools",
-                                                      "pkg_resources", "__pycache__"))
-            and not e.endswith((".dist-info", ".pth"))}
+    ours = {
+        e
+        for e in entries
+        if not e.startswith(
+            ("pip", "_distutils_hack", "distutils-precedence", "setuptools", "pkg_resources", "__pycache__")
+        )
+        and not e.endswith((".dist-info", ".pth"))
+    }
     assert ours == {"obligor_memo"}, ours
     assert not (Path(site) / "app").exists() and not (Path(site) / "engine").exists()
     # The installed copy finds its templates and sample inside the package (no checkout on the path).
-    probe = ("from importlib import resources; from pathlib import Path; "
-             "t = Path(str(resources.files('obligor_memo.templates'))); "
-             "s = Path(str(resources.files('obligor_memo.sample_data'))); "
-             "print((t / 'memo.html').is_file(), (s / 'hollowmere.yaml').is_file(), t.is_relative_to(Path(r'%s')))"
-             % site)
+    probe = (
+        "from importlib import resources; from pathlib import Path; "
+        "t = Path(str(resources.files('obligor_memo.templates'))); "
+        "s = Path(str(resources.files('obligor_memo.sample_data'))); "
+        f"print((t / 'memo.html').is_file(), (s / 'hollowmere.yaml').is_file(), t.is_relative_to(Path(r'{site}')))"
+    )
     done = subprocess.run([str(python), "-c", probe], check=True, capture_output=True, text=True, cwd=tmp_path)
     assert done.stdout.split() == ["True", "True", "True"]
 

@@ -12,7 +12,6 @@ import subprocess
 import xml.etree.ElementTree as ET
 
 import pytest
-
 from obligor_memo.app.memo.figures import slim_svg
 
 NS = "{http://www.w3.org/2000/svg}"
@@ -51,8 +50,8 @@ def test_slimming_drops_what_draws_nothing_and_keeps_every_mark():
     before, after = _elements(PLOT_LIKE), _elements(slim_svg(PLOT_LIKE))
     tags = [e.tag.replace(NS, "") for e in after]
     assert len(after) < len(before)
-    assert not any(e.tag == NS + "g" and len(e) == 0 for e in after)        # no empty groups
-    assert not any(e.tag == NS + "path" and not e.get("d") for e in after)   # no empty paths
+    assert not any(e.tag == NS + "g" and len(e) == 0 for e in after)  # no empty groups
+    assert not any(e.tag == NS + "path" and not e.get("d") for e in after)  # no empty paths
     # Kept: background, clip rectangle, grid line, fill, line, legend marker, title; dropped:
     # the zero-size scroll bar (SVG draws no rect of zero width or height).
     rect_sizes = sorted((e.get("width"), e.get("height")) for e in after if e.tag == NS + "rect")
@@ -67,16 +66,18 @@ def test_invisible_fill_with_an_inherited_stroke_is_kept():
     after = _elements(slim_svg(PLOT_LIKE))
     assert any(e.get("width") == "80" and e.get("height") == "18" for e in after)
     no_stroke = PLOT_LIKE.replace('<g class="legend" style="stroke: rgb(0, 0, 0);">', '<g class="legend">')
-    assert not any(e.get("width") == "80" and e.get("height") == "18"
-                   for e in _elements(slim_svg(no_stroke)))
+    assert not any(e.get("width") == "80" and e.get("height") == "18" for e in _elements(slim_svg(no_stroke)))
 
 
-@pytest.mark.parametrize(("tag_text", "attribute", "value"), [
-    ("js-line", "stroke-dasharray", "9px, 3px"),   # a list value keeps its comma
-    ("js-line", "vector-effect", "none"),
-    ("js-fill", "fill-opacity", "0.3"),
-    ("xtitle", "font-family", "'DejaVu Sans'"),     # quoted family name kept as written
-])
+@pytest.mark.parametrize(
+    ("tag_text", "attribute", "value"),
+    [
+        ("js-line", "stroke-dasharray", "9px, 3px"),  # a list value keeps its comma
+        ("js-line", "vector-effect", "none"),
+        ("js-fill", "fill-opacity", "0.3"),
+        ("xtitle", "font-family", "'DejaVu Sans'"),  # quoted family name kept as written
+    ],
+)
 def test_style_declarations_become_the_same_presentation_attributes(tag_text, attribute, value):
     original = next(e for e in _elements(PLOT_LIKE) if tag_text in (e.get("class") or ""))
     slim = [e for e in _elements(slim_svg(PLOT_LIKE)) if e.get(attribute) == value]
@@ -87,8 +88,8 @@ def test_style_declarations_become_the_same_presentation_attributes(tag_text, at
 def test_screen_only_and_unparseable_input():
     out = slim_svg(PLOT_LIKE)
     assert "pointer-events" not in out and "class=" not in out
-    assert "white-space: pre" in out        # not a presentation attribute: stays a style
-    assert slim_svg("<svg") == "<svg"       # not XML: returned unchanged
+    assert "white-space: pre" in out  # not a presentation attribute: stays a style
+    assert slim_svg("<svg") == "<svg"  # not XML: returned unchanged
     assert slim_svg("<html/>") == "<html/>"
 
 
@@ -103,8 +104,11 @@ def test_slimmed_chart_prints_pixel_identical(tmp_path):
         html = f"<body style='margin:0'><img src='{uri}'></body>"
         pdf = HTML(string=html).write_pdf()
         (tmp_path / f"{name}.pdf").write_bytes(pdf)
-        subprocess.run(["pdftoppm", "-r", "150", "-png", "-singlefile", str(tmp_path / f"{name}.pdf"),
-                        str(tmp_path / name)], capture_output=True, check=True)
+        subprocess.run(
+            ["pdftoppm", "-r", "150", "-png", "-singlefile", str(tmp_path / f"{name}.pdf"), str(tmp_path / name)],
+            capture_output=True,
+            check=True,
+        )
         return Image.open(tmp_path / f"{name}.png").convert("RGB")
 
     before, after = raster(PLOT_LIKE, "before"), raster(slim_svg(PLOT_LIKE), "after")

@@ -5,9 +5,8 @@ from __future__ import annotations
 import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
-from scipy.optimize import brentq
-
 from obligor_memo.engine.pricing import PricingResult, RarocResult, minimum_income_rate, price_borrower, raroc
+from scipy.optimize import brentq
 
 # Crouhy, Galai and Mark, "Risk Management" (McGraw-Hill, 2001), RAROC worked
 # example, recalled from memory: loan rate 4 %, funding 1.5 %, expected loss 1 %,
@@ -76,9 +75,7 @@ hurdles = st.floats(min_value=0.0, max_value=0.4)
 
 
 @settings(max_examples=100, deadline=None)
-@given(
-    hurdle=hurdles, funding=rates, operating=costs, expected_loss=costs, capital=capitals, capital_return=rates
-)
+@given(hurdle=hurdles, funding=rates, operating=costs, expected_loss=costs, capital=capitals, capital_return=rates)
 def test_minimum_income_round_trip_and_root_finder(
     hurdle: float, funding: float, operating: float, expected_loss: float, capital: float, capital_return: float
 ) -> None:

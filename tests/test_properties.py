@@ -7,15 +7,14 @@ import math
 import string
 
 import pytest
-from scipy import special
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
 from obligor_memo.engine.case import case_to_dict, parse_case
 from obligor_memo.engine.exposure import exposure_at_default
 from obligor_memo.engine.loss import expected_loss
 from obligor_memo.engine.recovery import largest_feasible_std, recovery_law
 from obligor_memo.engine.structural import balance_sheet_pd
+from scipy import special
 
 positive = st.floats(min_value=1.0, max_value=1e12, allow_nan=False)
 growth = st.floats(min_value=-0.5, max_value=0.5)
@@ -24,13 +23,18 @@ horizon = st.floats(min_value=0.25, max_value=10.0)
 
 
 def _pd(v, g, s, dp, t):
-    return balance_sheet_pd(asset_value=v, asset_growth=g, asset_volatility=s, short_term_liabilities=dp,
-                            long_term_liabilities=0.0, horizon_years=t)
+    return balance_sheet_pd(
+        asset_value=v,
+        asset_growth=g,
+        asset_volatility=s,
+        short_term_liabilities=dp,
+        long_term_liabilities=0.0,
+        horizon_years=t,
+    )
 
 
 @settings(max_examples=300, deadline=None)
-@given(v=positive, rise=st.floats(min_value=1e-6, max_value=10.0), dp=positive, g=growth, s=volatility,
-       t=horizon)
+@given(v=positive, rise=st.floats(min_value=1e-6, max_value=10.0), dp=positive, g=growth, s=volatility, t=horizon)
 def test_pd_falls_as_assets_rise(v, rise, dp, g, s, t) -> None:
     low, high = _pd(v, g, s, dp, t), _pd(v * (1 + rise), g, s, dp, t)
     assert high.distance_to_default > low.distance_to_default
@@ -38,8 +42,7 @@ def test_pd_falls_as_assets_rise(v, rise, dp, g, s, t) -> None:
 
 
 @settings(max_examples=300, deadline=None)
-@given(v=positive, dp=positive, rise=st.floats(min_value=1e-6, max_value=10.0), g=growth, s=volatility,
-       t=horizon)
+@given(v=positive, dp=positive, rise=st.floats(min_value=1e-6, max_value=10.0), g=growth, s=volatility, t=horizon)
 def test_pd_rises_with_the_default_point(v, dp, rise, g, s, t) -> None:
     low, high = _pd(v, g, s, dp, t), _pd(v, g, s, dp * (1 + rise), t)
     assert high.distance_to_default < low.distance_to_default
@@ -48,8 +51,9 @@ def test_pd_rises_with_the_default_point(v, dp, rise, g, s, t) -> None:
 
 
 @settings(max_examples=300, deadline=None)
-@given(drawn=st.floats(0, 1e12), committed=st.floats(0, 1e12), ccf=st.floats(0, 1), pd=st.floats(0, 1),
-       lgd=st.floats(0, 1))
+@given(
+    drawn=st.floats(0, 1e12), committed=st.floats(0, 1e12), ccf=st.floats(0, 1), pd=st.floats(0, 1), lgd=st.floats(0, 1)
+)
 def test_el_never_exceeds_ead(drawn, committed, ccf, pd, lgd) -> None:
     ead = exposure_at_default(drawn=drawn, committed=committed, ccf=ccf)
     assert drawn <= ead <= max(drawn, committed) * (1 + 1e-15)
@@ -67,8 +71,10 @@ def feasible_recovery(draw):
 
 
 @settings(max_examples=300, deadline=None)
-@given(feasible_recovery(),
-       st.lists(st.one_of(st.floats(min_value=1e-12, max_value=1.0), st.just(0.0)), min_size=1, max_size=5))
+@given(
+    feasible_recovery(),
+    st.lists(st.one_of(st.floats(min_value=1e-12, max_value=1.0), st.just(0.0)), min_size=1, max_size=5),
+)
 def test_lgd_stays_within_one_minus_upper_and_one(moments, quantiles) -> None:
     mean, std, upper = moments
     law = recovery_law(mean=mean, std=std, upper=upper)
@@ -101,32 +107,47 @@ fractions = st.floats(min_value=0.0, max_value=1.0)
 def cases(draw):
     first_year = draw(st.integers(min_value=1900, max_value=2190))
     years = draw(st.integers(min_value=3, max_value=8))
-    statements = [{"year": first_year + i,
-                   "total_assets": draw(st.floats(min_value=1e-3, max_value=1e15)),
-                   "short_term_liabilities": draw(st.floats(min_value=1.0, max_value=1e15)),
-                   "long_term_liabilities": draw(amounts)}
-                  for i in range(years)]  # the last year stays within the schema's 2200
+    statements = [
+        {
+            "year": first_year + i,
+            "total_assets": draw(st.floats(min_value=1e-3, max_value=1e15)),
+            "short_term_liabilities": draw(st.floats(min_value=1.0, max_value=1e15)),
+            "long_term_liabilities": draw(amounts),
+        }
+        for i in range(years)
+    ]  # the last year stays within the schema's 2200
     statements = draw(st.permutations(statements))
     facilities = []
     for index in range(draw(st.integers(min_value=1, max_value=3))):
-        facility = {"id": f"F{index}-" + draw(st.text(string.ascii_letters, max_size=5)),
-                    "kind": draw(st.sampled_from(["bond", "term_loan", "revolver", "guarantee",
-                                                  "letter_of_credit"])),
-                    "committed": draw(amounts), "drawn": draw(amounts),
-                    "ccf": draw(st.one_of(st.none(), fractions)),
-                    "seniority": draw(st.sampled_from(["senior_secured", "senior_unsecured", "subordinated"])),
-                    "maturity_years": draw(st.floats(min_value=0.01, max_value=50.0))}
+        facility = {
+            "id": f"F{index}-" + draw(st.text(string.ascii_letters, max_size=5)),
+            "kind": draw(st.sampled_from(["bond", "term_loan", "revolver", "guarantee", "letter_of_credit"])),
+            "committed": draw(amounts),
+            "drawn": draw(amounts),
+            "ccf": draw(st.one_of(st.none(), fractions)),
+            "seniority": draw(st.sampled_from(["senior_secured", "senior_unsecured", "subordinated"])),
+            "maturity_years": draw(st.floats(min_value=0.01, max_value=50.0)),
+        }
         if draw(st.booleans()):
             mean, std, upper = draw(feasible_recovery())
             facility["recovery"] = {"mean": mean, "std": std, "upper": upper}
         facilities.append(facility)
-    data = {"borrower": {"name": draw(st.text(min_size=1, max_size=40)),
-                         "currency": draw(st.text(string.ascii_uppercase, min_size=3, max_size=3))},
-            "statements": statements, "facilities": facilities,
-            "pd": {"horizon_years": draw(st.floats(min_value=0.1, max_value=30.0)),
-                   "default_point": {"short_term_share": draw(st.floats(min_value=0.01, max_value=1.0)),
-                                     "long_term_share": draw(fractions)}},
-            "memo": {"summary": draw(st.text(max_size=200))}}
+    data = {
+        "borrower": {
+            "name": draw(st.text(min_size=1, max_size=40)),
+            "currency": draw(st.text(string.ascii_uppercase, min_size=3, max_size=3)),
+        },
+        "statements": statements,
+        "facilities": facilities,
+        "pd": {
+            "horizon_years": draw(st.floats(min_value=0.1, max_value=30.0)),
+            "default_point": {
+                "short_term_share": draw(st.floats(min_value=0.01, max_value=1.0)),
+                "long_term_share": draw(fractions),
+            },
+        },
+        "memo": {"summary": draw(st.text(max_size=200))},
+    }
     if draw(st.booleans()):
         data["pd"]["override"] = draw(st.floats(min_value=1e-9, max_value=1.0))
         data["pd"]["override_reason"] = "x" + draw(st.text(max_size=30))

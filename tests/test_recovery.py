@@ -7,10 +7,15 @@ import math
 
 import numpy as np
 import pytest
+from obligor_memo.engine.recovery import (
+    beta_parameters_from_moments,
+    collateral_cover,
+    downturn_lgd,
+    largest_feasible_std,
+    recovery_law,
+    seniority_recovery_mean,
+)
 from scipy import stats
-
-from obligor_memo.engine.recovery import (beta_parameters_from_moments, collateral_cover, downturn_lgd,
-                             largest_feasible_std, recovery_law, seniority_recovery_mean)
 
 
 def test_method_of_moments_published_example() -> None:
@@ -21,8 +26,15 @@ def test_method_of_moments_published_example() -> None:
     assert beta == pytest.approx(3.0, rel=1e-12)
 
 
-MOMENTS = [(0.8, 0.1, 1.0), (0.45, 0.25, 1.0), (0.55, 0.22, 1.0), (0.2, 0.18, 0.9), (0.05, 0.04, 0.5),
-           (0.6, 0.01, 1.0), (0.7, 0.3, 0.9)]
+MOMENTS = [
+    (0.8, 0.1, 1.0),
+    (0.45, 0.25, 1.0),
+    (0.55, 0.22, 1.0),
+    (0.2, 0.18, 0.9),
+    (0.05, 0.04, 0.5),
+    (0.6, 0.01, 1.0),
+    (0.7, 0.3, 0.9),
+]
 
 
 @pytest.mark.parametrize(("mean", "std", "upper"), MOMENTS)
@@ -66,12 +78,15 @@ def test_largest_feasible_std() -> None:
     assert largest_feasible_std(mean=0.0) == 0.0
 
 
-@pytest.mark.parametrize(("kwargs", "fragment"), [
-    ({"mean": 0.5, "std": 0.5}, "below 0.500000"),
-    ({"mean": 0.6, "std": 0.4, "upper": 0.8}, f"below {math.sqrt(0.12):.6f}"),
-    ({"mean": 0.0, "std": 0.1}, "strictly between 0 and upper"),
-    ({"mean": 0.5, "std": 0.1, "upper": 1.6}, "recovery.upper: got 1.6"),  # up to 1.5 allowed
-])
+@pytest.mark.parametrize(
+    ("kwargs", "fragment"),
+    [
+        ({"mean": 0.5, "std": 0.5}, "below 0.500000"),
+        ({"mean": 0.6, "std": 0.4, "upper": 0.8}, f"below {math.sqrt(0.12):.6f}"),
+        ({"mean": 0.0, "std": 0.1}, "strictly between 0 and upper"),
+        ({"mean": 0.5, "std": 0.1, "upper": 1.6}, "recovery.upper: got 1.6"),  # up to 1.5 allowed
+    ],
+)
 def test_infeasible_moments_give_the_limit(kwargs, fragment) -> None:
     with pytest.raises(ValueError) as caught:
         beta_parameters_from_moments(**kwargs)
@@ -85,12 +100,15 @@ def test_recovery_law_refuses_spread_at_the_edge() -> None:
         recovery_law(mean=0.5, std=0.1, collateral_cover=1.5)
 
 
-@pytest.mark.parametrize(("value", "haircut", "ead", "expected"), [
-    (90e6, 0.40, 120e6, 54e6 / 120e6),   # C (1 - H) / EAD (Basel II para 147's E* = E - C(1 - Hc))
-    (100.0, 0.0, 50.0, 1.0),             # capped at full cover
-    (0.0, 0.2, 50.0, 0.0),
-    (10.0, 0.2, 0.0, 0.0),               # nothing exposed, nothing to cover
-])
+@pytest.mark.parametrize(
+    ("value", "haircut", "ead", "expected"),
+    [
+        (90e6, 0.40, 120e6, 54e6 / 120e6),  # C (1 - H) / EAD (Basel II para 147's E* = E - C(1 - Hc))
+        (100.0, 0.0, 50.0, 1.0),  # capped at full cover
+        (0.0, 0.2, 50.0, 0.0),
+        (10.0, 0.2, 0.0, 0.0),  # nothing exposed, nothing to cover
+    ],
+)
 def test_collateral_cover_formula(value, haircut, ead, expected) -> None:
     assert collateral_cover(collateral_value=value, haircut=haircut, ead=ead) == pytest.approx(expected, rel=1e-15)
 
@@ -108,16 +126,19 @@ def test_collateral_lifts_the_floor_of_the_recovery_law() -> None:
     np.testing.assert_allclose(law.cdf(np.array([0.5, 0.8])), reference.cdf([0.5, 0.8]), rtol=1e-9)
 
 
-@pytest.mark.parametrize(("standard", "seniority", "mean"), [
-    # Foundation-IRB supervisory LGDs, from memory: Basel II (2006) paras 287, 288, 295;
-    # Basel III final (Dec 2017) CRE32 -- senior unsecured 40 %, subordinated 75 %, secured 20 %.
-    ("basel_ii", "senior_unsecured", 0.55),
-    ("basel_ii", "subordinated", 0.25),
-    ("basel_ii", "senior_secured", 0.65),
-    ("basel_iii", "senior_unsecured", 0.60),
-    ("basel_iii", "subordinated", 0.25),
-    ("basel_iii", "senior_secured", 0.80),
-])
+@pytest.mark.parametrize(
+    ("standard", "seniority", "mean"),
+    [
+        # Foundation-IRB supervisory LGDs, from memory: Basel II (2006) paras 287, 288, 295;
+        # Basel III final (Dec 2017) CRE32 -- senior unsecured 40 %, subordinated 75 %, secured 20 %.
+        ("basel_ii", "senior_unsecured", 0.55),
+        ("basel_ii", "subordinated", 0.25),
+        ("basel_ii", "senior_secured", 0.65),
+        ("basel_iii", "senior_unsecured", 0.60),
+        ("basel_iii", "subordinated", 0.25),
+        ("basel_iii", "senior_secured", 0.80),
+    ],
+)
 def test_seniority_recovery_means(standard, seniority, mean) -> None:
     value, source = seniority_recovery_mean(seniority, standard)
     assert value == pytest.approx(mean, rel=1e-15)

@@ -6,7 +6,6 @@ import copy
 
 import pytest
 from click.testing import CliRunner
-
 from obligor_memo.app.cli import main
 from obligor_memo.app.memo.reading import printed_number, read_last_review, read_last_review_path, roll_forward_review
 from obligor_memo.app.present.compare_report import review_view
@@ -38,7 +37,7 @@ def test_roll_forward_records_the_previous_review(sample_case):
     again = roll_forward(case, approved_on="2026-11-27")
     assert again["review"]["history"][0]["approved_on"] == "2025-11-28"
     assert "case" not in again["review"]["history"][0]
-    assert "review" not in parse_case(again).review.previous.case   # no nesting of inputs
+    assert "review" not in parse_case(again).review.previous.case  # no nesting of inputs
 
 
 def test_the_memo_view_shows_both_years_and_the_cause(sample_case):
@@ -62,19 +61,31 @@ def test_a_memo_pdf_opens_as_last_review(tmp_path, sample_case_path, sample_case
     assert read_last_review_path(sample_case_path).case == sample_case
 
 
-@pytest.mark.parametrize("text, value", [("EUR 1,234,567", 1234567.0), ("0.2123 %", 0.002123),
-                                         ("41.5 %", 0.415), ("4", 4.0), ("n/a", None), ("BB+", "BB+")])
+@pytest.mark.parametrize(
+    "text, value",
+    [
+        ("EUR 1,234,567", 1234567.0),
+        ("0.2123 %", 0.002123),
+        ("41.5 %", 0.415),
+        ("4", 4.0),
+        ("n/a", None),
+        ("BB+", "BB+"),
+    ],
+)
 def test_printed_figures_read_back(text, value):
     got = printed_number(text)
     assert got == (pytest.approx(value) if isinstance(value, float) else value)
 
 
-@pytest.mark.parametrize("change, field, allowed", [
-    ({"approved_on": "30/11/2025"}, "review.previous.approved_on", "YYYY-MM-DD"),
-    ({"fingerprint": "abc"}, "review.previous.fingerprint", "64 lower-case hex digits"),
-    ({"figures": {"Expected Loss": 1.0}}, "review.previous.figures.Expected Loss", "lower-case"),
-    ({"engine_version": ""}, "review.previous.engine_version", "at least 1"),
-])
+@pytest.mark.parametrize(
+    "change, field, allowed",
+    [
+        ({"approved_on": "30/11/2025"}, "review.previous.approved_on", "YYYY-MM-DD"),
+        ({"fingerprint": "abc"}, "review.previous.fingerprint", "64 lower-case hex digits"),
+        ({"figures": {"Expected Loss": 1.0}}, "review.previous.figures.Expected Loss", "lower-case"),
+        ({"engine_version": ""}, "review.previous.engine_version", "at least 1"),
+    ],
+)
 def test_bad_review_keys_name_the_field(sample_case, change, field, allowed):
     from obligor_memo.engine.case import case_to_dict
     from obligor_memo.engine.errors import CaseError

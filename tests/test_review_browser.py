@@ -9,12 +9,10 @@ from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
-
 from obligor_memo.app.cli import main
 from test_browser import ARTIFACTS, CHROMIUM, ROOT, _settle, server  # noqa: F401  (fixture)
 
-pytestmark = [pytest.mark.browser,
-              pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
+pytestmark = [pytest.mark.browser, pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
 
 
 def test_roll_forward_journey(server, tmp_path):  # noqa: F811
@@ -30,9 +28,11 @@ def test_roll_forward_journey(server, tmp_path):  # noqa: F811
     statements = tmp_path / "statements_2026.csv"
     statements.write_text("\n".join(rows) + "\n")
     with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True,
-                                    args=["--no-sandbox", "--headless=new", "--disable-gpu",
-                                          "--disable-dev-shm-usage"])
+        browser = p.chromium.launch(
+            executable_path=CHROMIUM,
+            headless=True,
+            args=["--no-sandbox", "--headless=new", "--disable-gpu", "--disable-dev-shm-usage"],
+        )
         page = browser.new_page(viewport={"width": 1500, "height": 1100})
         page.goto(url, wait_until="networkidle")
         page.get_by_text("Hollowmere Lifting Group").first.wait_for(timeout=20000)
@@ -44,7 +44,8 @@ def test_roll_forward_journey(server, tmp_path):  # noqa: F811
         page.get_by_text("Started the new review").first.wait_for(timeout=20000)
         _settle(page)
         page.locator('[data-testid="stFileUploader"]', has_text="Replace the statements").locator(
-            'input[type="file"]').set_input_files(str(statements))
+            'input[type="file"]'
+        ).set_input_files(str(statements))
         page.get_by_text("Read 11 year(s)").first.wait_for(timeout=20000)
         _settle(page)
         # change the revolver's CCF: the grid's fifth column, second row
@@ -63,7 +64,7 @@ def test_roll_forward_journey(server, tmp_path):  # noqa: F811
             page.keyboard.press("Enter")
             _settle(page)
             page.wait_for_timeout(1000)
-            if not page.get_by_text("37,200,000").count():     # RCF-1's EAD at the preset CCF
+            if not page.get_by_text("37,200,000").count():  # RCF-1's EAD at the preset CCF
                 break
         assert not page.get_by_text("37,200,000").count(), "the CCF edit did not reach the case"
         page.screenshot(path=str(ARTIFACTS / "review_01_exposure.png"), full_page=True)

@@ -5,16 +5,14 @@ from __future__ import annotations
 import copy
 import json
 
-from streamlit.testing.v1 import AppTest
-
 from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench.state import WORKDIR_ENV
 from obligor_memo.engine.review import roll_forward
+from streamlit.testing.v1 import AppTest
 from workbench_support import WORKBENCH
 
 
-def test_the_view_shows_grade_migration_figures_waterfalls_and_changed_inputs(tmp_path, monkeypatch,
-                                                                               sample_case):
+def test_the_view_shows_grade_migration_figures_waterfalls_and_changed_inputs(tmp_path, monkeypatch, sample_case):
     monkeypatch.setenv(WORKDIR_ENV, str(tmp_path))
     d = roll_forward(sample_case, approved_on="2025-11-28")
     last = dict(d["statements"][-1])

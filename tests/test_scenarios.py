@@ -13,12 +13,11 @@ from pathlib import Path
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
 from obligor_memo.engine.case import case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.evaluate import evaluate
 from obligor_memo.engine.loading import load_case
-from obligor_memo.engine.scenarios import (apply_overrides, evaluate_scenarios, headline_figures, valid_paths)
+from obligor_memo.engine.scenarios import apply_overrides, evaluate_scenarios, headline_figures, valid_paths
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_data" / "hollowmere.yaml"
 CASE = load_case(SAMPLE)
@@ -39,18 +38,18 @@ def _facility(data: dict, fid: str) -> dict:
 # Each override and the same change written by hand into the case data.
 HAND_EDITS = [
     ({"pd.asset_growth": -0.05}, lambda d: d["pd"].update(asset_growth=-0.05)),
-    ({"pd.default_point.long_term_share": 1.0},
-     lambda d: d["pd"]["default_point"].update(long_term_share=1.0)),
+    ({"pd.default_point.long_term_share": 1.0}, lambda d: d["pd"]["default_point"].update(long_term_share=1.0)),
     ({"capital.confidence": 0.995}, lambda d: d["capital"].update(confidence=0.995)),
     ({"lgd.standard": "basel_ii"}, lambda d: d["lgd"].update(standard="basel_ii")),
     ({"facilities.RCF-1.ccf": 1.0}, lambda d: _facility(d, "RCF-1").update(ccf=1.0)),
-    ({"facilities.TL-A.recovery.mean": 0.40},
-     lambda d: _facility(d, "TL-A")["recovery"].update(mean=0.40)),
+    ({"facilities.TL-A.recovery.mean": 0.40}, lambda d: _facility(d, "TL-A")["recovery"].update(mean=0.40)),
     ({"facilities.*.ccf": 0.5}, lambda d: [f.update(ccf=0.5) for f in d["facilities"]]),
     ({"pd.asset_volatility": None}, lambda d: d["pd"].update(asset_volatility=None)),
     ({"facilities.TL-A.recovery": None}, lambda d: _facility(d, "TL-A").update(recovery=None)),
-    ({"facilities.GTE-SF.recovery.mean": 0.3, "facilities.GTE-SF.recovery.std": 0.2},
-     lambda d: _facility(d, "GTE-SF").update(recovery={"mean": 0.3, "std": 0.2, "upper": 1.0})),
+    (
+        {"facilities.GTE-SF.recovery.mean": 0.3, "facilities.GTE-SF.recovery.std": 0.2},
+        lambda d: _facility(d, "GTE-SF").update(recovery={"mean": 0.3, "std": 0.2, "upper": 1.0}),
+    ),
     ({"pricing.hurdle_rate": 0.15}, lambda d: d["pricing"].update(hurdle_rate=0.15)),
 ]
 
@@ -61,8 +60,9 @@ def test_override_equals_hand_edit(overrides, edit):
 
 
 def test_named_facility_wins_over_wildcard_in_either_order():
-    expected = _hand_edit(lambda d: ([f.update(ccf=0.3) for f in d["facilities"]],
-                                     _facility(d, "LC-IMP").update(ccf=0.9)))
+    expected = _hand_edit(
+        lambda d: ([f.update(ccf=0.3) for f in d["facilities"]], _facility(d, "LC-IMP").update(ccf=0.9))
+    )
     first = {"facilities.LC-IMP.ccf": 0.9, "facilities.*.ccf": 0.3}
     second = {"facilities.*.ccf": 0.3, "facilities.LC-IMP.ccf": 0.9}
     assert apply_overrides(CASE, first, where="s") == expected
@@ -99,8 +99,11 @@ BAD = [
     ({"pricing.hurdle_rate": "high"}, "pricing.hurdle_rate", ["a number"]),
     ({"lgd.standard": "basel_iv"}, "lgd.standard", ["basel_iii"]),
     ({"facilities.TL-A.recovery.std": 0.6}, "facilities.TL-A.recovery.std", ["below 0.4975"]),
-    ({"facilities.RCF-1.recovery.mean": 0.3}, "facilities.RCF-1.recovery.mean",
-     ["not set in the case", "missing: std"]),
+    (
+        {"facilities.RCF-1.recovery.mean": 0.3},
+        "facilities.RCF-1.recovery.mean",
+        ["not set in the case", "missing: std"],
+    ),
 ]
 
 
@@ -120,7 +123,7 @@ def test_cross_check_failure_names_every_override_involved():
     overrides = {"pd.default_point.short_term_share": 0.0, "pd.default_point.long_term_share": 0.0}
     with pytest.raises(CaseError) as caught:
         apply_overrides(CASE, overrides, where="scenarios[1]")
-    problem, = caught.value.problems
+    (problem,) = caught.value.problems
     assert problem.field == "scenarios[1].set['pd.default_point.short_term_share']"
     assert "pd.default_point.long_term_share" in problem.allowed
     assert "default point above 0" in problem.allowed
@@ -132,12 +135,15 @@ def test_every_listed_path_is_accepted_with_its_current_value():
         if ".*." in path:
             continue
         node = data
-        keys = (["facilities", IDS.index(path.split(".")[1])] + path.split(".")[2:]
-                if path.startswith("facilities.") else path.split("."))
+        keys = (
+            ["facilities", IDS.index(path.split(".")[1])] + path.split(".")[2:]
+            if path.startswith("facilities.")
+            else path.split(".")
+        )
         for key in keys:
             node = node[key] if node is not None else None
         if node is None or isinstance(node, dict):
-            continue   # an unset block: writing into it is a separate rule
+            continue  # an unset block: writing into it is a separate rule
         assert apply_overrides(CASE, {path: node}, where="s") == CASE, path
 
 
@@ -159,8 +165,13 @@ def test_sample_scenarios_equal_evaluate_of_hand_edited_cases():
     hand = [
         _hand_edit(lambda d: d["pd"].update(asset_growth=-0.05, asset_volatility=0.18)),
         _hand_edit(lambda d: d["pd"]["default_point"].update(long_term_share=1.0)),
-        _hand_edit(lambda d: (_facility(d, "RCF-1").update(ccf=1.0), d["lgd"].update(standard="basel_ii"),
-                              _facility(d, "TL-A")["recovery"].update(mean=0.40))),
+        _hand_edit(
+            lambda d: (
+                _facility(d, "RCF-1").update(ccf=1.0),
+                d["lgd"].update(standard="basel_ii"),
+                _facility(d, "TL-A")["recovery"].update(mean=0.40),
+            )
+        ),
     ]
     results = evaluate_scenarios(CASE, BASE)
     assert [r.name for r in results] == [s.name for s in CASE.scenarios]
@@ -173,18 +184,31 @@ def test_sample_scenarios_equal_evaluate_of_hand_edited_cases():
 
 def test_deltas_are_scenario_minus_base():
     base = headline_figures(BASE)
-    for result in evaluate_scenarios(CASE):           # also without a base given
+    for result in evaluate_scenarios(CASE):  # also without a base given
         assert result.base == base
-        for name in ("pd", "expected_loss", "el_rate", "ead", "rwa", "unexpected_loss",
-                     "economic_capital", "distance_to_default", "default_point"):
+        for name in (
+            "pd",
+            "expected_loss",
+            "el_rate",
+            "ead",
+            "rwa",
+            "unexpected_loss",
+            "economic_capital",
+            "distance_to_default",
+            "default_point",
+        ):
             assert getattr(result.delta, name) == getattr(result.figures, name) - getattr(base, name)
         assert result.delta.grade_changed == (result.figures.grade != base.grade)
 
 
 def test_headline_matches_the_results_it_summarises():
     h = headline_figures(BASE)
-    assert (h.pd, h.model_pd, h.expected_loss, h.rwa) == (BASE.pd.pd, BASE.pd.model_pd,
-                                                          BASE.total.expected_loss, BASE.total.rwa)
+    assert (h.pd, h.model_pd, h.expected_loss, h.rwa) == (
+        BASE.pd.pd,
+        BASE.pd.model_pd,
+        BASE.total.expected_loss,
+        BASE.total.rwa,
+    )
     assert h.raroc == BASE.pricing.raroc
     # EL rate is EL / EAD by definition (common practice).
     assert math.isclose(h.el_rate, h.expected_loss / h.ead, rel_tol=1e-12)

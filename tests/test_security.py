@@ -12,7 +12,6 @@ import subprocess
 from pathlib import Path
 
 import pytest
-
 from obligor_memo.app.workbench import serve as serve_module
 from obligor_memo.app.workbench.serve import is_loopback, streamlit_command
 
@@ -34,9 +33,18 @@ def test_the_default_binding_is_loopback() -> None:
     assert argv[argv.index("--server.headless") + 1] == "true"
 
 
-@pytest.mark.parametrize(("host", "loopback"), [("127.0.0.1", True), ("localhost", True), ("::1", True),
-                                                ("127.0.0.2", True), ("0.0.0.0", False),
-                                                ("192.0.2.10", False), ("example.invalid", False)])
+@pytest.mark.parametrize(
+    ("host", "loopback"),
+    [
+        ("127.0.0.1", True),
+        ("localhost", True),
+        ("::1", True),
+        ("127.0.0.2", True),
+        ("0.0.0.0", False),
+        ("192.0.2.10", False),
+        ("example.invalid", False),
+    ],
+)
 def test_loopback_is_recognised(host: str, loopback: bool) -> None:
     # 127.0.0.0/8 and ::1 are loopback (RFC 1122 section 3.2.1.3; RFC 4291 section 2.5.3).
     assert is_loopback(host) is loopback
@@ -70,8 +78,9 @@ def test_a_non_loopback_binding_is_announced(tmp_path: Path, monkeypatch, capsys
 
     monkeypatch.setattr(subprocess, "Popen", FakeProcess)
     monkeypatch.setattr(subprocess, "call", lambda argv, *a, **k: started.append(argv) or 0)
-    monkeypatch.setattr(subprocess, "run", lambda argv, *a, **k: started.append(argv)
-                        or subprocess.CompletedProcess(argv, 0))
+    monkeypatch.setattr(
+        subprocess, "run", lambda argv, *a, **k: started.append(argv) or subprocess.CompletedProcess(argv, 0)
+    )
     serve_module.serve(port=8601, host="0.0.0.0", workdir=tmp_path)
     err = capsys.readouterr().err
     assert "WARNING" in err and "0.0.0.0" in err and "network" in err
@@ -94,9 +103,12 @@ def _calls(tree: ast.AST) -> list[tuple[str, ast.Call]]:
 @pytest.mark.parametrize("path", SOURCES, ids=lambda p: str(p.relative_to(ROOT)))
 def test_no_code_execution_from_data(path: Path) -> None:
     tree = ast.parse(path.read_text(encoding="utf-8"))
-    imported = {alias.name.split(".")[0] for node in ast.walk(tree)
-                if isinstance(node, (ast.Import, ast.ImportFrom))
-                for alias in (node.names if isinstance(node, ast.Import) else [ast.alias(node.module or "")])}
+    imported = {
+        alias.name.split(".")[0]
+        for node in ast.walk(tree)
+        if isinstance(node, (ast.Import, ast.ImportFrom))
+        for alias in (node.names if isinstance(node, ast.Import) else [ast.alias(node.module or "")])
+    }
     assert not imported & {"pickle", "marshal", "shelve", "dill", "cloudpickle"}, path
     for name, call in _calls(tree):
         assert name not in {"eval", "exec", "compile", "__import__"}, (path, call.lineno)
@@ -108,7 +120,6 @@ def test_no_code_execution_from_data(path: Path) -> None:
 
 def test_the_yaml_loader_is_a_safe_loader() -> None:
     import yaml
-
     from obligor_memo.engine import loading
 
     assert issubclass(loading._StrictLoader, yaml.SafeLoader)

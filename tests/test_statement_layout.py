@@ -13,7 +13,6 @@ from pathlib import Path
 
 import pytest
 import yaml
-
 from conftest import DATA, SAMPLE_CASE, SAMPLE_STATEMENTS
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.evaluate import evaluate
@@ -34,11 +33,14 @@ def _case_with(tmp_path: Path, statements: dict) -> Path:
     return path
 
 
-@pytest.mark.parametrize(("name", "unit", "orientation", "unknown"), [
-    ("statements_wide_thousands.xlsx", "thousands", "wide", ("Inventories",)),
-    ("statements_long_millions.csv", "millions", "long", ("Employees",)),
-    ("statements_wide_dates.xlsx", "units", "wide", ()),
-])
+@pytest.mark.parametrize(
+    ("name", "unit", "orientation", "unknown"),
+    [
+        ("statements_wide_thousands.xlsx", "thousands", "wide", ("Inventories",)),
+        ("statements_long_millions.csv", "millions", "long", ("Employees",)),
+        ("statements_wide_dates.xlsx", "units", "wide", ()),
+    ],
+)
 def test_layouts_read_into_the_plain_rows(name, unit, orientation, unknown):
     read = read_statements((DATA / name).read_bytes(), name, unit=unit)
     assert read.orientation == orientation and read.unrecognised == unknown
@@ -49,8 +51,9 @@ def test_layouts_read_into_the_plain_rows(name, unit, orientation, unknown):
             assert got[key] == pytest.approx(value, rel=1e-12), (name, got["year"], key)
 
 
-@pytest.mark.parametrize(("name", "unit"), [("statements_wide_thousands.xlsx", "thousands"),
-                                            ("statements_long_millions.csv", "millions")])
+@pytest.mark.parametrize(
+    ("name", "unit"), [("statements_wide_thousands.xlsx", "thousands"), ("statements_long_millions.csv", "millions")]
+)
 def test_a_case_on_a_real_layout_gives_the_same_pd(tmp_path, name, unit):
     reference = evaluate(load_case(SAMPLE_CASE))
     results = evaluate(load_case(_case_with(tmp_path, {"file": name, "unit": unit})))
@@ -69,31 +72,63 @@ def test_thousands_read_as_units_gets_the_scale_caution(tmp_path):
 
 def test_mapping_brings_an_unknown_line_in_or_leaves_it_out(tmp_path):
     mapping = {"Inventories": "ignore"}
-    read = read_statements((DATA / "statements_wide_thousands.xlsx").read_bytes(), "s.xlsx", unit="thousands",
-                           mapping=mapping)
+    read = read_statements(
+        (DATA / "statements_wide_thousands.xlsx").read_bytes(), "s.xlsx", unit="thousands", mapping=mapping
+    )
     assert read.unrecognised == ()
-    renamed = read_statements((DATA / "statements_long_millions.csv").read_bytes(), "s.csv", unit="millions",
-                              mapping={"Employees": "cash", "Cash and cash equivalents": "ignore"})
+    renamed = read_statements(
+        (DATA / "statements_long_millions.csv").read_bytes(),
+        "s.csv",
+        unit="millions",
+        mapping={"Employees": "cash", "Cash and cash equivalents": "ignore"},
+    )
     assert renamed.rows[0]["cash"] == pytest.approx(850e6)
-    case = load_case(_case_with(tmp_path, {"file": "statements_wide_thousands.xlsx", "unit": "thousands",
-                                           "mapping": mapping}))
+    case = load_case(
+        _case_with(tmp_path, {"file": "statements_wide_thousands.xlsx", "unit": "thousands", "mapping": mapping})
+    )
     assert case.statements_source.mapping == mapping
 
 
-@pytest.mark.parametrize(("cell", "year"), [("2023", 2023), ("FY2023", 2023), ("FY 2023", 2023), ("2023A", 2023),
-                                            ("2024E", 2024), (2022, 2022), (2022.0, 2022), ("31.12.2021", 2021),
-                                            ("2020-12-31", 2020), ("Revenue", None), ("12", None), (True, None)])
+@pytest.mark.parametrize(
+    ("cell", "year"),
+    [
+        ("2023", 2023),
+        ("FY2023", 2023),
+        ("FY 2023", 2023),
+        ("2023A", 2023),
+        ("2024E", 2024),
+        (2022, 2022),
+        (2022.0, 2022),
+        ("31.12.2021", 2021),
+        ("2020-12-31", 2020),
+        ("Revenue", None),
+        ("12", None),
+        (True, None),
+    ],
+)
 def test_year_headers(cell, year):
     assert year_of(cell) == year
 
 
-@pytest.mark.parametrize(("label", "field"), [
-    ("Total Assets", "total_assets"), ("Current Liabilities", "short_term_liabilities"),
-    ("Non-current liabilities", "long_term_liabilities"), ("Short-term liabilities", "short_term_liabilities"),
-    ("Turnover", "sales"), ("Revenue", "sales"), ("EBITDA", "ebitda"), ("Cash & cash equivalents", "cash"),
-    ("Capex", "capital_expenditure"), ("Interest expense", "interest_expense"), ("Total debt", "total_debt"),
-    ("Operating profit (EBIT)", "ebit"), ("Inventories", None), ("total_liabilities", "total_liabilities"),
-])
+@pytest.mark.parametrize(
+    ("label", "field"),
+    [
+        ("Total Assets", "total_assets"),
+        ("Current Liabilities", "short_term_liabilities"),
+        ("Non-current liabilities", "long_term_liabilities"),
+        ("Short-term liabilities", "short_term_liabilities"),
+        ("Turnover", "sales"),
+        ("Revenue", "sales"),
+        ("EBITDA", "ebitda"),
+        ("Cash & cash equivalents", "cash"),
+        ("Capex", "capital_expenditure"),
+        ("Interest expense", "interest_expense"),
+        ("Total debt", "total_debt"),
+        ("Operating profit (EBIT)", "ebit"),
+        ("Inventories", None),
+        ("total_liabilities", "total_liabilities"),
+    ],
+)
 def test_the_trades_wording_is_matched(label, field):
     assert field_for(label) == field
 

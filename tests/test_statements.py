@@ -5,7 +5,6 @@ from __future__ import annotations
 import math
 
 import pytest
-
 from obligor_memo.engine.case import parse_case
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.statements import MAX_ROWS, parse_number, read_statement_table, year_ratios
@@ -15,22 +14,25 @@ HEADER = "year,total_assets,short_term_liabilities,long_term_liabilities\n"
 
 # How people write numbers in statements (common practice): thousands separators, accounting
 # brackets for negatives, a decimal comma in much of Europe.
-@pytest.mark.parametrize(("text", "decimal", "expected"), [
-    ("1234.5", ".", 1234.5),
-    ("1,234.5", ".", 1234.5),
-    ("1,234,567", ".", 1234567.0),
-    ("1 234,5", ",", 1234.5),
-    ("1.234.567,25", ",", 1234567.25),
-    ("(12)", ".", -12.0),
-    ("(1,200.5)", ".", -1200.5),
-    ("-7", ".", -7.0),
-    ("3e6", ".", 3e6),
-    ("1'000", ".", 1000.0),
-    ("", ".", None),
-    ("n/a", ".", None),
-    (42, ".", 42.0),
-    (None, ".", None),
-])
+@pytest.mark.parametrize(
+    ("text", "decimal", "expected"),
+    [
+        ("1234.5", ".", 1234.5),
+        ("1,234.5", ".", 1234.5),
+        ("1,234,567", ".", 1234567.0),
+        ("1 234,5", ",", 1234.5),
+        ("1.234.567,25", ",", 1234567.25),
+        ("(12)", ".", -12.0),
+        ("(1,200.5)", ".", -1200.5),
+        ("-7", ".", -7.0),
+        ("3e6", ".", 3e6),
+        ("1'000", ".", 1000.0),
+        ("", ".", None),
+        ("n/a", ".", None),
+        (42, ".", 42.0),
+        (None, ".", None),
+    ],
+)
 def test_parse_number(text, decimal, expected) -> None:
     assert parse_number(text, decimal=decimal) == expected
 
@@ -42,29 +44,44 @@ def test_parse_number_refuses_what_is_not_a_number(text) -> None:
 
 
 def test_header_is_normalised_and_optional_columns_are_kept() -> None:
-    data = ("Year,Total Assets,Short-Term Liabilities,Long term liabilities,EBIT\n"
-            "2024,\"1,000\",400,300,(50)\n").encode()
+    data = b'Year,Total Assets,Short-Term Liabilities,Long term liabilities,EBIT\n2024,"1,000",400,300,(50)\n'
     assert read_statement_table(data, "s.csv") == [
-        {"year": 2024, "total_assets": 1000.0, "short_term_liabilities": 400.0,
-         "long_term_liabilities": 300.0, "ebit": -50.0}]
+        {
+            "year": 2024,
+            "total_assets": 1000.0,
+            "short_term_liabilities": 400.0,
+            "long_term_liabilities": 300.0,
+            "ebit": -50.0,
+        }
+    ]
 
 
 def test_tab_separated_table_is_read() -> None:
-    data = "year\ttotal_assets\tshort_term_liabilities\tlong_term_liabilities\n2024\t10\t4\t3\n".encode()
+    data = b"year\ttotal_assets\tshort_term_liabilities\tlong_term_liabilities\n2024\t10\t4\t3\n"
     assert read_statement_table(data, "s.tsv")[0]["total_assets"] == 10.0
 
 
-@pytest.mark.parametrize(("data", "name", "field", "allowed"), [
-    (b"", "s.csv", "statements file s.csv", "a header row"),
-    (b"year,total_assets\n2024,10\n", "s.csv", "statements file s.csv, header",
-     "a column named short_term_liabilities"),
-    ((HEADER + "2024.5,10,4,3\n").encode(), "s.csv", "statements file s.csv, row 2, column year",
-     "a whole year"),
-    ((HEADER + "2024,,4,3\n").encode(), "s.csv", "statements file s.csv, row 2, column total_assets",
-     "this column is required"),
-    (HEADER.encode(), "s.pdf", "statements file s.pdf", "a .csv or .xlsx file"),
-    (b"year,total_assets\x00\n", "s.csv", "statements file s.csv", "a CSV text table"),
-])
+@pytest.mark.parametrize(
+    ("data", "name", "field", "allowed"),
+    [
+        (b"", "s.csv", "statements file s.csv", "a header row"),
+        (
+            b"year,total_assets\n2024,10\n",
+            "s.csv",
+            "statements file s.csv, header",
+            "a column named short_term_liabilities",
+        ),
+        ((HEADER + "2024.5,10,4,3\n").encode(), "s.csv", "statements file s.csv, row 2, column year", "a whole year"),
+        (
+            (HEADER + "2024,,4,3\n").encode(),
+            "s.csv",
+            "statements file s.csv, row 2, column total_assets",
+            "this column is required",
+        ),
+        (HEADER.encode(), "s.pdf", "statements file s.pdf", "a .csv or .xlsx file"),
+        (b"year,total_assets\x00\n", "s.csv", "statements file s.csv", "a CSV text table"),
+    ],
+)
 def test_bad_tables_are_named(data, name, field, allowed) -> None:
     with pytest.raises(CaseError) as caught:
         read_statement_table(data, name)

@@ -5,12 +5,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import SAMPLE_STATEMENTS
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy import stats
-
-from conftest import SAMPLE_STATEMENTS
 from obligor_memo.engine.trend import annual_log_changes, fit_asset_trend, least_squares_line, sample_volatility
+from scipy import stats
 
 _TABLE = np.genfromtxt(SAMPLE_STATEMENTS, delimiter=",", names=True)
 YEARS = _TABLE["year"].astype(int)
@@ -54,8 +53,7 @@ def test_window_keeps_the_latest_years(window) -> None:
     assert trend.window_years == window
     reference = stats.linregress(YEARS[-window:], np.log(ASSETS[-window:]))
     assert trend.growth_estimate == pytest.approx(reference.slope, rel=REL)
-    assert trend.volatility_estimate == pytest.approx(np.std(np.diff(np.log(ASSETS[-window:])), ddof=1),
-                                                      rel=1e-12)
+    assert trend.volatility_estimate == pytest.approx(np.std(np.diff(np.log(ASSETS[-window:])), ddof=1), rel=1e-12)
 
 
 def test_years_in_any_order_are_sorted_first() -> None:
@@ -66,8 +64,9 @@ def test_years_in_any_order_are_sorted_first() -> None:
 
 
 def test_overrides_replace_the_estimates_but_keep_them() -> None:
-    trend = fit_asset_trend(years=list(YEARS), total_assets=list(ASSETS), growth_override=-0.05,
-                            volatility_override=0.3)
+    trend = fit_asset_trend(
+        years=list(YEARS), total_assets=list(ASSETS), growth_override=-0.05, volatility_override=0.3
+    )
     assert (trend.growth_used, trend.volatility_used) == (-0.05, 0.3)
     assert trend.growth_overridden and trend.volatility_overridden
     assert trend.growth_estimate == pytest.approx(stats.linregress(YEARS, np.log(ASSETS)).slope, rel=REL)
@@ -96,14 +95,17 @@ def test_constant_values_have_no_r_squared() -> None:
     assert least_squares_line(np.array([2020, 2021, 2022]), np.array([5.0, 5.0, 5.0])).r_squared is None
 
 
-@pytest.mark.parametrize(("call", "fragment"), [
-    (lambda: least_squares_line(np.array([2020]), np.array([1.0])), "at least 2"),
-    (lambda: least_squares_line(np.array([2020, 2020]), np.array([1.0, 2.0])), "two distinct years"),
-    (lambda: sample_volatility(np.array([0.1])), "at least 2"),
-    (lambda: fit_asset_trend(years=[2020], total_assets=[1.0]), "pd.asset_growth"),
-    (lambda: fit_asset_trend(years=[2020, 2021], total_assets=[1.0, 2.0]), "pd.asset_volatility"),
-    (lambda: fit_asset_trend(years=[2020, 2021, 2022], total_assets=[5.0, 5.0, 5.0]), "pd.asset_volatility"),
-])
+@pytest.mark.parametrize(
+    ("call", "fragment"),
+    [
+        (lambda: least_squares_line(np.array([2020]), np.array([1.0])), "at least 2"),
+        (lambda: least_squares_line(np.array([2020, 2020]), np.array([1.0, 2.0])), "two distinct years"),
+        (lambda: sample_volatility(np.array([0.1])), "at least 2"),
+        (lambda: fit_asset_trend(years=[2020], total_assets=[1.0]), "pd.asset_growth"),
+        (lambda: fit_asset_trend(years=[2020, 2021], total_assets=[1.0, 2.0]), "pd.asset_volatility"),
+        (lambda: fit_asset_trend(years=[2020, 2021, 2022], total_assets=[5.0, 5.0, 5.0]), "pd.asset_volatility"),
+    ],
+)
 def test_too_little_history_raises_a_named_error(call, fragment) -> None:
     with pytest.raises(ValueError, match="allowed") as caught:
         call()
@@ -111,8 +113,10 @@ def test_too_little_history_raises_a_named_error(call, fragment) -> None:
 
 
 @settings(max_examples=200, deadline=None)
-@given(st.lists(st.floats(min_value=1.0, max_value=1e12), min_size=3, max_size=12),
-       st.integers(min_value=1950, max_value=2100))
+@given(
+    st.lists(st.floats(min_value=1.0, max_value=1e12), min_size=3, max_size=12),
+    st.integers(min_value=1950, max_value=2100),
+)
 def test_fit_matches_polyfit_on_any_history(values, first_year) -> None:
     years = np.arange(first_year, first_year + len(values))
     y = np.log(np.array(values))

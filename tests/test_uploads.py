@@ -17,7 +17,6 @@ from typing import Any
 import openpyxl
 import pytest
 import yaml
-
 from conftest import SAMPLE_CASE
 from obligor_memo.engine.case import parse_case
 from obligor_memo.engine.errors import CaseError
@@ -53,8 +52,9 @@ def _refused(data: bytes, name: str, **options: Any) -> CaseError:
 
 def _one(error: CaseError, field: str, allowed: str) -> None:
     """Some problem names exactly ``field`` and says ``allowed`` (a fragment of the allowed text)."""
-    assert any(p.field == field and allowed in p.allowed for p in error.problems), \
-        [(p.field, p.allowed) for p in error.problems]
+    assert any(p.field == field and allowed in p.allowed for p in error.problems), [
+        (p.field, p.allowed) for p in error.problems
+    ]
 
 
 # ------------------------------------------------------------------ size limits and archives
@@ -86,8 +86,11 @@ def test_xlsx_zip_bomb_is_refused_before_it_is_expanded() -> None:
                 member.write(chunk)
     data = buffer.getvalue()
     assert len(data) < MAX_FILE_BYTES  # small on disk: the size limit alone would not catch it
-    _one(_refused(data, "bomb.xlsx"), "statements file bomb.xlsx",
-         f"expanding to at most {MAX_XLSX_UNCOMPRESSED:,} bytes")
+    _one(
+        _refused(data, "bomb.xlsx"),
+        "statements file bomb.xlsx",
+        f"expanding to at most {MAX_XLSX_UNCOMPRESSED:,} bytes",
+    )
 
 
 @pytest.mark.parametrize("data", [b"year,total_assets\n2024,1\n", b"PK\x03\x04 broken", b"%PDF-1.7\n"])
@@ -99,8 +102,11 @@ def test_a_zip_that_is_not_a_workbook() -> None:
     buffer = io.BytesIO()
     with zipfile.ZipFile(buffer, "w") as archive:
         archive.writestr("readme.txt", "not a workbook")
-    _one(_refused(buffer.getvalue(), "other.xlsx"), "statements file other.xlsx",
-         "a workbook saved by a spreadsheet program")
+    _one(
+        _refused(buffer.getvalue(), "other.xlsx"),
+        "statements file other.xlsx",
+        "a workbook saved by a spreadsheet program",
+    )
 
 
 # ------------------------------------------------------------------ nothing is executed
@@ -114,8 +120,9 @@ def test_a_workbook_formula_is_refused_not_evaluated() -> None:
     assert error.problems[0].value == "=SUM(B2,16)"
 
 
-@pytest.mark.parametrize("cell", ["=cmd|' /C calc'!A0", "=1+2", "+1+2", "-1+2", "@SUM(1,2)",
-                                  "=HYPERLINK(\"http://example.invalid\")"])
+@pytest.mark.parametrize(
+    "cell", ["=cmd|' /C calc'!A0", "=1+2", "+1+2", "-1+2", "@SUM(1,2)", '=HYPERLINK("http://example.invalid")']
+)
 def test_a_csv_cell_a_spreadsheet_would_run_is_text_not_a_number(cell: str) -> None:
     quoted = '"' + cell.replace('"', '""') + '"'
     error = _refused(_csv(*ROWS[:3], f"2024,{quoted},80,30").encode(), "inject.csv")
@@ -132,8 +139,7 @@ def test_empty_csv(data: bytes) -> None:
 
 
 def test_empty_sheet() -> None:
-    _one(_refused(_xlsx([]), "empty.xlsx"), "statements file empty.xlsx",
-         "a header row and at least one year")
+    _one(_refused(_xlsx([]), "empty.xlsx"), "statements file empty.xlsx", "a header row and at least one year")
 
 
 def test_binary_garbage_named_csv() -> None:
@@ -188,26 +194,29 @@ def test_windows_1252_values_with_a_euro_sign_and_no_break_spaces() -> None:
 
 
 def test_semicolon_separated_with_decimal_commas() -> None:
-    text = ("year;total_assets;short_term_liabilities;long_term_liabilities\n"
-            "2023;104,5;80,25;30\n2024;1.234.567,5;80;30,75\n")
+    text = (
+        "year;total_assets;short_term_liabilities;long_term_liabilities\n"
+        "2023;104,5;80,25;30\n2024;1.234.567,5;80;30,75\n"
+    )
     rows = read_statement_table(text.encode(), "eu.csv", decimal=",")
     assert rows == [
-        {"year": 2023, "total_assets": 104.5, "short_term_liabilities": 80.25,
-         "long_term_liabilities": 30.0},
-        {"year": 2024, "total_assets": 1234567.5, "short_term_liabilities": 80.0,
-         "long_term_liabilities": 30.75},
+        {"year": 2023, "total_assets": 104.5, "short_term_liabilities": 80.25, "long_term_liabilities": 30.0},
+        {"year": 2024, "total_assets": 1234567.5, "short_term_liabilities": 80.0, "long_term_liabilities": 30.75},
     ]
 
 
 # Thousands separators and accounting brackets are how statements are printed (common practice).
-@pytest.mark.parametrize(("cell", "decimal", "expected"), [
-    ('"1,234,567"', ".", 1234567.0),
-    ('"1,234,567.25"', ".", 1234567.25),
-    ("1.234.567,5", ",", 1234567.5),
-    ("(30)", ".", -30.0),
-    ('"(1,030.5)"', ".", -1030.5),
-    ("(1.030,5)", ",", -1030.5),
-])
+@pytest.mark.parametrize(
+    ("cell", "decimal", "expected"),
+    [
+        ('"1,234,567"', ".", 1234567.0),
+        ('"1,234,567.25"', ".", 1234567.25),
+        ("1.234.567,5", ",", 1234567.5),
+        ("(30)", ".", -30.0),
+        ('"(1,030.5)"', ".", -1030.5),
+        ("(1.030,5)", ",", -1030.5),
+    ],
+)
 def test_thousands_separators_and_brackets(cell: str, decimal: str, expected: float) -> None:
     separator = "," if decimal == "." else ";"
     header = HEADER.replace(",", separator) + separator + "working_capital"
@@ -231,9 +240,15 @@ def test_unknown_column_gets_a_suggestion() -> None:
     _one(error, "statements file s.csv, header", "did you mean 'total_assets'?")
 
 
-@pytest.mark.parametrize(("row", "column"), [("2024,,80,30", "total_assets"), ("2024,120,,30",
-                                             "short_term_liabilities"), (",120,80,30", "year"),
-                                             ("2024,120,80", "long_term_liabilities")])
+@pytest.mark.parametrize(
+    ("row", "column"),
+    [
+        ("2024,,80,30", "total_assets"),
+        ("2024,120,,30", "short_term_liabilities"),
+        (",120,80,30", "year"),
+        ("2024,120,80", "long_term_liabilities"),
+    ],
+)
 def test_blank_cell_in_a_required_column(row: str, column: str) -> None:
     error = _refused(_csv(*ROWS[:3], row).encode(), "s.csv")
     _one(error, f"statements file s.csv, row 5, column {column}", "this column is required")
@@ -288,8 +303,15 @@ def _sample_without_statements() -> dict[str, Any]:
 SAMPLE_REST = _sample_without_statements()
 # Ten invented years [thousands of EUR], written as exports write them: decimal comma, separators,
 # newest year first.
-TEN_YEARS = [(2016 + i, 300_000.0 + 17_500.0 * i + (9_250.5 if i % 2 else 0.0), 100_000.0 + 15_000.0 * i,
-              110_000.0 + 3_000.0 * i) for i in range(10)]
+TEN_YEARS = [
+    (
+        2016 + i,
+        300_000.0 + 17_500.0 * i + (9_250.5 if i % 2 else 0.0),
+        100_000.0 + 15_000.0 * i,
+        110_000.0 + 3_000.0 * i,
+    )
+    for i in range(10)
+]
 
 
 def _accepted_uploads() -> list[tuple[str, bytes, str, dict[str, Any]]]:
@@ -308,14 +330,17 @@ def _accepted_uploads() -> list[tuple[str, bytes, str, dict[str, Any]]]:
     ]
 
 
-@pytest.mark.parametrize(("name", "data", "decimal", "options"), _accepted_uploads(),
-                         ids=[u[0] for u in _accepted_uploads()])
-def test_accepted_uploads_round_trip_into_the_case(name: str, data: bytes, decimal: str,
-                                                   options: dict[str, Any]) -> None:
+@pytest.mark.parametrize(
+    ("name", "data", "decimal", "options"), _accepted_uploads(), ids=[u[0] for u in _accepted_uploads()]
+)
+def test_accepted_uploads_round_trip_into_the_case(
+    name: str, data: bytes, decimal: str, options: dict[str, Any]
+) -> None:
     rows = read_statement_table(data, name, decimal=decimal, **options)
     case = parse_case({**copy.deepcopy(SAMPLE_REST), "statements": rows})
-    assert [(r.year, r.total_assets, r.short_term_liabilities, r.long_term_liabilities)
-            for r in case.statements] == TEN_YEARS  # the schema sorts the years
+    assert [
+        (r.year, r.total_assets, r.short_term_liabilities, r.long_term_liabilities) for r in case.statements
+    ] == TEN_YEARS  # the schema sorts the years
     results = evaluate(case)
     json.dumps(results.to_dict(), allow_nan=False)
     assert 0 < results.pd.pd < 1

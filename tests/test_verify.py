@@ -11,11 +11,10 @@ import json
 
 import pytest
 from click.testing import CliRunner
-from pypdf import PdfReader, PdfWriter
-
-from obligor_memo.app.present import formatting as fmt
 from obligor_memo.app.cli import main
 from obligor_memo.app.memo.record import CASE_FILE, FIGURES_FILE, MemoRecordError, read_attachments, verify_memo
+from obligor_memo.app.present import formatting as fmt
+from pypdf import PdfReader, PdfWriter
 
 
 @pytest.fixture(scope="module")
@@ -54,7 +53,7 @@ def test_altered_case_fails_naming_each_changed_figure(tmp_path, memo_pdf):
     files = read_attachments(memo_pdf)
     case = json.loads(files[CASE_FILE])
     term_loan = next(f for f in case["facilities"] if f["id"] == "TL-A")
-    term_loan["committed"] = 150_000_000.0          # 30m undrawn appears on a fully drawn loan
+    term_loan["committed"] = 150_000_000.0  # 30m undrawn appears on a fully drawn loan
     files[CASE_FILE] = json.dumps(case, sort_keys=True, separators=(",", ":")).encode("ascii")
     result = run_verify(tmp_path, reattach(memo_pdf, files))
     assert result.exit_code == 1

@@ -5,9 +5,8 @@ from __future__ import annotations
 
 import json
 
-from streamlit.testing.v1 import AppTest
-
 from obligor_memo.app.workbench.state import WORKDIR_ENV
+from streamlit.testing.v1 import AppTest
 from workbench_support import WORKBENCH, _errors, _metric, _number, _open, _specs, app  # noqa: F401
 
 
@@ -43,8 +42,10 @@ def test_borrower_page_broken_upload_gives_message_and_keeps_case(app):
 
 def test_borrower_page_negative_statement_amount_is_flagged(app):
     _open(app, "borrower")
-    rows = b"year,total_assets,short_term_liabilities,long_term_liabilities\n" \
-           b"2022,100,40,30\n2023,110,-5,30\n2024,120,45,30\n"
+    rows = (
+        b"year,total_assets,short_term_liabilities,long_term_liabilities\n"
+        b"2022,100,40,30\n2023,110,-5,30\n2024,120,45,30\n"
+    )
     app.file_uploader[1].set_value(("neg.csv", rows, "text/csv")).run()
     assert not app.exception
     message = _errors(app)

@@ -6,7 +6,6 @@ from __future__ import annotations
 import json
 
 from streamlit.testing.v1 import AppTest
-
 from workbench_support import WORKBENCH, _errors, _metric, _number, _open, _specs, app  # noqa: F401
 
 
@@ -99,8 +98,7 @@ def test_whatif_saved_scenario_appears_in_the_comparison_and_can_be_deleted(app)
     assert "Heavier default point" in table.index
     # The saved scenario is the what-if case itself: same PD in the table as in the metric.
     assert table.loc["Heavier default point", "PD in force"] == _metric(app, "PD in force")
-    assert any("Heavier default point" in json.dumps(json.loads(c.proto.spec)["data"])
-               for c in app.get("plotly_chart"))
+    assert any("Heavier default point" in json.dumps(json.loads(c.proto.spec)["data"]) for c in app.get("plotly_chart"))
     [w for w in app.selectbox if w.label == "Scenario to delete"][0].set_value("Heavier default point")
     [b for b in app.button if b.label == "Delete scenario"][0].click().run()
     assert not app.exception

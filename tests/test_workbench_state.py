@@ -11,7 +11,6 @@ import pytest
 import yaml
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
 from obligor_memo.app.workbench import state
 from obligor_memo.engine.case import parse_case
 from obligor_memo.engine.errors import CaseError
@@ -92,8 +91,7 @@ def test_corrupt_or_foreign_autosave_is_ignored(tmp_path):
 
 
 def test_plain_turns_numpy_and_nan_into_json_values():
-    out = state.plain({"a": np.float64(1.5), "b": np.int64(3), "c": float("nan"), "d": [np.bool_(True)],
-                       "e": math.inf})
+    out = state.plain({"a": np.float64(1.5), "b": np.int64(3), "c": float("nan"), "d": [np.bool_(True)], "e": math.inf})
     assert out == {"a": 1.5, "b": 3, "c": None, "d": [True], "e": None}
     json.dumps(out, allow_nan=False)
 
@@ -110,8 +108,10 @@ def test_broken_uploads_raise_case_errors_not_exceptions():
 
 
 @settings(max_examples=60, deadline=None)
-@given(path=st.lists(st.sampled_from(["pd", "memo", "x", "capital", "y"]), min_size=1, max_size=4),
-       value=st.one_of(st.floats(allow_nan=False, allow_infinity=False), st.text(max_size=20), st.none()))
+@given(
+    path=st.lists(st.sampled_from(["pd", "memo", "x", "capital", "y"]), min_size=1, max_size=4),
+    value=st.one_of(st.floats(allow_nan=False, allow_infinity=False), st.text(max_size=20), st.none()),
+)
 def test_set_then_get_returns_the_value(path, value):
     dotted = ".".join(path)
     data = state.set_path({"pd": {"horizon_years": 1.0}}, dotted, value)

@@ -8,7 +8,6 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
 from obligor_memo.engine.zscore import VARIANT_NAMES, altman_scores, altman_zone
 
 # An invented borrower's statements [currency]: not a real company.
@@ -75,13 +74,15 @@ def test_1968_percent_form_is_equivalent():
     # The 1968 paper: 0.012 X1 + 0.014 X2 + 0.033 X3 + 0.006 X4 + 0.999 X5 with X1..X4 in
     # percent and X5 as a ratio. Same score up to the rounding of 0.999 to 1.0: 0.001 X5.
     ta = STATEMENTS["total_assets"]
-    x = np.array([
-        STATEMENTS["working_capital"] / ta,
-        STATEMENTS["retained_earnings"] / ta,
-        STATEMENTS["ebit"] / ta,
-        STATEMENTS["market_equity"] / STATEMENTS["total_liabilities"],
-        STATEMENTS["sales"] / ta,
-    ])
+    x = np.array(
+        [
+            STATEMENTS["working_capital"] / ta,
+            STATEMENTS["retained_earnings"] / ta,
+            STATEMENTS["ebit"] / ta,
+            STATEMENTS["market_equity"] / STATEMENTS["total_liabilities"],
+            STATEMENTS["sales"] / ta,
+        ]
+    )
     percent_form = np.dot([0.012, 0.014, 0.033, 0.006], 100.0 * x[:4]) + 0.999 * x[4]
     score = by_name(altman_scores(**STATEMENTS))["Z (1968)"].score
     assert score - percent_form == pytest.approx(0.001 * x[4], abs=1e-12)
@@ -136,16 +137,21 @@ def test_zone_boundaries_belong_to_the_grey_zone(variant, distress_below, safe_a
 def test_distressed_borrower_end_to_end():
     # Negative working capital, retained earnings, EBIT and book equity are allowed.
     results = altman_scores(
-        total_assets=500.0, working_capital=-60.0, retained_earnings=-120.0, ebit=-15.0,
-        sales=300.0, market_equity=40.0, book_equity=-20.0, total_liabilities=520.0,
+        total_assets=500.0,
+        working_capital=-60.0,
+        retained_earnings=-120.0,
+        ebit=-15.0,
+        sales=300.0,
+        market_equity=40.0,
+        book_equity=-20.0,
+        total_liabilities=520.0,
     )
     assert all(r.zone == "distress" for r in results)
     assert all(r.score is not None and r.score < 1.10 for r in results)
 
 
 def test_missing_columns_are_named_and_nothing_is_guessed():
-    results = by_name(altman_scores(total_assets=100.0, working_capital=10.0, ebit=5.0,
-                                    book_equity=30.0))
+    results = by_name(altman_scores(total_assets=100.0, working_capital=10.0, ebit=5.0, book_equity=30.0))
     z68 = results["Z (1968)"]
     assert z68.score is None and z68.zone is None
     assert set(z68.missing) == {"retained_earnings", "market_equity", "total_liabilities", "sales"}
@@ -185,8 +191,15 @@ POSITIVE_COLUMNS = [
     step=st.floats(min_value=0.01, max_value=2.0),
 )
 def test_score_increases_with_every_ratio_of_positive_coefficient(column, total_assets, shares, step):
-    names = ["working_capital", "retained_earnings", "ebit", "sales",
-             "market_equity", "book_equity", "total_liabilities"]
+    names = [
+        "working_capital",
+        "retained_earnings",
+        "ebit",
+        "sales",
+        "market_equity",
+        "book_equity",
+        "total_liabilities",
+    ]
     columns = {n: share * total_assets for n, share in zip(names, shares)}
     for n in ("sales", "market_equity"):
         columns[n] = abs(columns[n])

@@ -6,9 +6,8 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-from streamlit.testing.v1 import AppTest
-
 from obligor_memo.app.workbench.state import WORKDIR_ENV
+from streamlit.testing.v1 import AppTest
 
 WORKBENCH = str(Path(__file__).resolve().parent.parent / "app" / "workbench" / "main.py")
 

@@ -67,13 +67,15 @@ def by_grade(portfolio: pd.DataFrame) -> pd.DataFrame:
     if portfolio.empty:
         return pd.DataFrame(columns=["currency", "grade", "cases", "ead", "expected_loss"])
     grouped = portfolio.groupby(["currency", "grade"], dropna=False, sort=True)
-    return grouped.agg(cases=("case_file", "count"), ead=("ead", "sum"),
-                       expected_loss=("expected_loss", "sum")).reset_index()
+    return grouped.agg(
+        cases=("case_file", "count"), ead=("ead", "sum"), expected_loss=("expected_loss", "sum")
+    ).reset_index()
 
 
 def largest(portfolio: pd.DataFrame, count: int = 10) -> pd.DataFrame:
     return portfolio.sort_values("ead", ascending=False, kind="stable").head(count)[
-        ["case_file", "borrower", "currency", "grade", "ead", "expected_loss"]]
+        ["case_file", "borrower", "currency", "grade", "ead", "expected_loss"]
+    ]
 
 
 def grade_moves(portfolio: pd.DataFrame) -> pd.DataFrame:
@@ -89,9 +91,11 @@ def write_outputs(outdir: Path, portfolio: pd.DataFrame, failed: pd.DataFrame) -
     with pd.ExcelWriter(outdir / "portfolio.xlsx", engine="openpyxl") as book:
         portfolio.drop(columns=["memo"]).to_excel(book, sheet_name="cases", index=False, freeze_panes=(1, 0))
         start = 0
-        for title, table in (("EAD and EL by grade", by_grade(portfolio)),
-                             ("Largest exposures (EAD)", largest(portfolio)),
-                             ("Grade moved since the last review", grade_moves(portfolio))):
+        for title, table in (
+            ("EAD and EL by grade", by_grade(portfolio)),
+            ("Largest exposures (EAD)", largest(portfolio)),
+            ("Grade moved since the last review", grade_moves(portfolio)),
+        ):
             pd.DataFrame([[title]]).to_excel(book, sheet_name="portfolio", startrow=start, index=False, header=False)
             table.to_excel(book, sheet_name="portfolio", startrow=start + 1, index=False)
             start += len(table) + 4

@@ -25,14 +25,13 @@ from typing import Any
 
 import pandas as pd
 from distributed import WorkerPlugin
-
 from obligor_memo.app.batch.portfolio import frames, row_from, write_outputs
 
 log = logging.getLogger(__name__)
 
 CASE_SUFFIXES = (".yaml", ".yml", ".json")
 MANIFEST = ".batch-manifest.json"
-CHUNK_MAX = 25          # cases per task without memos (about 0.25 s of work; memos go one by one)
+CHUNK_MAX = 25  # cases per task without memos (about 0.25 s of work; memos go one by one)
 
 
 class BatchUsageError(ValueError):
@@ -60,21 +59,27 @@ def find_cases(paths: Iterable[str | Path]) -> list[Path]:
     for given in paths:
         path = Path(given)
         if path.is_dir():
-            found += sorted(p for p in path.rglob("*") if p.is_file() and p.suffix.lower() in CASE_SUFFIXES
-                            and not any(part.startswith(".") for part in p.relative_to(path).parts))
+            found += sorted(
+                p
+                for p in path.rglob("*")
+                if p.is_file()
+                and p.suffix.lower() in CASE_SUFFIXES
+                and not any(part.startswith(".") for part in p.relative_to(path).parts)
+            )
         elif path.is_file():
             found.append(path)
         else:
-            raise BatchUsageError(f"CASE_OR_FOLDER: got {str(given)!r}; allowed: an existing case file "
-                                  "or folder")
+            raise BatchUsageError(f"CASE_OR_FOLDER: got {str(given)!r}; allowed: an existing case file or folder")
     unique = list(dict.fromkeys(p.resolve() for p in found))
     if not unique:
         raise BatchUsageError("CASE_OR_FOLDER: no case file (.yaml, .yml, .json) found in the paths given")
     stems = [p.stem for p in unique]
     clashes = sorted({s for s in stems if stems.count(s) > 1})
     if clashes:
-        raise BatchUsageError(f"CASE_OR_FOLDER: several cases are named {', '.join(clashes[:5])}; allowed: "
-                              "case files with distinct names (each memo is OUTDIR/<name>.pdf)")
+        raise BatchUsageError(
+            f"CASE_OR_FOLDER: several cases are named {', '.join(clashes[:5])}; allowed: "
+            "case files with distinct names (each memo is OUTDIR/<name>.pdf)"
+        )
     return unique
 
 
@@ -109,16 +114,21 @@ def evaluate_case(case_file: str, outdir: str | None, memos: bool, done: dict[st
         row = row_from(case_file, results.to_dict(), str(memo_path) if memo_path else None)
         return {"status": "ok", "row": row}
     except CaseError as exc:
-        return {"status": "failed", "error": [{"case_file": case_file, "field": p.field, "message": p.sentence()}
-                                              for p in exc.problems]}
+        return {
+            "status": "failed",
+            "error": [{"case_file": case_file, "field": p.field, "message": p.sentence()} for p in exc.problems],
+        }
     except Exception as exc:  # a bug or a chart fault: the batch goes on, the case is listed
         log.exception("case %s failed", case_file)
-        return {"status": "failed", "error": [{"case_file": case_file, "field": "(internal)",
-                                               "message": f"{type(exc).__name__}: {exc}"}]}
+        return {
+            "status": "failed",
+            "error": [{"case_file": case_file, "field": "(internal)", "message": f"{type(exc).__name__}: {exc}"}],
+        }
 
 
-def evaluate_cases(case_files: list[str], outdir: str | None, memos: bool,
-                   done: list[dict[str, Any] | None]) -> list[dict[str, Any]]:
+def evaluate_cases(
+    case_files: list[str], outdir: str | None, memos: bool, done: list[dict[str, Any] | None]
+) -> list[dict[str, Any]]:
     """Several cases in one task: without memos a case takes milliseconds, less than a task's
     own scheduling cost, so cases travel in chunks."""
     return [evaluate_case(case, outdir, memos, entry) for case, entry in zip(case_files, done)]
@@ -157,8 +167,10 @@ def _manifest(outdir: Path | None) -> dict[str, Any]:
 
 
 def _write_manifest(outdir: Path, portfolio: pd.DataFrame) -> None:
-    entries = {row["case_file"]: {"fingerprint": row["fingerprint"], "row": row}
-               for row in json.loads(portfolio.to_json(orient="records"))}
+    entries = {
+        row["case_file"]: {"fingerprint": row["fingerprint"], "row": row}
+        for row in json.loads(portfolio.to_json(orient="records"))
+    }
     temp = outdir / (MANIFEST + ".part")
     temp.write_text(json.dumps(entries, sort_keys=True), encoding="utf-8")
     temp.replace(outdir / MANIFEST)
@@ -175,28 +187,49 @@ def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any]:
     main_thread = threading.current_thread() is threading.main_thread()
     previous = signal.signal(signal.SIGINT, signal.SIG_IGN) if main_thread else None
     try:
-        cluster = LocalCluster(n_workers=workers or 1, threads_per_worker=1, processes=True,
-                               dashboard_address=None, host="127.0.0.1", silence_logs=logging.ERROR)
+        cluster = LocalCluster(
+            n_workers=workers or 1,
+            threads_per_worker=1,
+            processes=True,
+            dashboard_address=None,
+            host="127.0.0.1",
+            silence_logs=logging.ERROR,
+        )
     finally:
         if main_thread:
             signal.signal(signal.SIGINT, previous)
     return Client(cluster), cluster
 
 
-def run(paths: Sequence[str | Path], outdir: str | Path | None = None, *, workers: int | None = None,
-        scheduler: str | None = None, memos: bool = True, resume: bool = False,
-        progress: Callable[[int, int, int, float], None] | None = None) -> pd.DataFrame:
+def run(
+    paths: Sequence[str | Path],
+    outdir: str | Path | None = None,
+    *,
+    workers: int | None = None,
+    scheduler: str | None = None,
+    memos: bool = True,
+    resume: bool = False,
+    progress: Callable[[int, int, int, float], None] | None = None,
+) -> pd.DataFrame:
     """Evaluate every case (and print its memo into ``outdir`` unless ``memos=False``).
 
     Returns the portfolio DataFrame (one row per succeeded case); the failed cases are in
     ``run_batch(...).errors``. Raises :class:`BatchUsageError` for a usage mistake."""
-    return run_batch(paths, outdir, workers=workers, scheduler=scheduler, memos=memos, resume=resume,
-                     progress=progress).portfolio
+    return run_batch(
+        paths, outdir, workers=workers, scheduler=scheduler, memos=memos, resume=resume, progress=progress
+    ).portfolio
 
 
-def run_batch(paths: Sequence[str | Path], outdir: str | Path | None = None, *, workers: int | None = None,
-              scheduler: str | None = None, memos: bool = True, resume: bool = False,
-              progress: Callable[[int, int, int, float], None] | None = None) -> BatchResult:
+def run_batch(
+    paths: Sequence[str | Path],
+    outdir: str | Path | None = None,
+    *,
+    workers: int | None = None,
+    scheduler: str | None = None,
+    memos: bool = True,
+    resume: bool = False,
+    progress: Callable[[int, int, int, float], None] | None = None,
+) -> BatchResult:
     if workers is not None and workers < 1:
         raise BatchUsageError(f"--workers: got {workers}; allowed: a whole number of at least 1")
     if memos and outdir is None:
@@ -224,10 +257,19 @@ def run_batch(paths: Sequence[str | Path], outdir: str | Path | None = None, *, 
         ready = time.perf_counter() - start
         slots = max(1, len(client.scheduler_info().get("workers", {})))
         size = 1 if memos else max(1, min(CHUNK_MAX, len(cases) // (4 * slots)))
-        chunks = [cases[i:i + size] for i in range(0, len(cases), size)]
-        futures = [client.submit(evaluate_cases, [str(c) for c in chunk], str(out) if out else None, memos,
-                                 [done.get(str(c)) for c in chunk], key=f"cases-{i}-{chunk[0].stem}", pure=False)
-                   for i, chunk in enumerate(chunks)]
+        chunks = [cases[i : i + size] for i in range(0, len(cases), size)]
+        futures = [
+            client.submit(
+                evaluate_cases,
+                [str(c) for c in chunk],
+                str(out) if out else None,
+                memos,
+                [done.get(str(c)) for c in chunk],
+                key=f"cases-{i}-{chunk[0].stem}",
+                pure=False,
+            )
+            for i, chunk in enumerate(chunks)
+        ]
         for finished in as_completed(futures):
             for outcome in finished.result():
                 if outcome["status"] == "failed":
@@ -236,8 +278,7 @@ def run_batch(paths: Sequence[str | Path], outdir: str | Path | None = None, *, 
                     rows.append(outcome["row"])
                     skipped += outcome["status"] == "skipped"
             if progress is not None:
-                progress(len(rows), len(cases), len({e["case_file"] for e in errors}),
-                         time.perf_counter() - start)
+                progress(len(rows), len(cases), len({e["case_file"] for e in errors}), time.perf_counter() - start)
         n_workers = len(client.scheduler_info().get("workers", {}))
     except KeyboardInterrupt:
         for future in futures:
@@ -246,7 +287,7 @@ def run_batch(paths: Sequence[str | Path], outdir: str | Path | None = None, *, 
     finally:
         if registered:
             try:
-                client.unregister_worker_plugin(ChartBrowserPlugin.name)   # closes each browser
+                client.unregister_worker_plugin(ChartBrowserPlugin.name)  # closes each browser
             except Exception:
                 log.warning("the chart browsers could not be closed through the scheduler", exc_info=True)
         client.close()
@@ -256,16 +297,24 @@ def run_batch(paths: Sequence[str | Path], outdir: str | Path | None = None, *, 
     if out is not None:
         write_outputs(out, portfolio, failed)
         _write_manifest(out, portfolio)
-    return BatchResult(portfolio, failed, skipped=skipped, seconds=time.perf_counter() - start,
-                       startup_seconds=ready, workers=n_workers)
+    return BatchResult(
+        portfolio,
+        failed,
+        skipped=skipped,
+        seconds=time.perf_counter() - start,
+        startup_seconds=ready,
+        workers=n_workers,
+    )
 
 
 def progress_line(stream: Any = sys.stderr) -> Callable[[int, int, int, float], None]:
     """A one-line progress display: cases done, failed and the rate."""
+
     def show(ok: int, total: int, failed: int, seconds: float) -> None:
         handled = ok + failed
         rate = handled / seconds if seconds > 0 else 0.0
         end = "\n" if handled >= total else ""
         stream.write(f"\r  {handled}/{total} cases, {failed} failed, {rate:.1f} cases/s   {end}")
         stream.flush()
+
     return show

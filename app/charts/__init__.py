@@ -10,14 +10,28 @@ also differs by dash or marker, never by colour alone.
 """
 
 from obligor_memo.app.charts.loss import exposure_figure, loss_distribution_figure, recovery_figure
-from obligor_memo.app.charts.review import review_waterfall_figure
 from obligor_memo.app.charts.pd import asset_trend_figure, liabilities_figure, term_structure_figure
+from obligor_memo.app.charts.review import review_waterfall_figure
 from obligor_memo.app.charts.style import apply_layout, layout_dict, new_figure
 from obligor_memo.app.charts.whatif import pd_grid_figure, scenarios_figure, sensitivity_figure
 
-__all__ = ["FIGURES", "ANALYSIS_FIGURES", "asset_trend_figure", "liabilities_figure", "term_structure_figure",
-           "recovery_figure", "exposure_figure", "loss_distribution_figure", "sensitivity_figure",
-           "pd_grid_figure", "scenarios_figure", "review_waterfall_figure", "apply_layout", "layout_dict", "new_figure"]
+__all__ = [
+    "FIGURES",
+    "ANALYSIS_FIGURES",
+    "asset_trend_figure",
+    "liabilities_figure",
+    "term_structure_figure",
+    "recovery_figure",
+    "exposure_figure",
+    "loss_distribution_figure",
+    "sensitivity_figure",
+    "pd_grid_figure",
+    "scenarios_figure",
+    "review_waterfall_figure",
+    "apply_layout",
+    "layout_dict",
+    "new_figure",
+]
 
 # Figures drawn from evaluate()'s Results (the recovery figure is per facility: not listed).
 FIGURES = {

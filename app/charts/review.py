@@ -5,7 +5,6 @@ from __future__ import annotations
 from typing import Any
 
 import plotly.graph_objects as go
-
 from obligor_memo.app.charts.style import COPPER, INK, MILLION, MOSS, layout_dict
 
 
@@ -24,11 +23,14 @@ def waterfall_figure(comparison: Any, figure: str, currency: str) -> go.Figure:
     from obligor_memo.engine.compare import FIGURE_BY_NAME
 
     spec = FIGURE_BY_NAME[figure]
-    scale, unit = ((1 / MILLION, f"[{currency} m]") if spec.kind == "money" else (100.0, "[%]"))
+    scale, unit = (1 / MILLION, f"[{currency} m]") if spec.kind == "money" else (100.0, "[%]")
     rows = [b for b in comparison.attribution if b.changes or b.block == "engine"]
     labels = ["last review"] + [b.label for b in rows] + ["now"]
-    values = ([comparison.old[figure] * scale] + [(b.deltas.get(figure) or 0.0) * scale for b in rows]
-              + [comparison.new[figure] * scale])
+    values = (
+        [comparison.old[figure] * scale]
+        + [(b.deltas.get(figure) or 0.0) * scale for b in rows]
+        + [comparison.new[figure] * scale]
+    )
     # Drawn as floating bars (the memo's plotly bundle has no waterfall trace): each cause's bar
     # starts where the previous one ended; the ends stand on zero.
     kinds = ["end"] + ["step"] * len(rows) + ["end"]
@@ -38,10 +40,21 @@ def waterfall_figure(comparison: Any, figure: str, currency: str) -> go.Figure:
         level = value if kind == "end" else level + value
     heights = values
     colours = [INK if k == "end" else (COPPER if v > 0 else MOSS) for v, k in zip(values, kinds)]
-    trace = go.Bar(x=labels, y=heights, base=bases, marker={"color": colours},
-                   text=[f"{v:+,.3f}" if k == "step" else f"{v:,.3f}" for v, k in zip(values, kinds)],
-                   textposition="outside", showlegend=False,
-                   hovertemplate="%{x}: %{text}<extra></extra>")
-    look = layout_dict(title=f"{spec.label}: last review to now, by cause", x_title="", y_title=f"{spec.label} {unit}",
-                       height=420, legend_below=False)
+    trace = go.Bar(
+        x=labels,
+        y=heights,
+        base=bases,
+        marker={"color": colours},
+        text=[f"{v:+,.3f}" if k == "step" else f"{v:,.3f}" for v, k in zip(values, kinds)],
+        textposition="outside",
+        showlegend=False,
+        hovertemplate="%{x}: %{text}<extra></extra>",
+    )
+    look = layout_dict(
+        title=f"{spec.label}: last review to now, by cause",
+        x_title="",
+        y_title=f"{spec.label} {unit}",
+        height=420,
+        legend_below=False,
+    )
     return go.Figure(data=[trace], layout=look)

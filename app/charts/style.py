@@ -9,7 +9,6 @@ from __future__ import annotations
 from typing import Any
 
 import plotly.graph_objects as go
-
 from obligor_memo.app.present.formatting import num
 
 # Slate, copper, moss, sand, plum, steel: distinct hues whose lightness also steps apart.
@@ -41,31 +40,43 @@ def new_figure() -> go.Figure:
     return go.Figure(layout={"template": "none"})
 
 
-def layout_dict(*, title: str, x_title: str, y_title: str, height: int = 420,
-                legend_below: bool = True) -> dict[str, Any]:
+def layout_dict(
+    *, title: str, x_title: str, y_title: str, height: int = 420, legend_below: bool = True
+) -> dict[str, Any]:
     """The shared look of every figure as plain layout data: white ground, light grid, legend
     under the plot. Figures built in one go.Figure(data, layout) call merge into this."""
-    axis = {"showgrid": True, "gridcolor": GRID, "zeroline": False, "linecolor": STEEL,
-            "ticks": "outside", "tickcolor": STEEL, "showline": True}
+    axis = {
+        "showgrid": True,
+        "gridcolor": GRID,
+        "zeroline": False,
+        "linecolor": STEEL,
+        "ticks": "outside",
+        "tickcolor": STEEL,
+        "showline": True,
+    }
     return {
         "template": "none",
         "title": {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 16, "color": INK}},
         "font": {"family": FONT, "size": 12, "color": INK},
-        "paper_bgcolor": "white", "plot_bgcolor": "white", "height": height,
+        "paper_bgcolor": "white",
+        "plot_bgcolor": "white",
+        "height": height,
         "margin": {"l": 70, "r": 30, "t": 60, "b": 120 if legend_below else 50},
         "hoverlabel": {"font": {"family": FONT}},
-        "legend": ({"orientation": "h", "yanchor": "top", "y": -0.24, "xanchor": "left", "x": 0.0}
-                   if legend_below else {}),
-        "xaxis": {**axis, "title": {"text": x_title}}, "yaxis": {**axis, "title": {"text": y_title}},
+        "legend": (
+            {"orientation": "h", "yanchor": "top", "y": -0.24, "xanchor": "left", "x": 0.0} if legend_below else {}
+        ),
+        "xaxis": {**axis, "title": {"text": x_title}},
+        "yaxis": {**axis, "title": {"text": y_title}},
     }
 
 
-def apply_layout(fig: go.Figure, *, title: str, x_title: str, y_title: str, height: int = 420,
-                 legend_below: bool = True) -> go.Figure:
+def apply_layout(
+    fig: go.Figure, *, title: str, x_title: str, y_title: str, height: int = 420, legend_below: bool = True
+) -> go.Figure:
     """The shared look of every figure (see layout_dict)."""
     # One update_layout call: separate axis updates cost more than building the traces.
-    look = layout_dict(title=title, x_title=x_title, y_title=y_title, height=height,
-                       legend_below=legend_below)
+    look = layout_dict(title=title, x_title=x_title, y_title=y_title, height=height, legend_below=legend_below)
     del look["template"]
     fig.update_layout(**look)
     return fig
@@ -73,4 +84,3 @@ def apply_layout(fig: go.Figure, *, title: str, x_title: str, y_title: str, heig
 
 def r2_text(value: float | None) -> str:
     return "n/a" if value is None else num(value, 3)
-

@@ -19,7 +19,6 @@ from typing import Any
 
 import numpy as np
 import plotly.graph_objects as go
-
 from obligor_memo.app.charts.style import COPPER, INK, MILLION, STEEL, currency, layout_dict, money_axis
 from obligor_memo.app.present.formatting import millions, money, num, pct, pd_pct
 
@@ -83,13 +82,15 @@ def sensitivity_figure(results: Any, *, measure: str = "el") -> go.Figure:
     # EL below a million reads in thousands: "0.013" of a million is no figure to read off.
     peak = max([sens.el_base] + [v for r in sens.rows for v in (r.el_low, r.el_high) if v is not None])
     scale = (MILLION if peak >= MILLION else 1e3) if measure == "el" else 1.0
-    rows = sorted(sens.rows, key=lambda r: -_swing(r, measure))   # stable: ties keep the engine's order
-    rows = rows[::-1]                                             # plotly draws the first row at the bottom
+    rows = sorted(sens.rows, key=lambda r: -_swing(r, measure))  # stable: ties keep the engine's order
+    rows = rows[::-1]  # plotly draws the first row at the bottom
     labels = [_row_label(r) for r in rows]
     base_value = (sens.el_base if measure == "el" else sens.pd_base) / scale
     traces: list[dict[str, Any]] = []
-    for side, name, colour, pattern in (("low", "Input moved down", STEEL, ""),
-                                        ("high", "Input moved up", COPPER, "/")):
+    for side, name, colour, pattern in (
+        ("low", "Input moved down", STEEL, ""),
+        ("high", "Input moved up", COPPER, "/"),
+    ):
         ends, texts, hover = [], [], []
         for r in rows:
             base, low, high = _measure_values(r, measure)
@@ -100,33 +101,73 @@ def sensitivity_figure(results: Any, *, measure: str = "el") -> go.Figure:
             still = low == base and high == base
             texts.append(_moved_to(r, side) if end is not None and not still else "")
             hover.append(_value_text(end, measure, results))
-        traces.append({
-            "type": "bar", "y": labels, "x": [None if e is None else e - base_value for e in ends],
-            "base": base_value, "orientation": "h", "name": name, "text": texts, "textposition": "outside",
-            "cliponaxis": False, "textfont": {"size": 11, "color": INK},
-            "marker": {"color": colour, "line": {"color": INK, "width": 1},
-                       "pattern": {"shape": pattern, "fgcolor": "white", "size": 6, "fillmode": "overlay"}},
-            "customdata": [[t, h] for t, h in zip(texts, hover)],
-            "hovertemplate": "%{y}<br>moved to %{customdata[0]}: %{customdata[1]}<extra>" + name + "</extra>"})
+        traces.append(
+            {
+                "type": "bar",
+                "y": labels,
+                "x": [None if e is None else e - base_value for e in ends],
+                "base": base_value,
+                "orientation": "h",
+                "name": name,
+                "text": texts,
+                "textposition": "outside",
+                "cliponaxis": False,
+                "textfont": {"size": 11, "color": INK},
+                "marker": {
+                    "color": colour,
+                    "line": {"color": INK, "width": 1},
+                    "pattern": {"shape": pattern, "fgcolor": "white", "size": 6, "fillmode": "overlay"},
+                },
+                "customdata": [[t, h] for t, h in zip(texts, hover)],
+                "hovertemplate": "%{y}<br>moved to %{customdata[0]}: %{customdata[1]}<extra>" + name + "</extra>",
+            }
+        )
     annotations = []
     for r, label in zip(rows, labels):
         base, low, high = _measure_values(r, measure)
         if (low is None or high is None) and r.note:
-            annotations.append({"y": label, "x": base_value, "xref": "x", "yref": "y", "text": _short(r.note),
-                                "showarrow": False, "xanchor": "left", "xshift": 8,
-                                "font": {"size": 10, "color": INK}, "bgcolor": "rgba(255,255,255,0.85)"})
+            annotations.append(
+                {
+                    "y": label,
+                    "x": base_value,
+                    "xref": "x",
+                    "yref": "y",
+                    "text": _short(r.note),
+                    "showarrow": False,
+                    "xanchor": "left",
+                    "xshift": 8,
+                    "font": {"size": 10, "color": INK},
+                    "bgcolor": "rgba(255,255,255,0.85)",
+                }
+            )
         elif low == high == base:
-            annotations.append({"y": label, "x": base_value, "xref": "x", "yref": "y", "showarrow": False,
-                                "text": f"no effect on the {'EL' if measure == 'el' else 'PD'}",
-                                "xanchor": "left", "xshift": 8, "font": {"size": 10, "color": STEEL}})
-    base_text = (_value_text(sens.el_base, "el", results) if measure == "el" else pd_pct(sens.pd_base))
-    traces.append({"type": "scatter", "x": [base_value, base_value],
-                   "y": [labels[0], labels[-1]] if labels else [0, 1], "mode": "lines",
-                   "name": f"Base {base_text}", "line": {"color": INK, "width": 2, "dash": "dash"},
-                   "hoverinfo": "skip"})
+            annotations.append(
+                {
+                    "y": label,
+                    "x": base_value,
+                    "xref": "x",
+                    "yref": "y",
+                    "showarrow": False,
+                    "text": f"no effect on the {'EL' if measure == 'el' else 'PD'}",
+                    "xanchor": "left",
+                    "xshift": 8,
+                    "font": {"size": 10, "color": STEEL},
+                }
+            )
+    base_text = _value_text(sens.el_base, "el", results) if measure == "el" else pd_pct(sens.pd_base)
+    traces.append(
+        {
+            "type": "scatter",
+            "x": [base_value, base_value],
+            "y": [labels[0], labels[-1]] if labels else [0, 1],
+            "mode": "lines",
+            "name": f"Base {base_text}",
+            "line": {"color": INK, "width": 2, "dash": "dash"},
+            "hoverinfo": "skip",
+        }
+    )
     what = "Expected loss" if measure == "el" else "PD in force"
-    unit = ((money_axis(results) if scale == MILLION else f"[{currency(results)} k]") if measure == "el"
-            else "[%]")
+    unit = (money_axis(results) if scale == MILLION else f"[{currency(results)} k]") if measure == "el" else "[%]"
     title = f"One-way sensitivity of the {what.lower() if measure == 'el' else 'PD in force'}"
     if sens.pd_overridden:
         title += " (PD overridden: model inputs move the model PD only)"
@@ -171,8 +212,11 @@ def _padded_axis(rows: list[Any], measure: str, scale: float, base_value: float)
     left, right = low - 0.24 * span, high + 0.26 * span
     step = _nice_step(high - min(low, 0.0) or span)
     ticks = [k * step for k in range(math.ceil(max(left, 0.0) / step), math.floor(right / step) + 1)]
-    return {"range": [left, right], "tickvals": ticks,
-            "ticktext": [f"{t:.1%}" if measure == "pd" else f"{t:,.{_decimals(step)}f}" for t in ticks]}
+    return {
+        "range": [left, right],
+        "tickvals": ticks,
+        "ticktext": [f"{t:.1%}" if measure == "pd" else f"{t:,.{_decimals(step)}f}" for t in ticks],
+    }
 
 
 def _decimals(step: float) -> int:
@@ -184,17 +228,19 @@ def _decimals(step: float) -> int:
 # --------------------------------------------------------------------------- PD heat map
 
 
-_Y_TITLES = {"asset_volatility": "Asset volatility [% per sqrt(year)]",
-             "equity_volatility": "Equity volatility [% per sqrt(year)]"}
+_Y_TITLES = {
+    "asset_volatility": "Asset volatility [% per sqrt(year)]",
+    "equity_volatility": "Equity volatility [% per sqrt(year)]",
+}
 
 
 def _decade_ticks(low: float, high: float) -> tuple[list[float], list[str]]:
     first, last = math.floor(low), math.ceil(high)
     vals = [float(e) for e in range(first, last + 1) if low - 1e-9 <= e <= high + 1e-9]
-    if len(vals) < 2:     # a grid within one decade: mark its ends instead
+    if len(vals) < 2:  # a grid within one decade: mark its ends instead
         vals = [low, high]
     floor = math.log10(PD_COLOUR_FLOOR)
-    return vals, [("\u2264 " if abs(v - floor) < 1e-9 else "") + f"{100 * 10.0 ** v:.3g} %" for v in vals]
+    return vals, [("\u2264 " if abs(v - floor) < 1e-9 else "") + f"{100 * 10.0**v:.3g} %" for v in vals]
 
 
 def pd_grid_figure(results: Any) -> go.Figure:
@@ -208,8 +254,7 @@ def pd_grid_figure(results: Any) -> go.Figure:
         raise ValueError("results.pd_grid: got None; allowed: results of engine.analysis.analyse")
     cur = currency(results)
     pd = np.array([[np.nan if v is None else v for v in row] for row in grid.pd], dtype=float)
-    dd = np.array([[np.nan if v is None else v for v in row] for row in grid.distance_to_default],
-                  dtype=float)
+    dd = np.array([[np.nan if v is None else v for v in row] for row in grid.distance_to_default], dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
         z = np.log10(np.maximum(pd, PD_COLOUR_FLOOR))
     finite = z[np.isfinite(z)]
@@ -218,41 +263,93 @@ def pd_grid_figure(results: Any) -> go.Figure:
         zmin, zmax = zmin - 0.5, zmax + 0.5
     tickvals, ticktext = _decade_ticks(zmin, zmax)
     dp_text = [millions(v, cur) for v in grid.default_point]
-    hover = [[f"PD {pd_pct(p) if np.isfinite(p) else 'no solution'}<br>distance to default "
-              f"{num(d, 2) if np.isfinite(d) else 'n/a'}<br>default point {dp_text[j]}"
-              for j, (p, d) in enumerate(zip(prow, drow))] for prow, drow in zip(pd, dd)]
+    hover = [
+        [
+            f"PD {pd_pct(p) if np.isfinite(p) else 'no solution'}<br>distance to default "
+            f"{num(d, 2) if np.isfinite(d) else 'n/a'}<br>default point {dp_text[j]}"
+            for j, (p, d) in enumerate(zip(prow, drow))
+        ]
+        for prow, drow in zip(pd, dd)
+    ]
     y_title = _Y_TITLES.get(grid.y_name, grid.y_name.replace("_", " ") + " [1/sqrt(year)]")
     traces = [
-        {"type": "heatmap", "x": np.asarray(grid.x_values), "y": np.asarray(grid.y_values), "z": z,
-         "zmin": zmin, "zmax": zmax, "customdata": pd, "text": np.array(hover, dtype=object),
-         "hovertemplate": "long-term share %{x:.2f}, volatility %{y:.1%}<br>%{text}<extra></extra>",
-         "colorscale": PD_SCALE, "hoverongaps": False, "name": "Model PD",
-         "colorbar": {"title": {"text": "Model PD<br>(log scale)", "side": "top"}, "tickvals": tickvals,
-                      "ticktext": ticktext, "thickness": 14, "len": 0.9, "outlinewidth": 0}},
-        {"type": "scatter", "x": [grid.base_x], "y": [grid.base_y], "mode": "markers",
-         "name": f"This case: model PD {pd_pct(grid.base_pd)}",
-         "marker": {"symbol": "diamond", "size": 13, "color": "white", "line": {"color": COPPER, "width": 3}},
-         "hovertemplate": f"this case: long-term share {grid.base_x:.2f}, volatility {grid.base_y:.1%}, "
-                          f"model PD {pd_pct(grid.base_pd)}<extra></extra>"}]
+        {
+            "type": "heatmap",
+            "x": np.asarray(grid.x_values),
+            "y": np.asarray(grid.y_values),
+            "z": z,
+            "zmin": zmin,
+            "zmax": zmax,
+            "customdata": pd,
+            "text": np.array(hover, dtype=object),
+            "hovertemplate": "long-term share %{x:.2f}, volatility %{y:.1%}<br>%{text}<extra></extra>",
+            "colorscale": PD_SCALE,
+            "hoverongaps": False,
+            "name": "Model PD",
+            "colorbar": {
+                "title": {"text": "Model PD<br>(log scale)", "side": "top"},
+                "tickvals": tickvals,
+                "ticktext": ticktext,
+                "thickness": 14,
+                "len": 0.9,
+                "outlinewidth": 0,
+            },
+        },
+        {
+            "type": "scatter",
+            "x": [grid.base_x],
+            "y": [grid.base_y],
+            "mode": "markers",
+            "name": f"This case: model PD {pd_pct(grid.base_pd)}",
+            "marker": {"symbol": "diamond", "size": 13, "color": "white", "line": {"color": COPPER, "width": 3}},
+            "hovertemplate": f"this case: long-term share {grid.base_x:.2f}, volatility {grid.base_y:.1%}, "
+            f"model PD {pd_pct(grid.base_pd)}<extra></extra>",
+        },
+    ]
     title = "Model PD by default point and volatility"
     if grid.method == "market":
         title += " (market method)"
-    layout = layout_dict(title=title, x_title="Long-term share of the default point [fraction]",
-                         y_title=y_title, height=440, legend_below=False)
+    layout = layout_dict(
+        title=title,
+        x_title="Long-term share of the default point [fraction]",
+        y_title=y_title,
+        height=440,
+        legend_below=False,
+    )
     # The case's label sits on a white box: a gray cell of any darkness leaves it readable.
     right_half = grid.base_x > (min(grid.x_values) + max(grid.x_values)) / 2
-    annotations = [{"x": grid.base_x, "y": grid.base_y, "text": f"this case: {pd_pct(grid.base_pd)}",
-                    "showarrow": False, "xanchor": "right" if right_half else "left",
-                    "xshift": -12 if right_half else 12, "bgcolor": "rgba(255,255,255,0.9)",
-                    "bordercolor": COPPER, "borderwidth": 1, "font": {"size": 11, "color": INK}}]
+    annotations = [
+        {
+            "x": grid.base_x,
+            "y": grid.base_y,
+            "text": f"this case: {pd_pct(grid.base_pd)}",
+            "showarrow": False,
+            "xanchor": "right" if right_half else "left",
+            "xshift": -12 if right_half else 12,
+            "bgcolor": "rgba(255,255,255,0.9)",
+            "bordercolor": COPPER,
+            "borderwidth": 1,
+            "font": {"size": 11, "color": INK},
+        }
+    ]
     layout["xaxis"].update(showgrid=False, range=[min(grid.x_values), max(grid.x_values)], tickformat=".1f")
     layout["yaxis"].update(showgrid=False, tickformat=".0%")
     layout["margin"].update(r=20)
     if text := _grid_note(grid):
         layout["margin"].update(b=90)
-        annotations.append({"text": text, "xref": "paper", "yref": "paper", "x": 0, "y": -0.3,
-                            "showarrow": False, "xanchor": "left", "align": "left",
-                            "font": {"size": 10, "color": INK}})
+        annotations.append(
+            {
+                "text": text,
+                "xref": "paper",
+                "yref": "paper",
+                "x": 0,
+                "y": -0.3,
+                "showarrow": False,
+                "xanchor": "left",
+                "align": "left",
+                "font": {"size": 10, "color": INK},
+            }
+        )
     layout["annotations"] = annotations
     return go.Figure(data=traces, layout=layout)
 
@@ -281,27 +378,57 @@ def scenarios_figure(results: Any) -> go.Figure:
     # The change from the base is the engine's HeadlineDelta, not recomputed here.
     pd_texts = [pd_pct(pds[0])] + [f"{pd_pct(s.figures.pd)} ({s.delta.pd * 100:+.2f} pp)" for s in scenarios]
     el_texts = [millions(els[0] * MILLION, cur)] + [
-        f"{millions(s.figures.expected_loss, cur)} ({s.delta.expected_loss / MILLION:+,.2f}m)" for s in scenarios]
+        f"{millions(s.figures.expected_loss, cur)} ({s.delta.expected_loss / MILLION:+,.2f}m)" for s in scenarios
+    ]
     traces: list[dict[str, Any]] = []
     for axis, values, texts, colour, symbol, label in (
-            ("x", pds, pd_texts, INK, "circle", "PD in force"),
-            ("x2", els, el_texts, COPPER, "square", "Expected loss")):
-        traces.append({"type": "scatter", "xaxis": axis, "x": [values[0]] * 2, "y": [names[0], names[-1]],
-                       "mode": "lines", "showlegend": False, "hoverinfo": "skip",
-                       "line": {"color": STEEL, "width": 1, "dash": "dot"}})
-        traces.append({"type": "scatter", "xaxis": axis, "x": values, "y": names, "mode": "markers+text",
-                       "name": label, "text": texts, "textposition": "middle right", "cliponaxis": False,
-                       "textfont": {"size": 11, "color": INK},
-                       "marker": {"symbol": symbol, "size": 12, "color": colour, "line": {"color": INK, "width": 1}},
-                       "hovertemplate": "%{y}: %{text}<extra>" + label + "</extra>"})
-    layout = layout_dict(title="Scenarios against the base case", x_title="PD in force [%]", y_title="",
-                         height=max(300, 150 + 48 * len(names)), legend_below=False)
-    layout.update(showlegend=False, xaxis2={**layout["xaxis"], "title": {"text": f"Expected loss {money_axis(results)}"}})
+        ("x", pds, pd_texts, INK, "circle", "PD in force"),
+        ("x2", els, el_texts, COPPER, "square", "Expected loss"),
+    ):
+        traces.append(
+            {
+                "type": "scatter",
+                "xaxis": axis,
+                "x": [values[0]] * 2,
+                "y": [names[0], names[-1]],
+                "mode": "lines",
+                "showlegend": False,
+                "hoverinfo": "skip",
+                "line": {"color": STEEL, "width": 1, "dash": "dot"},
+            }
+        )
+        traces.append(
+            {
+                "type": "scatter",
+                "xaxis": axis,
+                "x": values,
+                "y": names,
+                "mode": "markers+text",
+                "name": label,
+                "text": texts,
+                "textposition": "middle right",
+                "cliponaxis": False,
+                "textfont": {"size": 11, "color": INK},
+                "marker": {"symbol": symbol, "size": 12, "color": colour, "line": {"color": INK, "width": 1}},
+                "hovertemplate": "%{y}: %{text}<extra>" + label + "</extra>",
+            }
+        )
+    layout = layout_dict(
+        title="Scenarios against the base case",
+        x_title="PD in force [%]",
+        y_title="",
+        height=max(300, 150 + 48 * len(names)),
+        legend_below=False,
+    )
+    layout.update(
+        showlegend=False, xaxis2={**layout["xaxis"], "title": {"text": f"Expected loss {money_axis(results)}"}}
+    )
     layout["margin"].update(l=10, r=40, b=60)
     # Two panels side by side on one shared row axis; right-hand room for the value and delta
     # labels, which autorange does not count.
     layout["xaxis"].update(domain=[0.0, 0.46], tickformat=".1%", range=[0, max(pds) * 1.8 or 1], rangemode="tozero")
     layout["xaxis2"].update(domain=[0.54, 1.0], range=[0, max(els) * 1.8 or 1], anchor="y", rangemode="tozero")
-    layout["yaxis"].update(autorange="reversed", automargin=True, showgrid=False, ticks="outside", ticklen=8,
-                           tickcolor="white")
+    layout["yaxis"].update(
+        autorange="reversed", automargin=True, showgrid=False, ticks="outside", ticklen=8, tickcolor="white"
+    )
     return go.Figure(data=traces, layout=layout)

@@ -7,11 +7,25 @@ the HTML and :mod:`.layout` lays it out around same-size empty boxes; the chart 
 drawn into their boxes (:mod:`.chart_pages`) and the record is attached (:mod:`.record`).
 """
 
-from obligor_memo.app.memo.chart_browser import (ChartExporter, ChartsUnavailable, running_exporter,
-                                                 start_chart_exporter, stop_chart_exporter)
+from obligor_memo.app.memo.chart_browser import (
+    ChartExporter,
+    ChartsUnavailable,
+    running_exporter,
+    start_chart_exporter,
+    stop_chart_exporter,
+)
 from obligor_memo.app.memo.record import MemoRecordError, VerifyReport, verify_memo
 from obligor_memo.app.memo.render import render_memo_html, render_memo_pdf
 
-__all__ = ["ChartExporter", "ChartsUnavailable", "MemoRecordError", "VerifyReport", "render_memo_html",
-           "render_memo_pdf", "running_exporter", "start_chart_exporter", "stop_chart_exporter",
-           "verify_memo"]
+__all__ = [
+    "ChartExporter",
+    "ChartsUnavailable",
+    "MemoRecordError",
+    "VerifyReport",
+    "render_memo_html",
+    "render_memo_pdf",
+    "running_exporter",
+    "start_chart_exporter",
+    "stop_chart_exporter",
+    "verify_memo",
+]

@@ -18,9 +18,9 @@ Speed and memory choices, each measured on the sample memo (12 charts, 2 cores):
 
 from __future__ import annotations
 
-import logging
 import asyncio
 import atexit
+import logging
 import os
 import re
 import signal
@@ -28,6 +28,7 @@ import threading
 import time
 from pathlib import Path
 from typing import Any
+
 from obligor_memo.app import settings
 
 log = logging.getLogger(__name__)
@@ -36,12 +37,19 @@ BROWSER_CANDIDATES = ("/usr/bin/chromium", "/usr/bin/chromium-browser", "/usr/bi
 TIMEOUT_VARIABLE = settings.CHART_TIMEOUT
 DEFAULT_TIMEOUT_SECONDS = 30.0
 MAX_TIMEOUT_SECONDS = 600.0
-NO_CHART_FIX = ("install Chromium (for example 'apt-get install chromium'), or set BROWSER_PATH to "
-                "a Chrome or Chromium executable, or print without charts with --no-charts")
+NO_CHART_FIX = (
+    "install Chromium (for example 'apt-get install chromium'), or set BROWSER_PATH to "
+    "a Chrome or Chromium executable, or print without charts with --no-charts"
+)
 # Fewer browser processes: one renderer for every tab, GPU code inside the browser process.
 # The old-space cap bounds the renderer's heap; a memo's figures need a few tens of MB.
-BROWSER_FLAGS = ("--renderer-process-limit=1", "--in-process-gpu", "--disable-extensions",
-                 "--js-flags=--max-old-space-size=192", "--disable-features=Translate,MediaRouter")
+BROWSER_FLAGS = (
+    "--renderer-process-limit=1",
+    "--in-process-gpu",
+    "--disable-extensions",
+    "--js-flags=--max-old-space-size=192",
+    "--disable-features=Translate,MediaRouter",
+)
 
 
 class ChartsUnavailable(RuntimeError):
@@ -61,8 +69,10 @@ def chart_timeout() -> float:
     except ValueError:
         value = float("nan")
     if not 0 < value <= MAX_TIMEOUT_SECONDS:
-        raise ChartsUnavailable(f"{TIMEOUT_VARIABLE}: got {text!r}; allowed: a number of seconds "
-                                f"greater than 0 and at most {MAX_TIMEOUT_SECONDS:g}.")
+        raise ChartsUnavailable(
+            f"{TIMEOUT_VARIABLE}: got {text!r}; allowed: a number of seconds "
+            f"greater than 0 and at most {MAX_TIMEOUT_SECONDS:g}."
+        )
     return value
 
 
@@ -72,13 +82,17 @@ def find_browser() -> str:
     if chosen:
         if os.path.isfile(chosen) and os.access(chosen, os.X_OK):
             return chosen
-        raise ChartsUnavailable(f"BROWSER_PATH is set to {chosen!r}, which is not an executable "
-                                f"file. Charts need a Chrome or Chromium browser: {NO_CHART_FIX}.")
+        raise ChartsUnavailable(
+            f"BROWSER_PATH is set to {chosen!r}, which is not an executable "
+            f"file. Charts need a Chrome or Chromium browser: {NO_CHART_FIX}."
+        )
     for path in BROWSER_CANDIDATES:
         if os.path.isfile(path) and os.access(path, os.X_OK):
             return path
-    raise ChartsUnavailable("No Chrome or Chromium browser was found (looked at BROWSER_PATH and "
-                            f"{', '.join(BROWSER_CANDIDATES)}). Charts need one: {NO_CHART_FIX}.")
+    raise ChartsUnavailable(
+        "No Chrome or Chromium browser was found (looked at BROWSER_PATH and "
+        f"{', '.join(BROWSER_CANDIDATES)}). Charts need one: {NO_CHART_FIX}."
+    )
 
 
 def process_group_members(group: int) -> list[int]:
@@ -103,7 +117,7 @@ def _kill_group(group: int | None) -> None:
         return
     try:
         os.killpg(group, signal.SIGKILL)
-    except (ProcessLookupError, PermissionError) as exc:   # already gone, or not ours to kill
+    except (ProcessLookupError, PermissionError) as exc:  # already gone, or not ours to kill
         log.debug("browser process group %s not killed: %s", group, exc)
 
 
@@ -123,7 +137,7 @@ def _browser_classes() -> tuple[type, type]:
             await self.tabs_ready.put(tab)
 
     if not hasattr(Kaleido, "_return_kaleido_tab"):
-        return PrintChromium, Kaleido    # another kaleido version: keep its own, slower, behaviour
+        return PrintChromium, Kaleido  # another kaleido version: keep its own, slower, behaviour
     return PrintChromium, BatchKaleido
 
 
@@ -160,8 +174,7 @@ class ChartExporter:
     start-up and, separately, each batch of figures; past it the browser is killed.
     """
 
-    def __init__(self, *, browser_path: str | None = None, timeout: float | None = None,
-                 tabs: int = 1):
+    def __init__(self, *, browser_path: str | None = None, timeout: float | None = None, tabs: int = 1):
         if timeout is not None and not 0 < timeout <= MAX_TIMEOUT_SECONDS:
             raise ValueError(f"timeout: got {timeout!r}; allowed: 0 < timeout <= {MAX_TIMEOUT_SECONDS:g} s")
         if not 1 <= tabs <= 8:
@@ -171,10 +184,10 @@ class ChartExporter:
         self.tabs = tabs
         self._loop: asyncio.AbstractEventLoop | None = None
         self._thread: threading.Thread | None = None
-        self._opening: Any = None            # concurrent.futures.Future of the open browser
-        self._kaleido: Any = None            # the open browser, once ready
-        self._browser: Any = None            # the browser object from the moment it is created
-        self._refresh: Any = None            # the background page reload after a batch
+        self._opening: Any = None  # concurrent.futures.Future of the open browser
+        self._kaleido: Any = None  # the open browser, once ready
+        self._browser: Any = None  # the browser object from the moment it is created
+        self._refresh: Any = None  # the background page reload after a batch
         self._lock = threading.RLock()
 
     @property
@@ -188,7 +201,7 @@ class ChartExporter:
         process = getattr(self._browser, "subprocess", None)
         return None if process is None else process.pid
 
-    def start(self, *, wait: bool = True) -> "ChartExporter":
+    def start(self, *, wait: bool = True) -> ChartExporter:
         with self._lock:
             if self._opening is None:
                 from kaleido import PageGenerator
@@ -198,15 +211,19 @@ class ChartExporter:
                 # A browser killed on purpose leaves failed tasks behind: nothing to print.
                 loop.set_exception_handler(lambda _loop, _context: None)
                 self._loop = loop
-                self._thread = threading.Thread(target=loop.run_forever, name="memo-chart-exporter",
-                                                daemon=True)
+                self._thread = threading.Thread(target=loop.run_forever, name="memo-chart-exporter", daemon=True)
                 self._thread.start()
 
                 async def _open() -> Any:
                     # mathjax off: the default would load it from a CDN, and no chart needs TeX.
                     generator = PageGenerator(mathjax=False, plotly=plotly_bundle())
-                    browser = kaleido_class(n=self.tabs, timeout=self.timeout, page_generator=generator,
-                                            path=self.browser_path, browser_cls=chromium)
+                    browser = kaleido_class(
+                        n=self.tabs,
+                        timeout=self.timeout,
+                        page_generator=generator,
+                        path=self.browser_path,
+                        browser_cls=chromium,
+                    )
                     self._browser = browser
                     await browser.open()
                     return browser
@@ -231,8 +248,9 @@ class ChartExporter:
                     reason = f"{type(exc).__name__}: {' '.join(str(exc).split())[:300]}"
                     fix = NO_CHART_FIX
                 self.close(force=True)
-                raise ChartsUnavailable(f"Chromium at {self.browser_path} could not be started for "
-                                        f"chart export ({reason}). Fix: {fix}.") from None
+                raise ChartsUnavailable(
+                    f"Chromium at {self.browser_path} could not be started for chart export ({reason}). Fix: {fix}."
+                ) from None
         return self._kaleido
 
     def export_svg(self, figures: dict[str, Any]) -> dict[str, str]:
@@ -278,12 +296,16 @@ class ChartExporter:
                 future.cancel()
                 self.close(force=True)
                 if is_timeout(exc):
-                    raise ChartsUnavailable(f"Chart export took longer than {self.timeout:g} s and "
-                                            f"was stopped. Try again, raise {TIMEOUT_VARIABLE}, or "
-                                            "print with --no-charts.") from None
-                raise ChartsUnavailable(f"{_DRAWING_FAILED} ("
-                                        f"{type(exc).__name__}: {' '.join(str(exc).split())[:300]}). "
-                                        f"Try again, or {NO_CHART_FIX}.") from None
+                    raise ChartsUnavailable(
+                        f"Chart export took longer than {self.timeout:g} s and "
+                        f"was stopped. Try again, raise {TIMEOUT_VARIABLE}, or "
+                        "print with --no-charts."
+                    ) from None
+                raise ChartsUnavailable(
+                    f"{_DRAWING_FAILED} ("
+                    f"{type(exc).__name__}: {' '.join(str(exc).split())[:300]}). "
+                    f"Try again, or {NO_CHART_FIX}."
+                ) from None
             self._refresh = asyncio.run_coroutine_threadsafe(self._reload_tabs(kaleido), loop)
             return svgs
 
@@ -311,12 +333,12 @@ class ChartExporter:
             if loop is not None and browser is not None:
                 try:
                     # Tidies the pipes and temporary folders; quick when the browser is dead.
-                    asyncio.run_coroutine_threadsafe(browser.close(), loop).result(
-                        timeout=1 if force else 10)
-                except BaseException:   # closing must go on: the group is killed next
+                    asyncio.run_coroutine_threadsafe(browser.close(), loop).result(timeout=1 if force else 10)
+                except BaseException:  # closing must go on: the group is killed next
                     log.debug("the chart browser did not close cleanly", exc_info=True)
-            _kill_group(group)       # whatever still runs in the browser's group
+            _kill_group(group)  # whatever still runs in the browser's group
             if loop is not None:
+
                 async def _cancel_rest() -> None:
                     tasks = [t for t in asyncio.all_tasks() if t is not asyncio.current_task()]
                     for task in tasks:
@@ -325,7 +347,7 @@ class ChartExporter:
 
                 try:
                     asyncio.run_coroutine_threadsafe(_cancel_rest(), loop).result(timeout=2)
-                except BaseException:   # the loop is stopped next in any case
+                except BaseException:  # the loop is stopped next in any case
                     log.debug("the chart browser's tasks did not cancel in time", exc_info=True)
                 loop.call_soon_threadsafe(loop.stop)
                 if self._thread is not None:

@@ -23,14 +23,16 @@ import shutil
 import subprocess
 import tempfile
 import threading
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any, Sequence
+from typing import Any
+
 from obligor_memo.app import settings
 
 CONVERTER_VARIABLE = settings.SVG_CONVERTER
 CONVERTER_NAME = "rsvg-convert"
-FIXED_EPOCH = "946684800"        # 2000-01-01T00:00:00Z, the memo's fixed PDF date
-CSS_PX_IN_PT = 0.75              # 1 CSS px = 1/96 in = 0.75 pt
+FIXED_EPOCH = "946684800"  # 2000-01-01T00:00:00Z, the memo's fixed PDF date
+CSS_PX_IN_PT = 0.75  # 1 CSS px = 1/96 in = 0.75 pt
 _REFERENCE = re.compile(r'\b(?:xlink:)?href\s*=\s*"([^"]*)"')
 
 
@@ -47,8 +49,10 @@ def find_converter() -> str | None:
     if chosen:
         if os.path.isfile(chosen) and os.access(chosen, os.X_OK):
             return chosen
-        raise ChartPagesError(f"{CONVERTER_VARIABLE}: got {chosen!r}, which is not an executable file; "
-                              "allowed: the path of rsvg-convert, or 'none' to draw charts with WeasyPrint.")
+        raise ChartPagesError(
+            f"{CONVERTER_VARIABLE}: got {chosen!r}, which is not an executable file; "
+            "allowed: the path of rsvg-convert, or 'none' to draw charts with WeasyPrint."
+        )
     return shutil.which(CONVERTER_NAME)
 
 
@@ -96,15 +100,23 @@ def _with_converter(converter: str, svgs: Sequence[str], timeout: float) -> byte
         out = os.path.join(folder, "charts.pdf")
         env = {**os.environ, "SOURCE_DATE_EPOCH": FIXED_EPOCH}
         try:
-            run = subprocess.run([converter, "--format=pdf", f"--output={out}", *names], env=env,
-                                 capture_output=True, timeout=timeout, check=False)
+            run = subprocess.run(
+                [converter, "--format=pdf", f"--output={out}", *names],
+                env=env,
+                capture_output=True,
+                timeout=timeout,
+                check=False,
+            )
         except (OSError, subprocess.TimeoutExpired) as exc:
-            raise ChartPagesError(f"{converter} could not turn the charts into PDF pages "
-                                  f"({type(exc).__name__}: {exc})") from None
+            raise ChartPagesError(
+                f"{converter} could not turn the charts into PDF pages ({type(exc).__name__}: {exc})"
+            ) from None
         if run.returncode != 0 or not os.path.isfile(out):
             message = " ".join(run.stderr.decode("utf-8", "replace").split())[:300]
-            raise ChartPagesError(f"{converter} could not turn the charts into PDF pages "
-                                  f"(exit code {run.returncode}: {message or 'no message'})")
+            raise ChartPagesError(
+                f"{converter} could not turn the charts into PDF pages "
+                f"(exit code {run.returncode}: {message or 'no message'})"
+            )
         with open(out, "rb") as f:
             return f.read()
 
@@ -113,26 +125,26 @@ def _with_weasyprint(svgs: Sequence[str]) -> bytes:
     """The same pages drawn by WeasyPrint: each SVG on a page of exactly its size."""
     from xml.etree import ElementTree
 
+    from obligor_memo.app.memo.fetch import memo_fetcher
     from weasyprint import HTML
     from weasyprint.urls import URLFetcher, URLFetcherResponse
-
-    from obligor_memo.app.memo.fetch import memo_fetcher
 
     body = []
     for i, svg in enumerate(svgs):
         root = ElementTree.fromstring(svg.encode("utf-8"))
         width, height = float(root.get("width", "0")), float(root.get("height", "0"))
-        body.append(f'<div style="page: c{i}"><img src="chart:{i}" style="display: block; '
-                    f'width: {width}px; height: {height}px"></div>'
-                    f'<style>@page c{i} {{ size: {width}px {height}px; margin: 0 }}</style>')
+        body.append(
+            f'<div style="page: c{i}"><img src="chart:{i}" style="display: block; '
+            f'width: {width}px; height: {height}px"></div>'
+            f"<style>@page c{i} {{ size: {width}px {height}px; margin: 0 }}</style>"
+        )
     # The memo's own fetcher serves the bitmaps inline in the charts and refuses anything else.
     inline = memo_fetcher({url for svg in svgs for url in _REFERENCE.findall(svg) if url.startswith("data:")})
 
     class Fetcher(URLFetcher):
         def fetch(self, url: str, headers: Any = None) -> URLFetcherResponse:
             if url.startswith("chart:"):
-                return URLFetcherResponse(url, svgs[int(url[6:])].encode("utf-8"),
-                                          {"Content-Type": "image/svg+xml"})
+                return URLFetcherResponse(url, svgs[int(url[6:])].encode("utf-8"), {"Content-Type": "image/svg+xml"})
             return inline.fetch(url, headers)
 
     html = "<html><body style='margin: 0'>" + "".join(body) + "</body></html>"
@@ -162,8 +174,10 @@ def chart_placements(document: Any, anchors: Sequence[str]) -> list[Placement]:
         for name, corners in page.anchors.items():
             if name in wanted and name not in found:
                 if len(corners) != 4:
-                    raise ChartPagesError("this WeasyPrint version does not report box sizes "
-                                          "(Page.anchors); obligor-memo needs WeasyPrint 70 or later")
+                    raise ChartPagesError(
+                        "this WeasyPrint version does not report box sizes "
+                        "(Page.anchors); obligor-memo needs WeasyPrint 70 or later"
+                    )
                 left, top, right, bottom = (float(c) for c in corners)
                 found[name] = Placement(number, (left, top, right, bottom), wanted[name])
     return list(found.values())
@@ -174,8 +188,7 @@ def as_form(pdf: Any, source_page: Any) -> Any:
     return pdf.copy_foreign(source_page.as_form_xobject())
 
 
-def form_operators(pdf: Any, page: Any, form: Any, box: tuple[float, float, float, float] | None,
-                   name: Any) -> bytes:
+def form_operators(pdf: Any, page: Any, form: Any, box: tuple[float, float, float, float] | None, name: Any) -> bytes:
     """Register ``form`` (see :func:`as_form`) as the resource ``name`` of ``page`` and return
     the operators that draw it into ``box`` (CSS px from the page's top left), or over the
     whole page when ``box`` is None. Fixed names keep the bytes the same from run to run."""
@@ -196,5 +209,5 @@ def form_operators(pdf: Any, page: Any, form: Any, box: tuple[float, float, floa
 
 def append_drawing(page: Any, operators: Sequence[bytes]) -> None:
     """Draw after the page's own content, from a clean graphics state."""
-    page.contents_add(b"q\n", prepend=True)      # the page's own state ends before ours
+    page.contents_add(b"q\n", prepend=True)  # the page's own state ends before ours
     page.contents_add(b"Q\n" + b"".join(operators))

@@ -10,7 +10,7 @@ from typing import Any
 from obligor_memo.app.memo.templates import ASSETS_DIR
 
 CHART_SCHEME = "memo-chart:"
-CHART_ANCHOR = "memo-chart-{}"       # the id of chart N's box in the HTML
+CHART_ANCHOR = "memo-chart-{}"  # the id of chart N's box in the HTML
 
 
 def memo_fetcher(allowed_data_uris: set[str], chart_sizes: list[tuple[int, int]] | None = None) -> Any:
@@ -25,18 +25,18 @@ def memo_fetcher(allowed_data_uris: set[str], chart_sizes: list[tuple[int, int]]
     class MemoFetcher(URLFetcher):
         def fetch(self, url: str, headers: Any = None) -> URLFetcherResponse:
             if url.startswith(CHART_SCHEME):
-                index = url[len(CHART_SCHEME):]
+                index = url[len(CHART_SCHEME) :]
                 if index.isdigit() and int(index) < len(sizes):
                     svg = stand_in(*sizes[int(index)])
                     return URLFetcherResponse(url, svg.encode("utf-8"), {"Content-Type": "image/svg+xml"})
             if url in allowed:
                 head, _, payload = url.partition(",")
-                mime = head[len("data:"):].split(";")[0]
+                mime = head[len("data:") :].split(";")[0]
                 return URLFetcherResponse(url, base64.b64decode(payload), {"Content-Type": mime})
             if url.startswith("file:"):
                 from urllib.request import url2pathname
 
-                path = Path(url2pathname(url[len("file:"):].split("?")[0])).resolve()
+                path = Path(url2pathname(url[len("file:") :].split("?")[0])).resolve()
                 if path.is_relative_to(ASSETS_DIR.resolve()) and path.is_file():
                     return URLFetcherResponse(url, path.read_bytes())
             raise ValueError(f"refused to fetch {url[:80]!r}: the memo loads only its own assets")
@@ -45,7 +45,4 @@ def memo_fetcher(allowed_data_uris: set[str], chart_sizes: list[tuple[int, int]]
 
 
 def stand_in(width: int, height: int) -> str:
-    return (f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
-            f'viewBox="0 0 {width} {height}"/>')
-
-
+    return f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" viewBox="0 0 {width} {height}"/>'

@@ -11,11 +11,17 @@ from __future__ import annotations
 import base64
 import hashlib
 import threading
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any
 
-from obligor_memo.app.memo.chart_browser import (ChartExporter, ChartsUnavailable, chart_timeout, is_timeout,
-                                                 running_exporter)
+from obligor_memo.app.memo.chart_browser import (
+    ChartExporter,
+    ChartsUnavailable,
+    chart_timeout,
+    is_timeout,
+    running_exporter,
+)
 from obligor_memo.app.memo.svg_slim import slim_svg
 
 PRINT_FONT = "DejaVu Sans"
@@ -27,21 +33,30 @@ PRINT_FONT = "DejaVu Sans"
 @dataclass(frozen=True)
 class ChartSpec:
     key: str
-    builder: str                 # function name in app.charts
+    builder: str  # function name in app.charts
     args: tuple[Any, ...] = ()
-    width: int = 760             # export width [px]; the page scales it to the column
+    width: int = 760  # export width [px]; the page scales it to the column
 
 
 def chart_specs(results: Any) -> list[ChartSpec]:
     """The memo's charts in the order the memo prints them (the first are drawn first)."""
-    specs = [ChartSpec("asset_trend", "asset_trend_figure"), ChartSpec("liabilities", "liabilities_figure"),
-             ChartSpec("term_structure", "term_structure_figure"), ChartSpec("exposure", "exposure_figure")]
+    specs = [
+        ChartSpec("asset_trend", "asset_trend_figure"),
+        ChartSpec("liabilities", "liabilities_figure"),
+        ChartSpec("term_structure", "term_structure_figure"),
+        ChartSpec("exposure", "exposure_figure"),
+    ]
     specs += [ChartSpec(f"recovery:{f.id}", "recovery_figure", (f.id,), width=520) for f in results.facilities]
-    specs += [ChartSpec("loss_distribution", "loss_distribution_figure"),
-              ChartSpec("sensitivity", "sensitivity_figure"), ChartSpec("pd_grid", "pd_grid_figure")]
+    specs += [
+        ChartSpec("loss_distribution", "loss_distribution_figure"),
+        ChartSpec("sensitivity", "sensitivity_figure"),
+        ChartSpec("pd_grid", "pd_grid_figure"),
+    ]
     if getattr(getattr(results.case, "review", None), "previous", None) is not None:
-        specs += [ChartSpec("review:expected_loss", "review_waterfall_figure", ("expected_loss",)),
-                  ChartSpec("review:pd", "review_waterfall_figure", ("pd",))]
+        specs += [
+            ChartSpec("review:expected_loss", "review_waterfall_figure", ("expected_loss",)),
+            ChartSpec("review:pd", "review_waterfall_figure", ("pd",)),
+        ]
     return specs
 
 
@@ -173,8 +188,7 @@ class ChartJob:
         exporter = own or running_exporter()
         self._timeout = exporter.timeout if exporter is not None else chart_timeout()
         self._future: concurrent.futures.Future[tuple[dict[str, str], bytes]] = concurrent.futures.Future()
-        self._thread = threading.Thread(target=self._draw, args=(own,), name="memo-chart-job",
-                                        daemon=True)
+        self._thread = threading.Thread(target=self._draw, args=(own,), name="memo-chart-job", daemon=True)
         self._thread.start()
 
     def _draw(self, own: ChartExporter | None) -> None:
@@ -183,14 +197,16 @@ class ChartJob:
         try:
             svgs = export_figures(self.figures, exporter=own)
             if own is not None:
-                own.close()       # the browser is not needed for the PDF pages
+                own.close()  # the browser is not needed for the PDF pages
                 own = None
             try:
                 pages = charts_pdf([svgs[key] for key in self.figures], timeout=self._timeout)
             except ChartPagesError as exc:
-                raise ChartsUnavailable(f"The charts were drawn but could not be made into PDF pages "
-                                        f"({exc}). Fix: install librsvg2-bin (rsvg-convert), or set "
-                                        f"OBLIGOR_MEMO_SVG_CONVERTER=none, or print with --no-charts.") from None
+                raise ChartsUnavailable(
+                    f"The charts were drawn but could not be made into PDF pages "
+                    f"({exc}). Fix: install librsvg2-bin (rsvg-convert), or set "
+                    f"OBLIGOR_MEMO_SVG_CONVERTER=none, or print with --no-charts."
+                ) from None
             self._future.set_result((svgs, pages))
         except BaseException as exc:
             self._future.set_exception(exc)
@@ -218,8 +234,10 @@ class ChartJob:
             raise
         except BaseException as exc:
             if is_timeout(exc):
-                raise ChartsUnavailable(f"Chart export did not finish within {3 * self._timeout + 30:g} s. "
-                                        f"Try again, or print with --no-charts.") from None
+                raise ChartsUnavailable(
+                    f"Chart export did not finish within {3 * self._timeout + 30:g} s. "
+                    f"Try again, or print with --no-charts."
+                ) from None
             raise
 
     def finish(self) -> None:

@@ -5,9 +5,10 @@ from __future__ import annotations
 
 import gc
 import io
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
-from typing import Any, Iterator, Sequence
+from typing import Any
 
 from obligor_memo.app.memo import chart_pages
 from obligor_memo.app.memo.chart_pages import Placement
@@ -45,13 +46,20 @@ def objects_set_aside() -> Iterator[None]:
 def _sheets(page_size: str, fetcher: Any) -> list[Any]:
     from weasyprint import CSS
 
-    sheets = [CSS(string=(TEMPLATES_DIR / name).read_text(encoding="utf-8"), url_fetcher=fetcher)
-              for name in STYLESHEETS]
+    sheets = [
+        CSS(string=(TEMPLATES_DIR / name).read_text(encoding="utf-8"), url_fetcher=fetcher) for name in STYLESHEETS
+    ]
     return sheets + [CSS(string=f"@page {{ size: {PAGE_SIZES[page_size]}; }}", url_fetcher=fetcher)]
 
 
-def lay_out(html: str, *, chart_sizes: Sequence[tuple[int, int]], page_size: str,
-            fetcher: Any = None, write_options: dict[str, Any] | None = None) -> LaidOut:
+def lay_out(
+    html: str,
+    *,
+    chart_sizes: Sequence[tuple[int, int]],
+    page_size: str,
+    fetcher: Any = None,
+    write_options: dict[str, Any] | None = None,
+) -> LaidOut:
     """Lay out and write the memo; chart N's box is the element with id memo-chart-N."""
     from weasyprint import HTML
 
@@ -76,13 +84,25 @@ def place_charts(memo: LaidOut, charts: bytes) -> bytes:
             chart, number = placement.chart_page, placement.page
             if chart >= len(source.pages):
                 raise chart_pages.ChartPagesError(
-                    f"the charts PDF has {len(source.pages)} pages, fewer than the charts to place")
-            operators.setdefault(number, []).append(chart_pages.form_operators(
-                pdf, pdf.pages[number], chart_pages.as_form(pdf, source.pages[chart]), placement.box,
-                pikepdf.Name(f"/MemoChart{chart}")))
+                    f"the charts PDF has {len(source.pages)} pages, fewer than the charts to place"
+                )
+            operators.setdefault(number, []).append(
+                chart_pages.form_operators(
+                    pdf,
+                    pdf.pages[number],
+                    chart_pages.as_form(pdf, source.pages[chart]),
+                    placement.box,
+                    pikepdf.Name(f"/MemoChart{chart}"),
+                )
+            )
         for number, ops in operators.items():
             chart_pages.append_drawing(pdf.pages[number], ops)
         out = io.BytesIO()
-        pdf.save(out, deterministic_id=True, fix_metadata_version=False, compress_streams=True,
-                 object_stream_mode=pikepdf.ObjectStreamMode.generate)
+        pdf.save(
+            out,
+            deterministic_id=True,
+            fix_metadata_version=False,
+            compress_streams=True,
+            object_stream_mode=pikepdf.ObjectStreamMode.generate,
+        )
         return out.getvalue()

@@ -10,18 +10,27 @@ from typing import Any
 from obligor_memo.app.memo.record import CASE_FILE, FIGURES_FILE, MemoRecordError, read_attachments
 
 # printed label -> compared figure name (engine.compare.FIGURES)
-PRINTED_LABELS = {"PD in force": "pd", "Grade": "grade", "Total EAD": "ead", "Total EL": "expected_loss",
-                  "Total UL": "unexpected_loss", "Total RWA": "rwa", "Regulatory capital": "regulatory_capital",
-                  "Economic capital": "economic_capital", "RAROC": "raroc", "Minimum spread": "minimum_spread"}
+PRINTED_LABELS = {
+    "PD in force": "pd",
+    "Grade": "grade",
+    "Total EAD": "ead",
+    "Total EL": "expected_loss",
+    "Total UL": "unexpected_loss",
+    "Total RWA": "rwa",
+    "Regulatory capital": "regulatory_capital",
+    "Economic capital": "economic_capital",
+    "RAROC": "raroc",
+    "Minimum spread": "minimum_spread",
+}
 
 
 @dataclass(frozen=True)
 class LastReview:
-    case: Any                          # engine.case.Case
-    source: str                        # file name
-    recorded: Any | None               # engine.compare.RecordedFigures (memo PDFs only)
-    fingerprint: str | None            # as recorded in the memo
-    printed_on: str | None             # the memo's print date, YYYY-MM-DD
+    case: Any  # engine.case.Case
+    source: str  # file name
+    recorded: Any | None  # engine.compare.RecordedFigures (memo PDFs only)
+    fingerprint: str | None  # as recorded in the memo
+    printed_on: str | None  # the memo's print date, YYYY-MM-DD
 
 
 def printed_number(text: str) -> float | str | None:
@@ -52,8 +61,10 @@ def read_last_review(data: bytes, name: str) -> LastReview:
     if data.startswith(b"%PDF-"):
         files = read_attachments(data)
         if CASE_FILE not in files:
-            raise MemoRecordError(f"{name} does not carry case.json; only memos written by "
-                                  "'obligor-memo memo' can be read as a last review.")
+            raise MemoRecordError(
+                f"{name} does not carry case.json; only memos written by "
+                "'obligor-memo memo' can be read as a last review."
+            )
         try:
             case_data = json.loads(files[CASE_FILE])
             record = json.loads(files[FIGURES_FILE]) if FIGURES_FILE in files else None
@@ -63,8 +74,9 @@ def read_last_review(data: bytes, name: str) -> LastReview:
         recorded = None
         fingerprint = printed_on = None
         if isinstance(record, dict) and isinstance(record.get("figures"), dict):
-            figures = {PRINTED_LABELS[k]: printed_number(str(v)) for k, v in record["figures"].items()
-                       if k in PRINTED_LABELS}
+            figures = {
+                PRINTED_LABELS[k]: printed_number(str(v)) for k, v in record["figures"].items() if k in PRINTED_LABELS
+            }
             if "grade" in figures and figures["grade"] is not None:
                 figures["grade"] = record["figures"]["Grade"]
             recorded = RecordedFigures(str(record.get("engine_version", "")), figures)
@@ -81,7 +93,7 @@ def read_last_review_path(path: Path) -> LastReview:
     data = path.read_bytes()
     if data.startswith(b"%PDF-"):
         return read_last_review(data, path.name)
-    return LastReview(load_case(path), path.name, None, None, None)   # statements files resolve
+    return LastReview(load_case(path), path.name, None, None, None)  # statements files resolve
 
 
 def roll_forward_review(last: LastReview, *, approved_on: str | None = None) -> dict[str, Any]:
@@ -89,7 +101,11 @@ def roll_forward_review(last: LastReview, *, approved_on: str | None = None) -> 
     from obligor_memo.engine.review import roll_forward
 
     if last.recorded is not None:
-        return roll_forward(last.case, approved_on=approved_on or last.printed_on,
-                            fingerprint=last.fingerprint, engine_version=last.recorded.engine_version,
-                            figures=dict(last.recorded.figures))
+        return roll_forward(
+            last.case,
+            approved_on=approved_on or last.printed_on,
+            fingerprint=last.fingerprint,
+            engine_version=last.recorded.engine_version,
+            figures=dict(last.recorded.figures),
+        )
     return roll_forward(last.case, approved_on=approved_on)

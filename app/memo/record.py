@@ -67,7 +67,7 @@ def printed_figures(results: Any) -> dict[str, str]:
         "Economic capital (standalone)": fmt.money(t.economic_capital_standalone, cur),
         "One-year PD": fmt.pd_pct(pd.pd_one_year),
         "IRB EL": fmt.money(t.regulatory_expected_loss, cur),
-        "Lifetime EL": fmt.money(t.lifetime_expected_loss),           # table headed [currency]
+        "Lifetime EL": fmt.money(t.lifetime_expected_loss),  # table headed [currency]
     }
     if pd.asset_growth is not None:
         out["Asset growth"] = fmt.pct(pd.asset_growth)
@@ -81,8 +81,9 @@ def printed_figures(results: Any) -> dict[str, str]:
         out[f"{f.id}: RWA"] = fmt.money(f.rwa)
     p = results.pricing
     if p is not None:
-        out["Minimum spread"] = (fmt.pct(p.minimum_spread) if p.minimum_spread is not None
-                                 else "not defined (nothing drawn)")
+        out["Minimum spread"] = (
+            fmt.pct(p.minimum_spread) if p.minimum_spread is not None else "not defined (nothing drawn)"
+        )
         out["Proposed spread"] = fmt.pct(p.proposed_spread)
         out["RAROC"] = fmt.pct(p.raroc, 1) if p.raroc is not None else "undefined (capital 0)"
         out["RAROC (regulatory capital)"] = fmt.pct(p.raroc_regulatory, 1)
@@ -109,9 +110,13 @@ def printed_figures(results: Any) -> dict[str, str]:
 
 def figures_record(results: Any, *, generated_at: str) -> bytes:
     """The ``printed-figures.json`` attachment (canonical JSON, so identical inputs match)."""
-    record = {"format": RECORD_FORMAT, "engine_version": results.engine_version,
-              "fingerprint": results.fingerprint, "generated_at": generated_at,
-              "figures": printed_figures(results)}
+    record = {
+        "format": RECORD_FORMAT,
+        "engine_version": results.engine_version,
+        "fingerprint": results.fingerprint,
+        "generated_at": generated_at,
+        "figures": printed_figures(results),
+    }
     # Insertion order is deterministic and follows the memo, which a reader of the file expects.
     return json.dumps(record, indent=1, ensure_ascii=True).encode("ascii")
 
@@ -134,8 +139,8 @@ def read_attachments(pdf: bytes) -> dict[str, bytes]:
 @dataclass(frozen=True)
 class FigureCheck:
     label: str
-    printed: str | None         # None: the figure is new (the memo did not print it)
-    now: str | None             # None: the engine no longer produces it
+    printed: str | None  # None: the figure is new (the memo did not print it)
+    now: str | None  # None: the engine no longer produces it
 
     @property
     def holds(self) -> bool:
@@ -166,16 +171,21 @@ class VerifyReport:
 
     def text(self) -> str:
         """A plain report, one line per figure, that a committee secretary can file."""
-        lines = [f"Memo generated {self.generated_at} by engine {self.printed_engine_version}; "
-                 f"re-computed now with engine {self.current_engine_version}."]
+        lines = [
+            f"Memo generated {self.generated_at} by engine {self.printed_engine_version}; "
+            f"re-computed now with engine {self.current_engine_version}."
+        ]
         if self.printed_engine_version != self.current_engine_version:
             lines.append("NOTE: the engine version has changed since the memo was printed.")
         if self.fingerprint_holds:
-            lines.append(f"Inputs: the embedded case matches the recorded fingerprint "
-                         f"{self.recorded_fingerprint[:16]}...")
+            lines.append(
+                f"Inputs: the embedded case matches the recorded fingerprint {self.recorded_fingerprint[:16]}..."
+            )
         else:
-            lines.append(f"INPUTS ALTERED: the embedded case hashes to {self.case_fingerprint[:16]}... "
-                         f"but the memo recorded {self.recorded_fingerprint[:16]}...")
+            lines.append(
+                f"INPUTS ALTERED: the embedded case hashes to {self.case_fingerprint[:16]}... "
+                f"but the memo recorded {self.recorded_fingerprint[:16]}..."
+            )
         width = max((len(c.label) for c in self.checks), default=10)
         for c in self.checks:
             if c.printed is None:
@@ -188,9 +198,15 @@ class VerifyReport:
                 lines.append(f"  CHANGED  {c.label.ljust(width)}  printed {c.printed}, now {c.now}")
         held = sum(c.holds and c.printed is not None for c in self.checks)
         printed = sum(c.printed is not None for c in self.checks)
-        verdict = "all printed figures hold" if self.ok else (
-            f"{len(self.changed)} figure(s) differ: " + ", ".join(c.label for c in self.changed)
-            if self.changed else "the figures hold but the inputs do not match the fingerprint")
+        verdict = (
+            "all printed figures hold"
+            if self.ok
+            else (
+                f"{len(self.changed)} figure(s) differ: " + ", ".join(c.label for c in self.changed)
+                if self.changed
+                else "the figures hold but the inputs do not match the fingerprint"
+            )
+        )
         lines.append(f"{held} of {printed} printed figures hold; {verdict}.")
         return "\n".join(lines)
 
@@ -202,22 +218,23 @@ def verify_memo(pdf: bytes) -> VerifyReport:
     :class:`engine.errors.CaseError` when the embedded case no longer validates.
     """
     from obligor_memo.engine import ENGINE_VERSION
-    from obligor_memo.engine.case import parse_case
     from obligor_memo.engine.analysis import analyse
+    from obligor_memo.engine.case import parse_case
 
     files = read_attachments(pdf)
     missing = [name for name in (CASE_FILE, FIGURES_FILE) if name not in files]
     if missing:
-        raise MemoRecordError(f"The PDF does not carry {' and '.join(missing)}; only memos written "
-                              "by 'obligor-memo memo' can be verified.")
+        raise MemoRecordError(
+            f"The PDF does not carry {' and '.join(missing)}; only memos written "
+            "by 'obligor-memo memo' can be verified."
+        )
     try:
         case_data = json.loads(files[CASE_FILE])
         record = json.loads(files[FIGURES_FILE])
         recorded = dict(record["figures"])
         meta = (str(record["engine_version"]), str(record["fingerprint"]), str(record["generated_at"]))
     except (ValueError, KeyError, TypeError) as exc:
-        raise MemoRecordError(f"The memo's embedded record cannot be read ({type(exc).__name__}: "
-                              f"{exc}).") from None
+        raise MemoRecordError(f"The memo's embedded record cannot be read ({type(exc).__name__}: {exc}).") from None
     case = parse_case(case_data, source="embedded case")
     # Hash the bytes as embedded: re-serialising would hide edits to the stored text.
     embedded_hash = hashlib.sha256(files[CASE_FILE]).hexdigest()
@@ -226,6 +243,11 @@ def verify_memo(pdf: bytes) -> VerifyReport:
     now = printed_figures(results)
     labels = list(recorded) + [label for label in now if label not in recorded]
     checks = tuple(FigureCheck(label, recorded.get(label), now.get(label)) for label in labels)
-    return VerifyReport(printed_engine_version=meta[0], current_engine_version=ENGINE_VERSION,
-                        recorded_fingerprint=meta[1], case_fingerprint=embedded_hash,
-                        generated_at=meta[2], checks=checks)
+    return VerifyReport(
+        printed_engine_version=meta[0],
+        current_engine_version=ENGINE_VERSION,
+        recorded_fingerprint=meta[1],
+        case_fingerprint=embedded_hash,
+        generated_at=meta[2],
+        checks=checks,
+    )

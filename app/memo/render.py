@@ -14,7 +14,7 @@ generation time (and the record that repeats it) differs between two runs on the
 from __future__ import annotations
 
 import hashlib
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from typing import Any
 
 from obligor_memo.app.memo import layout
@@ -27,20 +27,27 @@ from obligor_memo.app.memo.templates import PAGE_SIZES
 from obligor_memo.app.memo.view import memo_html
 
 # Any fixed instant works; a PDF reader shows it as the document date, so it is stated plainly.
-FIXED_PDF_DATE = datetime(2000, 1, 1, tzinfo=timezone.utc)
+FIXED_PDF_DATE = datetime(2000, 1, 1, tzinfo=UTC)
 
 
-def render_memo_html(results: Any, *, charts: bool = True, page_size: str | None = None,
-                     generated_at: datetime | None = None) -> str:
+def render_memo_html(
+    results: Any, *, charts: bool = True, page_size: str | None = None, generated_at: datetime | None = None
+) -> str:
     """The memo's HTML with the charts inline as SVG data URIs (for reading or another renderer;
     :func:`render_memo_pdf` references the charts instead and draws them while laying out)."""
     svgs, notes = export_charts(results) if charts else ({}, {})
-    return memo_html(results, charts=svgs, notes=notes, charts_requested=charts,
-                 page_size=_page_size(results, page_size), stamp=_stamp(generated_at))
+    return memo_html(
+        results,
+        charts=svgs,
+        notes=notes,
+        charts_requested=charts,
+        page_size=_page_size(results, page_size),
+        stamp=_stamp(generated_at),
+    )
 
 
 def _stamp(generated_at: datetime | None) -> str:
-    stamp = (generated_at or datetime.now(timezone.utc)).astimezone(timezone.utc)
+    stamp = (generated_at or datetime.now(UTC)).astimezone(UTC)
     return stamp.strftime("%Y-%m-%d %H:%M:%S UTC")
 
 
@@ -51,10 +58,16 @@ def _page_size(results: Any, page_size: str | None) -> str:
     return size
 
 
-
-def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
-                allowed_data_uris: set[str], url_fetcher: Any = None,
-                charts: ChartJob | None = None) -> bytes:
+def html_to_pdf(
+    html: str,
+    *,
+    results: Any,
+    page_size: str,
+    generated_at: str,
+    allowed_data_uris: set[str],
+    url_fetcher: Any = None,
+    charts: ChartJob | None = None,
+) -> bytes:
     """Lay out and write the PDF, then put each chart in its place; a failed chart drawing
     raises :class:`ChartsUnavailable`.
 
@@ -68,27 +81,50 @@ def html_to_pdf(html: str, *, results: Any, page_size: str, generated_at: str,
     sizes = [figure_size(fig) for fig in charts.figures.values()] if charts is not None else []
     fetcher = url_fetcher or memo_fetcher(allowed_data_uris, sizes)
     attachments = [
-        Attachment(string=pdfcase.canonical_case_json(results).decode("ascii"), name=pdfcase.CASE_FILE,
-                   description="The case this memo was computed from (canonical JSON)",
-                   created=FIXED_PDF_DATE, modified=FIXED_PDF_DATE, url_fetcher=fetcher),
-        Attachment(string=pdfcase.figures_record(results, generated_at=generated_at).decode("ascii"),
-                   name=pdfcase.FIGURES_FILE, description="Figures as printed, for obligor-memo verify",
-                   created=FIXED_PDF_DATE, modified=FIXED_PDF_DATE, url_fetcher=fetcher),
+        Attachment(
+            string=pdfcase.canonical_case_json(results).decode("ascii"),
+            name=pdfcase.CASE_FILE,
+            description="The case this memo was computed from (canonical JSON)",
+            created=FIXED_PDF_DATE,
+            modified=FIXED_PDF_DATE,
+            url_fetcher=fetcher,
+        ),
+        Attachment(
+            string=pdfcase.figures_record(results, generated_at=generated_at).decode("ascii"),
+            name=pdfcase.FIGURES_FILE,
+            description="Figures as printed, for obligor-memo verify",
+            created=FIXED_PDF_DATE,
+            modified=FIXED_PDF_DATE,
+            url_fetcher=fetcher,
+        ),
     ]
     identifier = hashlib.sha256(results.fingerprint.encode("ascii")).hexdigest()[:32].encode("ascii")
-    laid_out = layout.lay_out(html, chart_sizes=sizes, page_size=page_size, fetcher=fetcher,
-                              write_options={"attachments": attachments, "pdf_identifier": identifier})
+    laid_out = layout.lay_out(
+        html,
+        chart_sizes=sizes,
+        page_size=page_size,
+        fetcher=fetcher,
+        write_options={"attachments": attachments, "pdf_identifier": identifier},
+    )
     if charts is None or not laid_out.placements:
         return laid_out.pdf
-    pages = charts.pages()          # waits for the drawings; raises why not
+    pages = charts.pages()  # waits for the drawings; raises why not
     try:
         return layout.place_charts(laid_out, pages)
     except ChartPagesError as exc:
-        raise ChartsUnavailable(f"The charts could not be placed in the memo ({exc}). "
-                                "Try again, or print with --no-charts.") from None
+        raise ChartsUnavailable(
+            f"The charts could not be placed in the memo ({exc}). Try again, or print with --no-charts."
+        ) from None
 
-def render_memo_pdf(results: Any, *, charts: bool = True, page_size: str | None = None,
-                    generated_at: datetime | None = None, exporter: ChartExporter | None = None) -> bytes:
+
+def render_memo_pdf(
+    results: Any,
+    *,
+    charts: bool = True,
+    page_size: str | None = None,
+    generated_at: datetime | None = None,
+    exporter: ChartExporter | None = None,
+) -> bytes:
     """The memo as PDF bytes. Raises :class:`ChartsUnavailable` (naming the fix) when charts are
     asked for and no browser can draw them; ``charts=False`` prints a note in each chart's place.
     ``exporter``: a browser started for this memo alone, closed once its charts are drawn.
@@ -98,16 +134,23 @@ def render_memo_pdf(results: Any, *, charts: bool = True, page_size: str | None 
     """
     size = _page_size(results, page_size)
     stamp = _stamp(generated_at)
-    with layout.objects_set_aside():       # plotly's figure building makes many objects too
+    with layout.objects_set_aside():  # plotly's figure building makes many objects too
         job = ChartJob(results, exporter=exporter) if charts else None
     try:
         placeholders = {key: f"{CHART_SCHEME}{i}" for i, key in enumerate(job.figures)} if job else {}
-        html = memo_html(results, charts=placeholders, notes=job.notes if job else {},
-                     charts_requested=charts, page_size=size, stamp=stamp)
-        return html_to_pdf(html, results=results, page_size=size, generated_at=stamp,
-                           allowed_data_uris=set(), charts=job)
+        html = memo_html(
+            results,
+            charts=placeholders,
+            notes=job.notes if job else {},
+            charts_requested=charts,
+            page_size=size,
+            stamp=stamp,
+        )
+        return html_to_pdf(
+            html, results=results, page_size=size, generated_at=stamp, allowed_data_uris=set(), charts=job
+        )
     finally:
         if job is not None:
-            job.finish()     # the browser this memo started is closed before returning
+            job.finish()  # the browser this memo started is closed before returning
         elif exporter is not None:
             exporter.close()

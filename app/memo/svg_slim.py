@@ -13,12 +13,34 @@ from typing import Any
 
 # Style properties that SVG also accepts as presentation attributes: moved out of ``style`` so
 # the PDF renderer reads a plain attribute instead of parsing a CSS declaration list per element.
-_PRESENTATION = frozenset((
-    "fill", "fill-opacity", "fill-rule", "stroke", "stroke-width", "stroke-opacity",
-    "stroke-dasharray", "stroke-dashoffset", "stroke-linecap", "stroke-linejoin",
-    "stroke-miterlimit", "opacity", "font-family", "font-size", "font-weight", "font-style",
-    "text-anchor", "dominant-baseline", "visibility", "display", "vector-effect", "clip-path",
-    "shape-rendering", "color"))
+_PRESENTATION = frozenset(
+    (
+        "fill",
+        "fill-opacity",
+        "fill-rule",
+        "stroke",
+        "stroke-width",
+        "stroke-opacity",
+        "stroke-dasharray",
+        "stroke-dashoffset",
+        "stroke-linecap",
+        "stroke-linejoin",
+        "stroke-miterlimit",
+        "opacity",
+        "font-family",
+        "font-size",
+        "font-weight",
+        "font-style",
+        "text-anchor",
+        "dominant-baseline",
+        "visibility",
+        "display",
+        "vector-effect",
+        "clip-path",
+        "shape-rendering",
+        "color",
+    )
+)
 # Properties that only matter to an interactive page (pointer, selection): dropped on paper.
 _SCREEN_ONLY = frozenset(("pointer-events", "cursor", "user-select", "-webkit-user-select"))
 _SVG_NS = "http://www.w3.org/2000/svg"
@@ -48,7 +70,7 @@ def _draws_nothing(element: Any, paint: dict[str, str]) -> bool:
     """A shape that leaves no mark: no geometry, zero size, or neither fill nor stroke shows.
     ``paint`` holds the fill and stroke settings the element has after inheritance."""
     tag = element.tag.rpartition("}")[2]
-    if tag not in _DRAWN_SHAPES or "id" in element.attrib:   # an id may be drawn by <use>
+    if tag not in _DRAWN_SHAPES or "id" in element.attrib:  # an id may be drawn by <use>
         return False
     get = element.attrib.get
     if tag == "path" and not get("d", "").strip():
@@ -59,8 +81,11 @@ def _draws_nothing(element: Any, paint: dict[str, str]) -> bool:
         return False
     # SVG's defaults: fill black, no stroke.
     no_fill = paint.get("fill", "black") in ("none", "transparent") or paint.get("fill-opacity") in _ZEROS
-    no_stroke = paint.get("stroke", "none") in ("none", "transparent") or \
-        paint.get("stroke-width") in _ZEROS or paint.get("stroke-opacity") in _ZEROS
+    no_stroke = (
+        paint.get("stroke", "none") in ("none", "transparent")
+        or paint.get("stroke-width") in _ZEROS
+        or paint.get("stroke-opacity") in _ZEROS
+    )
     return no_fill and no_stroke
 
 
@@ -92,7 +117,7 @@ def slim_svg(svg: str) -> str:
                 kept = []
                 for name, value in pairs:
                     if name in _PRESENTATION:
-                        attrib[name] = value       # style wins over an attribute, as in CSS
+                        attrib[name] = value  # style wins over an attribute, as in CSS
                     elif name not in _SCREEN_ONLY:
                         kept.append(f"{name}: {value}")
                 if kept:
@@ -101,16 +126,16 @@ def slim_svg(svg: str) -> str:
         for child in list(element):
             clean(child, paint)
             tag = child.tag.rpartition("}")[2]
-            empty_group = (tag in ("g", "defs") and len(child) == 0 and "id" not in child.attrib
-                           and not (child.text or "").strip())
+            empty_group = (
+                tag in ("g", "defs") and len(child) == 0 and "id" not in child.attrib and not (child.text or "").strip()
+            )
             own = {**paint, **{key: child.attrib[key] for key in _PAINT if key in child.attrib}}
             if (empty_group or _draws_nothing(child, own)) and not (child.tail or "").strip():
                 element.remove(child)
-            elif tag == "g" and not child.attrib and not (child.text or "").strip() \
-                    and not (child.tail or "").strip():
+            elif tag == "g" and not child.attrib and not (child.text or "").strip() and not (child.tail or "").strip():
                 # A group with no attributes changes nothing: its children take its place.
                 at = list(element).index(child)
-                element[at:at + 1] = list(child)
+                element[at : at + 1] = list(child)
 
     clean(root, {})
     ET.register_namespace("", _SVG_NS)

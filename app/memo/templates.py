@@ -19,8 +19,7 @@ def find_templates() -> Path:
     """The memo's templates folder (``templates/`` of the checkout, or the installed copy)."""
     folder = Path(str(resources.files("obligor_memo.templates")))
     if not (folder / "memo.html").is_file():
-        raise FileNotFoundError(f"The memo templates (memo.html) were not found in {folder}. "
-                                "Reinstall obligor-memo.")
+        raise FileNotFoundError(f"The memo templates (memo.html) were not found in {folder}. Reinstall obligor-memo.")
     return folder
 
 
@@ -35,14 +34,28 @@ def environment() -> Any:
     took about 0.15 s of every memo) and recompiles a template whose file has changed."""
     from jinja2 import Environment, FileSystemLoader, StrictUndefined
 
-    env = Environment(loader=FileSystemLoader(str(TEMPLATES_DIR)), autoescape=True,
-                      undefined=StrictUndefined, trim_blocks=True, lstrip_blocks=True)
-    env.filters.update({
-        "money": fmt.money, "pct": fmt.pct, "pd_pct": fmt.pd_pct, "num": fmt.num, "years": fmt.years,
-        "mn": in_millions, "label": label, "by_unit": by_unit, "yes_no": lambda v: "yes" if v else "no",
-        "or_dash": lambda v: "—" if v in (None, "") else v,
-        "times": lambda v: "n/a" if v is None else f"{fmt.num(v, 2)}x",
-    })
+    env = Environment(
+        loader=FileSystemLoader(str(TEMPLATES_DIR)),
+        autoescape=True,
+        undefined=StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+    env.filters.update(
+        {
+            "money": fmt.money,
+            "pct": fmt.pct,
+            "pd_pct": fmt.pd_pct,
+            "num": fmt.num,
+            "years": fmt.years,
+            "mn": in_millions,
+            "label": label,
+            "by_unit": by_unit,
+            "yes_no": lambda v: "yes" if v else "no",
+            "or_dash": lambda v: "—" if v in (None, "") else v,
+            "times": lambda v: "n/a" if v is None else f"{fmt.num(v, 2)}x",
+        }
+    )
     return env
 
 
@@ -67,5 +80,3 @@ def by_unit(value: float | None, unit: str) -> str:
 def label(code: str | None) -> str:
     """An enumeration value as words: 'senior_unsecured' -> 'senior unsecured'."""
     return "—" if code is None else str(code).replace("_", " ")
-
-

@@ -10,6 +10,7 @@ from obligor_memo.app.memo.templates import environment
 from obligor_memo.app.present import formatting as fmt
 from obligor_memo.app.present.compare_report import review_view
 
+
 def _grid_view(grid: Any, points: int = 7) -> dict[str, Any] | None:
     """A readable excerpt of the two-way PD grid: evenly spaced rows and columns, the case's own
     point always among them (the chart shows the whole grid)."""
@@ -25,9 +26,12 @@ def _grid_view(grid: Any, points: int = 7) -> dict[str, Any] | None:
     xs, ys = pick(grid.x_values, grid.base_x), pick(grid.y_values, grid.base_y)
     base_i = min(range(len(grid.x_values)), key=lambda i: abs(grid.x_values[i] - grid.base_x))
     base_j = min(range(len(grid.y_values)), key=lambda j: abs(grid.y_values[j] - grid.base_y))
-    return {"x": [(grid.x_values[i], i == base_i) for i in xs],
-            "rows": [(grid.y_values[j], j == base_j, [(grid.pd[j][i], i == base_i and j == base_j) for i in xs])
-                     for j in ys]}
+    return {
+        "x": [(grid.x_values[i], i == base_i) for i in xs],
+        "rows": [
+            (grid.y_values[j], j == base_j, [(grid.pd[j][i], i == base_i and j == base_j) for i in xs]) for j in ys
+        ],
+    }
 
 
 def inputs_yaml(case_data: dict[str, Any]) -> str:
@@ -40,8 +44,7 @@ def inputs_yaml(case_data: dict[str, Any]) -> str:
     import yaml
 
     rest = {key: value for key, value in case_data.items() if key != "statements"}
-    return yaml.safe_dump(rest, sort_keys=False, allow_unicode=True, default_flow_style=False,
-                          width=56, indent=2)
+    return yaml.safe_dump(rest, sort_keys=False, allow_unicode=True, default_flow_style=False, width=56, indent=2)
 
 
 _STATUS = {"new": "new", "renewal": "renewal", "increase": "increase", "unchanged": "unchanged", None: "not stated"}
@@ -49,7 +52,7 @@ _STATUS = {"new": "new", "renewal": "renewal", "increase": "increase", "unchange
 
 def scenario_sentence(line: Any, base_grade: str | None, hurdle: float | None) -> str:
     """One scenario said in a sentence: its PD and grade against the base, its RAROC against the hurdle."""
-    grade = (f"grade {line.grade} (base {base_grade})" if line.grade_changed else f"grade unchanged at {line.grade}")
+    grade = f"grade {line.grade} (base {base_grade})" if line.grade_changed else f"grade unchanged at {line.grade}"
     text = f"{line.name}: PD {fmt.pd_pct(line.pd)}, {grade}"
     if line.raroc is not None and hurdle is not None:
         verdict = "meets" if line.meets_hurdle else "falls below"
@@ -62,8 +65,15 @@ def short_fingerprint(results: Any) -> str:
     return results.fingerprint[:16]
 
 
-def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, str],
-               charts_requested: bool, generated_at: str, page_size: str) -> dict[str, Any]:
+def build_view(
+    results: Any,
+    *,
+    charts: dict[str, str],
+    chart_notes: dict[str, str],
+    charts_requested: bool,
+    generated_at: str,
+    page_size: str,
+) -> dict[str, Any]:
     """Everything the template prints; small display values only, the engine computes the rest."""
     from obligor_memo.engine.case import case_to_dict
 
@@ -72,50 +82,80 @@ def build_view(results: Any, *, charts: dict[str, str], chart_notes: dict[str, s
     spread_note = None
     if pricing is not None:
         gap = pricing.spread_shortfall
-        spread_note = ("no minimum spread: nothing is drawn, so no interest accrues" if gap is None else
-                       f"the proposed spread exceeds the minimum by {fmt.pct(-gap)}" if gap <= 0 else
-                       f"the proposed spread falls short of the minimum by {fmt.pct(gap)}")
+        spread_note = (
+            "no minimum spread: nothing is drawn, so no interest accrues"
+            if gap is None
+            else f"the proposed spread exceeds the minimum by {fmt.pct(-gap)}"
+            if gap <= 0
+            else f"the proposed spread falls short of the minimum by {fmt.pct(gap)}"
+        )
     from obligor_memo.engine.decision import decision_summary
-
     from obligor_memo.engine.drivers import pd_drivers
 
     decision = decision_summary(results)
     hurdle = pricing.hurdle_rate if pricing is not None else None
     case_data = case_to_dict(case)
     # Lines given in at least one year, in tables of at most six columns so no column is cut.
-    statement_keys = [k for k in case_data["statements"][0] if k != "year"
-                      and any(row.get(k) is not None for row in case_data["statements"])]
-    statement_groups = [statement_keys[i:i + 6] for i in range(0, len(statement_keys), 6)]
+    statement_keys = [
+        k
+        for k in case_data["statements"][0]
+        if k != "year" and any(row.get(k) is not None for row in case_data["statements"])
+    ]
+    statement_groups = [statement_keys[i : i + 6] for i in range(0, len(statement_keys), 6)]
     window = results.trend.window_years if results.trend is not None else None
     return {
-        "r": results, "case": case, "memo": case.memo, "cur": case.borrower.currency,
-        "figures": pdfcase.printed_figures(results), "market": getattr(results, "market", None),
-        "sensitivity": getattr(results, "sensitivity", None), "scenarios": getattr(results, "scenarios", None),
-        "pd_grid": getattr(results, "pd_grid", None), "grid": _grid_view(getattr(results, "pd_grid", None)),
-        "zscores": getattr(results, "zscores", ()), "zscore_history": getattr(results, "zscore_history", ()),
+        "r": results,
+        "case": case,
+        "memo": case.memo,
+        "cur": case.borrower.currency,
+        "figures": pdfcase.printed_figures(results),
+        "market": getattr(results, "market", None),
+        "sensitivity": getattr(results, "sensitivity", None),
+        "scenarios": getattr(results, "scenarios", None),
+        "pd_grid": getattr(results, "pd_grid", None),
+        "grid": _grid_view(getattr(results, "pd_grid", None)),
+        "zscores": getattr(results, "zscores", ()),
+        "zscore_history": getattr(results, "zscore_history", ()),
         "master_scale_source": getattr(results, "master_scale_source", ""),
-        "charts": charts, "chart_notes": chart_notes, "charts_requested": charts_requested,
-        "chart_ids": {key: CHART_ANCHOR.format(src[len(CHART_SCHEME):]) for key, src in charts.items()
-                      if src.startswith(CHART_SCHEME)},
-        "decision": decision, "status_label": _STATUS,
+        "charts": charts,
+        "chart_notes": chart_notes,
+        "charts_requested": charts_requested,
+        "chart_ids": {
+            key: CHART_ANCHOR.format(src[len(CHART_SCHEME) :])
+            for key, src in charts.items()
+            if src.startswith(CHART_SCHEME)
+        },
+        "decision": decision,
+        "status_label": _STATUS,
         "scenario_sentences": [scenario_sentence(x, results.pd.grade, hurdle) for x in decision.scenarios],
-        "worst_sentence": (scenario_sentence(decision.worst, results.pd.grade, hurdle)
-                           if decision.worst is not None else None),
+        "worst_sentence": (
+            scenario_sentence(decision.worst, results.pd.grade, hurdle) if decision.worst is not None else None
+        ),
         "key_risks": list(case.memo.risks[:3]),
         "drivers": pd_drivers(results),
-        "spread_note": spread_note, "generated_at": generated_at, "page_size": page_size,
-        "statement_keys": statement_keys, "statement_groups": statement_groups,
+        "spread_note": spread_note,
+        "generated_at": generated_at,
+        "page_size": page_size,
+        "statement_keys": statement_keys,
+        "statement_groups": statement_groups,
         "statement_rows": case_data["statements"],
-        "inputs_yaml": inputs_yaml(case_data), "window_years": window,
+        "inputs_yaml": inputs_yaml(case_data),
+        "window_years": window,
         "fingerprint_short": short_fingerprint(results),
         "author": case.memo.prepared_by or "obligor-memo",
         "review": review_view(results),
     }
 
 
-
-def memo_html(results: Any, *, charts: dict[str, str], notes: dict[str, str], charts_requested: bool,
-              page_size: str, stamp: str) -> str:
-    view = build_view(results, charts=charts, chart_notes=notes, charts_requested=charts_requested,
-                      generated_at=stamp, page_size=page_size)
+def memo_html(
+    results: Any, *, charts: dict[str, str], notes: dict[str, str], charts_requested: bool, page_size: str, stamp: str
+) -> str:
+    view = build_view(
+        results,
+        charts=charts,
+        chart_notes=notes,
+        charts_requested=charts_requested,
+        generated_at=stamp,
+        page_size=page_size,
+    )
     return environment().get_template("memo.html").render(**view)

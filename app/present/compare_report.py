@@ -40,7 +40,10 @@ def compare_json(comparison: Any) -> dict[str, Any]:
 
 def _table(headers: list[str], rows: list[list[str]]) -> list[str]:
     widths = [max(len(h), *(len(r[i]) for r in rows)) if rows else len(h) for i, h in enumerate(headers)]
-    fmt_row = lambda r: "  ".join(c.ljust(w) if i == 0 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths)))
+
+    def fmt_row(r):
+        return "  ".join(c.ljust(w) if i == 0 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths)))
+
     return [fmt_row(headers), "  ".join("-" * w for w in widths)] + [fmt_row(r) for r in rows]
 
 
@@ -51,10 +54,17 @@ def figure_rows(comparison: Any, currency: str) -> list[dict[str, str]]:
     rows = []
     for name, was in comparison.old.items():
         f = FIGURE_BY_NAME[name]
-        rows.append({"name": name, "label": f.label, "old": figure_text(f.kind, was, currency),
-                     "new": figure_text(f.kind, comparison.new.get(name), currency),
-                     "change": delta_text(f.kind, comparison.change.get(name)) if f.kind != "text" else
-                     comparison.grade["direction"]})
+        rows.append(
+            {
+                "name": name,
+                "label": f.label,
+                "old": figure_text(f.kind, was, currency),
+                "new": figure_text(f.kind, comparison.new.get(name), currency),
+                "change": delta_text(f.kind, comparison.change.get(name))
+                if f.kind != "text"
+                else comparison.grade["direction"],
+            }
+        )
     return rows
 
 
@@ -63,9 +73,14 @@ def cause_rows(comparison: Any, figures: tuple[str, ...] = ("pd", "expected_loss
 
     out = []
     for b in comparison.attribution:
-        out.append({"block": b.block, "label": b.label, "changes": list(b.changes),
-                    **{n: delta_text(FIGURE_BY_NAME[n].kind, b.deltas.get(n)) for n in figures
-                       if n in b.deltas}})
+        out.append(
+            {
+                "block": b.block,
+                "label": b.label,
+                "changes": list(b.changes),
+                **{n: delta_text(FIGURE_BY_NAME[n].kind, b.deltas.get(n)) for n in figures if n in b.deltas},
+            }
+        )
     return out
 
 
@@ -74,30 +89,45 @@ def headline(comparison: Any, currency: str) -> str:
     g = comparison.grade
     el = comparison.change.get("expected_loss")
     cause = comparison.main_cause("expected_loss")
-    text = (f"Grade {g['old'] or 'n/a'} then, {g['new'] or 'n/a'} now; PD in force "
-            f"{figure_text('pd', comparison.old.get('pd'))} then, {figure_text('pd', comparison.new.get('pd'))} now; "
-            f"EL {delta_text('money', el)} {currency}".rstrip())
+    text = (
+        f"Grade {g['old'] or 'n/a'} then, {g['new'] or 'n/a'} now; PD in force "
+        f"{figure_text('pd', comparison.old.get('pd'))} then, {figure_text('pd', comparison.new.get('pd'))} now; "
+        f"EL {delta_text('money', el)} {currency}".rstrip()
+    )
     if cause is not None:
         text += f", mainly {cause.label.lower()} ({delta_text('money', cause.deltas['expected_loss'])})"
     return text + "."
 
 
 def compare_text(comparison: Any, *, old_name: str, new_name: str, currency: str) -> str:
-    lines = [f"Since the last review: {old_name} -> {new_name} (amounts in {currency})", "",
-             headline(comparison, currency), ""]
+    lines = [
+        f"Since the last review: {old_name} -> {new_name} (amounts in {currency})",
+        "",
+        headline(comparison, currency),
+        "",
+    ]
     rows = figure_rows(comparison, currency)
-    lines += _table(["figure", "then", "now", "change"],
-                    [[r["label"], r["old"], r["new"], r["change"]] for r in rows])
+    lines += _table(["figure", "then", "now", "change"], [[r["label"], r["old"], r["new"], r["change"]] for r in rows])
     from obligor_memo.engine.compare import FIGURE_BY_NAME
 
     names = [n for n in comparison.change if comparison.change[n] is not None]
-    lines += ["", "Attribution of each change to its causes (Shapley value over the blocks of inputs, "
-              f"exact formula over subsets, {comparison.evaluations} evaluations)"]
-    short = {"expected_loss": "EL", "unexpected_loss": "UL", "economic_capital": "EC",
-             "regulatory_capital": "reg. capital", "minimum_spread": "min. spread",
-             "economic_capital_standalone": "EC standalone", "covenant_headroom": "cov. headroom"}
-    body = [[b.label] + [delta_text(FIGURE_BY_NAME[n].kind, b.deltas.get(n)) for n in names]
-            for b in comparison.attribution]
+    lines += [
+        "",
+        "Attribution of each change to its causes (Shapley value over the blocks of inputs, "
+        f"exact formula over subsets, {comparison.evaluations} evaluations)",
+    ]
+    short = {
+        "expected_loss": "EL",
+        "unexpected_loss": "UL",
+        "economic_capital": "EC",
+        "regulatory_capital": "reg. capital",
+        "minimum_spread": "min. spread",
+        "economic_capital_standalone": "EC standalone",
+        "covenant_headroom": "cov. headroom",
+    }
+    body = [
+        [b.label] + [delta_text(FIGURE_BY_NAME[n].kind, b.deltas.get(n)) for n in names] for b in comparison.attribution
+    ]
     body.append(["total change"] + [delta_text(FIGURE_BY_NAME[n].kind, comparison.change[n]) for n in names])
     lines += _table(["block"] + [short.get(n, n.upper() if len(n) <= 5 else n) for n in names], body)
     lines += ["", "Changed inputs"]
@@ -109,8 +139,11 @@ def compare_text(comparison: Any, *, old_name: str, new_name: str, currency: str
     if not any_change:
         lines.append("  none: the two cases have the same inputs")
     lines += [f"note: {n}" for n in comparison.notes]
-    lines += ["", "A model estimate, not a credit decision: the institution's approved models, credit "
-              "policy and the local supervisor's rules prevail; a qualified credit officer must review it."]
+    lines += [
+        "",
+        "A model estimate, not a credit decision: the institution's approved models, credit "
+        "policy and the local supervisor's rules prevail; a qualified credit officer must review it.",
+    ]
     return "\n".join(lines)
 
 
@@ -147,14 +180,31 @@ def review_view(results: Any) -> dict[str, Any] | None:
     try:
         comparison = review_comparison(results)
     except CaseError as exc:
-        return {"available": False, "note": "The previous review's inputs no longer validate: "
-                + exc.paragraph(limit=3), "approved_on": previous.approved_on}
+        return {
+            "available": False,
+            "note": "The previous review's inputs no longer validate: " + exc.paragraph(limit=3),
+            "approved_on": previous.approved_on,
+        }
     if comparison is None:
-        return {"available": False, "approved_on": previous.approved_on,
-                "note": "The previous review records its figures but not its inputs: no attribution."}
-    return {"available": True, "approved_on": previous.approved_on or "date not recorded",
-            "headline": headline(comparison, cur), "figures": figure_rows(comparison, cur),
-            "causes": cause_rows(comparison), "notes": list(comparison.notes),
-            "evaluations": comparison.evaluations,
-            "history": [{"approved_on": h.approved_on or "n/a", "grade": h.figures.get("grade") or "n/a",
-                         "pd": figure_text("pd", h.figures.get("pd"))} for h in results.case.review.history]}
+        return {
+            "available": False,
+            "approved_on": previous.approved_on,
+            "note": "The previous review records its figures but not its inputs: no attribution.",
+        }
+    return {
+        "available": True,
+        "approved_on": previous.approved_on or "date not recorded",
+        "headline": headline(comparison, cur),
+        "figures": figure_rows(comparison, cur),
+        "causes": cause_rows(comparison),
+        "notes": list(comparison.notes),
+        "evaluations": comparison.evaluations,
+        "history": [
+            {
+                "approved_on": h.approved_on or "n/a",
+                "grade": h.figures.get("grade") or "n/a",
+                "pd": figure_text("pd", h.figures.get("pd")),
+            }
+            for h in results.case.review.history
+        ],
+    }

@@ -20,19 +20,76 @@ PD_FORMAT = "0.0000%"
 NUMBER_FORMAT = "0.0000"
 
 # Column name fragments that say how a number reads.
-_PERCENT = ("pd", "rate", "ccf", "lgd", "share", "growth", "volatility", "return", "margin", "raroc", "spread",
-            "weight", "recovery", "correlation", "confidence", "leverage", "ratio", "hurdle", "std", "upper", "cover_")
-_MONEY = ("ead", "loss", "rwa", "capital", "committed", "drawn", "undrawn", "value", "assets", "liabilities",
-          "income", "cost", "debt", "cash", "sales", "revenue", "ebit", "earnings", "equity", "flow", "expenditure",
-          "interest_expense", "amount", "funded", "collateral", "benefit", "fee", "point")
+_PERCENT = (
+    "pd",
+    "rate",
+    "ccf",
+    "lgd",
+    "share",
+    "growth",
+    "volatility",
+    "return",
+    "margin",
+    "raroc",
+    "spread",
+    "weight",
+    "recovery",
+    "correlation",
+    "confidence",
+    "leverage",
+    "ratio",
+    "hurdle",
+    "std",
+    "upper",
+    "cover_",
+)
+_MONEY = (
+    "ead",
+    "loss",
+    "rwa",
+    "capital",
+    "committed",
+    "drawn",
+    "undrawn",
+    "value",
+    "assets",
+    "liabilities",
+    "income",
+    "cost",
+    "debt",
+    "cash",
+    "sales",
+    "revenue",
+    "ebit",
+    "earnings",
+    "equity",
+    "flow",
+    "expenditure",
+    "interest_expense",
+    "amount",
+    "funded",
+    "collateral",
+    "benefit",
+    "fee",
+    "point",
+)
 
 
 def _format_for(column: str) -> str | None:
     name = column.lower()
     if name in ("year", "years", "horizon_years", "maturity_years") or name.endswith("_years"):
         return None
-    if name in ("interest_cover", "net_debt_to_ebitda", "debt_to_equity", "alpha", "beta", "distance_to_default",
-                "maturity_adjustment", "k", "capital_k"):
+    if name in (
+        "interest_cover",
+        "net_debt_to_ebitda",
+        "debt_to_equity",
+        "alpha",
+        "beta",
+        "distance_to_default",
+        "maturity_adjustment",
+        "k",
+        "capital_k",
+    ):
         return NUMBER_FORMAT
     if name == "pd" or name.startswith("pd_") or name.endswith("_pd"):
         return PD_FORMAT
@@ -50,8 +107,11 @@ def _flat(value: Any, prefix: str = "") -> dict[str, Any]:
             out.update(_flat(item, f"{prefix}{key}." if not isinstance(item, dict) else f"{prefix}{key}."))
         return {k.rstrip("."): v for k, v in out.items()}
     if isinstance(value, (list, tuple)):
-        return {prefix.rstrip("."): ", ".join(str(v) for v in value)} if all(
-            not isinstance(v, (dict, list)) for v in value) else {prefix.rstrip("."): f"{len(value)} items"}
+        return (
+            {prefix.rstrip("."): ", ".join(str(v) for v in value)}
+            if all(not isinstance(v, (dict, list)) for v in value)
+            else {prefix.rstrip("."): f"{len(value)} items"}
+        )
     return {prefix.rstrip("."): value}
 
 
@@ -63,20 +123,30 @@ def tables(results: Any) -> dict[str, list[dict[str, Any]]]:
     """The workbook's tables, each a list of flat rows (column -> value)."""
     data = results.to_dict()
     case = data["case"]
-    inputs = [{"input": key, "value": value} for key, value in _flat(
-        {k: v for k, v in case.items() if k not in ("statements", "facilities", "scenarios")}).items()]
+    inputs = [
+        {"input": key, "value": value}
+        for key, value in _flat(
+            {k: v for k, v in case.items() if k not in ("statements", "facilities", "scenarios")}
+        ).items()
+    ]
     unit = (case.get("statements_source") or {}).get("unit", "units")
     statements = [dict(row, unit_in_file=unit) for row in case["statements"]]
     facilities = _records(data["facilities"])
     totals = [{"figure": key, "value": value} for key, value in _flat(data["total"]).items()]
     pd_rows = [{"figure": key, "value": value} for key, value in _flat(data["pd"]).items()]
     out: dict[str, list[dict[str, Any]]] = {
-        "inputs": inputs, "statements": statements, "facilities": facilities, "totals": totals, "pd": pd_rows,
+        "inputs": inputs,
+        "statements": statements,
+        "facilities": facilities,
+        "totals": totals,
+        "pd": pd_rows,
     }
     if data.get("pricing"):
         pricing = data["pricing"]
-        out["pricing"] = [{"figure": k, "value": v} for k, v in _flat(
-            {k: v for k, v in pricing.items() if k not in ("facilities",)}).items()]
+        out["pricing"] = [
+            {"figure": k, "value": v}
+            for k, v in _flat({k: v for k, v in pricing.items() if k not in ("facilities",)}).items()
+        ]
         if pricing.get("facilities"):
             out["pricing by facility"] = _records(pricing["facilities"])
     ts = data.get("term_structure") or {}
@@ -88,8 +158,10 @@ def tables(results: Any) -> dict[str, list[dict[str, Any]]]:
     grid = data.get("pd_grid")
     if grid:
         x_name, y_name = grid.get("x_name", "x"), grid.get("y_name", "y")
-        out["pd grid"] = [{y_name: y, **{f"{x_name}={x}": grid["pd"][j][i] for i, x in enumerate(grid["x_values"])}}
-                          for j, y in enumerate(grid["y_values"])]
+        out["pd grid"] = [
+            {y_name: y, **{f"{x_name}={x}": grid["pd"][j][i] for i, x in enumerate(grid["x_values"])}}
+            for j, y in enumerate(grid["y_values"])
+        ]
     if data.get("scenarios"):
         out["scenarios"] = _records(data["scenarios"])
     if data.get("credit_metrics"):
@@ -118,8 +190,11 @@ def export_workbook(results: Any) -> bytes:
             for r in range(2, len(rows) + 2):
                 cell = sheet.cell(row=r, column=index)
                 key = column if column not in ("value",) else str(sheet.cell(row=r, column=1).value or "")
-                fmt = _format_for(key.split(".")[-1].split("=")[0]) if isinstance(cell.value, (int, float)) \
-                    and not isinstance(cell.value, bool) else None
+                fmt = (
+                    _format_for(key.split(".")[-1].split("=")[0])
+                    if isinstance(cell.value, (int, float)) and not isinstance(cell.value, bool)
+                    else None
+                )
                 if title == "pd grid" and index > 1:
                     fmt = PD_FORMAT
                 if fmt:

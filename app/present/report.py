@@ -32,8 +32,11 @@ def summary_text(results) -> str:
         ["asset value", fmt.money(pd.asset_value, cur)],
         ["asset growth", fmt.pct(pd.asset_growth) if pd.asset_growth is not None else "n/a"],
         ["asset volatility", fmt.pct(pd.asset_volatility)],
-        ["default point", fmt.money(pd.default_point, cur)
-         + f"  ({pd.short_term_share:g} x short-term + {pd.long_term_share:g} x long-term)"],
+        [
+            "default point",
+            fmt.money(pd.default_point, cur)
+            + f"  ({pd.short_term_share:g} x short-term + {pd.long_term_share:g} x long-term)",
+        ],
         ["horizon", fmt.years(pd.horizon_years)],
         ["distance to default", fmt.num(pd.distance_to_default, 3)],
         ["model PD", fmt.pd_pct(pd.model_pd)],
@@ -48,8 +51,15 @@ def summary_text(results) -> str:
     headers = ["id", "kind", "EAD", "CCF", "LGD", "EL", "UL"] + (["RW", "RWA"] if has_rw else [])
     table_rows = []
     for f in results.facilities:
-        row = [f.id, f.kind, fmt.money(f.ead), fmt.pct(f.ccf, 0), fmt.pct(f.lgd, 1),
-               fmt.money(f.expected_loss), fmt.money(f.unexpected_loss)]
+        row = [
+            f.id,
+            f.kind,
+            fmt.money(f.ead),
+            fmt.pct(f.ccf, 0),
+            fmt.pct(f.lgd, 1),
+            fmt.money(f.expected_loss),
+            fmt.money(f.unexpected_loss),
+        ]
         if has_rw:
             row += [fmt.pct(f.risk_weight, 1), fmt.money(f.rwa)]
         table_rows.append(row)
@@ -60,24 +70,43 @@ def summary_text(results) -> str:
     table_rows.append(total_row)
     lines.append(_table(headers, table_rows))
     lines += ["", f"EL rate {fmt.pct(t.el_rate, 3)} of EAD over {fmt.years(t.horizon_years)}; amounts in {cur}."]
-    lines.append(f"One-year PD (capital, IRB EL, RAROC): {fmt.pd_pct(t.pd_one_year)}; "
-                 f"horizon PD ({fmt.years(t.horizon_years)}): {fmt.pd_pct(t.pd_horizon)}")
-    lines.append(f"Regulatory capital (8 % of RWA): {fmt.money(t.regulatory_capital, cur)}; "
-                 f"IRB EL {fmt.money(t.regulatory_expected_loss, cur)}")
-    lines.append(f"Economic capital ({case.capital.confidence:.1%}, {t.economic_method.replace('_', '-')}, "
-                 f"one year): {fmt.money(t.economic_capital, cur)}")
-    lines.append(f"  single-factor {fmt.money(t.economic_capital_single_factor, cur)}; "
-                 f"standalone {fmt.money(t.economic_capital_standalone, cur)}")
+    lines.append(
+        f"One-year PD (capital, IRB EL, RAROC): {fmt.pd_pct(t.pd_one_year)}; "
+        f"horizon PD ({fmt.years(t.horizon_years)}): {fmt.pd_pct(t.pd_horizon)}"
+    )
+    lines.append(
+        f"Regulatory capital (8 % of RWA): {fmt.money(t.regulatory_capital, cur)}; "
+        f"IRB EL {fmt.money(t.regulatory_expected_loss, cur)}"
+    )
+    lines.append(
+        f"Economic capital ({case.capital.confidence:.1%}, {t.economic_method.replace('_', '-')}, "
+        f"one year): {fmt.money(t.economic_capital, cur)}"
+    )
+    lines.append(
+        f"  single-factor {fmt.money(t.economic_capital_single_factor, cur)}; "
+        f"standalone {fmt.money(t.economic_capital_standalone, cur)}"
+    )
     p = results.pricing
     if p is not None:
         lines += ["", f"Pricing on {p.capital_basis_label}"]
-        rows = [[f.id, fmt.pct(f.raroc, 1), fmt.pct(f.raroc_regulatory, 1), fmt.pct(f.raroc_economic, 1),
-                 fmt.pct(f.minimum_spread, 3)] for f in (*p.facilities, p.relationship)]
+        rows = [
+            [
+                f.id,
+                fmt.pct(f.raroc, 1),
+                fmt.pct(f.raroc_regulatory, 1),
+                fmt.pct(f.raroc_economic, 1),
+                fmt.pct(f.minimum_spread, 3),
+            ]
+            for f in (*p.facilities, p.relationship)
+        ]
         lines.append(_table(["facility", "RAROC", "RAROC reg.", "RAROC econ.", "min. spread"], rows))
         if p.note:
             lines.append(f"  {p.note}")
     for c in results.cautions:
         lines.append(f"! {c.message}")
-    lines += ["", "A model estimate, not a credit decision: the institution's approved models, credit "
-              "policy and the local supervisor's rules prevail; a qualified credit officer must review it."]
+    lines += [
+        "",
+        "A model estimate, not a credit decision: the institution's approved models, credit "
+        "policy and the local supervisor's rules prevail; a qualified credit officer must review it.",
+    ]
     return "\n".join(lines)

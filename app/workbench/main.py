@@ -9,9 +9,7 @@ from __future__ import annotations
 import logging
 from pathlib import Path
 
-
 import streamlit as st  # noqa: E402
-
 from obligor_memo.app.workbench import ui as _ui  # noqa: E402
 
 log = logging.getLogger(__name__)
@@ -51,13 +49,14 @@ with st.sidebar:
     if ss.get("save_error"):
         st.error(ss.save_error)
     else:
-        st.caption(f"Autosaved to `{ss.get('saved_to', '')}`. Bookmark this page's address to come "
-                   "back to this case.")
+        st.caption(f"Autosaved to `{ss.get('saved_to', '')}`. Bookmark this page's address to come back to this case.")
     if ss.get("restored_at"):
         st.caption(f"Restored from the autosave of {ss.restored_at}.")
 
-pages = [st.Page(str(PAGES_DIR / name), title=title, icon=icon, default=(i == 0))
-         for i, (name, title, icon) in enumerate(PAGES)]
+pages = [
+    st.Page(str(PAGES_DIR / name), title=title, icon=icon, default=(i == 0))
+    for i, (name, title, icon) in enumerate(PAGES)
+]
 page = st.navigation(pages)
 try:
     page.run()
@@ -65,5 +64,6 @@ except st.errors.StreamlitAPIException:
     raise
 except Exception as exc:  # a page bug: say so plainly, keep the case
     log.exception("page %s failed", getattr(page, "title", "?"))
-    st.error(f"This page hit an internal error ({type(exc).__name__}: {exc}). Your case is saved; "
-             "other pages keep working.")
+    st.error(
+        f"This page hit an internal error ({type(exc).__name__}: {exc}). Your case is saved; other pages keep working."
+    )

@@ -1,4 +1,4 @@
-""""Since the last review": open last year's memo PDF or case file as the start of the new case,
+""" "Since the last review": open last year's memo PDF or case file as the start of the new case,
 and see what changed since then and why (grade migration, figures side by side, waterfalls of
 the EL and PD change by cause, the changed inputs). Shown inside an existing page by
 :func:`section`; every number comes from engine.compare, formatted by app.present.
@@ -9,7 +9,6 @@ from __future__ import annotations
 import datetime
 
 import streamlit as st
-
 from obligor_memo.app.charts.review import waterfall_figure
 from obligor_memo.app.present import compare_report
 from obligor_memo.app.workbench import ui
@@ -31,8 +30,11 @@ def _open_last_review(key: str) -> None:
         st.session_state.review_error = exc.paragraph() if isinstance(exc, CaseError) else str(exc)
         return
     st.session_state.review_error = None
-    ui.replace_case(raw, f"Started the new review from {upload.name}: add the year's statements, "
-                         "then update the facilities and assumptions.")
+    ui.replace_case(
+        raw,
+        f"Started the new review from {upload.name}: add the year's statements, "
+        "then update the facilities and assumptions.",
+    )
 
 
 def section(results) -> None:
@@ -40,14 +42,21 @@ def section(results) -> None:
     ss = st.session_state
     with st.expander("Since the last review", expanded=bool(results is not None and results.case.review)):
         c1, c2 = st.columns([2, 1])
-        c2.date_input("Last review approved on", value=None, key="review_approved_on",
-                      max_value=datetime.date.today(),
-                      help="The committee's approval date; a memo PDF proposes its print date.")
-        c1.file_uploader("Open last review (memo PDF or case file) to start the new case",
-                         type=["pdf", "yaml", "yml", "json"], key=f"review_upload{ss.gen}",
-                         on_change=_open_last_review, args=(f"review_upload{ss.gen}",),
-                         help="Replaces the case in this session with the last review's inputs and "
-                              "records it as review.previous.")
+        c2.date_input(
+            "Last review approved on",
+            value=None,
+            key="review_approved_on",
+            max_value=datetime.date.today(),
+            help="The committee's approval date; a memo PDF proposes its print date.",
+        )
+        c1.file_uploader(
+            "Open last review (memo PDF or case file) to start the new case",
+            type=["pdf", "yaml", "yml", "json"],
+            key=f"review_upload{ss.gen}",
+            on_change=_open_last_review,
+            args=(f"review_upload{ss.gen}",),
+            help="Replaces the case in this session with the last review's inputs and records it as review.previous.",
+        )
         if ss.get("review_error"):
             st.error(ss.review_error + " The case in the workbench is unchanged.", icon=":material/error:")
         if results is None:
@@ -61,18 +70,35 @@ def section(results) -> None:
             return
         comparison = compare_report.review_comparison(results)
         g = comparison.grade
-        st.markdown(f"**Grade migration:** {g['old'] or 'n/a'} → {g['new'] or 'n/a'} "
-                    f"(last review approved {view['approved_on']})")
+        st.markdown(
+            f"**Grade migration:** {g['old'] or 'n/a'} → {g['new'] or 'n/a'} "
+            f"(last review approved {view['approved_on']})"
+        )
         st.write(view["headline"])
-        st.dataframe([{"figure": r["label"], "last review": r["old"], "now": r["new"], "change": r["change"]}
-                      for r in view["figures"]], hide_index=True)
+        st.dataframe(
+            [
+                {"figure": r["label"], "last review": r["old"], "now": r["new"], "change": r["change"]}
+                for r in view["figures"]
+            ],
+            hide_index=True,
+        )
         cur = results.case.borrower.currency
         left, right = st.columns(2)
         for where, name in ((left, "expected_loss"), (right, "pd")):
             if comparison.change.get(name) is not None:
                 ui.chart(where, waterfall_figure(comparison, name, cur), key=f"review_{name}")
         st.markdown("**Changed inputs**")
-        st.dataframe([{"block": c["label"], "inputs changed": ", ".join(c["changes"]) or "none",
-                       "PD": c["pd"], "EL": c["expected_loss"]} for c in view["causes"]], hide_index=True)
+        st.dataframe(
+            [
+                {
+                    "block": c["label"],
+                    "inputs changed": ", ".join(c["changes"]) or "none",
+                    "PD": c["pd"],
+                    "EL": c["expected_loss"],
+                }
+                for c in view["causes"]
+            ],
+            hide_index=True,
+        )
         for note in view["notes"]:
             st.caption(note)

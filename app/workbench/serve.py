@@ -17,7 +17,7 @@ from typing import Any
 from obligor_memo.app.workbench.state import WORKDIR_ENV, default_workdir
 
 WORKBENCH = Path(__file__).resolve().parent / "main.py"
-MAX_UPLOAD_MB = 2                  # Streamlit's unit is the megabyte
+MAX_UPLOAD_MB = 2  # Streamlit's unit is the megabyte
 
 
 def is_loopback(host: str) -> bool:
@@ -31,15 +31,39 @@ def is_loopback(host: str) -> bool:
 
 def streamlit_command(*, port: int, host: str) -> list[str]:
     """The child command line; every setting is explicit so no user config can loosen it."""
-    return [sys.executable, "-m", "streamlit", "run", str(WORKBENCH),
-            "--server.headless", "true", "--server.address", host, "--server.port", str(port),
-            "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none",
-            "--server.runOnSave", "false", "--client.showErrorDetails", "none",
-            # The upload widget states this limit; the engine refuses statement files over
-            # engine.statements.MAX_FILE_BYTES (2,000,000 bytes) in any case.
-            "--server.maxUploadSize", str(MAX_UPLOAD_MB),
-            "--client.toolbarMode", "minimal", "--global.developmentMode", "false",
-            "--theme.base", "light", "--theme.primaryColor", "#b3612a"]
+    return [
+        sys.executable,
+        "-m",
+        "streamlit",
+        "run",
+        str(WORKBENCH),
+        "--server.headless",
+        "true",
+        "--server.address",
+        host,
+        "--server.port",
+        str(port),
+        "--browser.gatherUsageStats",
+        "false",
+        "--server.fileWatcherType",
+        "none",
+        "--server.runOnSave",
+        "false",
+        "--client.showErrorDetails",
+        "none",
+        # The upload widget states this limit; the engine refuses statement files over
+        # engine.statements.MAX_FILE_BYTES (2,000,000 bytes) in any case.
+        "--server.maxUploadSize",
+        str(MAX_UPLOAD_MB),
+        "--client.toolbarMode",
+        "minimal",
+        "--global.developmentMode",
+        "false",
+        "--theme.base",
+        "light",
+        "--theme.primaryColor",
+        "#b3612a",
+    ]
 
 
 def serve(port: int = 8501, host: str = "127.0.0.1", workdir: Path | None = None) -> int:
@@ -48,18 +72,26 @@ def serve(port: int = 8501, host: str = "127.0.0.1", workdir: Path | None = None
     try:
         (folder / "cases").mkdir(parents=True, exist_ok=True)
     except OSError as exc:
-        print(f"obligor-memo: cannot use the working folder {folder} ({exc.strerror}); "
-              "choose another with --workdir.", file=sys.stderr)
+        print(
+            f"obligor-memo: cannot use the working folder {folder} ({exc.strerror}); choose another with --workdir.",
+            file=sys.stderr,
+        )
         return 2
     if not is_loopback(host):
-        print(f"WARNING: binding to {host} exposes the workbench and its saved cases to the network. "
-              "Use 127.0.0.1 unless you know the network is trusted.", file=sys.stderr)
+        print(
+            f"WARNING: binding to {host} exposes the workbench and its saved cases to the network. "
+            "Use 127.0.0.1 unless you know the network is trusted.",
+            file=sys.stderr,
+        )
     env = dict(os.environ, **{WORKDIR_ENV: str(folder)})
     env["STREAMLIT_BROWSER_GATHER_USAGE_STATS"] = "false"
     root = str(WORKBENCH.parent)
     shown = "127.0.0.1" if host in ("0.0.0.0", "::") else host
-    print(f"obligor-memo workbench on http://{shown}:{port} (opens on the sample borrower); "
-          f"cases autosaved under {folder / 'cases'}. Stop with Ctrl+C.", flush=True)
+    print(
+        f"obligor-memo workbench on http://{shown}:{port} (opens on the sample borrower); "
+        f"cases autosaved under {folder / 'cases'}. Stop with Ctrl+C.",
+        flush=True,
+    )
     child = subprocess.Popen(streamlit_command(port=port, host=host), env=env, cwd=root)
     return _wait_forwarding_signals(child)
 
@@ -67,6 +99,7 @@ def serve(port: int = 8501, host: str = "127.0.0.1", workdir: Path | None = None
 def _wait_forwarding_signals(child: subprocess.Popen[bytes], grace: float = 15.0) -> int:
     """Wait for the server; SIGTERM or SIGHUP to this process is passed on to it, so Streamlit
     shuts down as on Ctrl+C (its exit handlers close the chart browser) and nothing is left."""
+
     def forward(signum: int, frame: Any) -> None:
         if child.poll() is None:
             child.send_signal(signal.SIGTERM)
@@ -77,14 +110,14 @@ def _wait_forwarding_signals(child: subprocess.Popen[bytes], grace: float = 15.0
             try:
                 code = child.wait()
                 return 0 if code in (-signal.SIGTERM, -signal.SIGINT, 130, 143) else code
-            except KeyboardInterrupt:      # Ctrl+C reaches the child too (same process group)
+            except KeyboardInterrupt:  # Ctrl+C reaches the child too (same process group)
                 try:
                     child.wait(timeout=grace)
                 except subprocess.TimeoutExpired:
                     child.kill()
                 return 0
     finally:
-        if child.poll() is None:            # this process is leaving: so is the server
+        if child.poll() is None:  # this process is leaving: so is the server
             child.terminate()
             try:
                 child.wait(timeout=grace)

@@ -14,9 +14,9 @@ No Streamlit here, so the rules are testable on their own:
 
 from __future__ import annotations
 
-import logging
 import copy
 import json
+import logging
 import math
 import os
 import re
@@ -29,10 +29,9 @@ from pathlib import Path
 from typing import Any
 
 import yaml
-
+from obligor_memo.app import settings
 from obligor_memo.engine.case import Case, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError, Problem
-from obligor_memo.app import settings
 
 log = logging.getLogger(__name__)
 
@@ -152,8 +151,7 @@ def check(raw: Any) -> Checked:
 
 def problems_at(problems: tuple[Problem, ...] | list[Problem], path: str) -> list[Problem]:
     """The problems that belong to the widget at ``path`` (itself or anything below it)."""
-    return [p for p in problems if p.field == path or p.field.startswith(path + ".")
-            or p.field.startswith(path + "[")]
+    return [p for p in problems if p.field == path or p.field.startswith(path + ".") or p.field.startswith(path + "[")]
 
 
 # --------------------------------------------------------------------------- files
@@ -171,18 +169,30 @@ def _atomic_write(path: Path, text: str) -> None:
     except BaseException:
         try:
             os.unlink(temp)
-        except OSError:         # the write's own error is the one to report
+        except OSError:  # the write's own error is the one to report
             log.warning("could not remove the temporary file %s", temp, exc_info=True)
         raise
 
 
-def autosave(workdir: Path, case_id: str, *, raw: dict[str, Any], valid: dict[str, Any] | None,
-             extra: dict[str, Any] | None = None) -> Path:
+def autosave(
+    workdir: Path,
+    case_id: str,
+    *,
+    raw: dict[str, Any],
+    valid: dict[str, Any] | None,
+    extra: dict[str, Any] | None = None,
+) -> Path:
     """Write the session's state atomically; returns the file written."""
     path = autosave_path(workdir, case_id)
-    record = {"format": AUTOSAVE_FORMAT, "version": AUTOSAVE_VERSION, "case_id": case_id,
-              "saved_at": time.strftime("%Y-%m-%dT%H:%M:%S%z"), "raw": plain(raw),
-              "valid": plain(valid) if valid is not None else None, "extra": plain(extra or {})}
+    record = {
+        "format": AUTOSAVE_FORMAT,
+        "version": AUTOSAVE_VERSION,
+        "case_id": case_id,
+        "saved_at": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
+        "raw": plain(raw),
+        "valid": plain(valid) if valid is not None else None,
+        "extra": plain(extra or {}),
+    }
     _atomic_write(path, json.dumps(record, indent=1, allow_nan=False))
     return path
 
@@ -226,16 +236,17 @@ def case_dict_from_upload(data: bytes, name: str) -> dict[str, Any]:
     from obligor_memo.engine.loading import MAX_CASE_BYTES, load_case_text
 
     if len(data) > MAX_CASE_BYTES:
-        raise CaseError.single(f"case file {name}", f"{len(data):,} bytes",
-                               f"at most {MAX_CASE_BYTES:,} bytes", "case file")
+        raise CaseError.single(
+            f"case file {name}", f"{len(data):,} bytes", f"at most {MAX_CASE_BYTES:,} bytes", "case file"
+        )
     if not name.lower().endswith((".yaml", ".yml", ".json")):
-        raise CaseError.single(f"case file {name}", name, "a file ending in .yaml, .yml or .json",
-                               "case file")
+        raise CaseError.single(f"case file {name}", name, "a file ending in .yaml, .yml or .json", "case file")
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError:
-        raise CaseError.single(f"case file {name}", "bytes that are not UTF-8 text",
-                               "a UTF-8 text file (YAML or JSON)", "case file") from None
+        raise CaseError.single(
+            f"case file {name}", "bytes that are not UTF-8 text", "a UTF-8 text file (YAML or JSON)", "case file"
+        ) from None
     return case_to_dict(load_case_text(text, name, base_dir=None))
 
 

@@ -7,21 +7,23 @@ raw dict even when it does not validate, evaluates the last valid case and autos
 
 from __future__ import annotations
 
-import logging
 import json
-from typing import Any, Callable
+import logging
+from collections.abc import Callable
+from typing import Any
 
 import streamlit as st
-
-from obligor_memo.app.workbench import state
 from obligor_memo.app.present.formatting import num
+from obligor_memo.app.workbench import state
 from obligor_memo.engine.errors import CaseError, Problem, show_value
 
 log = logging.getLogger(__name__)
 
-CAUTION = ("Model estimate for a qualified credit officer, not a credit decision. The "
-           "institution's approved models, credit policy and local regulation prevail over "
-           "anything shown here.")
+CAUTION = (
+    "Model estimate for a qualified credit officer, not a credit decision. The "
+    "institution's approved models, credit policy and local regulation prevail over "
+    "anything shown here."
+)
 
 
 # --------------------------------------------------------------------------- evaluation
@@ -113,8 +115,9 @@ def _revalidate() -> None:
 def _save() -> None:
     ss = st.session_state
     try:
-        ss.saved_to = str(state.autosave(state.Path(ss.workdir), ss.case_id, raw=ss.raw, valid=ss.valid,
-                                         extra={"whatif": ss.whatif}))
+        ss.saved_to = str(
+            state.autosave(state.Path(ss.workdir), ss.case_id, raw=ss.raw, valid=ss.valid, extra={"whatif": ss.whatif})
+        )
         ss.save_error = None
     except OSError as exc:
         ss.save_error = f"Autosave failed ({exc.strerror or exc}); download the case file to keep it."
@@ -174,11 +177,16 @@ def header(title: str, lead: str) -> Any:
         st.success(ss.notice)
         ss.notice = None
     if ss.get("internal"):
-        st.error("The engine could not compute this case (an internal error, not your input): "
-                 f"{ss.internal}. The last results are shown.")
+        st.error(
+            "The engine could not compute this case (an internal error, not your input): "
+            f"{ss.internal}. The last results are shown."
+        )
     if ss.problems:
-        st.warning(f"The case has {len(ss.problems)} problem(s); results below are from the last "
-                   "valid case. Each message sits beside its field.", icon=":material/warning:")
+        st.warning(
+            f"The case has {len(ss.problems)} problem(s); results below are from the last "
+            "valid case. Each message sits beside its field.",
+            icon=":material/warning:",
+        )
     st.info(CAUTION, icon=":material/gavel:")
     return results()
 
@@ -201,9 +209,18 @@ def _store(path: str, key: str, convert: Callable[[Any], Any] | None = None) -> 
     commit(state.set_path(st.session_state.raw, path, value))
 
 
-def number_field(label: str, path: str, *, where: Any = None, step: float | None = None,
-                 fmt: str = "%.4f", optional: bool = False, integer: bool = False,
-                 help: str | None = None, placeholder: str | None = None) -> None:
+def number_field(
+    label: str,
+    path: str,
+    *,
+    where: Any = None,
+    step: float | None = None,
+    fmt: str = "%.4f",
+    optional: bool = False,
+    integer: bool = False,
+    help: str | None = None,
+    placeholder: str | None = None,
+) -> None:
     """A number bound to ``path``; empty allowed when ``optional`` (null: the engine estimates)."""
     where = where or st
     current = state.get_path(st.session_state.raw, path)
@@ -214,32 +231,56 @@ def number_field(label: str, path: str, *, where: Any = None, step: float | None
     elif not optional:
         current = 0 if integer else 0.0
     key = _key(path)
-    where.number_input(label, value=current, step=step if step else (1 if integer else None),
-                       format="%d" if integer else fmt, key=key, help=help, placeholder=placeholder,
-                       on_change=_store, args=(path, key))
+    where.number_input(
+        label,
+        value=current,
+        step=step if step else (1 if integer else None),
+        format="%d" if integer else fmt,
+        key=key,
+        help=help,
+        placeholder=placeholder,
+        on_change=_store,
+        args=(path, key),
+    )
     show_problems(path, where)
 
 
-def select_field(label: str, path: str, options: list[Any], *, where: Any = None,
-                 labels: dict[Any, str] | None = None, help: str | None = None) -> None:
+def select_field(
+    label: str,
+    path: str,
+    options: list[Any],
+    *,
+    where: Any = None,
+    labels: dict[Any, str] | None = None,
+    help: str | None = None,
+) -> None:
     where = where or st
     current = state.get_path(st.session_state.raw, path)
     index = options.index(current) if current in options else 0
     key = _key(path)
-    where.selectbox(label, options, index=index, key=key, help=help,
-                    format_func=(lambda o: labels.get(o, str(o))) if labels else str,
-                    on_change=_store, args=(path, key))
+    where.selectbox(
+        label,
+        options,
+        index=index,
+        key=key,
+        help=help,
+        format_func=(lambda o: labels.get(o, str(o))) if labels else str,
+        on_change=_store,
+        args=(path, key),
+    )
     show_problems(path, where)
 
 
-def text_field(label: str, path: str, *, where: Any = None, area: bool = False, help: str | None = None,
-               height: int | None = None) -> None:
+def text_field(
+    label: str, path: str, *, where: Any = None, area: bool = False, help: str | None = None, height: int | None = None
+) -> None:
     where = where or st
     current = state.get_path(st.session_state.raw, path) or ""
     key = _key(path)
     if area:
-        where.text_area(label, value=str(current), key=key, help=help, height=height,
-                        on_change=_store, args=(path, key))
+        where.text_area(
+            label, value=str(current), key=key, help=help, height=height, on_change=_store, args=(path, key)
+        )
     else:
         where.text_input(label, value=str(current), key=key, help=help, on_change=_store, args=(path, key))
     show_problems(path, where)
@@ -248,8 +289,14 @@ def text_field(label: str, path: str, *, where: Any = None, area: bool = False, 
 def toggle_field(label: str, path: str, *, where: Any = None, help: str | None = None) -> None:
     where = where or st
     key = _key(path)
-    where.checkbox(label, value=bool(state.get_path(st.session_state.raw, path, False)), key=key,
-                   help=help, on_change=_store, args=(path, key))
+    where.checkbox(
+        label,
+        value=bool(state.get_path(st.session_state.raw, path, False)),
+        key=key,
+        help=help,
+        on_change=_store,
+        args=(path, key),
+    )
     show_problems(path, where)
 
 
@@ -262,9 +309,14 @@ def rows_of(items: Any) -> list[dict[str, Any]]:
     rows = []
     for item in items:
         data = asdict(item) if is_dataclass(item) else dict(item)
-        rows.append({k.replace("_", " "): (num(v, 4) if isinstance(v, float) else
-                                           v if isinstance(v, (str, int, bool)) or v is None else str(v))
-                     for k, v in data.items()})
+        rows.append(
+            {
+                k.replace("_", " "): (
+                    num(v, 4) if isinstance(v, float) else v if isinstance(v, (str, int, bool)) or v is None else str(v)
+                )
+                for k, v in data.items()
+            }
+        )
     return rows
 
 

@@ -3,13 +3,13 @@
 from __future__ import annotations
 
 import streamlit as st
-
 from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import millions, num, pct, pd_pct, years
 from obligor_memo.app.workbench import ui as _ui
 
-results = _ui.header("Asset trend and PD",
-                     "Judge the trend, set and defend the default point, read the PD and its grade.")
+results = _ui.header(
+    "Asset trend and PD", "Judge the trend, set and defend the default point, read the PD and its grade."
+)
 ss = st.session_state
 cur = _ui.currency()
 n_years = len(ss.raw.get("statements") or [])
@@ -17,32 +17,49 @@ n_years = len(ss.raw.get("statements") or [])
 controls, chart = st.columns([1, 2.2])
 with controls:
     st.subheader("Trend window")
-    _ui.number_field("Window [years] (empty = all years)", "pd.window_years", integer=True, optional=True,
-                     placeholder=f"all {n_years} years", help="Fit over the latest N years only.")
+    _ui.number_field(
+        "Window [years] (empty = all years)",
+        "pd.window_years",
+        integer=True,
+        optional=True,
+        placeholder=f"all {n_years} years",
+        help="Fit over the latest N years only.",
+    )
     st.subheader("Estimates and overrides")
     trend = results.trend if results else None
-    _ui.number_field("Asset growth override [1/year]", "pd.asset_growth", optional=True,
-                     placeholder=f"estimated: {pct(trend.growth_estimate) if trend else 'n/a'}",
-                     help="Empty: the slope of the log-linear fit. A number replaces it.")
-    _ui.number_field("Asset volatility override [1/sqrt(year)]", "pd.asset_volatility", optional=True,
-                     placeholder=f"estimated: {pct(trend.volatility_estimate) if trend else 'n/a'}",
-                     help="Empty: the sample std of annual log changes of total assets.")
+    _ui.number_field(
+        "Asset growth override [1/year]",
+        "pd.asset_growth",
+        optional=True,
+        placeholder=f"estimated: {pct(trend.growth_estimate) if trend else 'n/a'}",
+        help="Empty: the slope of the log-linear fit. A number replaces it.",
+    )
+    _ui.number_field(
+        "Asset volatility override [1/sqrt(year)]",
+        "pd.asset_volatility",
+        optional=True,
+        placeholder=f"estimated: {pct(trend.volatility_estimate) if trend else 'n/a'}",
+        help="Empty: the sample std of annual log changes of total assets.",
+    )
     st.subheader("Default point")
     c1, c2 = st.columns(2)
-    _ui.number_field("Short-term share [fraction]", "pd.default_point.short_term_share", where=c1,
-                     step=0.05, fmt="%.2f")
-    _ui.number_field("Long-term share [fraction]", "pd.default_point.long_term_share", where=c2,
-                     step=0.05, fmt="%.2f")
+    _ui.number_field(
+        "Short-term share [fraction]", "pd.default_point.short_term_share", where=c1, step=0.05, fmt="%.2f"
+    )
+    _ui.number_field("Long-term share [fraction]", "pd.default_point.long_term_share", where=c2, step=0.05, fmt="%.2f")
     _ui.number_field("Horizon [years]", "pd.horizon_years", step=0.5, fmt="%.2f")
     methods = ["balance_sheet", "market"] if ss.raw.get("market") else ["balance_sheet"]
-    _ui.select_field("PD method", "pd.method", methods,
-                     labels={"balance_sheet": "Balance sheet (asset trend)",
-                             "market": "Market (equity value and volatility)"})
+    _ui.select_field(
+        "PD method",
+        "pd.method",
+        methods,
+        labels={"balance_sheet": "Balance sheet (asset trend)", "market": "Market (equity value and volatility)"},
+    )
     with st.expander("Analyst's PD override"):
-        _ui.number_field("PD override [fraction] (empty = the model's)", "pd.override", optional=True,
-                         fmt="%.6f")
-        _ui.text_field("Reason (required with an override; printed in the memo)", "pd.override_reason",
-                       area=True, height=80)
+        _ui.number_field("PD override [fraction] (empty = the model's)", "pd.override", optional=True, fmt="%.6f")
+        _ui.text_field(
+            "Reason (required with an override; printed in the memo)", "pd.override_reason", area=True, height=80
+        )
 
 with chart:
     if results is None:
@@ -59,13 +76,13 @@ with chart:
     fits = st.columns(4)
     if trend is not None:
         fits[0].metric("Growth used", pct(trend.growth_used) + (" (override)" if trend.growth_overridden else ""))
-        fits[1].metric("Volatility used",
-                       pct(trend.volatility_used) + (" (override)" if trend.volatility_overridden else ""))
+        fits[1].metric(
+            "Volatility used", pct(trend.volatility_used) + (" (override)" if trend.volatility_overridden else "")
+        )
         fits[2].metric("Expected asset return", pct(trend.expected_return))
         fits[3].metric("Window", years(trend.window_years))
     if p.overridden:
-        st.warning(f"Model PD {pd_pct(p.model_pd)} replaced by the analyst's {pd_pct(p.pd)}: "
-                   f"{p.override_reason}")
+        st.warning(f"Model PD {pd_pct(p.model_pd)} replaced by the analyst's {pd_pct(p.pd)}: {p.override_reason}")
     for caution in results.cautions:
         if caution.code.startswith(("trend", "pd", "statements", "market", "grade")):
             st.caption(f":material/info: {caution.message}")
@@ -80,24 +97,38 @@ with right:
 market = getattr(results, "market", None)
 if market is not None:
     st.subheader("Market-implied PD")
-    st.caption("Merton (1974): asset value and volatility solved from the equity value and its "
-               "volatility; cross-checked by the naive distance to default of Bharath and Shumway (2008).")
+    st.caption(
+        "Merton (1974): asset value and volatility solved from the equity value and its "
+        "volatility; cross-checked by the naive distance to default of Bharath and Shumway (2008)."
+    )
     merton = market.merton
     cols = st.columns(5)
     cols[0].metric("Asset value (Merton)", millions(merton.asset_value, cur) if merton else "n/a")
     cols[1].metric("Asset volatility (Merton)", pct(merton.asset_volatility) if merton else "n/a")
     cols[2].metric("Distance to default (Merton)", num(merton.distance_to_default, 2) if merton else "n/a")
     cols[3].metric("PD (Merton)", pd_pct(merton.pd) if merton else "n/a")
-    cols[4].metric("PD (naive cross-check)", pd_pct(float(market.naive.pd)),
-                   help=f"Naive DD {num(float(market.naive.distance_to_default), 2)}; drift from "
-                        f"{market.naive.drift_source.replace('_', ' ')}")
+    cols[4].metric(
+        "PD (naive cross-check)",
+        pd_pct(float(market.naive.pd)),
+        help=f"Naive DD {num(float(market.naive.distance_to_default), 2)}; drift from "
+        f"{market.naive.drift_source.replace('_', ' ')}",
+    )
     if market.message:
         st.warning(market.message)
 
 zscores = getattr(results, "zscores", None)
 if zscores:
     st.subheader("Z-score cross-check (latest year)")
-    st.dataframe([{"variant": z.variant, "score": num(z.score, 2) if z.score is not None else "n/a",
-                   "zone": z.zone or "n/a",
-                   "missing columns": ", ".join(z.missing) if z.missing else "",
-                   "source": z.source} for z in zscores], hide_index=True)
+    st.dataframe(
+        [
+            {
+                "variant": z.variant,
+                "score": num(z.score, 2) if z.score is not None else "n/a",
+                "zone": z.zone or "n/a",
+                "missing columns": ", ".join(z.missing) if z.missing else "",
+                "source": z.source,
+            }
+            for z in zscores
+        ],
+        hide_index=True,
+    )

@@ -4,10 +4,9 @@ from __future__ import annotations
 
 import pandas as pd
 import streamlit as st
-
+from obligor_memo.app.workbench import review as _review
 from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench import ui as _ui
-from obligor_memo.app.workbench import review as _review
 from obligor_memo.engine.case import StatementRow
 from obligor_memo.engine.errors import CaseError
 
@@ -46,23 +45,35 @@ def _upload_statements(key: str) -> None:
         _ui.replace_case(raw, f"Read {len(rows)} year(s) of statements from {name}.")
 
 
-_results = _ui.header("Borrower and statements",
-                      "Open a case, then check the statements: every later step reads them.")
+_results = _ui.header("Borrower and statements", "Open a case, then check the statements: every later step reads them.")
 ss = st.session_state
 
 left, right = st.columns([1, 1])
 with left:
     st.subheader("Open")
-    st.button("Open the sample borrower", on_click=_open_sample, icon=":material/restart_alt:",
-              help="Replaces the case in this session with the invented sample borrower.")
-    st.file_uploader("Open a case file (YAML or JSON)", type=["yaml", "yml", "json"],
-                     help="A case file saved by this workbench or written by hand; at most 2 MB.",
-                     key=f"case_upload{ss.gen}", on_change=_open_case_file, args=(f"case_upload{ss.gen}",))
-    st.file_uploader("Replace the statements from a table (CSV or XLSX)", type=["csv", "xlsx"],
-                     key=f"stmt_upload{ss.gen}", on_change=_upload_statements,
-                     args=(f"stmt_upload{ss.gen}",),
-                     help="Columns: " + ", ".join(COLUMNS) + ". One row per financial year; at most "
-                          "200 years and 2 MB. Formulas are not evaluated: paste values.")
+    st.button(
+        "Open the sample borrower",
+        on_click=_open_sample,
+        icon=":material/restart_alt:",
+        help="Replaces the case in this session with the invented sample borrower.",
+    )
+    st.file_uploader(
+        "Open a case file (YAML or JSON)",
+        type=["yaml", "yml", "json"],
+        help="A case file saved by this workbench or written by hand; at most 2 MB.",
+        key=f"case_upload{ss.gen}",
+        on_change=_open_case_file,
+        args=(f"case_upload{ss.gen}",),
+    )
+    st.file_uploader(
+        "Replace the statements from a table (CSV or XLSX)",
+        type=["csv", "xlsx"],
+        key=f"stmt_upload{ss.gen}",
+        on_change=_upload_statements,
+        args=(f"stmt_upload{ss.gen}",),
+        help="Columns: " + ", ".join(COLUMNS) + ". One row per financial year; at most "
+        "200 years and 2 MB. Formulas are not evaluated: paste values.",
+    )
     if ss.get("upload_error"):
         st.error(ss.upload_error + " The case in the workbench is unchanged.", icon=":material/error:")
 with right:
@@ -74,19 +85,24 @@ with right:
     _ui.text_field("Sector", "borrower.sector")
 
 st.subheader(f"Statements [{_ui.currency()}]")
-st.caption("Edit in place; add a row for a new year. Total assets and the two liability lines are "
-           "required; the other columns feed the Z-score cross-check.")
+st.caption(
+    "Edit in place; add a row for a new year. Total assets and the two liability lines are "
+    "required; the other columns feed the Z-score cross-check."
+)
 base_key = f"stmt_base{ss.gen}"
 if base_key not in ss:
     rows = ss.raw.get("statements") if isinstance(ss.raw.get("statements"), list) else []
-    ss[base_key] = pd.DataFrame([{c: r.get(c) for c in COLUMNS} for r in rows if isinstance(r, dict)],
-                                columns=COLUMNS)
+    ss[base_key] = pd.DataFrame([{c: r.get(c) for c in COLUMNS} for r in rows if isinstance(r, dict)], columns=COLUMNS)
 money_col = {"format": "localized", "step": 1000.0}
-config = {c: st.column_config.NumberColumn(c.replace("_", " "), required=c in REQUIRED, **money_col)
-          for c in COLUMNS if c != "year"}
+config = {
+    c: st.column_config.NumberColumn(c.replace("_", " "), required=c in REQUIRED, **money_col)
+    for c in COLUMNS
+    if c != "year"
+}
 config["year"] = st.column_config.NumberColumn("year", format="%d", step=1, required=True)
-edited = st.data_editor(ss[base_key], key=f"stmt_editor{ss.gen}", num_rows="dynamic", hide_index=True,
-                        column_config=config)
+edited = st.data_editor(
+    ss[base_key], key=f"stmt_editor{ss.gen}", num_rows="dynamic", hide_index=True, column_config=config
+)
 records = state.plain(edited.to_dict("records"))
 if records != ss.raw.get("statements"):
     _ui.commit(state.set_path(ss.raw, "statements", records))
@@ -98,6 +114,8 @@ for problem in _ui.state.problems_at(ss.problems, "statements"):
         year = records[parts[1]].get("year")
         column = parts[2] if len(parts) > 2 else "row"
         where = f"row {parts[1] + 1} (year {year}), column {column}"
-    st.error(f"Statements, {where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.",
-             icon=":material/error:")
+    st.error(
+        f"Statements, {where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.",
+        icon=":material/error:",
+    )
 _review.section(_results)

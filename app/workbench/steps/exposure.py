@@ -4,26 +4,30 @@ from __future__ import annotations
 
 import pandas as pd
 import streamlit as st
-
 from obligor_memo.app import charts
-
-from obligor_memo.app.workbench import state
 from obligor_memo.app.present.formatting import money, pct
+from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench import ui as _ui
 
 KINDS = ["term_loan", "revolver", "bond", "guarantee", "letter_of_credit"]
 SENIORITIES = ["senior_secured", "senior_unsecured", "subordinated"]
-COLUMNS = ["id", "kind", "committed", "drawn", "ccf", "cancellable", "seniority", "maturity_years",
-           "description"]
+COLUMNS = ["id", "kind", "committed", "drawn", "ccf", "cancellable", "seniority", "maturity_years", "description"]
 
-results = _ui.header("Facilities and exposure",
-                     "EAD = drawn + CCF x undrawn. Leave CCF empty for the preset of the kind.")
+results = _ui.header(
+    "Facilities and exposure", "EAD = drawn + CCF x undrawn. Leave CCF empty for the preset of the kind."
+)
 ss = st.session_state
 cur = _ui.currency()
 
-_ui.select_field("CCF presets from", "exposure.ccf_standard", ["basel_iii", "basel_ii"],
-                 labels={"basel_iii": "Basel III final standardised approach (2017)",
-                         "basel_ii": "Basel II standardised approach (2006)"})
+_ui.select_field(
+    "CCF presets from",
+    "exposure.ccf_standard",
+    ["basel_iii", "basel_ii"],
+    labels={
+        "basel_iii": "Basel III final standardised approach (2017)",
+        "basel_ii": "Basel II standardised approach (2006)",
+    },
+)
 
 base_key = f"fac_base{ss.gen}"
 facilities_raw = [f for f in (ss.raw.get("facilities") or []) if isinstance(f, dict)]
@@ -31,7 +35,10 @@ if base_key not in ss:
     ss[base_key] = pd.DataFrame([{c: f.get(c) for c in COLUMNS} for f in facilities_raw], columns=COLUMNS)
 money_col = {"format": "localized", "step": 1000.0, "min_value": None}
 edited = st.data_editor(
-    ss[base_key], key=f"fac_editor{ss.gen}", num_rows="dynamic", hide_index=True,
+    ss[base_key],
+    key=f"fac_editor{ss.gen}",
+    num_rows="dynamic",
+    hide_index=True,
     column_config={
         "id": st.column_config.TextColumn("id", required=True, max_chars=40),
         "kind": st.column_config.SelectboxColumn("kind", options=KINDS, required=True),
@@ -40,10 +47,10 @@ edited = st.data_editor(
         "ccf": st.column_config.NumberColumn("CCF [fraction] (empty = preset)", format="%.2f", step=0.05),
         "cancellable": st.column_config.CheckboxColumn("cancellable"),
         "seniority": st.column_config.SelectboxColumn("seniority", options=SENIORITIES, required=True),
-        "maturity_years": st.column_config.NumberColumn("maturity [years]", format="%.2f", step=0.5,
-                                                        required=True),
+        "maturity_years": st.column_config.NumberColumn("maturity [years]", format="%.2f", step=0.5, required=True),
         "description": st.column_config.TextColumn("description"),
-    })
+    },
+)
 by_id = {f.get("id"): f for f in facilities_raw}
 records = []
 for row in state.plain(edited.to_dict("records")):
@@ -60,17 +67,42 @@ for problem in state.problems_at(ss.problems, "facilities"):
     where = problem.field
     if len(parts) >= 3 and isinstance(parts[1], int) and parts[1] < len(records):
         where = f"row {parts[1] + 1} ({records[parts[1]].get('id')}), {'.'.join(map(str, parts[2:]))}"
-    st.error(f"Facilities, {where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.",
-             icon=":material/error:")
+    st.error(
+        f"Facilities, {where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.",
+        icon=":material/error:",
+    )
 
 if results is None:
     st.stop()
 st.subheader(f"Exposure at default [{cur}]")
-st.dataframe(pd.DataFrame([{
-    "facility": f.id, "kind": f.kind.replace("_", " "), "drawn": money(f.drawn), "undrawn": money(f.undrawn),
-    "CCF": pct(f.ccf, 0), "CCF source": f.ccf_source, "EAD": money(f.ead)} for f in results.facilities]
-    + [{"facility": "Total", "kind": "", "drawn": "", "undrawn": "", "CCF": "", "CCF source": "",
-        "EAD": money(results.total.ead)}]), hide_index=True)
+st.dataframe(
+    pd.DataFrame(
+        [
+            {
+                "facility": f.id,
+                "kind": f.kind.replace("_", " "),
+                "drawn": money(f.drawn),
+                "undrawn": money(f.undrawn),
+                "CCF": pct(f.ccf, 0),
+                "CCF source": f.ccf_source,
+                "EAD": money(f.ead),
+            }
+            for f in results.facilities
+        ]
+        + [
+            {
+                "facility": "Total",
+                "kind": "",
+                "drawn": "",
+                "undrawn": "",
+                "CCF": "",
+                "CCF source": "",
+                "EAD": money(results.total.ead),
+            }
+        ]
+    ),
+    hide_index=True,
+)
 _ui.chart(st, charts.exposure_figure(results), key="exposure")
 for caution in results.cautions:
     if caution.code.startswith("exposure"):

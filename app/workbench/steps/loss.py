@@ -4,37 +4,60 @@ from __future__ import annotations
 
 import pandas as pd
 import streamlit as st
-
 from obligor_memo.app import charts
-
-from obligor_memo.app.workbench import state
 from obligor_memo.app.present.formatting import millions, money, pct, pd_pct
+from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench import ui as _ui
 
-results = _ui.header("Loss, capital and pricing",
-                     "EL = EAD x PD x LGD; risk weights from the Basel IRB corporate formula; "
-                     "capital, the IRB EL and RAROC on the one-year PD; economic capital by the method "
-                     "in force (one-factor, or standalone loss quantile - EL); RAROC on one-year EL and "
-                     "capital against the hurdle.")
+results = _ui.header(
+    "Loss, capital and pricing",
+    "EL = EAD x PD x LGD; risk weights from the Basel IRB corporate formula; "
+    "capital, the IRB EL and RAROC on the one-year PD; economic capital by the method "
+    "in force (one-factor, or standalone loss quantile - EL); RAROC on one-year EL and "
+    "capital against the hurdle.",
+)
 ss = st.session_state
 cur = _ui.currency()
 if results is None:
     st.stop()
 
 t = results.total
-rows = [{"facility": f.id, f"EAD [{cur}]": money(f.ead), "PD": pd_pct(f.capital_pd),
-         "LGD": pct(f.lgd, 1), "downturn LGD": pct(f.downturn_lgd, 1), f"EL [{cur}]": money(f.expected_loss),
-         f"UL [{cur}]": money(f.unexpected_loss), "M [years]": f"{f.capital_maturity:g}",
-         "RW": pct(f.risk_weight, 1), f"RWA [{cur}]": money(f.rwa),
-         f"regulatory capital, 8 % of RWA [{cur}]": money(f.regulatory_capital)} for f in results.facilities]
-rows.append({"facility": "Total", f"EAD [{cur}]": money(t.ead), "PD": pd_pct(results.pd.pd),
-             "LGD": "", "downturn LGD": "", f"EL [{cur}]": money(t.expected_loss),
-             f"UL [{cur}]": money(t.unexpected_loss), "M [years]": "",
-             "RW": "", f"RWA [{cur}]": money(t.rwa),
-             f"regulatory capital, 8 % of RWA [{cur}]": money(t.regulatory_capital)})
+rows = [
+    {
+        "facility": f.id,
+        f"EAD [{cur}]": money(f.ead),
+        "PD": pd_pct(f.capital_pd),
+        "LGD": pct(f.lgd, 1),
+        "downturn LGD": pct(f.downturn_lgd, 1),
+        f"EL [{cur}]": money(f.expected_loss),
+        f"UL [{cur}]": money(f.unexpected_loss),
+        "M [years]": f"{f.capital_maturity:g}",
+        "RW": pct(f.risk_weight, 1),
+        f"RWA [{cur}]": money(f.rwa),
+        f"regulatory capital, 8 % of RWA [{cur}]": money(f.regulatory_capital),
+    }
+    for f in results.facilities
+]
+rows.append(
+    {
+        "facility": "Total",
+        f"EAD [{cur}]": money(t.ead),
+        "PD": pd_pct(results.pd.pd),
+        "LGD": "",
+        "downturn LGD": "",
+        f"EL [{cur}]": money(t.expected_loss),
+        f"UL [{cur}]": money(t.unexpected_loss),
+        "M [years]": "",
+        "RW": "",
+        f"RWA [{cur}]": money(t.rwa),
+        f"regulatory capital, 8 % of RWA [{cur}]": money(t.regulatory_capital),
+    }
+)
 st.dataframe(pd.DataFrame(rows), hide_index=True)
-st.caption("PD column: the PD used in the risk weight (after the floor). The total UL joins the "
-           f"facilities' recoveries {state.get_path(ss.valid, 'capital.recovery_join', 'comonotonic')}.")
+st.caption(
+    "PD column: the PD used in the risk weight (after the floor). The total UL joins the "
+    f"facilities' recoveries {state.get_path(ss.valid, 'capital.recovery_join', 'comonotonic')}."
+)
 
 m = st.columns(5)
 m[0].metric("Expected loss", millions(t.expected_loss, cur), help=f"EL rate {pct(t.el_rate, 3)} of EAD")
@@ -49,14 +72,24 @@ with left:
 with right:
     st.subheader("Capital settings")
     _ui.number_field("Confidence [fraction]", "capital.confidence", step=0.0005, fmt="%.4f")
-    _ui.select_field("Recoveries of the facilities", "capital.recovery_join", ["comonotonic", "independent"],
-                     labels={"comonotonic": "Move together (conservative)", "independent": "Independent"})
+    _ui.select_field(
+        "Recoveries of the facilities",
+        "capital.recovery_join",
+        ["comonotonic", "independent"],
+        labels={"comonotonic": "Move together (conservative)", "independent": "Independent"},
+    )
     _ui.number_field("PD floor [fraction]", "capital.pd_floor", step=0.0001, fmt="%.4f")
     _ui.toggle_field("Apply the 1.06 scaling factor", "capital.scaling_factor")
-    _ui.select_field("Economic capital", "capital.economic_method", ["single_factor", "standalone"],
-                     labels={"single_factor": "One-factor (smooth in PD)", "standalone": "Standalone (this name alone)"})
-    st.caption(f"Standalone figure {millions(t.economic_capital_standalone, cur)}; one-factor figure "
-               f"{millions(t.economic_capital_single_factor, cur)}.")
+    _ui.select_field(
+        "Economic capital",
+        "capital.economic_method",
+        ["single_factor", "standalone"],
+        labels={"single_factor": "One-factor (smooth in PD)", "standalone": "Standalone (this name alone)"},
+    )
+    st.caption(
+        f"Standalone figure {millions(t.economic_capital_standalone, cur)}; one-factor figure "
+        f"{millions(t.economic_capital_single_factor, cur)}."
+    )
 for caution in results.cautions:
     if caution.code.startswith("capital"):
         st.caption(f":material/info: {caution.message}")
@@ -73,18 +106,17 @@ if ss.raw.get("pricing") is None:
     st.button("Add a pricing proposal", on_click=_add_pricing)
     st.stop()
 c = st.columns(4)
-_ui.number_field("Proposed spread [fraction/year]", "pricing.proposed_spread", where=c[0], step=0.0005,
-                 fmt="%.4f")
+_ui.number_field("Proposed spread [fraction/year]", "pricing.proposed_spread", where=c[0], step=0.0005, fmt="%.4f")
 _ui.number_field("Fee rate [fraction/year]", "pricing.fee_rate", where=c[1], step=0.0005, fmt="%.4f")
 _ui.number_field("Hurdle rate [fraction/year]", "pricing.hurdle_rate", where=c[2], step=0.01, fmt="%.3f")
 _ui.select_field("Capital basis", "pricing.capital_basis", ["regulatory", "economic"], where=c[3])
 c = st.columns(4)
 _ui.number_field("Base rate [fraction/year]", "pricing.base_rate", where=c[0], step=0.0005, fmt="%.4f")
 _ui.number_field("Funding spread [fraction/year]", "pricing.funding_spread", where=c[1], step=0.0005, fmt="%.4f")
-_ui.number_field("Operating cost [fraction/year]", "pricing.operating_cost_rate", where=c[2], step=0.0005,
-                 fmt="%.4f")
-_ui.number_field("Return on capital held [fraction/year]", "pricing.capital_return_rate", where=c[3],
-                 step=0.005, fmt="%.3f")
+_ui.number_field("Operating cost [fraction/year]", "pricing.operating_cost_rate", where=c[2], step=0.0005, fmt="%.4f")
+_ui.number_field(
+    "Return on capital held [fraction/year]", "pricing.capital_return_rate", where=c[3], step=0.005, fmt="%.3f"
+)
 p = results.pricing
 if p is None:
     for caution in results.cautions:
@@ -96,8 +128,11 @@ else:
     m[1].metric("Minimum spread", pct(p.minimum_spread, 3))
     m[2].metric("Proposed spread", pct(p.proposed_spread, 3))
     m[3].metric("Capital charged", millions(p.capital, cur), help=p.capital_basis_label)
-    verdict = (f"The proposal meets the hurdle: RAROC {pct(p.raroc, 1)} against {pct(p.hurdle_rate, 1)}; "
-               f"the spread could fall to {pct(p.minimum_spread, 3)}." if p.meets_hurdle else
-               f"The proposal falls short of the hurdle: RAROC {pct(p.raroc, 1)} against "
-               f"{pct(p.hurdle_rate, 1)}; the spread must be at least {pct(p.minimum_spread, 3)}.")
+    verdict = (
+        f"The proposal meets the hurdle: RAROC {pct(p.raroc, 1)} against {pct(p.hurdle_rate, 1)}; "
+        f"the spread could fall to {pct(p.minimum_spread, 3)}."
+        if p.meets_hurdle
+        else f"The proposal falls short of the hurdle: RAROC {pct(p.raroc, 1)} against "
+        f"{pct(p.hurdle_rate, 1)}; the spread must be at least {pct(p.minimum_spread, 3)}."
+    )
     (st.success if p.meets_hurdle else st.error)(verdict)

@@ -2,16 +2,15 @@
 
 from __future__ import annotations
 
-import logging
 import importlib
+import logging
 import re
 from typing import Any
 
 import streamlit as st
-
+from obligor_memo.app import settings
 from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench import ui as _ui
-from obligor_memo.app import settings
 
 log = logging.getLogger(__name__)
 
@@ -65,23 +64,33 @@ def _memo_print_panel(results: Any, stem: str) -> None:
     if st.button("Print the memo (PDF)", icon=":material/picture_as_pdf:", key="memo_print"):
         _print(memo_module, results, charts=True)
     if ss.get("memo_chart_problem"):
-        st.error(f"The charts could not be drawn, so no memo was printed. {ss.memo_chart_problem} "
-                 "Here, you can also print the memo without charts: each chart's place then "
-                 "carries a note.", icon=":material/error:")
+        st.error(
+            f"The charts could not be drawn, so no memo was printed. {ss.memo_chart_problem} "
+            "Here, you can also print the memo without charts: each chart's place then "
+            "carries a note.",
+            icon=":material/error:",
+        )
         if st.button("Print the memo without charts", key="memo_print_plain"):
             _print(memo_module, results, charts=False)
     pdf = ss.get("memo_pdf")
     if pdf and pdf[0] == results.fingerprint:
         label = "Download the PDF memo" if pdf[2] else "Download the PDF memo (without charts)"
-        st.download_button(label, pdf[1], file_name=f"{stem}_memo.pdf", mime="application/pdf",
-                           icon=":material/download:", key="memo_download")
+        st.download_button(
+            label,
+            pdf[1],
+            file_name=f"{stem}_memo.pdf",
+            mime="application/pdf",
+            icon=":material/download:",
+            key="memo_download",
+        )
     elif pdf:
         st.caption("The case changed since the memo was printed: print it again.")
 
 
-results = _ui.header("Memo and files",
-                     "Write the narrative as it should print; download the case file to archive "
-                     "or re-run it next year.")
+results = _ui.header(
+    "Memo and files",
+    "Write the narrative as it should print; download the case file to archive or re-run it next year.",
+)
 ss = st.session_state
 
 left, right = st.columns([2, 1])
@@ -100,16 +109,35 @@ with right:
     stem = re.sub(r"[^A-Za-z0-9]+", "_", str(state.get_path(ss.raw, "borrower.name", "case"))).strip("_")
     stem = (stem or "case")[:60]
     if ss.problems:
-        st.warning("The case as typed has problems; the first download is the last valid case, the "
-                   "second keeps your edits as typed (it will show the same messages when opened).")
-        st.download_button("Download the last valid case (YAML)", state.case_file_text(ss.valid, "yaml"),
-                           file_name=f"{stem}.yaml", mime="application/x-yaml")
-        st.download_button("Download the case as typed (YAML)", state.case_file_text(ss.raw, "yaml"),
-                           file_name=f"{stem}_draft.yaml", mime="application/x-yaml")
+        st.warning(
+            "The case as typed has problems; the first download is the last valid case, the "
+            "second keeps your edits as typed (it will show the same messages when opened)."
+        )
+        st.download_button(
+            "Download the last valid case (YAML)",
+            state.case_file_text(ss.valid, "yaml"),
+            file_name=f"{stem}.yaml",
+            mime="application/x-yaml",
+        )
+        st.download_button(
+            "Download the case as typed (YAML)",
+            state.case_file_text(ss.raw, "yaml"),
+            file_name=f"{stem}_draft.yaml",
+            mime="application/x-yaml",
+        )
     else:
-        st.download_button("Download the case file (YAML)", state.case_file_text(ss.raw, "yaml"),
-                           file_name=f"{stem}.yaml", mime="application/x-yaml", icon=":material/download:")
-        st.download_button("Download the case file (JSON)", state.case_file_text(ss.raw, "json"),
-                           file_name=f"{stem}.json", mime="application/json")
+        st.download_button(
+            "Download the case file (YAML)",
+            state.case_file_text(ss.raw, "yaml"),
+            file_name=f"{stem}.yaml",
+            mime="application/x-yaml",
+            icon=":material/download:",
+        )
+        st.download_button(
+            "Download the case file (JSON)",
+            state.case_file_text(ss.raw, "json"),
+            file_name=f"{stem}.json",
+            mime="application/json",
+        )
 
     _memo_print_panel(results, stem)

@@ -3,16 +3,16 @@
 from __future__ import annotations
 
 import streamlit as st
-
 from obligor_memo.app import charts
-
-from obligor_memo.app.workbench import state
 from obligor_memo.app.present.formatting import money, num, pct
+from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench import ui as _ui
 
-results = _ui.header("Recovery and LGD",
-                     "Recovery rate as a beta law on [0, upper] fitted to its mean and std; "
-                     "collateral after haircut recovers in full. LGD = 1 - mean recovery.")
+results = _ui.header(
+    "Recovery and LGD",
+    "Recovery rate as a beta law on [0, upper] fitted to its mean and std; "
+    "collateral after haircut recovers in full. LGD = 1 - mean recovery.",
+)
 ss = st.session_state
 cur = _ui.currency()
 facilities_raw = [f for f in (ss.raw.get("facilities") or []) if isinstance(f, dict)]
@@ -29,8 +29,11 @@ fac_res = next((f for f in results.facilities if f.id == chosen), None) if resul
 
 def _toggle_recovery(key: str) -> None:
     if st.session_state[key]:
-        start = ({"mean": fac_res.recovery_mean, "std": fac_res.recovery_std, "upper": fac_res.recovery_upper}
-                 if fac_res else {"mean": 0.5, "std": 0.2, "upper": 1.0})
+        start = (
+            {"mean": fac_res.recovery_mean, "std": fac_res.recovery_std, "upper": fac_res.recovery_upper}
+            if fac_res
+            else {"mean": 0.5, "std": 0.2, "upper": 1.0}
+        )
         _ui.commit(state.set_path(st.session_state.raw, f"{base}.recovery", start))
     else:
         _ui.commit(state.set_path(st.session_state.raw, f"{base}.recovery", None))
@@ -43,32 +46,52 @@ def _toggle_collateral(key: str) -> None:
 
 left, right = st.columns([1, 2.2])
 with left:
-    _ui.select_field("Seniority", f"{base}.seniority", ["senior_secured", "senior_unsecured", "subordinated"],
-                     labels={"senior_secured": "Senior secured", "senior_unsecured": "Senior unsecured",
-                             "subordinated": "Subordinated"})
+    _ui.select_field(
+        "Seniority",
+        f"{base}.seniority",
+        ["senior_secured", "senior_unsecured", "subordinated"],
+        labels={
+            "senior_secured": "Senior secured",
+            "senior_unsecured": "Senior unsecured",
+            "subordinated": "Subordinated",
+        },
+    )
     key = f"rec_on{ss.gen}:{index}"
-    st.toggle("Own recovery assumption (off: the supervisory LGD of the seniority)",
-              value=fac_raw.get("recovery") is not None, key=key, on_change=_toggle_recovery, args=(key,))
+    st.toggle(
+        "Own recovery assumption (off: the supervisory LGD of the seniority)",
+        value=fac_raw.get("recovery") is not None,
+        key=key,
+        on_change=_toggle_recovery,
+        args=(key,),
+    )
     if fac_raw.get("recovery") is not None:
         c1, c2, c3 = st.columns(3)
         _ui.number_field("Mean [fraction]", f"{base}.recovery.mean", where=c1, step=0.05, fmt="%.3f")
         _ui.number_field("Std [fraction]", f"{base}.recovery.std", where=c2, step=0.01, fmt="%.3f")
         _ui.number_field("Upper [fraction]", f"{base}.recovery.upper", where=c3, step=0.05, fmt="%.2f")
     key = f"coll_on{ss.gen}:{index}"
-    st.toggle("Collateral", value=fac_raw.get("collateral") is not None, key=key,
-              on_change=_toggle_collateral, args=(key,))
+    st.toggle(
+        "Collateral", value=fac_raw.get("collateral") is not None, key=key, on_change=_toggle_collateral, args=(key,)
+    )
     if fac_raw.get("collateral") is not None:
         c1, c2 = st.columns(2)
         _ui.number_field(f"Value [{cur}]", f"{base}.collateral.value", where=c1, step=1e6, fmt="%.0f")
         _ui.number_field("Haircut [fraction]", f"{base}.collateral.haircut", where=c2, step=0.05, fmt="%.2f")
         _ui.text_field("Collateral description", f"{base}.collateral.description")
     st.subheader("For all facilities")
-    _ui.select_field("Supervisory LGD table", "lgd.standard", ["basel_iii", "basel_ii"],
-                     labels={"basel_iii": "Basel III final (2017)", "basel_ii": "Basel II (2006)"})
+    _ui.select_field(
+        "Supervisory LGD table",
+        "lgd.standard",
+        ["basel_iii", "basel_ii"],
+        labels={"basel_iii": "Basel III final (2017)", "basel_ii": "Basel II (2006)"},
+    )
     _ui.number_field("Default recovery std [fraction]", "lgd.default_recovery_std", step=0.01, fmt="%.3f")
-    _ui.select_field("Downturn LGD for capital", "lgd.downturn.method", ["none", "quantile", "add_on"],
-                     labels={"none": "None (mean LGD)", "quantile": "Recovery quantile",
-                             "add_on": "Add-on to the mean LGD"})
+    _ui.select_field(
+        "Downturn LGD for capital",
+        "lgd.downturn.method",
+        ["none", "quantile", "add_on"],
+        labels={"none": "None (mean LGD)", "quantile": "Recovery quantile", "add_on": "Add-on to the mean LGD"},
+    )
     method = state.get_path(ss.raw, "lgd.downturn.method", "none")
     if method == "quantile":
         _ui.number_field("Downturn quantile [fraction]", "lgd.downturn.quantile", step=0.05, fmt="%.2f")
@@ -85,8 +108,13 @@ with right:
     m[1].metric("LGD std", pct(fac_res.lgd_std, 1))
     m[2].metric("Downturn LGD (capital)", pct(fac_res.downturn_lgd, 1))
     m[3].metric("Collateral cover", pct(fac_res.collateral_cover, 1))
-    law = ("point mass at the mean" if fac_res.alpha is None
-           else f"beta(alpha {num(fac_res.alpha)}, beta {num(fac_res.beta)}) on [0, {num(fac_res.recovery_upper)}]")
-    st.caption(f"Unsecured part: mean {pct(fac_res.recovery_mean, 1)}, std {pct(fac_res.recovery_std, 1)}, "
-               f"{law}; source: {fac_res.recovery_source}. Collateral after haircut "
-               f"{money(fac_res.collateral_value, cur)}.")
+    law = (
+        "point mass at the mean"
+        if fac_res.alpha is None
+        else f"beta(alpha {num(fac_res.alpha)}, beta {num(fac_res.beta)}) on [0, {num(fac_res.recovery_upper)}]"
+    )
+    st.caption(
+        f"Unsecured part: mean {pct(fac_res.recovery_mean, 1)}, std {pct(fac_res.recovery_std, 1)}, "
+        f"{law}; source: {fac_res.recovery_source}. Collateral after haircut "
+        f"{money(fac_res.collateral_value, cur)}."
+    )

@@ -10,9 +10,9 @@ formats.
 from __future__ import annotations
 
 import logging
+
 import pandas as pd
 import streamlit as st
-
 from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import millions, money, num, pct, pd_pct
 from obligor_memo.app.workbench import ui as _ui
@@ -21,9 +21,10 @@ from obligor_memo.engine.scenarios import apply_overrides, headline_delta, headl
 
 log = logging.getLogger(__name__)
 
-base_results = _ui.header("What-if and scenarios",
-                          "Move an assumption and see every number move; save what you want to keep "
-                          "as a named scenario.")
+base_results = _ui.header(
+    "What-if and scenarios",
+    "Move an assumption and see every number move; save what you want to keep as a named scenario.",
+)
 ss = st.session_state
 cur = _ui.currency()
 if base_results is None:
@@ -56,62 +57,147 @@ def _reset() -> None:
     _ui.set_whatif({})
 
 
-def control(label: str, path: str, base_value, *, where, step: float, fmt: str, lowest: float | None = None,
-            highest: float | None = None, placeholder: str | None = None, help: str | None = None,
-            companions: dict[str, object] | None = None) -> None:
+def control(
+    label: str,
+    path: str,
+    base_value,
+    *,
+    where,
+    step: float,
+    fmt: str,
+    lowest: float | None = None,
+    highest: float | None = None,
+    placeholder: str | None = None,
+    help: str | None = None,
+    companions: dict[str, object] | None = None,
+) -> None:
     key = f"w{ss.get('wgen', 0)}:{ss.gen}:{path}"
     value = overlay.get(path, base_value)
-    where.number_input(label, value=None if value is None else float(value), step=step, format=fmt, key=key,
-                       min_value=lowest, max_value=highest, placeholder=placeholder, help=help,
-                       on_change=_set, args=({path: None, **(companions or {})}, key))
+    where.number_input(
+        label,
+        value=None if value is None else float(value),
+        step=step,
+        format=fmt,
+        key=key,
+        min_value=lowest,
+        max_value=highest,
+        placeholder=placeholder,
+        help=help,
+        on_change=_set,
+        args=({path: None, **(companions or {})}, key),
+    )
 
 
 p = base_results.pd
 given = base_case.pd
 market = p.method == "market"
 st.subheader("What-if controls")
-st.caption("Each control starts at the value in use in the case. Nothing changes in the case until you "
-           "save the settings as a named scenario.")
+st.caption(
+    "Each control starts at the value in use in the case. Nothing changes in the case until you "
+    "save the settings as a named scenario."
+)
 c = st.columns(4)
-control("Short-term share of the default point", "pd.default_point.short_term_share", p.short_term_share,
-        where=c[0], step=0.05, fmt="%.2f", lowest=0.0, highest=1.0,
-        help="Default point = short-term share x short-term liabilities + long-term share x long-term "
-             "liabilities [fraction]; 1.0 is common practice.")
-control("Long-term share of the default point", "pd.default_point.long_term_share", p.long_term_share,
-        where=c[1], step=0.05, fmt="%.2f", lowest=0.0, highest=1.0,
-        help="[fraction]; 0.5 is common practice.")
+control(
+    "Short-term share of the default point",
+    "pd.default_point.short_term_share",
+    p.short_term_share,
+    where=c[0],
+    step=0.05,
+    fmt="%.2f",
+    lowest=0.0,
+    highest=1.0,
+    help="Default point = short-term share x short-term liabilities + long-term share x long-term "
+    "liabilities [fraction]; 1.0 is common practice.",
+)
+control(
+    "Long-term share of the default point",
+    "pd.default_point.long_term_share",
+    p.long_term_share,
+    where=c[1],
+    step=0.05,
+    fmt="%.2f",
+    lowest=0.0,
+    highest=1.0,
+    help="[fraction]; 0.5 is common practice.",
+)
 if market:
-    control("Equity volatility [1/sqrt(year)]", "market.equity_volatility", base_case.market.equity_volatility,
-            where=c[2], step=0.01, fmt="%.4f", lowest=0.0001, highest=5.0,
-            help="The market method solves asset value and volatility from the equity market.")
+    control(
+        "Equity volatility [1/sqrt(year)]",
+        "market.equity_volatility",
+        base_case.market.equity_volatility,
+        where=c[2],
+        step=0.01,
+        fmt="%.4f",
+        lowest=0.0001,
+        highest=5.0,
+        help="The market method solves asset value and volatility from the equity market.",
+    )
 else:
-    control("Asset volatility [1/sqrt(year)]", "pd.asset_volatility", given.asset_volatility,
-            where=c[2], step=0.01, fmt="%.4f", lowest=0.0001, highest=3.0,
-            placeholder=f"estimate {pct(p.asset_volatility)}",
-            help=f"Empty: the estimate from the statements ({pct(p.asset_volatility)}).")
-control("Asset growth [1/year]", "pd.asset_growth", given.asset_growth, where=c[3], step=0.01, fmt="%.4f",
-        lowest=-1.0, highest=1.0,
-        placeholder=f"estimate {pct(p.asset_growth)}" if p.asset_growth is not None else "estimate",
-        help="Empty: the slope of the log-linear asset trend.")
+    control(
+        "Asset volatility [1/sqrt(year)]",
+        "pd.asset_volatility",
+        given.asset_volatility,
+        where=c[2],
+        step=0.01,
+        fmt="%.4f",
+        lowest=0.0001,
+        highest=3.0,
+        placeholder=f"estimate {pct(p.asset_volatility)}",
+        help=f"Empty: the estimate from the statements ({pct(p.asset_volatility)}).",
+    )
+control(
+    "Asset growth [1/year]",
+    "pd.asset_growth",
+    given.asset_growth,
+    where=c[3],
+    step=0.01,
+    fmt="%.4f",
+    lowest=-1.0,
+    highest=1.0,
+    placeholder=f"estimate {pct(p.asset_growth)}" if p.asset_growth is not None else "estimate",
+    help="Empty: the slope of the log-linear asset trend.",
+)
 c = st.columns(4)
-control("Horizon [years]", "pd.horizon_years", p.horizon_years, where=c[0], step=0.5, fmt="%.2f",
-        lowest=0.01, highest=30.0)
+control(
+    "Horizon [years]", "pd.horizon_years", p.horizon_years, where=c[0], step=0.5, fmt="%.2f", lowest=0.01, highest=30.0
+)
 ids = [f.id for f in base_results.facilities]
 chosen = c[1].selectbox("Facility for CCF and recovery", ids, key="whatif_facility")
 fac = next(f for f in base_results.facilities if f.id == chosen)
 has_block = next(f for f in base_case.facilities if f.id == chosen).recovery is not None
-control(f"CCF of {chosen} [fraction]", f"facilities.{chosen}.ccf", fac.ccf, where=c[2], step=0.05, fmt="%.2f",
-        lowest=0.0, highest=1.0)
-control(f"Recovery mean of {chosen} [fraction]", f"facilities.{chosen}.recovery.mean", fac.recovery_mean,
-        where=c[3], step=0.05, fmt="%.3f", lowest=0.0, highest=fac.recovery_upper,
-        companions=None if has_block else {f"facilities.{chosen}.recovery.std": fac.recovery_std,
-                                           f"facilities.{chosen}.recovery.upper": fac.recovery_upper},
-        help=f"Mean of the unsecured recovery law (std {pct(fac.recovery_std, 1)}, upper "
-             f"{pct(fac.recovery_upper, 0)}).")
+control(
+    f"CCF of {chosen} [fraction]",
+    f"facilities.{chosen}.ccf",
+    fac.ccf,
+    where=c[2],
+    step=0.05,
+    fmt="%.2f",
+    lowest=0.0,
+    highest=1.0,
+)
+control(
+    f"Recovery mean of {chosen} [fraction]",
+    f"facilities.{chosen}.recovery.mean",
+    fac.recovery_mean,
+    where=c[3],
+    step=0.05,
+    fmt="%.3f",
+    lowest=0.0,
+    highest=fac.recovery_upper,
+    companions=None
+    if has_block
+    else {
+        f"facilities.{chosen}.recovery.std": fac.recovery_std,
+        f"facilities.{chosen}.recovery.upper": fac.recovery_upper,
+    },
+    help=f"Mean of the unsecured recovery law (std {pct(fac.recovery_std, 1)}, upper {pct(fac.recovery_upper, 0)}).",
+)
 st.button("Clear the what-if settings", on_click=_reset, icon=":material/undo:", disabled=not overlay)
 if overlay:
-    st.caption("What-if settings: " + ", ".join(f"`{k}` = {v:g}" if isinstance(v, float) else f"`{k}` = {v}"
-                                                 for k, v in overlay.items()))
+    st.caption(
+        "What-if settings: "
+        + ", ".join(f"`{k}` = {v:g}" if isinstance(v, float) else f"`{k}` = {v}" for k, v in overlay.items())
+    )
 
 
 # --------------------------------------------------------------------------- what-if results
@@ -157,36 +243,59 @@ st.subheader("Before and after" if overlay else "The case as it stands (move a c
 m = st.columns(6)
 figures = (
     ("PD in force", pd_pct(head.pd), pd_pct(base_head.pd), _signed_rate(delta.pd, 4), "inverse"),
-    ("Expected loss", _amount(head.expected_loss), _amount(base_head.expected_loss),
-     _signed_money(delta.expected_loss), "inverse"),
-    ("Unexpected loss", _amount(head.unexpected_loss), _amount(base_head.unexpected_loss),
-     _signed_money(delta.unexpected_loss), "inverse"),
+    (
+        "Expected loss",
+        _amount(head.expected_loss),
+        _amount(base_head.expected_loss),
+        _signed_money(delta.expected_loss),
+        "inverse",
+    ),
+    (
+        "Unexpected loss",
+        _amount(head.unexpected_loss),
+        _amount(base_head.unexpected_loss),
+        _signed_money(delta.unexpected_loss),
+        "inverse",
+    ),
     ("RWA", _amount(head.rwa), _amount(base_head.rwa), _signed_money(delta.rwa), "inverse"),
-    ("Economic capital", _amount(head.economic_capital), _amount(base_head.economic_capital),
-     _signed_money(delta.economic_capital), "inverse"),
+    (
+        "Economic capital",
+        _amount(head.economic_capital),
+        _amount(base_head.economic_capital),
+        _signed_money(delta.economic_capital),
+        "inverse",
+    ),
     ("RAROC", pct(head.raroc, 1), pct(base_head.raroc, 1), _signed_rate(delta.raroc, 1), "normal"),
 )
 for where, (label, after, before, change, colour) in zip(m, figures):
     where.metric(label, after, delta=change, delta_color=colour, help=f"Base case: {before}")
     if overlay:
         where.caption(f"base case {before}")
-st.caption(f"Grade {base_head.grade or 'n/a'} \u2192 {head.grade or 'n/a'}; distance to default "
-           f"{num(base_head.distance_to_default, 2)} \u2192 {num(head.distance_to_default, 2)}; default point "
-           f"{millions(base_head.default_point, cur)} \u2192 {millions(head.default_point, cur)}; EAD "
-           f"{millions(base_head.ead, cur)} \u2192 {millions(head.ead, cur)}.")
+st.caption(
+    f"Grade {base_head.grade or 'n/a'} \u2192 {head.grade or 'n/a'}; distance to default "
+    f"{num(base_head.distance_to_default, 2)} \u2192 {num(head.distance_to_default, 2)}; default point "
+    f"{millions(base_head.default_point, cur)} \u2192 {millions(head.default_point, cur)}; EAD "
+    f"{millions(base_head.ead, cur)} \u2192 {millions(head.ead, cur)}."
+)
 
 shown = whatif if whatif is not None else _ui.analysed(base_case.model_copy(update={"scenarios": []}))
 st.subheader("Sensitivities of the what-if case" if overlay and whatif is not None else "Sensitivities of the case")
-measure = st.radio("Tornado measure", ("el", "pd"), horizontal=True, key="whatif_measure",
-                   format_func={"el": "Expected loss", "pd": "PD in force"}.get)
+measure = st.radio(
+    "Tornado measure",
+    ("el", "pd"),
+    horizontal=True,
+    key="whatif_measure",
+    format_func={"el": "Expected loss", "pd": "PD in force"}.get,
+)
 # The tornado's row labels are long: it gets the wider column so its bars keep their length.
 left, right = st.columns([2, 3])
 with left:
     _ui.chart(st, charts.pd_grid_figure(shown), key="whatif_pd_grid")
 with right:
     _ui.chart(st, charts.sensitivity_figure(shown, measure=measure), key="whatif_tornado")
-notes = list(shown.sensitivity.notes) + [n for row in shown.sensitivity.rows if row.note
-                                         for n in [f"{row.label}: {row.note}"]]
+notes = list(shown.sensitivity.notes) + [
+    n for row in shown.sensitivity.rows if row.note for n in [f"{row.label}: {row.note}"]
+]
 if notes:
     with st.expander(f"Notes on the sensitivities ({len(notes)})"):
         for note in notes:
@@ -207,8 +316,11 @@ def _save_scenario(name_key: str, text_key: str, case) -> None:
         ss.scenario_message = ("error", "**Name**: got an empty name; allowed: 1 to 60 characters.")
         return
     if name.casefold() in (e.casefold() for e in existing):
-        ss.scenario_message = ("error", f"**Name**: got {name!r}, which a saved scenario already has; "
-                                        "allowed: a name not yet used (saved: " + ", ".join(existing) + ").")
+        ss.scenario_message = (
+            "error",
+            f"**Name**: got {name!r}, which a saved scenario already has; "
+            "allowed: a name not yet used (saved: " + ", ".join(existing) + ").",
+        )
         return
     try:  # the engine holds the settings to the case's rules before anything is written
         apply_overrides(case, settings, where=f"scenario '{name}'")
@@ -232,8 +344,13 @@ c = st.columns([1, 2, 1])
 name_key, text_key = f"scn_name{ss.gen}", f"scn_text{ss.gen}"
 c[0].text_input("Name", key=name_key, max_chars=60)
 c[1].text_input("Description", key=text_key)
-c[2].button("Save scenario", on_click=_save_scenario, args=(name_key, text_key, base_case), disabled=not overlay,
-            help="Saves the current what-if settings into the case." if overlay else "Move a control first.")
+c[2].button(
+    "Save scenario",
+    on_click=_save_scenario,
+    args=(name_key, text_key, base_case),
+    disabled=not overlay,
+    help="Saves the current what-if settings into the case." if overlay else "Move a control first.",
+)
 if ss.get("scenario_message"):
     kind, text = ss.scenario_message
     (st.error if kind == "error" else st.success)(text)
@@ -249,13 +366,21 @@ except CaseError as exc:
 
 
 def _row(name: str, f, d) -> dict[str, str]:
-    return {"Scenario": name, "PD in force": pd_pct(f.pd), "\u0394 PD": _signed_rate(d.pd, 4) or "",
-            "Grade": f.grade or "n/a", "Expected loss": _amount(f.expected_loss),
-            "\u0394 EL": _signed_money(d.expected_loss) or "", "Unexpected loss": _amount(f.unexpected_loss),
-            "RWA": _amount(f.rwa), "\u0394 RWA": _signed_money(d.rwa) or "",
-            "Economic capital": _amount(f.economic_capital),
-            "\u0394 EC": _signed_money(d.economic_capital) or "", "RAROC": pct(f.raroc, 1),
-            "\u0394 RAROC": _signed_rate(d.raroc, 1) or ""}
+    return {
+        "Scenario": name,
+        "PD in force": pd_pct(f.pd),
+        "\u0394 PD": _signed_rate(d.pd, 4) or "",
+        "Grade": f.grade or "n/a",
+        "Expected loss": _amount(f.expected_loss),
+        "\u0394 EL": _signed_money(d.expected_loss) or "",
+        "Unexpected loss": _amount(f.unexpected_loss),
+        "RWA": _amount(f.rwa),
+        "\u0394 RWA": _signed_money(d.rwa) or "",
+        "Economic capital": _amount(f.economic_capital),
+        "\u0394 EC": _signed_money(d.economic_capital) or "",
+        "RAROC": pct(f.raroc, 1),
+        "\u0394 RAROC": _signed_rate(d.raroc, 1) or "",
+    }
 
 
 rows = [_row("Base case", base_head, headline_delta(base_head, base_head))]
