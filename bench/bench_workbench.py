@@ -35,7 +35,7 @@ def main() -> int:
     first = time.perf_counter() - start
     assert not at.exception, [e.value for e in at.exception]
 
-    at.switch_page("pages/whatif.py")
+    at.switch_page("steps/whatif.py")
     at.run()
     label = "Long-term share of the default point"
     timings, pages = [], {}
@@ -46,7 +46,7 @@ def main() -> int:
         timings.append((time.perf_counter() - start) * 1000)
         assert not at.exception, [e.value for e in at.exception]
     for page in ("asset_pd", "exposure", "recovery", "loss", "memo", "borrower"):
-        at.switch_page(f"pages/{page}.py")
+        at.switch_page(f"steps/{page}.py")
         at.run()
         runs = []
         for _ in range(max(5, args.repeats // 3)):

@@ -138,7 +138,7 @@ def item_workbench(quick: bool) -> dict:
     first = time.perf_counter() - start
     if at.exception:
         return {"error": str(at.exception[0].message)[:200]}
-    at.switch_page("pages/whatif.py")
+    at.switch_page("steps/whatif.py")
     at.run()
     label = "Long-term share of the default point"
     times = []
