@@ -90,7 +90,9 @@ st.caption(
     "required; the other columns feed the Z-score cross-check."
 )
 base_key = f"stmt_base{ss.gen}"
-if base_key not in ss:
+# The grid's widget state is dropped when the page unmounts; rebuild its base from the case
+# then, so edits already committed to the case are shown (and never reverted by a stale base).
+if base_key not in ss or f"stmt_editor{ss.gen}" not in ss:
     rows = ss.raw.get("statements") if isinstance(ss.raw.get("statements"), list) else []
     ss[base_key] = pd.DataFrame([{c: r.get(c) for c in COLUMNS} for r in rows if isinstance(r, dict)], columns=COLUMNS)
 money_col = {"format": "localized", "step": 1000.0}

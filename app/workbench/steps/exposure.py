@@ -31,7 +31,9 @@ _ui.select_field(
 
 base_key = f"fac_base{ss.gen}"
 facilities_raw = [f for f in (ss.raw.get("facilities") or []) if isinstance(f, dict)]
-if base_key not in ss:
+# The grid's widget state is dropped when the page unmounts; rebuild its base from the case
+# then, so edits already committed to the case are shown (and never reverted by a stale base).
+if base_key not in ss or f"fac_editor{ss.gen}" not in ss:
     ss[base_key] = pd.DataFrame([{c: f.get(c) for c in COLUMNS} for f in facilities_raw], columns=COLUMNS)
 money_col = {"format": "localized", "step": 1000.0, "min_value": None}
 edited = st.data_editor(
