@@ -15,6 +15,11 @@ from test_browser import ARTIFACTS, CHROMIUM, ROOT, _settle, server  # noqa: F40
 pytestmark = [pytest.mark.browser, pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
 
 
+@pytest.mark.xfail(
+    strict=False,
+    reason="open defect (issue 10): under load a grid cell edit sometimes does not "
+    "reach the case; this journey's CCF edit then fails. Still run: an XPASS shows it held.",
+)
 def test_roll_forward_journey(server, tmp_path):  # noqa: F811
     from playwright.sync_api import sync_playwright
 
