@@ -53,7 +53,7 @@ def environment() -> Any:
             "by_unit": by_unit,
             "yes_no": lambda v: "yes" if v else "no",
             "or_dash": lambda v: "—" if v in (None, "") else v,
-            "times": lambda v: "n/a" if v is None else f"{fmt.num(v, 2)}x",
+            "times": fmt.times,
         }
     )
     return env

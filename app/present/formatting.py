@@ -54,6 +54,12 @@ def num(value: float | None, decimals: int = 2) -> str:
     return f"{value:,.{decimals}f}"
 
 
+def times(value: float | None, decimals: int = 2) -> str:
+    """A multiple such as net debt / EBITDA: '3.42x'; 'n/a' where it is undefined."""
+    text = num(value, decimals)
+    return text if text == "n/a" else f"{text}x"
+
+
 def years(value: float | None) -> str:
     if value is None:
         return "n/a"
