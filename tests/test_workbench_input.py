@@ -13,7 +13,7 @@ from workbench_support import WORKBENCH, _errors, _metric, _number, _open, _spec
 def test_recovery_page_infeasible_std_gives_message_and_keeps_results(app):
     _open(app, "recovery")
     before = _specs(app)
-    _number(app, "Std [fraction]").set_value(0.6).run()
+    _number(app, "Recovery std (%)").set_value("60").run()
     assert not app.exception
     # Beta law by moments needs std^2 < m(1 - m) (Johnson, Kotz and Balakrishnan, ch. 25).
     assert "std below" in _errors(app)
@@ -22,9 +22,9 @@ def test_recovery_page_infeasible_std_gives_message_and_keeps_results(app):
 
 def test_negative_collateral_value_is_refused_beside_its_field(app):
     _open(app, "recovery")
-    _number(app, "Value [EUR]").set_value(-5.0).run()
+    _number(app, "Collateral value (EUR)").set_value("-5").run()
     assert not app.exception
-    assert "facilities[0].collateral.value" in _errors(app)
+    assert "Facility TL-A, collateral value: got -5" in _errors(app)
     assert app.session_state["raw"]["facilities"][0]["collateral"]["value"] == -5.0
     assert app.session_state["valid"]["facilities"][0]["collateral"]["value"] == 90_000_000.0
 

@@ -18,7 +18,7 @@ def test_opens_on_the_sample_borrower_with_the_caution(app):
 def test_asset_pd_page_default_point_moves_pd_and_chart(app):
     _open(app, "asset_pd")
     pd_before, specs_before = _metric(app, "PD in force"), _specs(app)
-    _number(app, "Long-term share [fraction]").set_value(1.0).run()
+    _number(app, "Long-term share (%)").set_value("100").run()
     assert not app.exception
     # A larger default point lowers ln(V/DP), so the PD N(-DD) must rise (Merton 1974).
     assert float(_metric(app, "PD in force").rstrip(" %")) > float(pd_before.rstrip(" %"))
@@ -37,7 +37,7 @@ def test_exposure_page_ccf_standard_changes_chart(app):
 def test_recovery_page_mean_changes_density(app):
     _open(app, "recovery")
     before = _specs(app)
-    _number(app, "Mean [fraction]").set_value(0.45).run()
+    _number(app, "Recovery mean (%)").set_value("45").run()
     assert not app.exception and _specs(app) != before
     app.selectbox[0].set_value("RCF-1").run()
     assert not app.exception and len(_specs(app)) == 1
@@ -46,10 +46,10 @@ def test_recovery_page_mean_changes_density(app):
 def test_loss_page_spread_changes_raroc_and_confidence_changes_chart(app):
     _open(app, "loss")
     raroc = _metric(app, "RAROC")
-    _number(app, "Proposed spread [fraction/year]").set_value(0.01).run()
+    _number(app, "Proposed spread (% a year)").set_value("1").run()
     assert not app.exception and _metric(app, "RAROC") != raroc
     before = _specs(app)
-    _number(app, "Confidence [fraction]").set_value(0.995).run()
+    _number(app, "Confidence (%)").set_value("99.5").run()
     assert not app.exception and _specs(app) != before
 
 
@@ -75,7 +75,7 @@ def test_whatif_page_moves_heat_map_tornado_and_numbers(app):
     heat = next(k for k in before if k.startswith("Model PD by default point"))
     tornado = next(k for k in before if k.startswith("One-way sensitivity"))
     pd_before = _metric(app, "PD in force")
-    _number(app, "Long-term share of the default point").set_value(0.9).run()
+    _number(app, "Long-term share of the default point (%)").set_value("90").run()
     assert not app.exception
     after = _figure_titles(app)
     # The grid's marked point and the tornado's base both follow the what-if case.
@@ -89,7 +89,7 @@ def test_whatif_page_moves_heat_map_tornado_and_numbers(app):
 
 def test_whatif_saved_scenario_appears_in_the_comparison_and_can_be_deleted(app):
     _open(app, "whatif")
-    _number(app, "Long-term share of the default point").set_value(0.9).run()
+    _number(app, "Long-term share of the default point (%)").set_value("90").run()
     _save(app, "Heavier default point")
     saved = app.session_state["raw"]["scenarios"][-1]
     assert saved["name"] == "Heavier default point"
@@ -109,7 +109,7 @@ def test_whatif_duplicate_or_empty_scenario_name_gets_a_message(app):
     _open(app, "whatif")
     count = len(app.session_state["raw"]["scenarios"])
     existing = app.session_state["raw"]["scenarios"][0]["name"]
-    _number(app, "Long-term share of the default point").set_value(0.8).run()
+    _number(app, "Long-term share of the default point (%)").set_value("80").run()
     _save(app, existing.upper())
     assert "already has" in _errors(app) and existing in _errors(app)
     assert len(app.session_state["raw"]["scenarios"]) == count
@@ -123,9 +123,9 @@ def test_whatif_bad_value_is_named_and_the_base_stays(app):
     pd_before = _metric(app, "PD in force")
     # CCF above 1 is outside the Basel definition; the widget's own bound stops it, so set a
     # recovery mean the beta law cannot carry with the facility's std instead.
-    _number(app, "Recovery mean of TL-A [fraction]").set_value(0.999).run()
+    _number(app, "Recovery mean of TL-A (%)").set_value("99.9").run()
     assert not app.exception
-    assert "what-if.set['facilities.TL-A.recovery.mean']" in _errors(app)
+    assert "What-if, Facility TL-A, recovery mean: got 99.9 %" in _errors(app)
     assert _metric(app, "PD in force") == pd_before
 
 

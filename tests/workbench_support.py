@@ -33,7 +33,8 @@ def _specs(at: AppTest) -> list[str]:
 
 
 def _number(at: AppTest, label: str):
-    found = [w for w in at.number_input if w.label == label]
+    """A number field: a text field read as people write numbers (rates in %, amounts grouped)."""
+    found = [w for w in at.text_input if w.label == label]
     assert found, f"no number field labelled {label!r}"
     return found[0]
 

@@ -14,6 +14,7 @@ generation time (and the record that repeats it) differs between two runs on the
 from __future__ import annotations
 
 import hashlib
+from collections.abc import Callable
 from datetime import UTC, datetime
 from typing import Any
 
@@ -67,6 +68,7 @@ def html_to_pdf(
     allowed_data_uris: set[str],
     url_fetcher: Any = None,
     charts: ChartJob | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> bytes:
     """Lay out and write the PDF, then put each chart in its place; a failed chart drawing
     raises :class:`ChartsUnavailable`.
@@ -99,6 +101,8 @@ def html_to_pdf(
         ),
     ]
     identifier = hashlib.sha256(results.fingerprint.encode("ascii")).hexdigest()[:32].encode("ascii")
+    say = progress or (lambda step: None)
+    say("layout")
     laid_out = layout.lay_out(
         html,
         chart_sizes=sizes,
@@ -108,7 +112,9 @@ def html_to_pdf(
     )
     if charts is None or not laid_out.placements:
         return laid_out.pdf
+    say("charts")
     pages = charts.pages()  # waits for the drawings; raises why not
+    say("writing")
     try:
         return layout.place_charts(laid_out, pages)
     except ChartPagesError as exc:
@@ -124,6 +130,7 @@ def render_memo_pdf(
     page_size: str | None = None,
     generated_at: datetime | None = None,
     exporter: ChartExporter | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> bytes:
     """The memo as PDF bytes. Raises :class:`ChartsUnavailable` (naming the fix) when charts are
     asked for and no browser can draw them; ``charts=False`` prints a note in each chart's place.
@@ -131,6 +138,8 @@ def render_memo_pdf(
 
     The charts are drawn by the browser, and made into PDF pages, while this thread writes the
     HTML and WeasyPrint lays it out and writes it; they are then placed in their boxes.
+    ``progress`` is told each step as it starts: "layout", "charts" (waiting for the drawings),
+    "writing" (placing them).
     """
     size = _page_size(results, page_size)
     stamp = _stamp(generated_at)
@@ -147,7 +156,13 @@ def render_memo_pdf(
             stamp=stamp,
         )
         return html_to_pdf(
-            html, results=results, page_size=size, generated_at=stamp, allowed_data_uris=set(), charts=job
+            html,
+            results=results,
+            page_size=size,
+            generated_at=stamp,
+            allowed_data_uris=set(),
+            charts=job,
+            progress=progress,
         )
     finally:
         if job is not None:

@@ -14,17 +14,6 @@ from obligor_memo.app.workbench import ui as _ui  # noqa: E402
 
 log = logging.getLogger(__name__)
 
-PAGES_DIR = Path(__file__).resolve().parent / "steps"
-PAGES = (
-    ("borrower.py", "Borrower and statements", ":material/domain:"),
-    ("asset_pd.py", "Asset trend and PD", ":material/trending_up:"),
-    ("exposure.py", "Facilities and exposure", ":material/account_balance:"),
-    ("recovery.py", "Recovery and LGD", ":material/shield:"),
-    ("loss.py", "Loss, capital and pricing", ":material/functions:"),
-    ("whatif.py", "What-if and scenarios", ":material/tune:"),
-    ("memo.py", "Memo and files", ":material/description:"),
-)
-
 st.set_page_config(page_title="obligor-memo workbench", page_icon=":material/balance:", layout="wide")
 css = Path(__file__).resolve().parent / "workbench.css"
 if css.is_file():
@@ -44,18 +33,32 @@ with st.sidebar:
     st.markdown("### obligor-memo")
     borrower = _ui.state.get_path(ss.raw, "borrower.name", "(no name)")
     st.markdown(f"**{borrower}**")
+    _ui.key_figures(st)
     if ss.problems:
         st.warning(f"{len(ss.problems)} input problem(s): results use the last valid case.")
+    st.button(
+        "Undo the last change",
+        on_click=_ui.undo,
+        icon=":material/undo:",
+        disabled=not ss.get("undo"),
+        key="undo_button",
+        help="Brings back the case as it was before the last edit, upload or reload (up to 30 steps).",
+    )
     if ss.get("save_error"):
         st.error(ss.save_error)
+    elif ss.get("conflict"):
+        st.error("Not saved: another tab saved this case. See the message at the top of the page.")
     else:
-        st.caption(f"Autosaved to `{ss.get('saved_to', '')}`. Bookmark this page's address to come back to this case.")
+        st.caption(
+            f"Autosaved (revision {ss.get('revision', 0)}) to `{ss.get('saved_to', '')}`. Bookmark this "
+            "page's address to come back to this case."
+        )
     if ss.get("restored_at"):
         st.caption(f"Restored from the autosave of {ss.restored_at}.")
 
 pages = [
-    st.Page(str(PAGES_DIR / name), title=title, icon=icon, default=(i == 0))
-    for i, (name, title, icon) in enumerate(PAGES)
+    st.Page(_ui.PAGE_FILES[title], title=title, icon=icon, default=(i == 0))
+    for i, (_, title, icon) in enumerate(_ui.PAGES)
 ]
 page = st.navigation(pages)
 try:

@@ -21,8 +21,10 @@ import math
 import os
 import re
 import tempfile
+import threading
 import time
 import uuid
+from collections import defaultdict
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
@@ -39,6 +41,7 @@ SAMPLE_PATH = Path(str(resources.files("obligor_memo.sample_data"))) / "hollowme
 WORKDIR_ENV = settings.WORKDIR
 AUTOSAVE_FORMAT = "obligor-memo autosave"
 AUTOSAVE_VERSION = 1
+_SAVE_LOCKS: defaultdict[str, threading.Lock] = defaultdict(threading.Lock)
 _CASE_ID = re.compile(r"[0-9a-f]{32}")
 _PATH_PART = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
 
@@ -174,6 +177,70 @@ def _atomic_write(path: Path, text: str) -> None:
         raise
 
 
+def _record(path: Path) -> dict[str, Any] | None:
+    try:
+        record = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    return record if isinstance(record, dict) and record.get("format") == AUTOSAVE_FORMAT else None
+
+
+def _revision_of(record: dict[str, Any] | None) -> int:
+    value = (record or {}).get("revision", 0)
+    return value if isinstance(value, int) and not isinstance(value, bool) and value >= 0 else 0
+
+
+class Conflict(Exception):
+    """The autosaved case is newer than the one this session started from (another tab saved it)."""
+
+    def __init__(self, revision: int, saved_at: str) -> None:
+        super().__init__(f"the autosave is at revision {revision} (saved {saved_at})")
+        self.revision = revision
+        self.saved_at = saved_at
+
+
+@dataclass(frozen=True)
+class Saved:
+    path: Path
+    revision: int
+
+
+def autosave_checked(
+    workdir: Path,
+    case_id: str,
+    *,
+    raw: dict[str, Any],
+    valid: dict[str, Any] | None,
+    extra: dict[str, Any] | None = None,
+    expect: int | None = None,
+) -> Saved:
+    """Write the session's state atomically as the next revision.
+
+    ``expect`` is the revision this session last loaded or wrote; when the file on disk is at a
+    later one (another tab or window saved the same case), nothing is written and
+    :class:`Conflict` is raised, so the last writer never silently wins. ``expect=None`` writes
+    whatever is on disk (the user chose to keep this version).
+    """
+    path = autosave_path(workdir, case_id)
+    with _SAVE_LOCKS[str(path)]:
+        on_disk = _record(path)
+        current = _revision_of(on_disk)
+        if expect is not None and current > expect:
+            raise Conflict(current, str((on_disk or {}).get("saved_at", "")))
+        record = {
+            "format": AUTOSAVE_FORMAT,
+            "version": AUTOSAVE_VERSION,
+            "case_id": case_id,
+            "revision": current + 1,
+            "saved_at": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
+            "raw": plain(raw),
+            "valid": plain(valid) if valid is not None else None,
+            "extra": plain(extra or {}),
+        }
+        _atomic_write(path, json.dumps(record, indent=1, allow_nan=False))
+    return Saved(path, current + 1)
+
+
 def autosave(
     workdir: Path,
     case_id: str,
@@ -182,19 +249,8 @@ def autosave(
     valid: dict[str, Any] | None,
     extra: dict[str, Any] | None = None,
 ) -> Path:
-    """Write the session's state atomically; returns the file written."""
-    path = autosave_path(workdir, case_id)
-    record = {
-        "format": AUTOSAVE_FORMAT,
-        "version": AUTOSAVE_VERSION,
-        "case_id": case_id,
-        "saved_at": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
-        "raw": plain(raw),
-        "valid": plain(valid) if valid is not None else None,
-        "extra": plain(extra or {}),
-    }
-    _atomic_write(path, json.dumps(record, indent=1, allow_nan=False))
-    return path
+    """Write the session's state atomically (as the next revision); returns the file written."""
+    return autosave_checked(workdir, case_id, raw=raw, valid=valid, extra=extra).path
 
 
 @dataclass(frozen=True)
@@ -203,23 +259,24 @@ class Restored:
     valid: dict[str, Any] | None
     extra: dict[str, Any]
     saved_at: str
+    revision: int = 0
 
 
 def restore(workdir: Path, case_id: str) -> Restored | None:
     """The saved state of ``case_id``, or None when there is none or it cannot be read."""
     try:
         path = autosave_path(workdir, case_id)
-        record = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
+    except ValueError:
         return None
-    if not isinstance(record, dict) or record.get("format") != AUTOSAVE_FORMAT:
+    record = _record(path)
+    if record is None:
         return None
     raw = record.get("raw")
     if not isinstance(raw, dict):
         return None
     valid = record.get("valid") if isinstance(record.get("valid"), dict) else None
     extra = record.get("extra") if isinstance(record.get("extra"), dict) else {}
-    return Restored(raw, valid, extra, str(record.get("saved_at", "")))
+    return Restored(raw, valid, extra, str(record.get("saved_at", "")), _revision_of(record))
 
 
 def case_file_text(data: dict[str, Any], fmt: str = "yaml") -> str:

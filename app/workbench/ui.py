@@ -10,12 +10,14 @@ from __future__ import annotations
 import json
 import logging
 from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 
 import streamlit as st
-from obligor_memo.app.present.formatting import num
-from obligor_memo.app.workbench import state
-from obligor_memo.engine.errors import CaseError, Problem, show_value
+from obligor_memo.app.present.formatting import millions, num, pct, pd_pct
+from obligor_memo.app.workbench import entry, state
+from obligor_memo.engine.errors import CaseError, Problem
 
 log = logging.getLogger(__name__)
 
@@ -76,6 +78,19 @@ def analysed(case: Any) -> Any:
 
 # --------------------------------------------------------------------------- session
 
+UNDO_DEPTH = 30
+STEPS_DIR = Path(__file__).resolve().parent / "steps"
+PAGES = (
+    ("borrower.py", entry.BORROWER, ":material/domain:"),
+    ("asset_pd.py", entry.ASSET_PD, ":material/trending_up:"),
+    ("exposure.py", entry.EXPOSURE, ":material/account_balance:"),
+    ("recovery.py", entry.RECOVERY, ":material/shield:"),
+    ("loss.py", entry.LOSS, ":material/functions:"),
+    ("whatif.py", entry.WHATIF, ":material/tune:"),
+    ("memo.py", entry.MEMO, ":material/description:"),
+)
+PAGE_FILES = {title: str(STEPS_DIR / name) for name, title, _ in PAGES}
+
 
 def ensure_session() -> None:
     """Give this browser session its case: restored from disk by the URL's id, else the sample."""
@@ -89,52 +104,132 @@ def ensure_session() -> None:
         ss.case_id, ss.raw, ss.valid = wanted, restored.raw, restored.valid or state.sample_case_dict()
         ss.whatif = dict(restored.extra.get("whatif", {}))
         ss.restored_at = restored.saved_at
+        ss.revision = restored.revision
     else:
         ss.case_id = state.new_case_id()
         ss.raw = state.sample_case_dict()
         ss.valid = ss.raw
         ss.whatif = {}
         ss.restored_at = None
+        ss.revision = 0
     ss.workdir = str(workdir)
     ss.gen = 0
     ss.notice = None
+    ss.undo = []
+    ss.conflict = None
+    ss.entry_errors = {}
     st.query_params["case"] = ss.case_id
     _revalidate()
 
 
-def _revalidate() -> None:
+def _revalidate(save: bool = True) -> None:
     ss = st.session_state
     results, problems, internal = evaluate_dict(ss.raw)
     ss.problems = problems
     ss.internal = internal
     if results is not None:
         ss.valid = ss.raw
-    _save()
+    if save:
+        _save()
 
 
-def _save() -> None:
+def _save(force: bool = False) -> None:
     ss = st.session_state
     try:
-        ss.saved_to = str(
-            state.autosave(state.Path(ss.workdir), ss.case_id, raw=ss.raw, valid=ss.valid, extra={"whatif": ss.whatif})
+        saved = state.autosave_checked(
+            state.Path(ss.workdir),
+            ss.case_id,
+            raw=ss.raw,
+            valid=ss.valid,
+            extra={"whatif": ss.whatif},
+            expect=None if force else ss.get("revision", 0),
         )
-        ss.save_error = None
+    except state.Conflict as exc:
+        ss.conflict = (exc.revision, exc.saved_at)
+        return
     except OSError as exc:
         ss.save_error = f"Autosave failed ({exc.strerror or exc}); download the case file to keep it."
+        return
+    ss.saved_to, ss.revision, ss.save_error, ss.conflict = str(saved.path), saved.revision, None, None
 
 
 def commit(raw: dict[str, Any]) -> None:
-    st.session_state.raw = raw
+    """Make ``raw`` the case as typed: the previous one goes on the undo list, then validate,
+    evaluate and autosave."""
+    ss = st.session_state
+    if raw != ss.raw:
+        ss.undo = [*ss.get("undo", []), ss.raw][-UNDO_DEPTH:]
+    ss.raw = raw
     _revalidate()
 
 
 def replace_case(raw: dict[str, Any], notice: str) -> None:
-    """Load a whole new case (sample, file): widgets restart from it."""
+    """Load a whole new case (sample, file): widgets restart from it (one undo brings the old one back)."""
     ss = st.session_state
     ss.gen += 1
     ss.whatif = {}
     ss.notice = notice
+    ss.entry_errors = {}
     commit(raw)
+
+
+def undo() -> None:
+    """Bring back the case as it was before the last change (fields and grids restart from it)."""
+    ss = st.session_state
+    if not ss.get("undo"):
+        return
+    *rest, previous = ss.undo
+    ss.undo = rest
+    ss.raw = previous
+    ss.gen += 1
+    ss.entry_errors = {}
+    ss.notice = "Undid the last change."
+    _revalidate()
+
+
+def reload_newer() -> None:
+    """Conflict resolved by taking the version another tab saved (this tab's draft is dropped)."""
+    ss = st.session_state
+    restored = state.restore(state.Path(ss.workdir), ss.case_id)
+    if restored is None:
+        ss.conflict = None
+        return
+    ss.undo = [*ss.get("undo", []), ss.raw][-UNDO_DEPTH:]
+    ss.raw, ss.valid = restored.raw, restored.valid or ss.valid
+    ss.whatif = dict(restored.extra.get("whatif", {}))
+    ss.revision, ss.conflict, ss.gen = restored.revision, None, ss.gen + 1
+    ss.entry_errors = {}
+    ss.notice = f"Loaded the version saved from the other tab (revision {restored.revision})."
+    _revalidate(save=False)
+
+
+def keep_mine() -> None:
+    """Conflict resolved by saving this tab's version over the other one."""
+    _save(force=True)
+    st.session_state.notice = "Saved this tab's version over the other tab's."
+
+
+def conflict_panel() -> None:
+    ss = st.session_state
+    if not ss.get("conflict"):
+        return
+    revision, saved_at = ss.conflict
+    st.error(
+        f"This case was saved from another tab or window (revision {revision}, {saved_at}) after "
+        f"this tab last saved (revision {ss.get('revision', 0)}). This tab's changes are kept here "
+        "but not saved: choose which version to keep.",
+        icon=":material/sync_problem:",
+    )
+    c1, c2, c3 = st.columns(3)
+    c1.button("Load the other tab's version", on_click=reload_newer, icon=":material/refresh:", key="conflict_reload")
+    c2.button("Keep this tab's version", on_click=keep_mine, icon=":material/save:", key="conflict_keep")
+    c3.download_button(
+        "Download this tab's version (YAML)",
+        state.case_file_text(ss.raw, "yaml"),
+        file_name="case_this_tab.yaml",
+        mime="application/x-yaml",
+        key="conflict_download",
+    )
 
 
 def set_whatif(settings: dict[str, Any]) -> None:
@@ -158,14 +253,42 @@ def currency() -> str:
 
 
 def problem_text(p: Problem) -> str:
-    return f"**{p.field}**: got {show_value(p.value)}; allowed: {p.allowed}."
+    """A problem in the screen's words: the field's label (facility id, statement year), what
+    was typed in the field's unit, and what is allowed."""
+    return entry.message(p.field, p.value, p.allowed, st.session_state.get("raw"))
 
 
-def show_problems(path: str, where: Any = None) -> list[Problem]:
-    found = state.problems_at(st.session_state.problems, path)
-    for p in found:
+def show_problems(path: str, where: Any = None, *, exact: bool = False) -> list[Problem]:
+    ss = st.session_state
+    found = state.problems_at(ss.problems, path)
+    if exact:
+        found = [p for p in found if p.field == path]
+    typed = (ss.get("entry_errors") or {}).get(path)
+    if typed and isinstance(state.get_path(ss.raw, path), str):
+        (where or st).error(typed, icon=":material/error:")
+        found = [p for p in found if p.field != path]
+    for p in found[:12]:
         (where or st).error(problem_text(p), icon=":material/error:")
+    if len(found) > 12:
+        (where or st).error(f"... and {len(found) - 12} more problem(s) here.", icon=":material/error:")
     return found
+
+
+def _elsewhere(title: str) -> None:
+    """Problems held by fields of other pages: where they are, with a link to go there."""
+    ss = st.session_state
+    others: dict[str, list[str]] = {}
+    for p in ss.problems:
+        page = entry.page_of(p.field) or title
+        if page != title:
+            others.setdefault(page, []).append(entry.where(p.field, ss.raw))
+    for page, names in others.items():
+        shown = ", ".join(dict.fromkeys(names[:4])) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
+        c1, c2 = st.columns([4, 1])
+        c1.warning(f"On the page {page!r}: {shown}.", icon=":material/warning:")
+        target = PAGE_FILES.get(page)
+        if target:
+            c2.page_link(target, label=f"Go to {page}", icon=":material/arrow_forward:")
 
 
 def header(title: str, lead: str) -> Any:
@@ -176,6 +299,7 @@ def header(title: str, lead: str) -> Any:
     if ss.get("notice"):
         st.success(ss.notice)
         ss.notice = None
+    conflict_panel()
     if ss.get("internal"):
         st.error(
             "The engine could not compute this case (an internal error, not your input): "
@@ -187,6 +311,7 @@ def header(title: str, lead: str) -> Any:
             "valid case. Each message sits beside its field.",
             icon=":material/warning:",
         )
+        _elsewhere(title)
     st.info(CAUTION, icon=":material/gavel:")
     return results()
 
@@ -209,38 +334,51 @@ def _store(path: str, key: str, convert: Callable[[Any], Any] | None = None) -> 
     commit(state.set_path(st.session_state.raw, path, value))
 
 
+def _store_number(path: str, key: str, unit: str, label: str) -> None:
+    """A typed number: read as people write it; text that is not a number is kept as typed
+    (in the case as typed, never lost) with a message beside the field."""
+    ss = st.session_state
+    text = ss[key]
+    errors = dict(ss.get("entry_errors") or {})
+    try:
+        value = entry.store(entry.parse(text, unit), unit)
+    except entry.EntryError as exc:
+        errors[path] = f"{label}: {exc.reason}."
+        ss.entry_errors = errors
+        commit(state.set_path(ss.raw, path, str(text)))
+        return
+    errors.pop(path, None)
+    ss.entry_errors = errors
+    commit(state.set_path(ss.raw, path, value))
+
+
 def number_field(
     label: str,
     path: str,
     *,
+    unit: str = entry.NUMBER,
     where: Any = None,
-    step: float | None = None,
-    fmt: str = "%.4f",
     optional: bool = False,
-    integer: bool = False,
     help: str | None = None,
     placeholder: str | None = None,
 ) -> None:
-    """A number bound to ``path``; empty allowed when ``optional`` (null: the engine estimates)."""
+    """A number bound to ``path``, typed as people write it (``unit`` percent: 2.75 means
+    2.75 %, stored as 0.0275). Empty is allowed when ``optional`` (null: the engine estimates)."""
     where = where or st
     current = state.get_path(st.session_state.raw, path)
-    if current is not None and not isinstance(current, (int, float)):
-        current = None
-    if current is not None:
-        current = int(current) if integer else float(current)
-    elif not optional:
-        current = 0 if integer else 0.0
     key = _key(path)
-    where.number_input(
+    if placeholder is None and optional:
+        placeholder = "not set"
+    if help is None:
+        help = entry.allowed_form(unit).capitalize() + "."
+    where.text_input(
         label,
-        value=current,
-        step=step if step else (1 if integer else None),
-        format="%d" if integer else fmt,
+        value=entry.show(current, unit),
         key=key,
         help=help,
         placeholder=placeholder,
-        on_change=_store,
-        args=(path, key),
+        on_change=_store_number,
+        args=(path, key, unit, label),
     )
     show_problems(path, where)
 
@@ -323,3 +461,190 @@ def rows_of(items: Any) -> list[dict[str, Any]]:
 def chart(where: Any, figure: Any, key: str) -> None:
     """A figure exactly as the memo prints it (our layout, not the Streamlit theme)."""
     where.plotly_chart(figure, key=key, theme=None, config={"displaylogo": False})
+
+
+# --------------------------------------------------------------------------- key figures
+
+
+def key_figures(where: Any) -> None:
+    """The figures a committee asks first, on every page, from the last valid case."""
+    found = results()
+    if found is None:
+        where.caption("No valid case yet: the key figures appear once the case validates.")
+        return
+    cur = currency()
+    t, p = found.total, found.pricing
+    rows = [
+        ("PD in force", pd_pct(found.pd.pd)),
+        ("Grade", found.pd.grade or "n/a"),
+        ("Total EAD", millions(t.ead, cur)),
+        ("Expected loss", millions(t.expected_loss, cur)),
+        ("RWA", millions(t.rwa, cur)),
+    ]
+    if p is not None:
+        rows.append((f"Capital ({p.capital_basis_label})", millions(p.capital, cur)))
+        verdict = "meets" if p.meets_hurdle else "below"
+        rows.append(("RAROC", f"{pct(p.raroc, 1)} ({verdict} the {pct(p.hurdle_rate, 0)} hurdle)"))
+    else:
+        rows.append(("Regulatory capital", millions(t.regulatory_capital, cur)))
+        rows.append(("RAROC", "no pricing proposal"))
+    html = "".join(
+        f'<div class="kf-row"><span class="kf-label">{label}</span><span class="kf-value">{value}</span></div>'
+        for label, value in rows
+    )
+    stale = " (last valid case)" if st.session_state.get("problems") else ""
+    where.markdown(
+        f'<div class="key-figures" data-testid="key-figures"><div class="kf-title">Key figures{stale}</div>'
+        f"{html}</div>",
+        unsafe_allow_html=True,
+    )
+
+
+# --------------------------------------------------------------------------- data grids
+
+
+@dataclass(frozen=True)
+class Column:
+    """One column of a data grid bound to a list of records in the case.
+
+    ``kind`` is "number", "text", "select" or "check"; a number's ``unit`` is one of
+    entry.UNITS (a percent column shows 75 for a stored 0.75); a select shows ``options``'
+    words and stores their keys.
+    """
+
+    name: str
+    label: str
+    kind: str = "number"
+    unit: str = entry.NUMBER
+    required: bool = False
+    options: dict[str, str] | None = None
+    help: str | None = None
+    max_chars: int | None = None
+    default: Any = None
+
+    def to_screen(self, value: Any) -> Any:
+        if self.kind == "select":
+            return (self.options or {}).get(value, value)
+        if self.kind == "check":
+            return bool(value)
+        if self.kind == "number":
+            if not isinstance(value, (int, float)) or isinstance(value, bool):
+                return None
+            return entry.to_percent(value) if self.unit == entry.PERCENT else value
+        return "" if value is None else str(value)
+
+    def from_screen(self, value: Any) -> Any:
+        if value is None or (isinstance(value, float) and value != value):
+            return self.default if self.kind in ("check", "text") else None
+        if self.kind == "select":
+            words = {v: k for k, v in (self.options or {}).items()}
+            return words.get(value, value)
+        if self.kind == "check":
+            return bool(value)
+        if self.kind == "number":
+            if isinstance(value, str):
+                try:
+                    value = entry.parse(value, self.unit)
+                except entry.EntryError:
+                    return value
+                if value is None:
+                    return None
+            if self.unit == entry.INTEGER:
+                return int(value) if float(value).is_integer() else float(value)
+            return entry.to_fraction(value) if self.unit == entry.PERCENT else float(value)
+        return str(value)
+
+    def config(self, currency: str) -> Any:
+        cc = st.column_config
+        if self.kind == "select":
+            return cc.SelectboxColumn(
+                self.label, options=list((self.options or {}).values()), required=self.required, help=self.help
+            )
+        if self.kind == "check":
+            return cc.CheckboxColumn(self.label, help=self.help)
+        if self.kind == "text":
+            return cc.TextColumn(self.label, required=self.required, max_chars=self.max_chars, help=self.help)
+        fmt = {entry.PERCENT: "%.2f %%", entry.INTEGER: "%d", entry.YEARS: "%.2f", entry.MONEY: "localized"}
+        return cc.NumberColumn(
+            self.label, required=self.required, format=fmt.get(self.unit, "%.4f"), help=self.help, step=None
+        )
+
+
+def _grid_frame(records: list[Any], columns: tuple[Column, ...]) -> Any:
+    import pandas as pd
+
+    data = {c.name: [c.to_screen(r.get(c.name) if isinstance(r, dict) else None) for r in records] for c in columns}
+    frame = pd.DataFrame(data, columns=[c.name for c in columns])
+    for c in columns:
+        if c.kind == "number":
+            frame[c.name] = pd.to_numeric(frame[c.name], errors="coerce").astype("float64")
+        elif c.kind == "check":
+            frame[c.name] = frame[c.name].astype(bool)
+        else:
+            frame[c.name] = frame[c.name].astype(object)
+    return frame
+
+
+def apply_grid_delta(
+    records: list[Any], delta: dict[str, Any], columns: tuple[Column, ...], defaults: dict[str, Any] | None = None
+) -> list[dict[str, Any]]:
+    """The records after one data-editor change (``edited_rows``, ``added_rows``,
+    ``deleted_rows``); keys the grid does not show (a facility's recovery, collateral) are kept."""
+    by_name = {c.name: c for c in columns}
+    out = [dict(r) if isinstance(r, dict) else {} for r in records]
+    for index, changes in (delta.get("edited_rows") or {}).items():
+        i = int(index)
+        if 0 <= i < len(out):
+            for name, value in changes.items():
+                if name in by_name:
+                    out[i][name] = by_name[name].from_screen(value)
+    deleted = {int(i) for i in (delta.get("deleted_rows") or [])}
+    out = [r for i, r in enumerate(out) if i not in deleted]
+    for added in delta.get("added_rows") or []:
+        row = dict(defaults or {})
+        for name, value in added.items():
+            if name in by_name:
+                row[name] = by_name[name].from_screen(value)
+        out.append(row)
+    return out
+
+
+def _grid_changed(path: str, key: str, columns: tuple[Column, ...], defaults: dict[str, Any] | None) -> None:
+    ss = st.session_state
+    records = state.get_path(ss.raw, path)
+    records = records if isinstance(records, list) else []
+    changed = apply_grid_delta(records, ss[key], columns, defaults)
+    if changed != records:
+        commit(state.set_path(ss.raw, path, changed))
+
+
+def grid(
+    path: str,
+    columns: tuple[Column, ...],
+    *,
+    name: str,
+    defaults: dict[str, Any] | None = None,
+    height: int | None = None,
+) -> None:
+    """A data grid whose source is the case itself, rebuilt from it on every run.
+
+    Each change is applied to the case in the grid's callback (then validated and autosaved),
+    so what the grid shows is always the case: a page switch, a refresh or a restart cannot
+    bring back an older table. The grid's identity follows its data, so after a change it starts
+    afresh from the case with nothing pending.
+    """
+    ss = st.session_state
+    records = state.get_path(ss.raw, path)
+    records = records if isinstance(records, list) else []
+    key = f"{name}{ss.gen}"
+    sizing = {"height": height} if height else {}
+    st.data_editor(
+        _grid_frame(records, columns),
+        key=key,
+        num_rows="dynamic",
+        hide_index=True,
+        **sizing,
+        column_config={c.name: c.config(currency()) for c in columns},
+        on_change=_grid_changed,
+        args=(path, key, columns, defaults),
+    )

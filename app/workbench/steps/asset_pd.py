@@ -5,6 +5,7 @@ from __future__ import annotations
 import streamlit as st
 from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import millions, num, pct, pd_pct, years
+from obligor_memo.app.workbench import entry
 from obligor_memo.app.workbench import ui as _ui
 
 results = _ui.header(
@@ -18,9 +19,9 @@ controls, chart = st.columns([1, 2.2])
 with controls:
     st.subheader("Trend window")
     _ui.number_field(
-        "Window [years] (empty = all years)",
+        "Window (years; empty = all years)",
         "pd.window_years",
-        integer=True,
+        unit=entry.INTEGER,
         optional=True,
         placeholder=f"all {n_years} years",
         help="Fit over the latest N years only.",
@@ -28,26 +29,26 @@ with controls:
     st.subheader("Estimates and overrides")
     trend = results.trend if results else None
     _ui.number_field(
-        "Asset growth override [1/year]",
+        "Asset growth override (% a year)",
         "pd.asset_growth",
+        unit=entry.PERCENT,
         optional=True,
         placeholder=f"estimated: {pct(trend.growth_estimate) if trend else 'n/a'}",
         help="Empty: the slope of the log-linear fit. A number replaces it.",
     )
     _ui.number_field(
-        "Asset volatility override [1/sqrt(year)]",
+        "Asset volatility override (% a year)",
         "pd.asset_volatility",
+        unit=entry.PERCENT,
         optional=True,
         placeholder=f"estimated: {pct(trend.volatility_estimate) if trend else 'n/a'}",
         help="Empty: the sample std of annual log changes of total assets.",
     )
     st.subheader("Default point")
     c1, c2 = st.columns(2)
-    _ui.number_field(
-        "Short-term share [fraction]", "pd.default_point.short_term_share", where=c1, step=0.05, fmt="%.2f"
-    )
-    _ui.number_field("Long-term share [fraction]", "pd.default_point.long_term_share", where=c2, step=0.05, fmt="%.2f")
-    _ui.number_field("Horizon [years]", "pd.horizon_years", step=0.5, fmt="%.2f")
+    _ui.number_field("Short-term share (%)", "pd.default_point.short_term_share", where=c1, unit=entry.PERCENT)
+    _ui.number_field("Long-term share (%)", "pd.default_point.long_term_share", where=c2, unit=entry.PERCENT)
+    _ui.number_field("Horizon (years)", "pd.horizon_years", unit=entry.YEARS)
     methods = ["balance_sheet", "market"] if ss.raw.get("market") else ["balance_sheet"]
     _ui.select_field(
         "PD method",
@@ -56,7 +57,13 @@ with controls:
         labels={"balance_sheet": "Balance sheet (asset trend)", "market": "Market (equity value and volatility)"},
     )
     with st.expander("Analyst's PD override"):
-        _ui.number_field("PD override [fraction] (empty = the model's)", "pd.override", optional=True, fmt="%.6f")
+        _ui.number_field(
+            "PD override (%; empty = the model's)",
+            "pd.override",
+            unit=entry.PERCENT,
+            optional=True,
+            placeholder="not set: the model's PD",
+        )
         _ui.text_field(
             "Reason (required with an override; printed in the memo)", "pd.override_reason", area=True, height=80
         )
@@ -75,9 +82,9 @@ with chart:
     m[4].metric("Asset value", millions(p.asset_value, cur))
     fits = st.columns(4)
     if trend is not None:
-        fits[0].metric("Growth used", pct(trend.growth_used) + (" (override)" if trend.growth_overridden else ""))
+        fits[0].metric("Growth used" + (" (override)" if trend.growth_overridden else ""), pct(trend.growth_used))
         fits[1].metric(
-            "Volatility used", pct(trend.volatility_used) + (" (override)" if trend.volatility_overridden else "")
+            "Volatility used" + (" (override)" if trend.volatility_overridden else ""), pct(trend.volatility_used)
         )
         fits[2].metric("Expected asset return", pct(trend.expected_return))
         fits[3].metric("Window", years(trend.window_years))

@@ -2,16 +2,24 @@
 
 from __future__ import annotations
 
-import pandas as pd
 import streamlit as st
+from obligor_memo.app.workbench import entry, state
 from obligor_memo.app.workbench import review as _review
-from obligor_memo.app.workbench import state
 from obligor_memo.app.workbench import ui as _ui
 from obligor_memo.engine.case import StatementRow
 from obligor_memo.engine.errors import CaseError
 
 COLUMNS = list(StatementRow.model_fields)
 REQUIRED = ("year", "total_assets", "short_term_liabilities", "long_term_liabilities")
+STATEMENT_COLUMNS = tuple(
+    _ui.Column(
+        c,
+        entry.STATEMENT_LABELS.get(c, c.replace("_", " ")).capitalize() if c != "ebit" and c != "ebitda" else c.upper(),
+        unit=entry.INTEGER if c == "year" else entry.MONEY,
+        required=c in REQUIRED,
+    )
+    for c in COLUMNS
+)
 
 
 def _open_sample() -> None:
@@ -84,40 +92,13 @@ with right:
     _ui.text_field("Country", "borrower.country", where=c2)
     _ui.text_field("Sector", "borrower.sector")
 
-st.subheader(f"Statements [{_ui.currency()}]")
+unit = state.get_path(ss.raw, "statements_source.unit", "units") or "units"
+st.subheader(f"Statements (amounts in {_ui.currency()}{'' if unit == 'units' else ' ' + unit})")
 st.caption(
-    "Edit in place; add a row for a new year. Total assets and the two liability lines are "
-    "required; the other columns feed the Z-score cross-check."
+    "Edit in place; add a row for a new year (amounts as 90,000,000 or 90m). Total assets and the "
+    "two liability lines are required; the other lines feed the Z-score and the credit analysis. "
+    "A change you regret: Undo the last change, in the sidebar."
 )
-base_key = f"stmt_base{ss.gen}"
-# The grid's widget state is dropped when the page unmounts; rebuild its base from the case
-# then, so edits already committed to the case are shown (and never reverted by a stale base).
-if base_key not in ss or f"stmt_editor{ss.gen}" not in ss:
-    rows = ss.raw.get("statements") if isinstance(ss.raw.get("statements"), list) else []
-    ss[base_key] = pd.DataFrame([{c: r.get(c) for c in COLUMNS} for r in rows if isinstance(r, dict)], columns=COLUMNS)
-money_col = {"format": "localized", "step": 1000.0}
-config = {
-    c: st.column_config.NumberColumn(c.replace("_", " "), required=c in REQUIRED, **money_col)
-    for c in COLUMNS
-    if c != "year"
-}
-config["year"] = st.column_config.NumberColumn("year", format="%d", step=1, required=True)
-edited = st.data_editor(
-    ss[base_key], key=f"stmt_editor{ss.gen}", num_rows="dynamic", hide_index=True, column_config=config
-)
-records = state.plain(edited.to_dict("records"))
-if records != ss.raw.get("statements"):
-    _ui.commit(state.set_path(ss.raw, "statements", records))
-    st.rerun()
-for problem in _ui.state.problems_at(ss.problems, "statements"):
-    parts = state.split_path(problem.field)
-    where = problem.field
-    if len(parts) >= 2 and isinstance(parts[1], int) and parts[1] < len(records):
-        year = records[parts[1]].get("year")
-        column = parts[2] if len(parts) > 2 else "row"
-        where = f"row {parts[1] + 1} (year {year}), column {column}"
-    st.error(
-        f"Statements, {where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.",
-        icon=":material/error:",
-    )
+_ui.grid("statements", STATEMENT_COLUMNS, name="stmt_grid")
+_ui.show_problems("statements")
 _review.section(_results)

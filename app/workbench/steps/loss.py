@@ -6,7 +6,7 @@ import pandas as pd
 import streamlit as st
 from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import millions, money, pct, pd_pct
-from obligor_memo.app.workbench import state
+from obligor_memo.app.workbench import entry, state
 from obligor_memo.app.workbench import ui as _ui
 
 results = _ui.header(
@@ -71,14 +71,14 @@ with left:
     _ui.chart(st, charts.loss_distribution_figure(results), key="loss_distribution")
 with right:
     st.subheader("Capital settings")
-    _ui.number_field("Confidence [fraction]", "capital.confidence", step=0.0005, fmt="%.4f")
+    _ui.number_field("Confidence (%)", "capital.confidence", unit=entry.PERCENT, help="For example 99.9 (for 99.9 %).")
     _ui.select_field(
         "Recoveries of the facilities",
         "capital.recovery_join",
         ["comonotonic", "independent"],
         labels={"comonotonic": "Move together (conservative)", "independent": "Independent"},
     )
-    _ui.number_field("PD floor [fraction]", "capital.pd_floor", step=0.0001, fmt="%.4f")
+    _ui.number_field("PD floor (%)", "capital.pd_floor", unit=entry.PERCENT, help="For example 0.05 (for 0.05 %).")
     _ui.toggle_field("Apply the 1.06 scaling factor", "capital.scaling_factor")
     _ui.select_field(
         "Economic capital",
@@ -106,17 +106,21 @@ if ss.raw.get("pricing") is None:
     st.button("Add a pricing proposal", on_click=_add_pricing)
     st.stop()
 c = st.columns(4)
-_ui.number_field("Proposed spread [fraction/year]", "pricing.proposed_spread", where=c[0], step=0.0005, fmt="%.4f")
-_ui.number_field("Fee rate [fraction/year]", "pricing.fee_rate", where=c[1], step=0.0005, fmt="%.4f")
-_ui.number_field("Hurdle rate [fraction/year]", "pricing.hurdle_rate", where=c[2], step=0.01, fmt="%.3f")
-_ui.select_field("Capital basis", "pricing.capital_basis", ["regulatory", "economic"], where=c[3])
-c = st.columns(4)
-_ui.number_field("Base rate [fraction/year]", "pricing.base_rate", where=c[0], step=0.0005, fmt="%.4f")
-_ui.number_field("Funding spread [fraction/year]", "pricing.funding_spread", where=c[1], step=0.0005, fmt="%.4f")
-_ui.number_field("Operating cost [fraction/year]", "pricing.operating_cost_rate", where=c[2], step=0.0005, fmt="%.4f")
-_ui.number_field(
-    "Return on capital held [fraction/year]", "pricing.capital_return_rate", where=c[3], step=0.005, fmt="%.3f"
+_ui.number_field("Proposed spread (% a year)", "pricing.proposed_spread", where=c[0], unit=entry.PERCENT)
+_ui.number_field("Fee rate (% a year)", "pricing.fee_rate", where=c[1], unit=entry.PERCENT)
+_ui.number_field("Hurdle rate (% a year)", "pricing.hurdle_rate", where=c[2], unit=entry.PERCENT)
+_ui.select_field(
+    "Capital basis",
+    "pricing.capital_basis",
+    ["regulatory", "economic"],
+    where=c[3],
+    labels={"regulatory": "Regulatory capital", "economic": "Economic capital"},
 )
+c = st.columns(4)
+_ui.number_field("Base rate (% a year)", "pricing.base_rate", where=c[0], unit=entry.PERCENT)
+_ui.number_field("Funding spread (% a year)", "pricing.funding_spread", where=c[1], unit=entry.PERCENT)
+_ui.number_field("Operating cost (% a year)", "pricing.operating_cost_rate", where=c[2], unit=entry.PERCENT)
+_ui.number_field("Return on capital held (% a year)", "pricing.capital_return_rate", where=c[3], unit=entry.PERCENT)
 p = results.pricing
 if p is None:
     for caution in results.cautions:

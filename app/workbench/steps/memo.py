@@ -37,17 +37,36 @@ def _chart_browser_started() -> bool:
     return True
 
 
+STEPS = {
+    "analysis": "Analysis: sensitivities, PD grid and scenarios",
+    "layout": "Layout of the pages",
+    "charts": "Charts drawn and placed",
+    "writing": "Writing the PDF",
+}
+
+
 def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
     ss = st.session_state
     ss.memo_chart_problem = None
-    try:
-        with st.spinner("Printing the memo..." if charts else "Printing the memo without charts..."):
+    with st.status("Printing the memo..." if charts else "Printing the memo without charts...") as status:
+        try:
+            status.write(STEPS["analysis"])
             full = _ui.analysed(results.case)
-            ss.memo_pdf = (results.fingerprint, memo_module.render_memo_pdf(full, charts=charts), charts)
-    except memo_module.ChartsUnavailable as exc:
-        ss.memo_chart_problem = str(exc)
-    except Exception as exc:  # the renderer's failure must not reach the screen raw
-        st.error(f"The memo could not be printed ({type(exc).__name__}: {exc}). Your inputs are kept.")
+
+            def say(step: str) -> None:
+                if step in STEPS and (charts or step != "charts"):
+                    status.write(STEPS[step])
+
+            pdf = memo_module.render_memo_pdf(full, charts=charts, progress=say)
+            ss.memo_pdf = (results.fingerprint, pdf, charts)
+            status.update(label="The memo is printed: download it below.", state="complete")
+        except memo_module.ChartsUnavailable as exc:
+            ss.memo_chart_problem = str(exc)
+            status.update(label="The charts could not be drawn.", state="error")
+        except Exception as exc:  # the renderer's failure must not reach the screen raw
+            log.exception("the memo could not be printed")
+            status.update(label="The memo could not be printed.", state="error")
+            st.error(f"The memo could not be printed ({type(exc).__name__}: {exc}). Your inputs are kept.")
 
 
 def _memo_print_panel(results: Any, stem: str) -> None:
@@ -93,12 +112,28 @@ results = _ui.header(
 )
 ss = st.session_state
 
+RISK_COLUMNS = (
+    _ui.Column("risk", "Risk", kind="text", required=True, max_chars=300),
+    _ui.Column("mitigant", "Mitigant", kind="text", max_chars=300, default=""),
+)
+
 left, right = st.columns([2, 1])
 with left:
     _ui.text_field("Request", "memo.request", area=True, height=80)
     _ui.text_field("Summary", "memo.summary", area=True, height=160)
     _ui.text_field("Recommendation", "memo.recommendation", area=True, height=100)
     _ui.text_field("Conditions", "memo.conditions", area=True, height=120)
+    _ui.text_field("Grade rationale (one line on the decision page)", "memo.rationale")
+    st.markdown("**Key risks and mitigants** (the decision page prints the first three)")
+    _ui.grid("memo.risks", RISK_COLUMNS, name="risk_grid", defaults={"mitigant": ""})
+    _ui.show_problems("memo.risks")
+    _ui.text_field("Why this default point", "memo.default_point_reason", area=True, height=90)
+    _ui.text_field(
+        "Cross-checks reconciled (required when a cross-check's grade is more than two notches away)",
+        "memo.cross_check_explanation",
+        area=True,
+        height=90,
+    )
 with right:
     _ui.text_field("Prepared by", "memo.prepared_by")
     _ui.text_field("Reviewed by", "memo.reviewed_by")

@@ -5,7 +5,7 @@ from __future__ import annotations
 import streamlit as st
 from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import money, num, pct
-from obligor_memo.app.workbench import state
+from obligor_memo.app.workbench import entry, state
 from obligor_memo.app.workbench import ui as _ui
 
 results = _ui.header(
@@ -66,17 +66,17 @@ with left:
     )
     if fac_raw.get("recovery") is not None:
         c1, c2, c3 = st.columns(3)
-        _ui.number_field("Mean [fraction]", f"{base}.recovery.mean", where=c1, step=0.05, fmt="%.3f")
-        _ui.number_field("Std [fraction]", f"{base}.recovery.std", where=c2, step=0.01, fmt="%.3f")
-        _ui.number_field("Upper [fraction]", f"{base}.recovery.upper", where=c3, step=0.05, fmt="%.2f")
+        _ui.number_field("Recovery mean (%)", f"{base}.recovery.mean", where=c1, unit=entry.PERCENT)
+        _ui.number_field("Recovery std (%)", f"{base}.recovery.std", where=c2, unit=entry.PERCENT)
+        _ui.number_field("Upper bound (%)", f"{base}.recovery.upper", where=c3, unit=entry.PERCENT)
     key = f"coll_on{ss.gen}:{index}"
     st.toggle(
         "Collateral", value=fac_raw.get("collateral") is not None, key=key, on_change=_toggle_collateral, args=(key,)
     )
     if fac_raw.get("collateral") is not None:
         c1, c2 = st.columns(2)
-        _ui.number_field(f"Value [{cur}]", f"{base}.collateral.value", where=c1, step=1e6, fmt="%.0f")
-        _ui.number_field("Haircut [fraction]", f"{base}.collateral.haircut", where=c2, step=0.05, fmt="%.2f")
+        _ui.number_field(f"Collateral value ({cur})", f"{base}.collateral.value", where=c1, unit=entry.MONEY)
+        _ui.number_field("Haircut (%)", f"{base}.collateral.haircut", where=c2, unit=entry.PERCENT)
         _ui.text_field("Collateral description", f"{base}.collateral.description")
     st.subheader("For all facilities")
     _ui.select_field(
@@ -85,7 +85,7 @@ with left:
         ["basel_iii", "basel_ii"],
         labels={"basel_iii": "Basel III final (2017)", "basel_ii": "Basel II (2006)"},
     )
-    _ui.number_field("Default recovery std [fraction]", "lgd.default_recovery_std", step=0.01, fmt="%.3f")
+    _ui.number_field("Default recovery std (%)", "lgd.default_recovery_std", unit=entry.PERCENT)
     _ui.select_field(
         "Downturn LGD for capital",
         "lgd.downturn.method",
@@ -94,9 +94,9 @@ with left:
     )
     method = state.get_path(ss.raw, "lgd.downturn.method", "none")
     if method == "quantile":
-        _ui.number_field("Downturn quantile [fraction]", "lgd.downturn.quantile", step=0.05, fmt="%.2f")
+        _ui.number_field("Downturn quantile (%)", "lgd.downturn.quantile", unit=entry.PERCENT)
     elif method == "add_on":
-        _ui.number_field("Add-on [fraction]", "lgd.downturn.add_on", step=0.01, fmt="%.3f")
+        _ui.number_field("Add-on to the LGD (percentage points)", "lgd.downturn.add_on", unit=entry.PERCENT)
 
 with right:
     if fac_res is None:

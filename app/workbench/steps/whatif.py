@@ -15,6 +15,7 @@ import pandas as pd
 import streamlit as st
 from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import millions, money, num, pct, pd_pct
+from obligor_memo.app.workbench import entry
 from obligor_memo.app.workbench import ui as _ui
 from obligor_memo.engine.errors import CaseError
 from obligor_memo.engine.scenarios import apply_overrides, headline_delta, headline_figures
@@ -37,12 +38,23 @@ WHERE = "what-if"
 # --------------------------------------------------------------------------- controls
 
 
-def _set(paths: dict[str, object], key: str) -> None:
+def _set(paths: dict[str, object], key: str, unit: str, label: str) -> None:
     """Store one control; ``paths`` are companion values that must travel with it (a recovery
-    block the case lacks needs its std and upper as well as the mean)."""
-    settings = dict(st.session_state.whatif)
-    value = st.session_state[key]
+    block the case lacks needs its std and upper as well as the mean). Text that is not a
+    number is kept in the field with a message; the settings do not change."""
+    ss = st.session_state
+    settings = dict(ss.whatif)
     path = next(iter(paths))
+    typed, errors = dict(ss.get("whatif_typed") or {}), dict(ss.get("whatif_errors") or {})
+    try:
+        value = entry.store(entry.parse(ss[key], unit), unit)
+    except entry.EntryError as exc:
+        typed[path], errors[path] = ss[key], f"{label}: {exc.reason}."
+        ss.whatif_typed, ss.whatif_errors = typed, errors
+        return
+    typed.pop(path, None)
+    errors.pop(path, None)
+    ss.whatif_typed, ss.whatif_errors = typed, errors
     if value is None:
         for p in paths:
             settings.pop(p, None)
@@ -54,6 +66,7 @@ def _set(paths: dict[str, object], key: str) -> None:
 
 def _reset() -> None:
     st.session_state.wgen = st.session_state.get("wgen", 0) + 1
+    st.session_state.whatif_typed, st.session_state.whatif_errors = {}, {}
     _ui.set_whatif({})
 
 
@@ -63,29 +76,26 @@ def control(
     base_value,
     *,
     where,
-    step: float,
-    fmt: str,
-    lowest: float | None = None,
-    highest: float | None = None,
+    unit: str = entry.PERCENT,
     placeholder: str | None = None,
     help: str | None = None,
     companions: dict[str, object] | None = None,
 ) -> None:
     key = f"w{ss.get('wgen', 0)}:{ss.gen}:{path}"
     value = overlay.get(path, base_value)
-    where.number_input(
+    typed = (ss.get("whatif_typed") or {}).get(path)
+    where.text_input(
         label,
-        value=None if value is None else float(value),
-        step=step,
-        format=fmt,
+        value=typed if typed is not None else entry.show(value, unit),
         key=key,
-        min_value=lowest,
-        max_value=highest,
         placeholder=placeholder,
-        help=help,
+        help=help or entry.allowed_form(unit).capitalize() + ".",
         on_change=_set,
-        args=({path: None, **(companions or {})}, key),
+        args=({path: None, **(companions or {})}, key, unit, label),
     )
+    error = (ss.get("whatif_errors") or {}).get(path)
+    if error:
+        where.error(error, icon=":material/error:")
 
 
 p = base_results.pd
@@ -98,92 +108,62 @@ st.caption(
 )
 c = st.columns(4)
 control(
-    "Short-term share of the default point",
+    "Short-term share of the default point (%)",
     "pd.default_point.short_term_share",
     p.short_term_share,
     where=c[0],
-    step=0.05,
-    fmt="%.2f",
-    lowest=0.0,
-    highest=1.0,
     help="Default point = short-term share x short-term liabilities + long-term share x long-term "
-    "liabilities [fraction]; 1.0 is common practice.",
+    "liabilities; 100 % is common practice.",
 )
 control(
-    "Long-term share of the default point",
+    "Long-term share of the default point (%)",
     "pd.default_point.long_term_share",
     p.long_term_share,
     where=c[1],
-    step=0.05,
-    fmt="%.2f",
-    lowest=0.0,
-    highest=1.0,
-    help="[fraction]; 0.5 is common practice.",
+    help="50 % is common practice.",
 )
 if market:
     control(
-        "Equity volatility [1/sqrt(year)]",
+        "Equity volatility (% a year)",
         "market.equity_volatility",
         base_case.market.equity_volatility,
         where=c[2],
-        step=0.01,
-        fmt="%.4f",
-        lowest=0.0001,
-        highest=5.0,
         help="The market method solves asset value and volatility from the equity market.",
     )
 else:
     control(
-        "Asset volatility [1/sqrt(year)]",
+        "Asset volatility (% a year)",
         "pd.asset_volatility",
         given.asset_volatility,
         where=c[2],
-        step=0.01,
-        fmt="%.4f",
-        lowest=0.0001,
-        highest=3.0,
         placeholder=f"estimate {pct(p.asset_volatility)}",
         help=f"Empty: the estimate from the statements ({pct(p.asset_volatility)}).",
     )
 control(
-    "Asset growth [1/year]",
+    "Asset growth (% a year)",
     "pd.asset_growth",
     given.asset_growth,
     where=c[3],
-    step=0.01,
-    fmt="%.4f",
-    lowest=-1.0,
-    highest=1.0,
     placeholder=f"estimate {pct(p.asset_growth)}" if p.asset_growth is not None else "estimate",
     help="Empty: the slope of the log-linear asset trend.",
 )
 c = st.columns(4)
-control(
-    "Horizon [years]", "pd.horizon_years", p.horizon_years, where=c[0], step=0.5, fmt="%.2f", lowest=0.01, highest=30.0
-)
+control("Horizon (years)", "pd.horizon_years", p.horizon_years, where=c[0], unit=entry.YEARS)
 ids = [f.id for f in base_results.facilities]
 chosen = c[1].selectbox("Facility for CCF and recovery", ids, key="whatif_facility")
 fac = next(f for f in base_results.facilities if f.id == chosen)
 has_block = next(f for f in base_case.facilities if f.id == chosen).recovery is not None
 control(
-    f"CCF of {chosen} [fraction]",
+    f"CCF of {chosen} (%)",
     f"facilities.{chosen}.ccf",
     fac.ccf,
     where=c[2],
-    step=0.05,
-    fmt="%.2f",
-    lowest=0.0,
-    highest=1.0,
 )
 control(
-    f"Recovery mean of {chosen} [fraction]",
+    f"Recovery mean of {chosen} (%)",
     f"facilities.{chosen}.recovery.mean",
     fac.recovery_mean,
     where=c[3],
-    step=0.05,
-    fmt="%.3f",
-    lowest=0.0,
-    highest=fac.recovery_upper,
     companions=None
     if has_block
     else {
@@ -194,10 +174,7 @@ control(
 )
 st.button("Clear the what-if settings", on_click=_reset, icon=":material/undo:", disabled=not overlay)
 if overlay:
-    st.caption(
-        "What-if settings: "
-        + ", ".join(f"`{k}` = {v:g}" if isinstance(v, float) else f"`{k}` = {v}" for k, v in overlay.items())
-    )
+    st.caption("What-if settings: " + "; ".join(entry.override_words(k, v) for k, v in overlay.items()))
 
 
 # --------------------------------------------------------------------------- what-if results
@@ -391,7 +368,7 @@ st.dataframe(pd.DataFrame(rows).set_index("Scenario"), width="stretch")
 if compared:
     _ui.chart(st, charts.scenarios_figure(_ui.analysed(base_case)), key="scenarios")
     for s in compared:
-        settings = ", ".join(f"`{k}` = {v}" for k, v in s.overrides)
+        settings = "; ".join(entry.override_words(k, v) for k, v in s.overrides)
         st.caption(f"**{s.name}**: {s.description or '(no description)'} ({settings})")
     c = st.columns([2, 1, 1])
     del_key = f"scn_delete{ss.gen}"
