@@ -482,9 +482,10 @@ def key_figures(where: Any) -> None:
         ("RWA", millions(t.rwa, cur)),
     ]
     if p is not None:
-        rows.append((f"Capital ({p.capital_basis_label})", millions(p.capital, cur)))
-        verdict = "meets" if p.meets_hurdle else "below"
-        rows.append(("RAROC", f"{pct(p.raroc, 1)} ({verdict} the {pct(p.hurdle_rate, 0)} hurdle)"))
+        basis = {"regulatory": "regulatory", "economic": "economic"}.get(str(p.capital_basis), str(p.capital_basis))
+        rows.append((f"Capital, {basis}", millions(p.capital, cur)))
+        rows.append(("RAROC", pct(p.raroc, 1)))
+        rows.append((f"Hurdle {pct(p.hurdle_rate, 0)}", "met" if p.meets_hurdle else "not met"))
     else:
         rows.append(("Regulatory capital", millions(t.regulatory_capital, cur)))
         rows.append(("RAROC", "no pricing proposal"))
@@ -521,8 +522,17 @@ class Column:
     help: str | None = None
     max_chars: int | None = None
     default: Any = None
+    empty_text: str | None = None
+    """For an optional number: the word an empty cell shows ("preset"); the cell is then typed as
+    text and read as people write numbers."""
 
     def to_screen(self, value: Any) -> Any:
+        if self.kind == "number" and self.empty_text is not None:
+            if value is None:
+                return self.empty_text
+            if isinstance(value, (int, float)) and not isinstance(value, bool):
+                return entry.show(value, self.unit)
+            return str(value)
         if self.kind == "select":
             return (self.options or {}).get(value, value)
         if self.kind == "check":
@@ -543,6 +553,8 @@ class Column:
             return bool(value)
         if self.kind == "number":
             if isinstance(value, str):
+                if self.empty_text is not None and value.strip().casefold() in (self.empty_text.casefold(), ""):
+                    return None
                 try:
                     value = entry.parse(value, self.unit)
                 except entry.EntryError:
@@ -562,7 +574,7 @@ class Column:
             )
         if self.kind == "check":
             return cc.CheckboxColumn(self.label, help=self.help)
-        if self.kind == "text":
+        if self.kind == "text" or self.empty_text is not None:
             return cc.TextColumn(self.label, required=self.required, max_chars=self.max_chars, help=self.help)
         fmt = {entry.PERCENT: "%.2f %%", entry.INTEGER: "%d", entry.YEARS: "%.2f", entry.MONEY: "localized"}
         return cc.NumberColumn(
@@ -576,7 +588,7 @@ def _grid_frame(records: list[Any], columns: tuple[Column, ...]) -> Any:
     data = {c.name: [c.to_screen(r.get(c.name) if isinstance(r, dict) else None) for r in records] for c in columns}
     frame = pd.DataFrame(data, columns=[c.name for c in columns])
     for c in columns:
-        if c.kind == "number":
+        if c.kind == "number" and c.empty_text is None:
             frame[c.name] = pd.to_numeric(frame[c.name], errors="coerce").astype("float64")
         elif c.kind == "check":
             frame[c.name] = frame[c.name].astype(bool)

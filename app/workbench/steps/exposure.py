@@ -28,7 +28,13 @@ FACILITY_COLUMNS = (
     _ui.Column("status", "Request", kind="select", options=STATUSES),
     _ui.Column("committed", "Committed", unit=entry.MONEY, required=True),
     _ui.Column("drawn", "Drawn", unit=entry.MONEY, required=True),
-    _ui.Column("ccf", "CCF (%)", unit=entry.PERCENT, help="Empty: the preset of the facility's kind."),
+    _ui.Column(
+        "ccf",
+        "CCF (%)",
+        unit=entry.PERCENT,
+        empty_text="preset",
+        help="A percentage such as 75; 'preset' (or empty): the preset of the facility's kind.",
+    ),
     _ui.Column("cancellable", "Cancellable", kind="check", default=False),
     _ui.Column("seniority", "Seniority", kind="select", options=SENIORITIES, required=True),
     _ui.Column("maturity_years", "Maturity (years)", unit=entry.YEARS, required=True),
@@ -65,34 +71,35 @@ _ui.show_problems("facilities")
 
 if results is None:
     st.stop()
-st.subheader(f"Exposure at default [{cur}]")
+st.subheader(f"Exposure at default ({cur})")
 st.dataframe(
     pd.DataFrame(
         [
             {
-                "facility": f.id,
-                "kind": f.kind.replace("_", " "),
-                "drawn": money(f.drawn),
-                "undrawn": money(f.undrawn),
+                "Facility": f.id,
+                "Kind": KINDS.get(f.kind, f.kind),
+                "Drawn": money(f.drawn),
+                "Undrawn": money(f.undrawn),
                 "CCF": pct(f.ccf, 0),
-                "CCF source": f.ccf_source,
                 "EAD": money(f.ead),
+                "CCF source": f.ccf_source,
             }
             for f in results.facilities
         ]
         + [
             {
-                "facility": "Total",
-                "kind": "",
-                "drawn": "",
-                "undrawn": "",
+                "Facility": "Total",
+                "Kind": "",
+                "Drawn": "",
+                "Undrawn": "",
                 "CCF": "",
-                "CCF source": "",
                 "EAD": money(results.total.ead),
+                "CCF source": "",
             }
         ]
     ),
     hide_index=True,
+    column_config={"CCF source": st.column_config.TextColumn("CCF source", width="large")},
 )
 _ui.chart(st, charts.exposure_figure(results), key="exposure")
 for caution in results.cautions:
