@@ -103,20 +103,30 @@ def grid_rows(page, index: int = 0) -> list[list[str]]:
         page.wait_for_timeout(200)
 
 
-def edit_cell(page, row: int, column: int, text: str, index: int = 0) -> None:
+def edit_cell(page, row: int, column: int, text: str, index: int = 0, shown: str | None = None) -> None:
     """Type ``text`` into the cell (``row`` 0 is the first data row, ``column`` 0 the first
-    column) as a user does: click, move with the arrow keys, Enter, type, Enter."""
-    box = grid(page, index).bounding_box()
-    page.mouse.click(box["x"] + 60, box["y"] + 35 + 35 * row + 17)
-    page.wait_for_timeout(150)
-    for _ in range(column):
-        page.keyboard.press("ArrowRight")
-    page.keyboard.press("Enter")
-    page.wait_for_timeout(250)
-    page.keyboard.press("Control+A")
-    page.keyboard.type(text, delay=40)
-    page.keyboard.press("Enter")
-    settle(page)
+    column) as a user does: click, move with the arrow keys, Enter, type, Enter; then read the
+    cell back (``shown``: what it should then show, by default ``text``).
+
+    A click that lands while the page is still drawing the grid is lost, as it would be for a
+    user clicking that fast; the edit is then typed again, at most three times in all."""
+    for _ in range(3):
+        box = grid(page, index).bounding_box()
+        page.mouse.click(box["x"] + 60, box["y"] + 35 + 35 * row + 17)
+        page.wait_for_timeout(150)
+        for _ in range(column):
+            page.keyboard.press("ArrowRight")
+        page.keyboard.press("Enter")
+        page.wait_for_timeout(250)
+        page.keyboard.press("Control+A")
+        page.keyboard.type(text, delay=40)
+        page.keyboard.press("Enter")
+        settle(page)
+        rows = grid_rows(page, index)
+        if len(rows) > row + 1 and len(rows[row + 1]) > column and rows[row + 1][column] == (shown or text):
+            return
+        page.wait_for_timeout(1000)
+    raise AssertionError(f"the grid's cell ({row}, {column}) does not show {shown or text!r} after typing it")
 
 
 def delete_row(page, row: int, index: int = 0) -> None:

@@ -91,8 +91,8 @@ def test_default_point_moves_pd(server):
         before = _metric(page, "PD in force")
         page.screenshot(path=str(ARTIFACTS / "02_asset_pd_before.png"), full_page=True)
 
-        box = page.get_by_label("Long-term share [fraction]")
-        box.fill("1.00")
+        box = page.get_by_role("textbox", name="Long-term share (%)", exact=True)
+        box.fill("100")
         box.press("Enter")
         page.wait_for_function(
             "(old) => [...document.querySelectorAll('[data-testid=\"stMetric\"]')]"
@@ -109,10 +109,10 @@ def test_default_point_moves_pd(server):
         assert float(after.rstrip(" %")) > float(before.rstrip(" %"))
 
         # A value out of range gets a message beside the field; the PD shown stays the last valid.
-        box = page.get_by_label("Short-term share [fraction]")
-        box.fill("-0.5")
+        box = page.get_by_role("textbox", name="Short-term share (%)", exact=True)
+        box.fill("-50")
         box.press("Enter")
-        page.get_by_text("pd.default_point.short_term_share").first.wait_for(timeout=15000)
+        page.get_by_text("Short-term share of the default point: got -50 %").first.wait_for(timeout=15000)
         _settle(page)
         assert _metric(page, "PD in force") == after
         page.screenshot(path=str(ARTIFACTS / "04_bad_value.png"), full_page=True)
@@ -141,9 +141,9 @@ def test_default_point_moves_pd(server):
         page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=20000)
         _settle(page)
         before = _metric(page, "PD in force")
-        # The case's share is 1.00 after the edit above; the what-if lightens it.
-        box = page.get_by_role("spinbutton", name="Long-term share of the default point")
-        box.fill("0.30")
+        # The case's share is 100 % after the edit above; the what-if lightens it.
+        box = page.get_by_role("textbox", name="Long-term share of the default point (%)", exact=True)
+        box.fill("30")
         box.press("Enter")
         page.wait_for_function(
             "(old) => [...document.querySelectorAll('[data-testid=\"stMetric\"]')]"
@@ -165,9 +165,9 @@ def test_default_point_moves_pd(server):
         # The autosave keeps what was typed: a fresh load of the same address restores it.
         page.reload(wait_until="networkidle")
         page.get_by_role("link", name="Asset trend and PD").click()
-        page.get_by_label("Long-term share [fraction]").wait_for(timeout=20000)
+        page.get_by_role("textbox", name="Long-term share (%)", exact=True).wait_for(timeout=20000)
         _settle(page)
-        assert page.get_by_label("Long-term share [fraction]").input_value() == "1.00"
+        assert page.get_by_role("textbox", name="Long-term share (%)", exact=True).input_value() == "100"
         browser.close()
     saved = list((Path(workdir) / "cases").glob("*.json"))
     assert len(saved) >= 1
