@@ -26,9 +26,9 @@ from dataclasses import dataclass
 
 import numpy as np
 from obligor_memo.engine.capital import irb_corporate_capital, irb_corporate_correlation, single_factor_capital
-from obligor_memo.engine.case import Case
+from obligor_memo.engine.case import Case, Facility
 from obligor_memo.engine.errors import Caution
-from obligor_memo.engine.exposure import FacilityExposure, ccf_preset, facility_exposure
+from obligor_memo.engine.exposure import FacilityExposure, FacilityKind, Standard, ccf_preset, facility_exposure
 
 FOUNDATION_MATURITY_YEARS = 2.5
 """Foundation-approach effective maturity [years] (Basel II para 318)."""
@@ -36,7 +36,9 @@ FOUNDATION_COMMITMENT_CCF_BASEL_II = 0.75
 """Foundation-IRB CCF of commitments under Basel II [fraction] (para 311)."""
 
 
-def foundation_ccf(kind: str, *, standard: str, maturity_years: float, cancellable: bool) -> tuple[float, str]:
+def foundation_ccf(
+    kind: FacilityKind, *, standard: Standard, maturity_years: float, cancellable: bool
+) -> tuple[float, str]:
     """The foundation-IRB CCF of a facility kind and its source (see the module docstring)."""
     if standard == "basel_ii" and kind in ("term_loan", "revolver"):
         if cancellable:
@@ -45,13 +47,13 @@ def foundation_ccf(kind: str, *, standard: str, maturity_years: float, cancellab
     ccf, source = ccf_preset(
         kind,
         standard=standard,
-        maturity_years=maturity_years,  # type: ignore[arg-type]
+        maturity_years=maturity_years,
         cancellable=cancellable,
     )
     return ccf, f"foundation IRB = standardised ({source})"
 
 
-def capital_exposure(case: Case, facility, exposure: FacilityExposure) -> FacilityExposure:
+def capital_exposure(case: Case, facility: Facility, exposure: FacilityExposure) -> FacilityExposure:
     """The EAD of the risk weight: the exposure step's, or on the foundation-IRB CCF."""
     if case.capital.capital_ccf == "exposure":
         return exposure
@@ -64,7 +66,7 @@ def capital_exposure(case: Case, facility, exposure: FacilityExposure) -> Facili
     return facility_exposure(
         id=exposure.id,
         kind=exposure.kind,
-        drawn=exposure.drawn,  # type: ignore[arg-type]
+        drawn=exposure.drawn,
         committed=exposure.committed,
         ccf=ccf,
         ccf_source=source,
@@ -143,7 +145,7 @@ def capital_figures(
     pd_el = np.asarray(cap.pd_used) if settings.el_pd_floor else np.full(n, pd_one_year)
     rho = settings.economic_correlation
     if rho is None:
-        rho = irb_corporate_correlation(min(max(pd_one_year, 0.0), 1.0), settings.annual_sales_eur_millions)
+        rho = float(irb_corporate_correlation(min(max(pd_one_year, 0.0), 1.0), settings.annual_sales_eur_millions))
     sf = single_factor_capital(
         pd=np.full(n, min(max(pd_one_year, 0.0), 1.0)),
         lgd=np.clip(np.array(mean_lgds), 0.0, 1.0),

@@ -72,7 +72,7 @@ def exposure_at_default(*, drawn: float, committed: float, ccf: float) -> float:
 @dataclass(frozen=True)
 class FacilityExposure:
     id: str
-    kind: str
+    kind: FacilityKind
     drawn: float  # [currency]
     committed: float  # [currency]
     undrawn: float  # max(committed - drawn, 0) [currency]

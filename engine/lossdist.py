@@ -45,9 +45,10 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal, Protocol
+from typing import Literal, Protocol, cast
 
 import numpy as np
+import numpy.typing as npt
 
 Join = Literal["comonotonic", "independent"]
 JOINS: tuple[str, ...] = ("comonotonic", "independent")
@@ -61,14 +62,30 @@ DEFAULT_SEED = 20_061_999
 # of doubles near 1, so the curve is as exact as the recovery laws' ppf.
 
 
+FloatArray = npt.NDArray[np.float64]
+"""An array of floats (numpy ``float64``)."""
+
+
 class RecoveryLaw(Protocol):
     """Distribution of a recovery rate on [0, 1] [fraction]."""
 
-    def ppf(self, q: np.ndarray) -> np.ndarray: ...
+    def ppf(self, q: FloatArray) -> float | FloatArray: ...
 
     def mean(self) -> float: ...
 
     def var(self) -> float: ...
+
+
+class _LawWithCdf(RecoveryLaw, Protocol):
+    """A recovery law with its CDF (the independent join's convolution reads it)."""
+
+    def cdf(self, x: FloatArray) -> float | FloatArray: ...
+
+
+class _LawWithPpfIntegral(RecoveryLaw, Protocol):
+    """A recovery law with the closed-form integral of its quantile function."""
+
+    def ppf_integral(self, u: float) -> float: ...
 
 
 @dataclass(frozen=True)
@@ -139,10 +156,10 @@ def _check_probability(name: str, value: float, *, open_low: float | None = None
     return number
 
 
-def _check_join(join: str) -> str:
+def _check_join(join: str) -> Join:
     if join not in JOINS:
         raise ValueError(f"join must be one of {', '.join(JOINS)}; got {join!r}")
-    return join
+    return cast(Join, join)
 
 
 def _check_exposures_and_laws(
@@ -334,7 +351,8 @@ def _comonotonic_tail(
 
     if all(hasattr(law, "ppf_integral") for law in laws):
         # Closed form: integral_0^end G = sum EAD_i (end - integral_0^end F_i^-1).
-        integral = sum(float(e) * (end - law.ppf_integral(end)) for e, law in zip(exposures, laws) if e > 0.0)
+        closed_form = cast(Sequence[_LawWithPpfIntegral], laws)
+        integral = sum(float(e) * (end - law.ppf_integral(end)) for e, law in zip(exposures, closed_form) if e > 0.0)
         return value_at_risk, probability / tail * integral, 0.0
 
     from scipy import integrate  # deferred: only recovery laws without a closed form need it
@@ -354,7 +372,7 @@ def _law_cdf_of_loss(law: RecoveryLaw, ead: float, x: np.ndarray) -> np.ndarray:
     r = 1.0 - x / ead
     if getattr(law, "point_mass", False) or float(law.var()) == 0.0:
         return (r <= float(law.mean())).astype(float)
-    return 1.0 - np.asarray(law.cdf(r), dtype=float)
+    return 1.0 - np.asarray(cast(_LawWithCdf, law).cdf(r), dtype=float)
 
 
 def _independent_fft(

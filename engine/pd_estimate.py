@@ -12,12 +12,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from obligor_memo.engine.case import Case
+from obligor_memo.engine.case import Case, PdSettings
 from obligor_memo.engine.errors import CaseError, Caution, InputError
 from obligor_memo.engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
 from obligor_memo.engine.market import MertonSolution, solve_merton
 from obligor_memo.engine.naive_dd import NaiveDD, naive_distance_to_default
 from obligor_memo.engine.structural import (
+    BalanceSheetPd,
     PdTermStructure,
     balance_sheet_pd,
     constant_hazard_term_structure,
@@ -105,21 +106,23 @@ def estimate_pd(
             cautions.append(Caution("trend.unavailable", "No asset trend: " + exc.problems[0].allowed, "statements"))
         market = _market(case, required=True)
         m = market.merton
+        mk = case.market
+        # The schema requires market data for the market method; a required solve that fails raises.
+        assert mk is not None and m is not None
         measure = settings.measure
-        drift = case.market.risk_free_rate
+        drift = mk.risk_free_rate
         if measure == "physical":
-            drift = (
-                case.market.asset_drift
-                if case.market.asset_drift is not None
-                else (trend.expected_return if trend is not None else None)
+            physical_drift = (
+                mk.asset_drift if mk.asset_drift is not None else (trend.expected_return if trend is not None else None)
             )
-            if drift is None:
+            if physical_drift is None:
                 raise CaseError.single(
                     "pd.measure",
                     "physical",
                     "risk_neutral, or physical together with market.asset_drift or enough statements for a trend",
                 )
-            if case.market.asset_drift is None:
+            drift = physical_drift
+            if mk.asset_drift is None:
                 cautions.append(
                     Caution(
                         "market.drift_from_trend",
@@ -153,7 +156,7 @@ def estimate_pd(
             grade_lower=None,
             grade_upper=None,
         )
-        model_pd = pd_from_distance(result.distance_to_default)
+        model_pd = float(pd_from_distance(result.distance_to_default))
         result = replace(result, model_pd=model_pd, pd=model_pd)
         return trend, *_with_override(settings, result, cautions), market
     trend, bs, cautions = _balance_sheet(case)
@@ -177,10 +180,10 @@ def estimate_pd(
         grade_lower=None,
         grade_upper=None,
     )
-    market = _market(case, required=False) if (case.market is not None and cross_check) else None
-    if market is not None and market.message:
-        cautions.append(Caution("market.unsolved", market.message, "market"))
-    return trend, *_with_override(settings, result, cautions), market
+    cross = _market(case, required=False) if (case.market is not None and cross_check) else None
+    if cross is not None and cross.message:
+        cautions.append(Caution("market.unsolved", cross.message, "market"))
+    return trend, *_with_override(settings, result, cautions), cross
 
 
 def hazard_convert(pd: float, *, from_years: float, to_years: float) -> float:
@@ -194,7 +197,7 @@ def hazard_convert(pd: float, *, from_years: float, to_years: float) -> float:
     return -math.expm1(to_years / from_years * math.log1p(-pd))
 
 
-def _with_override(settings, result: PdResult, cautions: list[Caution]) -> tuple[PdResult, list[Caution]]:
+def _with_override(settings: PdSettings, result: PdResult, cautions: list[Caution]) -> tuple[PdResult, list[Caution]]:
     """The PD in force over the horizon and over one year, the override converted where set."""
     horizon = settings.horizon_years
     if settings.override is None:
@@ -252,6 +255,7 @@ def _with_override(settings, result: PdResult, cautions: list[Caution]) -> tuple
 def _market(case: Case, *, required: bool) -> MarketResult:
     """Solve the Merton model with the balance-sheet default point as the debt barrier."""
     mk = case.market
+    assert mk is not None  # called only when the case has market data
     latest = case.statements[-1]
     dp = (
         case.pd.default_point.short_term_share * latest.short_term_liabilities
@@ -285,7 +289,7 @@ def _market(case: Case, *, required: bool) -> MarketResult:
     return MarketResult(default_point=dp, merton=merton, naive=naive, message=message)
 
 
-def _balance_sheet(case: Case):
+def _balance_sheet(case: Case) -> tuple[AssetTrend, BalanceSheetPd, list[Caution]]:
     """Asset trend and balance-sheet PD; user-facing errors as CaseError."""
     cautions: list[Caution] = []
     settings = case.pd

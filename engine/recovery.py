@@ -35,9 +35,14 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from functools import cached_property
+from typing import overload
 
 import numpy as np
+import numpy.typing as npt
 from scipy import special
+
+FloatArray = npt.NDArray[np.float64]
+"""An array of floats (numpy ``float64``)."""
 
 _SUPERVISORY_LGD = {
     "basel_ii": {
@@ -155,16 +160,23 @@ class RecoveryLaw:
     def std(self) -> float:
         return math.sqrt(self.var())
 
+    @property
+    def _shapes(self) -> tuple[float, float]:
+        """The beta shapes (a, b); a point mass has none (TypeError)."""
+        if self.alpha is None or self.beta is None:
+            raise TypeError("a point-mass recovery law has no beta shapes")
+        return self.alpha, self.beta
+
     @cached_property
     def median_split(self) -> float:
         """u = I_{1/2}(a, b): below it the beta quantile is under 1/2, above it over 1/2."""
-        return float(special.betainc(self.alpha, self.beta, 0.5))
+        return float(special.betainc(*self._shapes, 0.5))
 
     @cached_property
     def _log_beta(self) -> float:
-        return float(special.betaln(self.alpha, self.beta))
+        return float(special.betaln(*self._shapes))
 
-    def _unit_quantile(self, q: np.ndarray) -> np.ndarray:
+    def _unit_quantile(self, q: FloatArray) -> FloatArray:
         """Quantile of B ~ beta(a, b) accurate near both ends.
 
         Below the median split, z = I^-1_q(a, b); above it, z = 1 - I^-1_{1-q}(b, a), so a
@@ -173,7 +185,7 @@ class RecoveryLaw:
         Stegun 26.5.4) is inverted in logarithms: with shapes far below 1 (a std near its limit)
         the law is almost two atoms at 0 and 1 and the iterative inverse loses its digits.
         """
-        a, b = self.alpha, self.beta
+        a, b = self._shapes
         split = self.median_split
         log_beta = self._log_beta
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
@@ -185,7 +197,11 @@ class RecoveryLaw:
             high = np.where((high_lead < _LEAD_TERM) | np.isnan(high), high_lead, high)
         return np.where(q <= split, low, 1.0 - high)
 
-    def ppf(self, q):
+    @overload
+    def ppf(self, q: float) -> float: ...
+    @overload
+    def ppf(self, q: npt.ArrayLike) -> float | FloatArray: ...
+    def ppf(self, q: npt.ArrayLike) -> float | FloatArray:
         q = np.asarray(q, dtype=float)
         if self.point_mass:
             out = np.full_like(q, self.mean())
@@ -193,16 +209,20 @@ class RecoveryLaw:
             out = self.offset + self.scale * self._unit_quantile(q)
         return float(out) if out.ndim == 0 else out
 
-    def cdf(self, x):
+    @overload
+    def cdf(self, x: float) -> float: ...
+    @overload
+    def cdf(self, x: npt.ArrayLike) -> float | FloatArray: ...
+    def cdf(self, x: npt.ArrayLike) -> float | FloatArray:
         x = np.asarray(x, dtype=float)
         if self.point_mass:
             out = (x >= self.mean()).astype(float)
         else:
             z = np.clip((x - self.offset) / self.scale, 0.0, 1.0)
-            out = special.betainc(self.alpha, self.beta, z)
+            out = special.betainc(*self._shapes, z)
         return float(out) if out.ndim == 0 else out
 
-    def pdf(self, x):
+    def pdf(self, x: npt.ArrayLike) -> FloatArray:
         """Density [1/fraction]; 0 outside the support; undefined (nan-free 0) for a point mass."""
         x = np.asarray(x, dtype=float)
         if self.point_mass:
@@ -210,12 +230,8 @@ class RecoveryLaw:
         z = (x - self.offset) / self.scale
         inside = (z > 0) & (z < 1)
         zc = np.where(inside, z, 0.5)
-        log_pdf = (
-            (self.alpha - 1) * np.log(zc)
-            + (self.beta - 1) * np.log1p(-zc)
-            - special.betaln(self.alpha, self.beta)
-            - math.log(self.scale)
-        )
+        a, b = self._shapes
+        log_pdf = (a - 1) * np.log(zc) + (b - 1) * np.log1p(-zc) - special.betaln(a, b) - math.log(self.scale)
         return np.where(inside, np.exp(log_pdf), 0.0)
 
     def ppf_integral(self, u: float) -> float:
@@ -229,7 +245,7 @@ class RecoveryLaw:
             raise ValueError(f"u: got {u!r}; allowed: 0 to 1")
         if self.point_mass:
             return self.mean() * u
-        a, b = self.alpha, self.beta
+        a, b = self._shapes
         m = a / (a + b)
         if u <= 0.0:
             return 0.0

@@ -202,6 +202,9 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
         step = float(getattr(steps, name))
         row_notes: list[str] = []
         shifts: list[FacilityShift] = []
+        value: float | None
+        low_value: float | None
+        high_value: float | None
         if name in _CASE_LEVEL:
             path, lowest, highest, unit, label = _CASE_LEVEL[name]
             value = _case_level_base(name, base.pd)
@@ -241,9 +244,10 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
                 row_notes.append(f"the {side} case does not validate: {outcome.paragraph()}")
             elif isinstance(outcome, ValueError):
                 row_notes.append(f"the engine could not evaluate the {side} case: {outcome}")
-        low_ok, high_ok = isinstance(low, Results), isinstance(high, Results)
-        el_low = low.total.expected_loss if low_ok else None
-        el_high = high.total.expected_loss if high_ok else None
+        low_result = low if isinstance(low, Results) else None
+        high_result = high if isinstance(high, Results) else None
+        el_low = low_result.total.expected_loss if low_result is not None else None
+        el_high = high_result.total.expected_loss if high_result is not None else None
         el_base = base.total.expected_loss
         rows.append(
             SensitivityRow(
@@ -258,10 +262,10 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
                 facilities=tuple(shifts),
                 clipped=clipped,
                 pd_base=base.pd.pd,
-                pd_low=low.pd.pd if low_ok else None,
-                pd_high=high.pd.pd if high_ok else None,
-                model_pd_low=low.pd.model_pd if low_ok else None,
-                model_pd_high=high.pd.model_pd if high_ok else None,
+                pd_low=low_result.pd.pd if low_result is not None else None,
+                pd_high=high_result.pd.pd if high_result is not None else None,
+                model_pd_low=low_result.pd.model_pd if low_result is not None else None,
+                model_pd_high=high_result.pd.model_pd if high_result is not None else None,
                 el_base=el_base,
                 el_low=el_low,
                 el_high=el_high,

@@ -14,10 +14,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from typing import overload
 
 import numpy as np
+import numpy.typing as npt
 from obligor_memo.engine.errors import InputError
 from scipy.special import ndtr
+
+FloatArray = npt.NDArray[np.float64]
+"""An array of floats (numpy ``float64``)."""
 
 
 def default_point(
@@ -34,7 +39,27 @@ def default_point(
     return short_term_share * short_term_liabilities + long_term_share * long_term_liabilities
 
 
-def distance_to_default(*, asset_value, default_point, asset_return, asset_volatility, horizon_years):
+@overload
+def distance_to_default(
+    *, asset_value: float, default_point: float, asset_return: float, asset_volatility: float, horizon_years: float
+) -> float: ...
+@overload
+def distance_to_default(
+    *,
+    asset_value: npt.ArrayLike,
+    default_point: npt.ArrayLike,
+    asset_return: npt.ArrayLike,
+    asset_volatility: npt.ArrayLike,
+    horizon_years: npt.ArrayLike,
+) -> float | FloatArray: ...
+def distance_to_default(
+    *,
+    asset_value: npt.ArrayLike,
+    default_point: npt.ArrayLike,
+    asset_return: npt.ArrayLike,
+    asset_volatility: npt.ArrayLike,
+    horizon_years: npt.ArrayLike,
+) -> float | FloatArray:
     """DD = (ln(V/DP) + (mu - s^2/2) T) / (s sqrt T) [standard deviations]. Broadcasts over arrays.
 
     asset_value, default_point [currency]; asset_return mu [1/year]; asset_volatility s
@@ -54,7 +79,11 @@ def distance_to_default(*, asset_value, default_point, asset_return, asset_volat
     return float(dd) if dd.ndim == 0 else dd
 
 
-def pd_from_distance(distance) -> float | np.ndarray:
+@overload
+def pd_from_distance(distance: float) -> float: ...
+@overload
+def pd_from_distance(distance: npt.ArrayLike) -> float | FloatArray: ...
+def pd_from_distance(distance: npt.ArrayLike) -> float | FloatArray:
     """PD = N(-DD), the standard normal CDF (scipy.special.ndtr)."""
     out = ndtr(-np.asarray(distance, dtype=float))
     return float(out) if np.ndim(out) == 0 else out
@@ -162,7 +191,7 @@ def constant_hazard_term_structure(*, pd: float, horizon_years: float, years: in
     return _from_cumulative(t, cumulative, basis)
 
 
-def _from_cumulative(t: np.ndarray, cumulative: np.ndarray, basis: str) -> PdTermStructure:
+def _from_cumulative(t: FloatArray, cumulative: FloatArray, basis: str) -> PdTermStructure:
     previous = np.concatenate([[0.0], cumulative[:-1]])
     marginal = cumulative - previous
     survival = 1.0 - previous
