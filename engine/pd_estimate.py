@@ -1,5 +1,6 @@
-"""Probability of default: asset trend, balance-sheet or market-implied PD, override, grade and
-term structure. One step of the chain run by :mod:`engine.evaluate`.
+"""Probability of default: asset trend, balance-sheet or market-implied PD, override, grade, term structure.
+
+One step of the chain run by :mod:`engine.evaluate`.
 
 The balance-sheet PD follows :mod:`engine.structural`; the market-implied PD solves the Merton
 model (:mod:`engine.market`) with the balance-sheet default point as the debt barrier; the PD in
@@ -31,7 +32,7 @@ from obligor_memo.engine.trend import AssetTrend, fit_asset_trend
 
 @dataclass(frozen=True)
 class PdResult:
-    """The PD in force and how it was reached. Rates [fraction], money [currency]."""
+    """The PD in force and how it was reached. Rates [fraction], money [currency units]."""
 
     method: str
     """balance_sheet | market"""
@@ -75,7 +76,7 @@ class MarketResult:
     """Market-implied PD (Merton 1974) and the naive cross-check (Bharath and Shumway 2008)."""
 
     default_point: float
-    """the debt barrier D [currency]"""
+    """the debt barrier D [currency units]"""
     merton: MertonSolution | None
     """None when the solve failed (see message)"""
     naive: NaiveDD
@@ -84,9 +85,23 @@ class MarketResult:
 
 
 def engine_error(field: str, exc: ValueError) -> CaseError:
-    """A step's error as a CaseError: an :class:`InputError` keeps its own field, value and
-    allowed text; any other ValueError (a step's internal limit) is reported on ``field`` with
-    its message as what is allowed."""
+    """A step's error as a CaseError.
+
+    An :class:`InputError` keeps its own field, value and allowed text; any other ValueError (a
+    step's internal limit) is reported on ``field`` with its message as what is allowed.
+
+    Parameters
+    ----------
+    field : str
+        Dotted path of the case field the error is reported on.
+    exc : ValueError
+        The step's error.
+
+    Returns
+    -------
+    CaseError
+        The error as a case error.
+    """
     if isinstance(exc, InputError):
         return CaseError([exc.problem])
     return CaseError.single(field, "", str(exc))
@@ -95,8 +110,28 @@ def engine_error(field: str, exc: ValueError) -> CaseError:
 def estimate_pd(
     case: Case, *, cross_check: bool = True
 ) -> tuple[AssetTrend | None, PdResult, list[Caution], MarketResult | None]:
-    """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist
-    (``cross_check=False`` skips the market cross-check when the PD does not come from it)."""
+    """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist.
+
+    ``cross_check=False`` skips the market cross-check when the PD does not come from it.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    cross_check : bool, optional
+        False skips the market cross-check when the PD does not come from it.
+
+    Returns
+    -------
+    tuple[AssetTrend | None, PdResult, list[Caution], MarketResult | None]
+        The asset trend (None if not available), the PD result, the cautions and the market result (None without
+        market data or cross-check).
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
+    """
     settings = case.pd
     if settings.method == "market":
         trend, cautions = None, []
@@ -191,6 +226,20 @@ def hazard_convert(pd: float, *, from_years: float, to_years: float) -> float:
 
     1 - (1 - PD)^(to / from): the constant-hazard rule of the term structure
     (``constant_hazard_term_structure``); the identity when the horizons agree.
+
+    Parameters
+    ----------
+    pd : float
+        PD over ``from_years`` [fraction], in [0, 1].
+    from_years : float
+        Horizon the PD is stated for [years].
+    to_years : float
+        Horizon wanted [years].
+
+    Returns
+    -------
+    float
+        PD over ``to_years`` [fraction].
     """
     if from_years == to_years or pd >= 1.0:
         return pd
@@ -323,7 +372,20 @@ def _balance_sheet(case: Case) -> tuple[AssetTrend, BalanceSheetPd, list[Caution
 
 
 def term_structure(case: Case, pd: PdResult) -> PdTermStructure:
-    """Cumulative PD for each year up to the longest facility maturity (at least the horizon)."""
+    """Cumulative PD for each year up to the longest facility maturity (at least the horizon).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    pd : PdResult
+        The PD step's result.
+
+    Returns
+    -------
+    PdTermStructure
+        Cumulative, marginal and conditional PD by year [fraction].
+    """
     longest = max([f.maturity_years for f in case.facilities] + [pd.horizon_years])
     years = max(1, math.ceil(longest - 1e-9))
     if pd.overridden:
@@ -342,7 +404,20 @@ def term_structure(case: Case, pd: PdResult) -> PdTermStructure:
 
 
 def grade_pd(case: Case, pd: PdResult) -> tuple[PdResult, str]:
-    """Grade the PD in force on the case's master scale (or the illustrative default)."""
+    """Grade the PD in force on the case's master scale (or the illustrative default).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    pd : PdResult
+        The PD step's result.
+
+    Returns
+    -------
+    tuple[PdResult, str]
+        The PD result with its grade, and the scale's source (``case file`` or ``illustrative default``).
+    """
     if case.pd.master_scale is not None:
         scale = master_scale_from_rows([r.model_dump() for r in case.pd.master_scale])
         source = "case file"
