@@ -39,7 +39,24 @@ FOUNDATION_COMMITMENT_CCF_BASEL_II = 0.75
 def foundation_ccf(
     kind: FacilityKind, *, standard: Standard, maturity_years: float, cancellable: bool
 ) -> tuple[float, str]:
-    """The foundation-IRB CCF of a facility kind and its source (see the module docstring)."""
+    """The foundation-IRB CCF of a facility kind and its source (see the module docstring).
+
+    Parameters
+    ----------
+    kind : FacilityKind
+        Facility kind: bond, term_loan, revolver, guarantee or letter_of_credit.
+    standard : Standard
+        Basel standard: ``basel_iii`` or ``basel_ii``.
+    maturity_years : float
+        Maturity of the facility [years].
+    cancellable : bool
+        True for an unconditionally cancellable commitment.
+
+    Returns
+    -------
+    tuple[float, str]
+        The CCF [fraction] and its source.
+    """
     if standard == "basel_ii" and kind in ("term_loan", "revolver"):
         if cancellable:
             return 0.0, "foundation IRB, Basel II para 312: unconditionally cancellable commitment"
@@ -54,7 +71,22 @@ def foundation_ccf(
 
 
 def capital_exposure(case: Case, facility: Facility, exposure: FacilityExposure) -> FacilityExposure:
-    """The EAD of the risk weight: the exposure step's, or on the foundation-IRB CCF."""
+    """The EAD of the risk weight: the exposure step's, or on the foundation-IRB CCF.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    facility : Facility
+        The facility as in the case.
+    exposure : FacilityExposure
+        The facility's exposure from the exposure step.
+
+    Returns
+    -------
+    FacilityExposure
+        The exposure the risk weight applies to.
+    """
     if case.capital.capital_ccf == "exposure":
         return exposure
     ccf, source = foundation_ccf(
@@ -90,12 +122,12 @@ class CapitalFigures:
     risk_weight: np.ndarray
     """[fraction]"""
     regulatory_capital: np.ndarray
-    """8 % of RWA [currency]."""
+    """8 % of RWA [currency units]."""
     regulatory_expected_loss: np.ndarray
-    """[currency]"""
+    """[currency units]"""
     economic_correlation: np.ndarray
     economic_single_factor: np.ndarray
-    """[currency]"""
+    """[currency units]"""
 
 
 def capital_figures(
@@ -108,7 +140,30 @@ def capital_figures(
     mean_lgds: list[float],
     cautions: list[Caution],
 ) -> CapitalFigures:
-    """Regulatory and single-factor economic capital of every facility (one-year PD)."""
+    """Regulatory and single-factor economic capital of every facility (one-year PD).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    pd_one_year : float
+        One-year PD in force [fraction].
+    capital_eads : list[float]
+        EAD of the risk weight, per facility [currency units].
+    downturn_lgds : list[float]
+        Downturn LGD per facility [fraction].
+    economic_eads : list[float]
+        EAD of the economic capital, per facility [currency units].
+    mean_lgds : list[float]
+        Mean LGD per facility [fraction].
+    cautions : list[Caution]
+        Cautions of the evaluation; a binding PD floor or a negative LGD adds one.
+
+    Returns
+    -------
+    CapitalFigures
+        The per-facility capital arrays.
+    """
     settings = case.capital
     n = len(case.facilities)
     own = np.array([f.maturity_years for f in case.facilities])
@@ -169,7 +224,20 @@ def capital_figures(
 
 
 def economic_basis(case: Case, correlation: float) -> str:
-    """The economic-capital method in words, with the reason for the default."""
+    """The economic-capital method in words, with the reason for the default.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    correlation : float
+        Asset correlation of the economic capital [fraction].
+
+    Returns
+    -------
+    str
+        The method, for the memo.
+    """
     q = case.capital.confidence
     if case.capital.economic_method == "single_factor":
         source = (
@@ -189,7 +257,20 @@ def economic_basis(case: Case, correlation: float) -> str:
 
 
 def allocate(total: float, weights: list[float]) -> list[float]:
-    """``total`` split in proportion to the non-negative ``weights`` (equal split if all are 0)."""
+    """``total`` split in proportion to the non-negative ``weights`` (equal split if all are 0).
+
+    Parameters
+    ----------
+    total : float
+        The amount to split [currency units].
+    weights : list[float]
+        Weight of each part; negative weights count as 0.
+
+    Returns
+    -------
+    list[float]
+        One part per weight [currency units], summing to ``total``.
+    """
     w = np.maximum(np.array(weights, dtype=float), 0.0)
     if w.sum() <= 0:
         w = np.ones_like(w)

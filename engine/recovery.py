@@ -65,7 +65,23 @@ MAX_UPPER = 1.5
 
 
 def secured_supervisory_lgd(standard: str = "basel_iii") -> tuple[float, str]:
-    """The foundation-IRB LGD_S of the covered part (receivables, real estate), with its source."""
+    """The foundation-IRB LGD_S of the covered part (receivables, real estate), with its source.
+
+    Parameters
+    ----------
+    standard : str, optional
+        Basel standard: ``basel_iii`` or ``basel_ii``.
+
+    Returns
+    -------
+    tuple[float, str]
+        LGD_S [fraction] and its source.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     try:
         return _SUPERVISORY_LGD[standard]["senior_secured"]
     except KeyError:
@@ -73,7 +89,25 @@ def secured_supervisory_lgd(standard: str = "basel_iii") -> tuple[float, str]:
 
 
 def seniority_recovery_mean(seniority: str, standard: str = "basel_iii") -> tuple[float, str]:
-    """Mean recovery = 1 - the foundation-IRB supervisory LGD for the seniority, with its source."""
+    """Mean recovery = 1 - the foundation-IRB supervisory LGD for the seniority, with its source.
+
+    Parameters
+    ----------
+    seniority : str
+        Seniority: senior_secured, senior_unsecured or subordinated.
+    standard : str, optional
+        Basel standard: ``basel_iii`` or ``basel_ii``.
+
+    Returns
+    -------
+    tuple[float, str]
+        Mean recovery [fraction] and its source.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     try:
         lgd, source = _SUPERVISORY_LGD[standard][seniority]
     except KeyError:
@@ -85,13 +119,48 @@ def seniority_recovery_mean(seniority: str, standard: str = "basel_iii") -> tupl
 
 
 def largest_feasible_std(*, mean: float, upper: float = 1.0) -> float:
-    """upper x sqrt(m (1 - m)), m = mean / upper: the beta law needs std strictly below it."""
+    """Largest std of a beta law with this mean: upper x sqrt(m (1 - m)), m = mean / upper.
+
+    The beta law needs the std strictly below it.
+
+    Parameters
+    ----------
+    mean : float
+        Mean recovery [fraction of EAD].
+    upper : float, optional
+        Top of the recovery law's support [fraction of EAD], in (0, 1.5].
+
+    Returns
+    -------
+    float
+        The bound on the std [fraction of EAD].
+    """
     m = mean / upper
     return upper * math.sqrt(max(m * (1 - m), 0.0))
 
 
 def beta_parameters_from_moments(*, mean: float, std: float, upper: float = 1.0) -> tuple[float, float]:
-    """(alpha, beta) of the beta law on [0, upper] with the given mean and std (method of moments)."""
+    """(alpha, beta) of the beta law on [0, upper] with the given mean and std (method of moments).
+
+    Parameters
+    ----------
+    mean : float
+        Mean recovery [fraction of EAD].
+    std : float
+        Standard deviation of the recovery [fraction of EAD].
+    upper : float, optional
+        Top of the recovery law's support [fraction of EAD], in (0, 1.5].
+
+    Returns
+    -------
+    tuple[float, float]
+        The beta shapes (alpha, beta).
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if not (0 < upper <= MAX_UPPER):
         raise ValueError(f"recovery.upper: got {upper!r}; allowed: a number above 0 up to {MAX_UPPER:g}")
     if not (0 < mean < upper):
@@ -135,10 +204,12 @@ class RecoveryLaw:
 
     @property
     def point_mass(self) -> bool:
+        """True when the unsecured recovery is fixed (std 0): no beta shapes."""
         return self.alpha is None
 
     @property
     def scale(self) -> float:
+        """Width (1 - c) x upper of the uncovered part's recovery range [fraction]."""
         return (1.0 - self.floor) * self.upper
 
     @property
@@ -152,12 +223,15 @@ class RecoveryLaw:
         return self.offset + self.scale
 
     def mean(self) -> float:
+        """Mean recovery c r_s + (1 - c) E[R_u] [fraction]."""
         return self.offset + (1.0 - self.floor) * self.unsecured_mean
 
     def var(self) -> float:
+        """Variance of the recovery ((1 - c) std(R_u))^2 [fraction squared]."""
         return ((1.0 - self.floor) * self.unsecured_std) ** 2
 
     def std(self) -> float:
+        """Standard deviation of the recovery [fraction]."""
         return math.sqrt(self.var())
 
     @property
@@ -169,7 +243,7 @@ class RecoveryLaw:
 
     @cached_property
     def median_split(self) -> float:
-        """u = I_{1/2}(a, b): below it the beta quantile is under 1/2, above it over 1/2."""
+        """Probability level u = I_{1/2}(a, b) at which the beta quantile is 1/2."""
         return float(special.betainc(*self._shapes, 0.5))
 
     @cached_property
@@ -202,6 +276,18 @@ class RecoveryLaw:
     @overload
     def ppf(self, q: npt.ArrayLike) -> float | FloatArray: ...
     def ppf(self, q: npt.ArrayLike) -> float | FloatArray:
+        """Quantile function: the recovery rate below which a share ``q`` of outcomes falls.
+
+        Parameters
+        ----------
+        q : npt.ArrayLike
+            Probability level(s) in [0, 1] [fraction].
+
+        Returns
+        -------
+        float | FloatArray
+            Recovery rate(s) [fraction]: a float for a scalar input, else an array.
+        """
         q = np.asarray(q, dtype=float)
         if self.point_mass:
             out = np.full_like(q, self.mean())
@@ -214,6 +300,18 @@ class RecoveryLaw:
     @overload
     def cdf(self, x: npt.ArrayLike) -> float | FloatArray: ...
     def cdf(self, x: npt.ArrayLike) -> float | FloatArray:
+        """Distribution function P(R <= x).
+
+        Parameters
+        ----------
+        x : npt.ArrayLike
+            Recovery rate(s) [fraction].
+
+        Returns
+        -------
+        float | FloatArray
+            P(R <= x) [fraction]: a float for a scalar input, else an array.
+        """
         x = np.asarray(x, dtype=float)
         if self.point_mass:
             out = (x >= self.mean()).astype(float)
@@ -223,7 +321,18 @@ class RecoveryLaw:
         return float(out) if out.ndim == 0 else out
 
     def pdf(self, x: npt.ArrayLike) -> FloatArray:
-        """Density [1/fraction]; 0 outside the support; undefined (nan-free 0) for a point mass."""
+        """Density [1/fraction]; 0 outside the support; undefined (nan-free 0) for a point mass.
+
+        Parameters
+        ----------
+        x : npt.ArrayLike
+            Recovery rate(s) [fraction].
+
+        Returns
+        -------
+        FloatArray
+            Density at ``x`` [1/fraction].
+        """
         x = np.asarray(x, dtype=float)
         if self.point_mass:
             return np.zeros_like(x)
@@ -240,6 +349,21 @@ class RecoveryLaw:
         For B ~ beta(a, b): E[B 1{B <= x}] = a / (a + b) I_x(a + 1, b) (the first incomplete moment
         of the beta law; I the regularised incomplete beta function), so with R = c + s B the
         integral is c u + s a/(a + b) I_{x(u)}(a + 1, b), x(u) = I^-1_u(a, b).
+
+        Parameters
+        ----------
+        u : float
+            Upper limit of the integral, in [0, 1] [fraction].
+
+        Returns
+        -------
+        float
+            E[R 1{R <= F^-1(u)}] [fraction].
+
+        Raises
+        ------
+        ValueError
+            If an input is outside its allowed range (the message names it, its value and what is allowed).
         """
         if not 0 <= u <= 1:
             raise ValueError(f"u: got {u!r}; allowed: 0 to 1")
@@ -288,10 +412,26 @@ def recovery_law(
 
     Parameters
     ----------
-    mean, std : moments of the unsecured recovery R_u [fraction].
-    upper : top of R_u's support, in (0, 1.5] [fraction].
-    collateral_cover : share c of EAD covered by collateral after haircut, in [0, 1] [fraction].
-    secured_recovery : recovery r_s = 1 - LGD_S of the covered part, in [0, 1] [fraction].
+    mean : float
+        Moments of the unsecured recovery R_u [fraction].
+    std : float
+        Moments of the unsecured recovery R_u [fraction].
+    upper : float, optional
+        Top of R_u's support, in (0, 1.5] [fraction].
+    collateral_cover : float, optional
+        Share c of EAD covered by collateral after haircut, in [0, 1] [fraction].
+    secured_recovery : float, optional
+        Recovery r_s = 1 - LGD_S of the covered part, in [0, 1] [fraction].
+
+    Returns
+    -------
+    RecoveryLaw
+        The fitted law.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     if not 0 <= collateral_cover <= 1:
         raise ValueError(f"collateral cover: got {collateral_cover!r}; allowed: 0 to 1")
@@ -314,16 +454,55 @@ def recovery_law(
 
 
 def collateral_cover(*, collateral_value: float, haircut: float, ead: float) -> float:
-    """c = min(C x (1 - haircut) / EAD, 1) [fraction]; 0 when EAD is 0."""
+    """Collateral cover c = min(C x (1 - haircut) / EAD, 1) [fraction]; 0 when EAD is 0.
+
+    Parameters
+    ----------
+    collateral_value : float
+        Collateral value before haircut [currency units].
+    haircut : float
+        Haircut on the collateral value [fraction], in [0, 1).
+    ead : float
+        Exposure at default [currency units].
+
+    Returns
+    -------
+    float
+        The covered share c [fraction], in [0, 1].
+    """
     if ead <= 0:
         return 0.0
     return min(collateral_value * (1.0 - haircut) / ead, 1.0)
 
 
 def downturn_lgd(law: RecoveryLaw, *, method: str, quantile: float = 0.9, add_on: float = 0.0) -> float:
-    """Downturn LGD: 'quantile' takes the LGD at the chosen quantile of the loss-given-default law
-    (recovery at 1 - quantile); 'add_on' adds a fixed amount to the mean LGD, capped at 1;
-    'none' returns the mean LGD."""
+    """Downturn LGD of a recovery law by the case's method.
+
+    'quantile' takes the LGD at the chosen quantile of the loss-given-default law (recovery at
+    1 - quantile); 'add_on' adds a fixed amount to the mean LGD, capped at 1; 'none' returns the
+    mean LGD.
+
+    Parameters
+    ----------
+    law : RecoveryLaw
+        The facility's recovery law.
+    method : str
+        ``none``, ``quantile`` or ``add_on``.
+    quantile : float, optional
+        Quantile of the loss-given-default law for the ``quantile`` method [fraction].
+    add_on : float, optional
+        Amount added to the mean LGD for the ``add_on`` method [fraction].
+
+    Returns
+    -------
+    float
+        Downturn LGD [fraction].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if method == "none":
         return law.lgd
     if method == "quantile":
