@@ -18,7 +18,7 @@ volatility and every cell re-solves E = V N(d1) - DP e^{-rT} N(d2), sE E = N(d1)
 (``engine.market.solve_merton_many``, vectorised).
 
 Units: shares and rates [fraction], growth [1/year], volatility [1/sqrt(year)], horizon [years],
-money [currency].
+money [currency units].
 """
 
 from __future__ import annotations
@@ -84,8 +84,27 @@ def _clip_pair(base: float, step: float, lowest: float, highest: float) -> tuple
 
 
 def feasible_recovery_means(*, std: float, upper: float) -> tuple[float, float]:
-    """The interval of mean recovery [fraction] for which a beta law with ``std`` on [0, upper]
-    exists: mean (upper - mean) > std^2 (moment fit, see engine.recovery), with a small margin."""
+    """The interval of mean recovery [fraction] for which a beta law with ``std`` on [0, upper] exists.
+
+    The law needs mean (upper - mean) > std^2 (moment fit, see engine.recovery); a small margin is kept.
+
+    Parameters
+    ----------
+    std : float
+        Standard deviation of the recovery [fraction of EAD].
+    upper : float
+        Top of the recovery law's support [fraction of EAD].
+
+    Returns
+    -------
+    tuple[float, float]
+        (lowest, highest) mean recovery [fraction].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if not (0 < upper <= MAX_UPPER):
         raise ValueError(f"upper: got {upper!r}; allowed: a number above 0 and at most {MAX_UPPER:g}")
     if not (0 <= std < upper / 2):
@@ -106,8 +125,23 @@ class _Runner:
         self._seen: dict[tuple[tuple[str, Any], ...], Results | ValueError] = {}
 
     def run(self, overrides: dict[str, Any], where: str) -> Results | ValueError:
-        """The results, or the error that stopped this point (CaseError for a case that does not
-        validate): one extreme point must not sink the whole table, and the row reports it."""
+        """Evaluate the case with ``overrides``, or return the error that stopped this point.
+
+        A case that does not validate gives its CaseError: one extreme point must not sink the
+        whole table, and the row reports it.
+
+        Parameters
+        ----------
+        overrides : dict[str, Any]
+            Dotted case path -> new value.
+        where : str
+            Where the overrides come from, named in messages (e.g. ``scenarios[2]``).
+
+        Returns
+        -------
+        Results | ValueError
+            The evaluation of the case with ``overrides`` applied, or the error that stopped it.
+        """
         key = tuple(sorted(overrides.items()))
         if key not in self._seen:
             try:
@@ -186,6 +220,18 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
     facility's mean recovery (around the mean in use; kept where the beta law is feasible).
     ``base`` saves re-evaluating the case. Under an analyst PD override the model inputs move
     the model PD but not the PD in force, so PD and EL stay put on those rows (noted).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    base : Results | None, optional
+        The case's evaluation, if already computed; None evaluates it here.
+
+    Returns
+    -------
+    OneWaySensitivity
+        The rows, largest EL swing first, and notes.
     """
     base = checked_base(case, base) if base is not None else evaluate(case)
     steps = case.sensitivity.steps
@@ -303,10 +349,40 @@ def balance_sheet_pd_grid(
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Balance-sheet PD over long-term shares (columns) x asset volatilities (rows).
 
-    asset_value V, liabilities [currency]; asset_growth g [1/year] (log drift: mu = g + s^2/2);
+    asset_value V, liabilities [currency units]; asset_growth g [1/year] (log drift: mu = g + s^2/2);
     shares [fraction]; asset_volatilities s [1/sqrt(year)], each > 0; horizon_years T [years].
-    Returns (default point per column [currency], DD [rows, columns], PD [rows, columns]).
+    Returns (default point per column [currency units], DD [rows, columns], PD [rows, columns]).
     A column whose default point is 0 has DD = +inf and PD = 0: no debt to default on.
+
+    Parameters
+    ----------
+    asset_value : float
+        V, latest total assets [currency units].
+    asset_growth : float
+        g, annual growth of log assets (log drift; mu = g + s^2/2) [fraction per year].
+    short_term_liabilities : float
+        Short-term liabilities of the latest year [currency units].
+    long_term_liabilities : float
+        Long-term liabilities of the latest year [currency units].
+    short_term_share : float
+        Share a of short-term liabilities in the default point [fraction], in [0, 1].
+    long_term_shares : Any
+        Long-term shares b of the columns [fraction].
+    asset_volatilities : Any
+        Asset volatilities s of the rows [fraction per sqrt(year)], each > 0.
+    horizon_years : float
+        Horizon T of the PD [years].
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray, np.ndarray]
+        Default point per column [currency units], DD [rows, columns] [standard deviations] and PD [rows,
+        columns] [fraction].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     shares = np.asarray(long_term_shares, dtype=float).reshape(-1)
     vols = np.asarray(asset_volatilities, dtype=float).reshape(-1)
@@ -342,8 +418,27 @@ def _axis(axis: GridAxis, field: str, highest: float | None = None) -> np.ndarra
 
 
 def centred_volatility_axis(volatility: float, points: int = 21) -> np.ndarray:
-    """``points`` volatilities from max(0.01, s/2) to 2 s, evenly spaced in log(s), so that the
-    middle point is s itself (whenever s/2 >= 0.01) and halving and doubling are equally far."""
+    """Volatilities from max(0.01, s/2) to 2 s, evenly spaced in log(s).
+
+    The middle point is s itself (whenever s/2 >= 0.01), so halving and doubling are equally far.
+
+    Parameters
+    ----------
+    volatility : float
+        The volatility s in use [fraction per sqrt(year)].
+    points : int, optional
+        Number of points, odd for s to be the middle one.
+
+    Returns
+    -------
+    np.ndarray
+        The volatilities [fraction per sqrt(year)].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if not (volatility > 0 and math.isfinite(volatility)):
         raise ValueError(f"volatility: got {volatility!r}; allowed: a finite number above 0")
     if points < 2:
@@ -356,6 +451,23 @@ def pd_grid(case: Case, base: Results | None = None) -> PdGrid:
     """The two-way model-PD grid of the case (see the module notes for both methods).
 
     ``base`` supplies the PD step's values in use; without it only the PD step is run.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    base : Results | None, optional
+        The case's evaluation, if already computed; None evaluates it here.
+
+    Returns
+    -------
+    PdGrid
+        The model PD over the two axes.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
     """
     pd = checked_base(case, base).pd if base is not None else estimate_pd(case)[1]
     settings = case.sensitivity
