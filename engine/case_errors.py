@@ -166,6 +166,22 @@ def _shown_value(error: ErrorDetails) -> Any:
 
 
 def problems_from_validation(root: type[BaseModel], exc: ValidationError, prefix: str = "") -> list[Problem]:
+    """Turn pydantic's validation errors into problems, each naming its field and what is allowed.
+
+    Parameters
+    ----------
+    root : type[BaseModel]
+        The model validated (the case, or a block of it).
+    exc : ValidationError
+        pydantic's validation error.
+    prefix : str, optional
+        Dotted path put before every field (the block's place in the case).
+
+    Returns
+    -------
+    list[Problem]
+        One problem per error; unknown keys beyond the first few are counted in one more problem.
+    """
     problems: list[Problem] = []
     unknown: list[str] = []
     for error in exc.errors(include_url=False):
