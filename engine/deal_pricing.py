@@ -231,9 +231,8 @@ def price_lines(
     Returns
     -------
     tuple[tuple[FacilityPricing, ...], FacilityPricing]
-        (per-facility results, relationship result). The
-        relationship's minimum spread is the one spread on every funded amount at which the relationship meets
-        the hurdle.
+        (per-facility results, relationship result). The relationship's minimum spread is the one spread on
+        every funded amount at which the relationship meets the hurdle.
 
     Raises
     ------

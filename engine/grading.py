@@ -105,7 +105,7 @@ class GradeResult:
     pd_upper: float
     """The band's inclusive upper bound [fraction]."""
     band_midpoint_geometric: float | None
-    """Sqrt(pd_lower * pd_upper), the band's midpoint on a log scale [fraction]; None for the best band, whose lower
+    """sqrt(pd_lower * pd_upper), the band's midpoint on a log scale [fraction]; None for the best band, whose lower
     bound is 0 and so has no geometric midpoint."""
 
 

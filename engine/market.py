@@ -554,7 +554,8 @@ def solve_merton(
     Raises
     ------
     ValueError
-        If an input is outside its allowed range (the message names it, its value and what is allowed).
+        If an input is outside its range (naming it, its value and the range), or the equations have no
+        solution meeting the accuracy bar.
     """
     given = {
         "equity_value": equity_value,

@@ -466,7 +466,7 @@ def checked_base(case: Case, base: Results) -> Results:
     Raises
     ------
     ValueError
-        If an input is outside its allowed range (the message names it, its value and what is allowed).
+        If ``base`` is the evaluation of a different case.
     """
     unused = {"scenarios": [], "sensitivity": case.sensitivity}
     if base.case.model_copy(update=unused) != case.model_copy(update=unused):

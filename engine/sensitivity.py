@@ -135,7 +135,7 @@ class _Runner:
         overrides : dict[str, Any]
             Dotted case path -> new value.
         where : str
-            Where the overrides come from, named in messages (e.g. ``scenarios[2]``).
+            Which point this is, named in messages (e.g. ``sensitivity.ccf.down``).
 
         Returns
         -------
@@ -349,9 +349,6 @@ def balance_sheet_pd_grid(
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Balance-sheet PD over long-term shares (columns) x asset volatilities (rows).
 
-    asset_value V, liabilities [currency units]; asset_growth g [1/year] (log drift: mu = g + s^2/2);
-    shares [fraction]; asset_volatilities s [1/sqrt(year)], each > 0; horizon_years T [years].
-    Returns (default point per column [currency units], DD [rows, columns], PD [rows, columns]).
     A column whose default point is 0 has DD = +inf and PD = 0: no debt to default on.
 
     Parameters

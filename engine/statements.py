@@ -64,7 +64,7 @@ def parse_number(text: Any, *, decimal: str = ".") -> float | None:
     Raises
     ------
     ValueError
-        If an input is outside its allowed range (the message names it, its value and what is allowed).
+        If the cell is text that is not a number.
     """
     if text is None:
         return None
