@@ -376,7 +376,7 @@ def deal_pricing(
     relationship : FacilityPricing
         The relationship's pricing, from :func:`price_lines`.
     rates : dict[str, float]
-        The deal's rates by name [fraction per year].
+        The deal's rates by name [fraction/year].
     label : str
         What the pricing is of, in words.
 

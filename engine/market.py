@@ -535,15 +535,15 @@ def solve_merton(
     equity_value : float
         E, market capitalisation [currency units].
     equity_volatility : float
-        sE, annualised volatility of equity returns [fraction per sqrt(year), e.g. 0.40].
+        sE, annualised volatility of equity returns [1/sqrt(year), e.g. 0.40].
     default_point : float
         D, debt treated as due at the horizon [currency units].
     risk_free_rate : float
-        r, continuously compounded [fraction per year].
+        r, continuously compounded [1/year].
     horizon_years : float
         T [years].
     asset_drift : float | None, optional
-        mu [fraction per year]; None gives the risk-neutral PD N(-d2), a value the
+        mu [1/year]; None gives the risk-neutral PD N(-d2), a value the
         physical PD N(-DD).
 
     Returns

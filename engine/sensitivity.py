@@ -356,7 +356,7 @@ def balance_sheet_pd_grid(
     asset_value : float
         V, latest total assets [currency units].
     asset_growth : float
-        g, annual growth of log assets (log drift; mu = g + s^2/2) [fraction per year].
+        g, annual growth of log assets (log drift; mu = g + s^2/2) [1/year].
     short_term_liabilities : float
         Short-term liabilities of the latest year [currency units].
     long_term_liabilities : float
@@ -366,7 +366,7 @@ def balance_sheet_pd_grid(
     long_term_shares : Any
         Long-term shares b of the columns [fraction].
     asset_volatilities : Any
-        Asset volatilities s of the rows [fraction per sqrt(year)], each > 0.
+        Asset volatilities s of the rows [1/sqrt(year)], each > 0.
     horizon_years : float
         Horizon T of the PD [years].
 
@@ -422,14 +422,14 @@ def centred_volatility_axis(volatility: float, points: int = 21) -> np.ndarray:
     Parameters
     ----------
     volatility : float
-        The volatility s in use [fraction per sqrt(year)].
+        The volatility s in use [1/sqrt(year)].
     points : int, optional
         Number of points, odd for s to be the middle one.
 
     Returns
     -------
     np.ndarray
-        The volatilities [fraction per sqrt(year)].
+        The volatilities [1/sqrt(year)].
 
     Raises
     ------

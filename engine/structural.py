@@ -91,9 +91,9 @@ def distance_to_default(
     default_point : npt.ArrayLike
         DP, the default point [currency units], > 0; a number or an array.
     asset_return : npt.ArrayLike
-        mu, the expected asset return [fraction per year]; a number or an array.
+        mu, the expected asset return [1/year]; a number or an array.
     asset_volatility : npt.ArrayLike
-        s, annual volatility of the asset value [fraction per sqrt(year), e.g. 0.25], > 0; a number or an array.
+        s, annual volatility of the asset value [1/sqrt(year), e.g. 0.25], > 0; a number or an array.
     horizon_years : npt.ArrayLike
         T, the horizon [years], > 0; a number or an array.
 
@@ -190,9 +190,9 @@ def balance_sheet_pd(
     asset_value : float
         V, latest total assets [currency units].
     asset_growth : float
-        g, annual growth of the log asset value [fraction per year].
+        g, annual growth of the log asset value [1/year].
     asset_volatility : float
-        s, annual volatility of the asset value [fraction per sqrt(year), e.g. 0.25].
+        s, annual volatility of the asset value [1/sqrt(year), e.g. 0.25].
     short_term_liabilities : float
         Short-term liabilities of the latest year [currency units].
     long_term_liabilities : float
@@ -277,9 +277,9 @@ def structural_term_structure(
     default_point : float
         DP, the default point (debt barrier) [currency units].
     log_drift : float
-        m, the drift of the log asset value [fraction per year]: g on the balance sheet, r - s^2/2 risk-neutral.
+        m, the drift of the log asset value [1/year]: g on the balance sheet, r - s^2/2 risk-neutral.
     asset_volatility : float
-        s, annual volatility of the asset value [fraction per sqrt(year), e.g. 0.25].
+        s, annual volatility of the asset value [1/sqrt(year), e.g. 0.25].
     years : int
         Number of years of the term structure, from 1.
     basis : str

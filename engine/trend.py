@@ -96,7 +96,7 @@ def annual_log_changes(years: np.ndarray, values: np.ndarray) -> np.ndarray:
     Returns
     -------
     np.ndarray
-        One change per consecutive pair of years [fraction per year].
+        One change per consecutive pair of years [1/year].
     """
     gaps = np.diff(np.asarray(years, dtype=float))
     return np.diff(np.log(values)) / np.sqrt(gaps)
@@ -108,12 +108,12 @@ def sample_volatility(changes: np.ndarray) -> float:
     Parameters
     ----------
     changes : np.ndarray
-        Annual log changes [fraction per year].
+        Annual log changes [1/year].
 
     Returns
     -------
     float
-        The sample standard deviation [fraction per sqrt(year)].
+        The sample standard deviation [1/sqrt(year)].
 
     Raises
     ------
@@ -182,9 +182,9 @@ def fit_asset_trend(
     window_years : int | None, optional
         Number of latest years fitted; None for all years.
     growth_override : float | None, optional
-        The analyst's growth g, used instead of the estimate [fraction per year]; None for none.
+        The analyst's growth g, used instead of the estimate [1/year]; None for none.
     volatility_override : float | None, optional
-        The analyst's volatility s, used instead of the estimate [fraction per sqrt(year)]; None for none.
+        The analyst's volatility s, used instead of the estimate [1/sqrt(year)]; None for none.
 
     Returns
     -------
