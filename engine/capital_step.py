@@ -116,7 +116,9 @@ class CapitalFigures:
     maturity: np.ndarray
     """Effective maturity used [years]."""
     correlation: np.ndarray
+    """IRB asset correlation R [fraction]."""
     maturity_adjustment: np.ndarray
+    """(1 + (M - 2.5) b) / (1 - 1.5 b) [dimensionless]."""
     k: np.ndarray
     """[fraction of EAD]"""
     risk_weight: np.ndarray
@@ -126,6 +128,7 @@ class CapitalFigures:
     regulatory_expected_loss: np.ndarray
     """[currency units]"""
     economic_correlation: np.ndarray
+    """Asset correlation of the economic capital [fraction]."""
     economic_single_factor: np.ndarray
     """[currency units]"""
 

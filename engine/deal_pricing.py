@@ -32,7 +32,9 @@ class PricingLine:
     """One facility's amounts and rates, the input of :func:`price_lines`."""
 
     id: str
+    """Facility id."""
     kind: str
+    """Facility kind."""
     drawn: float
     """Drawn (funded) amount [currency units]."""
     undrawn: float
@@ -64,7 +66,9 @@ class FacilityPricing:
     """RAROC of one facility (or, with id "relationship", of all of them together)."""
 
     id: str
+    """Facility id, or ``relationship`` for the whole relationship."""
     kind: str
+    """Facility kind (empty for the relationship)."""
     capital_basis: str
     """"regulatory" or "economic": the capital RAROC and the minimum spread use."""
     funded: float
@@ -359,9 +363,13 @@ class DealPricing:
     spread_shortfall: float | None
     """[fraction/year]"""
     meets_hurdle: bool
+    """True when the income reaches the minimum income."""
     note: str
+    """Notes on the pricing, joined with semicolons."""
     facilities: tuple[FacilityPricing, ...]
+    """Each facility's pricing, in case order."""
     relationship: FacilityPricing
+    """The relationship's pricing (the sums)."""
 
 
 def deal_pricing(

@@ -154,5 +154,8 @@ class Caution:
     """
 
     code: str
+    """Stable identifier, e.g. ``pd.override``."""
     message: str
+    """A plain sentence."""
     field: str = ""
+    """The input it concerns; empty for none."""

@@ -172,7 +172,9 @@ class MertonBatch:
     used_fallback: NDArray[np.bool_]
     """The bracketed search was needed."""
     converged: NDArray[np.bool_]
+    """True where the solve met the accuracy bar."""
     failures: tuple[tuple[int, str], ...]
+    """(flat C-order index, reason) of every element not converged."""
     equity_value: FloatArray
     """E [currency units]"""
     equity_volatility: FloatArray
@@ -186,7 +188,9 @@ class MertonBatch:
     asset_drift: FloatArray | None
     """mu [1/year]; None when risk-neutral."""
     measure: Measure
+    """``risk_neutral`` or ``physical``: the measure of the PD."""
     engine_version: str = ENGINE_VERSION
+    """Version of the engine that produced the result."""
 
 
 @dataclass(frozen=True)
@@ -194,24 +198,41 @@ class MertonSolution:
     """One borrower's Merton solution; fields and units as in `MertonBatch`."""
 
     asset_value: float
+    """V [currency units]."""
     asset_volatility: float
+    """s [fraction/year^0.5]."""
     d1: float
+    """[standard deviations]"""
     d2: float
+    """[standard deviations]"""
     distance_to_default: float
+    """[standard deviations]; d2 when risk-neutral."""
     pd: float
+    """N(-distance_to_default) over the horizon [fraction]."""
     leverage: float
+    """D / V [fraction]."""
     iterations: int
+    """Newton steps plus bracketed-search evaluations."""
     residual: float
+    """Larger relative residual of the two equations [fraction]."""
     solver: Literal["newton", "bracketed"]
     """"bracketed": the fall-back search was needed."""
     equity_value: float
+    """E [currency units]."""
     equity_volatility: float
+    """sE [fraction/year^0.5]."""
     default_point: float
+    """D [currency units]."""
     risk_free_rate: float
+    """r [1/year]."""
     horizon_years: float
+    """T [years]."""
     asset_drift: float | None
+    """mu [1/year]; None when risk-neutral."""
     measure: Measure
+    """``risk_neutral`` or ``physical``: the measure of the PD."""
     engine_version: str = ENGINE_VERSION
+    """Version of the engine that produced the result."""
 
 
 def _residuals(

@@ -30,6 +30,7 @@ class NaiveDD:
     drift: float | FloatArray
     """mu [1/year]"""
     drift_source: Literal["trailing_equity_return", "risk_free_rate"]
+    """Which input gave the drift: the trailing equity return or the risk-free rate."""
     distance_to_default: float | FloatArray
     """[standard deviations]"""
     pd: float | FloatArray
@@ -47,6 +48,7 @@ class NaiveDD:
     risk_free_rate: float | FloatArray | None
     """[1/year]"""
     engine_version: str = ENGINE_VERSION
+    """Version of the engine that produced the result."""
 
 
 def naive_distance_to_default(

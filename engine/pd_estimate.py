@@ -39,6 +39,7 @@ class PdResult:
     measure: str
     """physical | risk_neutral"""
     asset_value: float
+    """V [currency units]."""
     asset_growth: float | None
     """[1/year] (balance sheet)."""
     asset_volatility: float
@@ -46,21 +47,29 @@ class PdResult:
     asset_return: float
     """Drift used in DD [1/year]."""
     default_point: float
+    """DP [currency units]."""
     short_term_share: float
+    """a [fraction]."""
     long_term_share: float
+    """b [fraction]."""
     horizon_years: float
     """[years]"""
     distance_to_default: float
+    """DD over the horizon [standard deviations]."""
     model_pd: float
     """The model's PD over the horizon [fraction]."""
     pd: float
     """The PD in force over the horizon (override where set, converted to the horizon) [fraction]."""
     overridden: bool
+    """True when the analyst's PD is in force."""
     override_reason: str | None
+    """The analyst's reason for the override; None without one."""
     grade: str | None
+    """Grade of the one-year PD; None before grading."""
     grade_lower: float | None
     """Band (lower, upper] of the grade."""
     grade_upper: float | None
+    """Upper bound of the band [fraction]."""
     pd_one_year: float = math.nan
     """One-year PD in force [fraction]: the PD of capital, IRB EL and RAROC (CRE32.3)."""
     one_year_basis: str = ""
@@ -80,6 +89,7 @@ class MarketResult:
     merton: MertonSolution | None
     """None when the solve failed (see message)"""
     naive: NaiveDD
+    """The naive distance to default, the cross-check."""
     message: str
     """"" or why the Merton solve failed"""
 

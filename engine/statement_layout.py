@@ -181,6 +181,7 @@ class Layout:
     recognised: dict[str, str] = field(default_factory=dict)
     """Label in file -> field."""
     unrecognised: list[str] = field(default_factory=list)
+    """Line labels that matched no field."""
     records: list[dict[str, Any]] = field(default_factory=list)
     """Year -> raw cells per field."""
 

@@ -182,13 +182,17 @@ class StatementsRead:
     """A statements file as read: the rows (amounts already in currency units) and how."""
 
     rows: list[dict[str, Any]]
+    """One dict per year (field -> amount [currency units])."""
     unit: str = "units"
+    """Unit the file was stated in."""
     orientation: str = "long"
     """"long": years down the rows; "wide": across."""
     header_row: int = 1
+    """1-based row of the header in the file."""
     recognised: dict[str, str] = field(default_factory=dict)
     """Label in the file -> field."""
     unrecognised: tuple[str, ...] = ()
+    """Line labels of the file that matched no field."""
 
 
 def read_statement_table(
@@ -507,6 +511,7 @@ class YearRatios:
     """Key ratios of one financial year [fraction]."""
 
     year: int
+    """Financial year."""
     total_liabilities: float
     """[currency units] given, or short + long term."""
     leverage: float

@@ -251,12 +251,15 @@ class PdTermStructure:
     """Cumulative and marginal PD by year [fraction]; ``basis`` says how it was built."""
 
     years: tuple[float, ...]
+    """Years 1, 2, ... [years]."""
     cumulative: tuple[float, ...]
+    """Cumulative PD to each year [fraction]."""
     marginal: tuple[float, ...]
     """cumulative(t) - cumulative(t-1) [fraction]"""
     conditional: tuple[float, ...]
     """marginal / survival to t-1, the annual hazard [fraction]"""
     basis: str
+    """How the term structure was built, in words."""
     running_max_from: float | None = None
     """Year after which the model's cumulative PD fell and the running maximum was taken
     (marginal PD 0 from there on) [years]; None when it never fell."""

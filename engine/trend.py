@@ -25,6 +25,7 @@ class LinearFit:
     r_squared: float | None
     """None when y does not vary (R^2 undefined)"""
     n: int
+    """Number of points fitted."""
 
     def at(self, year: float) -> float:
         """Value of the fitted line at ``year``.
@@ -152,10 +153,13 @@ class AssetTrend:
     volatility_used: float
     """Estimate or the analyst's override [1/sqrt(year)]"""
     growth_overridden: bool
+    """True when the analyst's growth is used."""
     volatility_overridden: bool
+    """True when the analyst's volatility is used."""
     expected_return: float
     """mu = g + s^2 / 2 [1/year]"""
     cautions: tuple[Caution, ...]
+    """What the reader should know about the fit."""
 
 
 def fit_asset_trend(

@@ -16,9 +16,13 @@ class FacilityShift:
     """One facility's input in a per-facility row (CCF or mean recovery) [fraction]."""
 
     facility_id: str
+    """Facility id."""
     base_value: float
+    """Value in use [the row's unit]."""
     low_value: float
+    """Value after the step down [the row's unit]."""
     high_value: float
+    """Value after the step up [the row's unit]."""
     clipped: bool
     """A bound stopped the full step."""
 
@@ -30,31 +34,43 @@ class SensitivityRow:
     assumption: str
     """One of ASSUMPTIONS."""
     label: str
+    """The assumption in words."""
     path: str
     """The override path set (facilities.*.<key> per facility)"""
     unit: str
+    """Unit of the values and the step, in brackets."""
     step: float
     """The absolute step asked for."""
     base_value: float | None
     """None for per-facility rows: see ``facilities``."""
     low_value: float | None
+    """Value after the step down; None for per-facility rows."""
     high_value: float | None
+    """Value after the step up; None for per-facility rows."""
     facilities: tuple[FacilityShift, ...]
+    """Per-facility moves (CCF and recovery rows); empty otherwise."""
     clipped: bool
+    """True when a bound stopped the full step."""
     pd_base: float
     """PD in force."""
     pd_low: float | None
     """None: the perturbed case did not validate (see note)"""
     pd_high: float | None
+    """PD in force after the step up; None: the perturbed case did not validate."""
     model_pd_low: float | None
     """The model's PD (differs from pd_* under an override)"""
     model_pd_high: float | None
+    """The model's PD after the step up."""
     el_base: float
+    """EL of the case [currency units]."""
     el_low: float | None
+    """EL after the step down [currency units]; None: not evaluated."""
     el_high: float | None
+    """EL after the step up [currency units]; None: not evaluated."""
     el_swing: float
     """|EL high - EL low| (base in place of a failed side)"""
     note: str
+    """What the reader should know about the row."""
 
 
 @dataclass(frozen=True)
@@ -66,12 +82,15 @@ class OneWaySensitivity:
     pd_base: float
     """PD in force [fraction]"""
     model_pd_base: float
+    """The model's PD of the case [fraction]."""
     el_base: float
     """[currency units]"""
     pd_overridden: bool
+    """True when the PD in force is the analyst's override."""
     evaluations: int
     """Full evaluations run (duplicates and no-moves reused)"""
     notes: tuple[str, ...]
+    """Notes on the whole table."""
 
 
 @dataclass(frozen=True)
@@ -93,13 +112,17 @@ class PdGrid:
     pd: tuple[tuple[float | None, ...], ...]
     """[fraction]; None where the solve failed."""
     distance_to_default: tuple[tuple[float | None, ...], ...]
+    """DD [standard deviations]; None where the solve failed."""
     base_x: float
     """The case's point."""
     base_y: float
+    """The case's volatility [1/sqrt(year)]."""
     base_pd: float
     """Model PD at the case's point [fraction]"""
     pd_overridden: bool
+    """True when the PD in force is the analyst's override (the grid is the model's)."""
     notes: tuple[str, ...]
+    """Notes on the grid."""
 
 
 @dataclass(frozen=True)
@@ -119,6 +142,7 @@ class Headline:
     asset_volatility: float
     """[1/sqrt(year)]"""
     grade: str | None
+    """Grade of the one-year PD."""
     ead: float
     """Total EAD [currency units]"""
     expected_loss: float
@@ -140,16 +164,30 @@ class HeadlineDelta:
     """Scenario minus base for each numeric headline figure (None where either side is None)."""
 
     pd: float
+    """[fraction]"""
     model_pd: float
+    """[fraction]"""
     distance_to_default: float
+    """[standard deviations]"""
     default_point: float
+    """[currency units]"""
     asset_growth: float | None
+    """[1/year]; None where either side has none."""
     asset_volatility: float
+    """[1/sqrt(year)]"""
     ead: float
+    """[currency units]"""
     expected_loss: float
+    """[currency units]"""
     el_rate: float
+    """[fraction]"""
     unexpected_loss: float
+    """[currency units]"""
     rwa: float
+    """[currency units]"""
     economic_capital: float
+    """[currency units]"""
     raroc: float | None
+    """[fraction/year]; None where either side has none."""
     grade_changed: bool
+    """True when the scenario's grade differs from the base's."""
