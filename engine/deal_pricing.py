@@ -222,11 +222,11 @@ def price_lines(
     lines : list[PricingLine]
         One :class:`PricingLine` per facility, rates already resolved (facility over deal).
     base_rate : float
-        Deal-level rates [fraction/year].
+        The deal's reference rate [fraction/year].
     capital_return_rate : float
-        Deal-level rates [fraction/year].
+        Return earned on the capital held [fraction/year].
     hurdle_rate : float
-        Deal-level rates [fraction/year].
+        RAROC the relationship must reach [fraction/year].
     capital_basis : str
         "regulatory" or "economic".
     deal_spread : float

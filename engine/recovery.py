@@ -413,9 +413,9 @@ def recovery_law(
     Parameters
     ----------
     mean : float
-        Moments of the unsecured recovery R_u [fraction].
+        Mean of the unsecured recovery R_u [fraction], in [0, upper].
     std : float
-        Moments of the unsecured recovery R_u [fraction].
+        Standard deviation of R_u [fraction]; 0 for a fixed recovery.
     upper : float, optional
         Top of R_u's support, in (0, 1.5] [fraction].
     collateral_cover : float, optional
