@@ -16,7 +16,20 @@ from obligor_memo.engine.sensitivity import one_way_sensitivity, pd_grid
 
 
 def analyse(case: Case, base: Results | None = None) -> Results:
-    """Results of ``case`` with ``sensitivity``, ``pd_grid`` and ``scenarios`` filled in."""
+    """Results of ``case`` with ``sensitivity``, ``pd_grid`` and ``scenarios`` filled in.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    base : Results | None, optional
+        The case's evaluation, if already computed; None evaluates it here.
+
+    Returns
+    -------
+    Results
+        The results with the what-if layers.
+    """
     results = base if base is not None else evaluate(case)
     return replace(
         results,

@@ -57,60 +57,56 @@ class IrbCapital:
 
     Fields are Python scalars when all inputs were scalars, otherwise
     read-only numpy arrays of the broadcast shape.
-
-    Attributes:
-        pd_input: PD as given [fraction].
-        pd_floor: regulatory PD floor applied [fraction].
-        pd_used: max(pd_input, pd_floor) [fraction].
-        floor_binds: True where the floor raised the PD.
-        defaulted: True where pd_used = 1 (K = 0, see `irb_corporate_capital`).
-        lgd: loss given default [fraction].
-        maturity_input: effective maturity as given [years].
-        maturity_used: maturity clamped to [1, 5] [years].
-        maturity_clamped: True where the clamp changed the maturity.
-        annual_sales_input: annual sales as given, None when not given [EUR millions].
-        annual_sales_used: sales clamped to [5, 50], None when not given [EUR millions].
-        sales_clamped: True where sales below EUR 5 million were raised to 5.
-        correlation_before_size_adjustment: 0.12 w + 0.24 (1 - w) [fraction].
-        firm_size_adjustment: amount subtracted from the correlation,
-            0 when no sales were given or sales >= EUR 50 million [fraction].
-        correlation: asset correlation R used [fraction].
-        confidence: quantile of the systematic factor [fraction].
-        conditional_pd: PD given the systematic factor at that quantile [fraction].
-        b: maturity slope (0.11852 - 0.05478 ln PD)^2 [1/year].
-        maturity_adjustment: (1 + (M - 2.5) b) / (1 - 1.5 b) [dimensionless].
-        k_floored: True where the bracket was negative (possible only at low
-            confidence levels) and K was set to 0.
-        k: capital requirement per unit of EAD [fraction].
-        scaling_factor: multiplier on risk-weighted assets [dimensionless].
-        risk_weight: 12.5 K scaling_factor; RWA = risk_weight x EAD [fraction].
-        engine_version: version of the engine that produced the result.
     """
 
     pd_input: FloatOrArray
+    """PD as given [fraction]."""
     pd_floor: float
+    """Regulatory PD floor applied [fraction]."""
     pd_used: FloatOrArray
+    """Max(pd_input, pd_floor) [fraction]."""
     floor_binds: BoolOrArray
+    """True where the floor raised the PD."""
     defaulted: BoolOrArray
+    """True where pd_used = 1 (K = 0, see `irb_corporate_capital`)."""
     lgd: FloatOrArray
+    """Loss given default [fraction]."""
     maturity_input: FloatOrArray
+    """Effective maturity as given [years]."""
     maturity_used: FloatOrArray
+    """Maturity clamped to [1, 5] [years]."""
     maturity_clamped: BoolOrArray
+    """True where the clamp changed the maturity."""
     annual_sales_input: FloatOrArray | None
+    """Annual sales as given, None when not given [EUR millions]."""
     annual_sales_used: FloatOrArray | None
+    """Sales clamped to [5, 50], None when not given [EUR millions]."""
     sales_clamped: BoolOrArray
+    """True where sales below EUR 5 million were raised to 5."""
     correlation_before_size_adjustment: FloatOrArray
+    """0.12 w + 0.24 (1 - w) [fraction]."""
     firm_size_adjustment: FloatOrArray
+    """Amount subtracted from the correlation, 0 when no sales were given or sales >= EUR 50 million [fraction]."""
     correlation: FloatOrArray
+    """Asset correlation R used [fraction]."""
     confidence: float
+    """Quantile of the systematic factor [fraction]."""
     conditional_pd: FloatOrArray
+    """PD given the systematic factor at that quantile [fraction]."""
     b: FloatOrArray
+    """Maturity slope (0.11852 - 0.05478 ln PD)^2 [1/year]."""
     maturity_adjustment: FloatOrArray
+    """(1 + (M - 2.5) b) / (1 - 1.5 b) [dimensionless]."""
     k_floored: BoolOrArray
+    """True where the bracket was negative (possible only at low confidence levels) and K was set to 0."""
     k: FloatOrArray
+    """Capital requirement per unit of EAD [fraction]."""
     scaling_factor: float
+    """Multiplier on risk-weighted assets [dimensionless]."""
     risk_weight: FloatOrArray
+    """12.5 K scaling_factor; RWA = risk_weight x EAD [fraction]."""
     engine_version: str
+    """Version of the engine that produced the result."""
 
 
 def _check_range(
@@ -173,42 +169,53 @@ def irb_corporate_capital(
     paragraphs 273-274 and the maturity bounds of paragraph 320; see the module
     docstring for the formula. Inputs broadcast like numpy arrays.
 
-    Args:
-        pd: one-year probability of default, in (0, 1]; 1 means in default [fraction].
-        lgd: loss given default, in [0, 1] [fraction].
-        maturity_years: effective maturity M, > 0; clamped to [1, 5] (para 320) [years].
-        annual_sales_eur_millions: consolidated annual sales S, > 0, or None for
-            no firm-size adjustment. Below 5 it counts as 5 (para 273); at 50 or
-            more no adjustment applies. Para 274 lets a supervisor allow total
-            assets instead of sales; pass that figure here if so [EUR millions].
-        pd_floor: lower bound on the PD, in [0, 0.01]. Default 0.05 % (CRE32.4,
-            Basel III); use 0.0003 for Basel II (para 285), 0 for none [fraction].
-        scaling_factor: multiplier on RWA, in [1, 1.1]; Basel II para 44 sets
-            1.06, the default 1.0 leaves it out [dimensionless].
-        confidence: quantile of the systematic factor, in (0.5, 1); the
-            regulatory value is 0.999 [fraction].
+    Parameters
+    ----------
+    pd : ArrayLike
+        One-year probability of default, in (0, 1]; 1 means in default [fraction].
+    lgd : ArrayLike
+        Loss given default, in [0, 1] [fraction].
+    maturity_years : ArrayLike
+        Effective maturity M, > 0; clamped to [1, 5] (para 320) [years].
+    annual_sales_eur_millions : ArrayLike | None, optional
+        Consolidated annual sales S, > 0, or None for no firm-size adjustment. Below
+        5 it counts as 5 (para 273); at 50 or more no adjustment applies. Para 274 lets a supervisor allow total
+        assets instead of sales; pass that figure here if so [EUR millions].
+    pd_floor : float, optional
+        Lower bound on the PD, in [0, 0.01]. Default 0.05 % (CRE32.4, Basel III); use 0.0003 for
+        Basel II (para 285), 0 for none [fraction].
+    scaling_factor : float, optional
+        Multiplier on RWA, in [1, 1.1]; Basel II para 44 sets 1.06, the default 1.0 leaves it
+        out [dimensionless].
+    confidence : float, optional
+        Quantile of the systematic factor, in (0.5, 1); the regulatory value is 0.999
+        [fraction].
 
-    Returns:
-        IrbCapital with every intermediate; `k` [fraction of EAD] and
-        `risk_weight` [fraction] are the results.
+    Returns
+    -------
+    IrbCapital
+        IrbCapital with every intermediate; `k` [fraction of EAD] and `risk_weight` [fraction] are
+        the results.
 
-    Notes:
-        Defaulted exposures (PD = 1): paragraph 272 sets K to the greater of
-        zero and LGD minus the bank's best estimate of expected loss (EL_BE,
-        para 471). That estimate lies outside this function, so a defaulted
-        exposure gets K = 0 here, which is exact when the LGD given equals
-        EL_BE; where a bank holds LGD above EL_BE, the difference is
-        additional capital to add on top.
+    Raises
+    ------
+    ValueError
+        An argument is outside its allowed range (the message names the argument, the value and the range), or
+        the floored PD is so small (< about 2.9e-6) that 1 - 1.5 b <= 0.
 
-        At confidence levels well below 0.999 (for example 0.8 with a PD of
-        0.01 %) the conditional PD can fall under the PD itself; a negative
-        capital requirement has no meaning, so K is then floored at 0
-        (k_floored).
+    Notes
+    -----
+    Defaulted exposures (PD = 1): paragraph 272 sets K to the greater of
+    zero and LGD minus the bank's best estimate of expected loss (EL_BE,
+    para 471). That estimate lies outside this function, so a defaulted
+    exposure gets K = 0 here, which is exact when the LGD given equals
+    EL_BE; where a bank holds LGD above EL_BE, the difference is
+    additional capital to add on top.
 
-    Raises:
-        ValueError: an argument is outside its allowed range (the message names
-            the argument, the value and the range), or the floored PD is so small
-            (< about 2.9e-6) that 1 - 1.5 b <= 0.
+    At confidence levels well below 0.999 (for example 0.8 with a PD of
+    0.01 %) the conditional PD can fall under the PD itself; a negative
+    capital requirement has no meaning, so K is then floored at 0
+    (k_floored).
     """
     pd_arr = _as_float_array("pd", pd)
     lgd_arr = _as_float_array("lgd", lgd)
@@ -334,6 +341,19 @@ def irb_corporate_correlation(pd: ArrayLike, annual_sales_eur_millions: float | 
 
     R = 0.12 w + 0.24 (1 - w), w = (1 - exp(-50 PD)) / (1 - exp(-50)), less the firm-size
     adjustment 0.04 (1 - (S - 5) / 45) for sales S below EUR 50 million (S floored at 5).
+
+    Parameters
+    ----------
+    pd : ArrayLike
+        One-year probability of default [fraction]; a number or an array.
+    annual_sales_eur_millions : float | None, optional
+        Consolidated annual sales S for the firm-size adjustment [EUR millions]; None for
+        none.
+
+    Returns
+    -------
+    FloatOrArray
+        R [fraction]: a float for scalar inputs, else an array.
     """
     pd_arr = np.asarray(pd, dtype=np.float64)
     weight = -np.expm1(-50.0 * pd_arr) / -math.expm1(-50.0)
@@ -364,11 +384,21 @@ def single_factor_capital(
 
     Parameters
     ----------
-    pd : one-year PD in [0, 1] [fraction]; 0 and 1 give 0 (no loss, or a certain loss that EL covers).
-    lgd : loss given default in [0, 1] [fraction].
-    correlation : asset correlation in (0, 1) [fraction].
-    confidence : quantile of the systematic factor in (0.5, 1) [fraction].
-    maturity_years : effective maturity, clamped to [1, 5] [years]; None: no adjustment.
+    pd : ArrayLike
+        One-year PD in [0, 1] [fraction]; 0 and 1 give 0 (no loss, or a certain loss that EL covers).
+    lgd : ArrayLike
+        Loss given default in [0, 1] [fraction].
+    correlation : ArrayLike
+        Asset correlation in (0, 1) [fraction].
+    confidence : float, optional
+        Quantile of the systematic factor in (0.5, 1) [fraction].
+    maturity_years : ArrayLike | None, optional
+        Effective maturity, clamped to [1, 5] [years]; None: no adjustment.
+
+    Returns
+    -------
+    FloatOrArray
+        K per unit of EAD [fraction]: a float for scalar inputs, else an array.
     """
     pd_arr = _as_float_array("pd", pd)
     lgd_arr = _as_float_array("lgd", lgd)

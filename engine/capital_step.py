@@ -26,9 +26,9 @@ from dataclasses import dataclass
 
 import numpy as np
 from obligor_memo.engine.capital import irb_corporate_capital, irb_corporate_correlation, single_factor_capital
-from obligor_memo.engine.case import Case
+from obligor_memo.engine.case import Case, Facility
 from obligor_memo.engine.errors import Caution
-from obligor_memo.engine.exposure import FacilityExposure, ccf_preset, facility_exposure
+from obligor_memo.engine.exposure import FacilityExposure, FacilityKind, Standard, ccf_preset, facility_exposure
 
 FOUNDATION_MATURITY_YEARS = 2.5
 """Foundation-approach effective maturity [years] (Basel II para 318)."""
@@ -36,8 +36,27 @@ FOUNDATION_COMMITMENT_CCF_BASEL_II = 0.75
 """Foundation-IRB CCF of commitments under Basel II [fraction] (para 311)."""
 
 
-def foundation_ccf(kind: str, *, standard: str, maturity_years: float, cancellable: bool) -> tuple[float, str]:
-    """The foundation-IRB CCF of a facility kind and its source (see the module docstring)."""
+def foundation_ccf(
+    kind: FacilityKind, *, standard: Standard, maturity_years: float, cancellable: bool
+) -> tuple[float, str]:
+    """The foundation-IRB CCF of a facility kind and its source (see the module docstring).
+
+    Parameters
+    ----------
+    kind : FacilityKind
+        Facility kind: bond, term_loan, revolver, guarantee or letter_of_credit.
+    standard : Standard
+        Basel standard: ``basel_iii`` or ``basel_ii``.
+    maturity_years : float
+        Maturity of the facility [years].
+    cancellable : bool
+        True for an unconditionally cancellable commitment.
+
+    Returns
+    -------
+    tuple[float, str]
+        The CCF [fraction] and its source.
+    """
     if standard == "basel_ii" and kind in ("term_loan", "revolver"):
         if cancellable:
             return 0.0, "foundation IRB, Basel II para 312: unconditionally cancellable commitment"
@@ -45,14 +64,29 @@ def foundation_ccf(kind: str, *, standard: str, maturity_years: float, cancellab
     ccf, source = ccf_preset(
         kind,
         standard=standard,
-        maturity_years=maturity_years,  # type: ignore[arg-type]
+        maturity_years=maturity_years,
         cancellable=cancellable,
     )
     return ccf, f"foundation IRB = standardised ({source})"
 
 
-def capital_exposure(case: Case, facility, exposure: FacilityExposure) -> FacilityExposure:
-    """The EAD of the risk weight: the exposure step's, or on the foundation-IRB CCF."""
+def capital_exposure(case: Case, facility: Facility, exposure: FacilityExposure) -> FacilityExposure:
+    """The EAD of the risk weight: the exposure step's, or on the foundation-IRB CCF.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    facility : Facility
+        The facility as in the case.
+    exposure : FacilityExposure
+        The facility's exposure from the exposure step.
+
+    Returns
+    -------
+    FacilityExposure
+        The exposure the risk weight applies to.
+    """
     if case.capital.capital_ccf == "exposure":
         return exposure
     ccf, source = foundation_ccf(
@@ -64,7 +98,7 @@ def capital_exposure(case: Case, facility, exposure: FacilityExposure) -> Facili
     return facility_exposure(
         id=exposure.id,
         kind=exposure.kind,
-        drawn=exposure.drawn,  # type: ignore[arg-type]
+        drawn=exposure.drawn,
         committed=exposure.committed,
         ccf=ccf,
         ccf_source=source,
@@ -82,18 +116,21 @@ class CapitalFigures:
     maturity: np.ndarray
     """Effective maturity used [years]."""
     correlation: np.ndarray
+    """IRB asset correlation R [fraction]."""
     maturity_adjustment: np.ndarray
+    """(1 + (M - 2.5) b) / (1 - 1.5 b) [dimensionless]."""
     k: np.ndarray
     """[fraction of EAD]"""
     risk_weight: np.ndarray
     """[fraction]"""
     regulatory_capital: np.ndarray
-    """8 % of RWA [currency]."""
+    """8 % of RWA [currency units]."""
     regulatory_expected_loss: np.ndarray
-    """[currency]"""
+    """[currency units]"""
     economic_correlation: np.ndarray
+    """Asset correlation of the economic capital [fraction]."""
     economic_single_factor: np.ndarray
-    """[currency]"""
+    """[currency units]"""
 
 
 def capital_figures(
@@ -106,7 +143,30 @@ def capital_figures(
     mean_lgds: list[float],
     cautions: list[Caution],
 ) -> CapitalFigures:
-    """Regulatory and single-factor economic capital of every facility (one-year PD)."""
+    """Regulatory and single-factor economic capital of every facility (one-year PD).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    pd_one_year : float
+        One-year PD in force [fraction].
+    capital_eads : list[float]
+        EAD of the risk weight, per facility [currency units].
+    downturn_lgds : list[float]
+        Downturn LGD per facility [fraction].
+    economic_eads : list[float]
+        EAD of the economic capital, per facility [currency units].
+    mean_lgds : list[float]
+        Mean LGD per facility [fraction].
+    cautions : list[Caution]
+        Cautions of the evaluation; a binding PD floor or a negative LGD adds one.
+
+    Returns
+    -------
+    CapitalFigures
+        The per-facility capital arrays.
+    """
     settings = case.capital
     n = len(case.facilities)
     own = np.array([f.maturity_years for f in case.facilities])
@@ -143,7 +203,7 @@ def capital_figures(
     pd_el = np.asarray(cap.pd_used) if settings.el_pd_floor else np.full(n, pd_one_year)
     rho = settings.economic_correlation
     if rho is None:
-        rho = irb_corporate_correlation(min(max(pd_one_year, 0.0), 1.0), settings.annual_sales_eur_millions)
+        rho = float(irb_corporate_correlation(min(max(pd_one_year, 0.0), 1.0), settings.annual_sales_eur_millions))
     sf = single_factor_capital(
         pd=np.full(n, min(max(pd_one_year, 0.0), 1.0)),
         lgd=np.clip(np.array(mean_lgds), 0.0, 1.0),
@@ -167,7 +227,20 @@ def capital_figures(
 
 
 def economic_basis(case: Case, correlation: float) -> str:
-    """The economic-capital method in words, with the reason for the default."""
+    """The economic-capital method in words, with the reason for the default.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    correlation : float
+        Asset correlation of the economic capital [fraction].
+
+    Returns
+    -------
+    str
+        The method, for the memo.
+    """
     q = case.capital.confidence
     if case.capital.economic_method == "single_factor":
         source = (
@@ -187,7 +260,20 @@ def economic_basis(case: Case, correlation: float) -> str:
 
 
 def allocate(total: float, weights: list[float]) -> list[float]:
-    """``total`` split in proportion to the non-negative ``weights`` (equal split if all are 0)."""
+    """``total`` split in proportion to the non-negative ``weights`` (equal split if all are 0).
+
+    Parameters
+    ----------
+    total : float
+        The amount to split [currency units].
+    weights : list[float]
+        Weight of each part; negative weights count as 0.
+
+    Returns
+    -------
+    list[float]
+        One part per weight [currency units], summing to ``total``.
+    """
     w = np.maximum(np.array(weights, dtype=float), 0.0)
     if w.sum() <= 0:
         w = np.ones_like(w)

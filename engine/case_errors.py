@@ -10,10 +10,12 @@ from __future__ import annotations
 import difflib
 import re
 import typing
+from collections.abc import Sized
 from typing import Any
 
 from obligor_memo.engine.errors import Problem
 from pydantic import BaseModel, ValidationError
+from pydantic_core import ErrorDetails
 
 MAX_UNKNOWN_KEYS_SHOWN = 10  # unknown keys named one by one; the rest are counted
 MAX_SUGGESTED_KEY = 60  # longer unknown keys get no nearest-key suggestion
@@ -73,7 +75,7 @@ def _unwrap_model(annotation: Any, typing: Any) -> Any:
     return None
 
 
-def _allowed_for(root: type[BaseModel], error: dict[str, Any]) -> str:
+def _allowed_for(root: type[BaseModel], error: ErrorDetails) -> str:
     kind = error["type"]
     ctx = error.get("ctx") or {}
     if kind == "extra_forbidden":
@@ -117,7 +119,7 @@ def _allowed_for(root: type[BaseModel], error: dict[str, Any]) -> str:
     return error.get("msg", "a valid value")
 
 
-def _range_text(root: type[BaseModel], error: dict[str, Any]) -> str:
+def _range_text(root: type[BaseModel], error: ErrorDetails) -> str:
     """Combine the field's bounds into one range, reading them off the schema when possible."""
     owner = _model_at(root, tuple(error["loc"]))
     key = error["loc"][-1]
@@ -151,12 +153,12 @@ def _bound_metadata(field: Any) -> list[Any]:
     return found
 
 
-def _shown_value(error: dict[str, Any]) -> Any:
+def _shown_value(error: ErrorDetails) -> Any:
     """The value as the message shows it: a count for a list or text that is too long."""
     value = error.get("input")
     if error["type"] == "missing":
         return None
-    if error["type"] == "too_long" and hasattr(value, "__len__"):
+    if error["type"] == "too_long" and isinstance(value, Sized):
         return f"{len(value)} items"
     if error["type"] == "string_too_long" and isinstance(value, str):
         return f"{len(value):,} characters"
@@ -164,6 +166,22 @@ def _shown_value(error: dict[str, Any]) -> Any:
 
 
 def problems_from_validation(root: type[BaseModel], exc: ValidationError, prefix: str = "") -> list[Problem]:
+    """Turn pydantic's validation errors into problems, each naming its field and what is allowed.
+
+    Parameters
+    ----------
+    root : type[BaseModel]
+        The model validated (the case, or a block of it).
+    exc : ValidationError
+        pydantic's validation error.
+    prefix : str, optional
+        Dotted path put before every field (the block's place in the case).
+
+    Returns
+    -------
+    list[Problem]
+        One problem per error; unknown keys beyond the first few are counted in one more problem.
+    """
     problems: list[Problem] = []
     unknown: list[str] = []
     for error in exc.errors(include_url=False):

@@ -32,13 +32,15 @@ class PricingLine:
     """One facility's amounts and rates, the input of :func:`price_lines`."""
 
     id: str
+    """Facility id."""
     kind: str
+    """Facility kind."""
     drawn: float
-    """Drawn (funded) amount [currency]."""
+    """Drawn (funded) amount [currency units]."""
     undrawn: float
-    """Committed less drawn [currency]."""
+    """Committed less drawn [currency units]."""
     ead: float
-    """Exposure at default [currency]."""
+    """Exposure at default [currency units]."""
     proposed_spread: float
     """Margin over the base rate on the drawn amount [fraction/year]."""
     fee_rate: float
@@ -54,9 +56,9 @@ class PricingLine:
     expected_loss: float
     """One-year expected loss [currency/year]."""
     capital_regulatory: float
-    """One-year regulatory capital, 8 % of RWA [currency]."""
+    """One-year regulatory capital, 8 % of RWA [currency units]."""
     capital_economic: float
-    """One-year economic capital (the case's method) [currency]."""
+    """One-year economic capital (the case's method) [currency units]."""
 
 
 @dataclass(frozen=True)
@@ -64,17 +66,19 @@ class FacilityPricing:
     """RAROC of one facility (or, with id "relationship", of all of them together)."""
 
     id: str
+    """Facility id, or ``relationship`` for the whole relationship."""
     kind: str
+    """Facility kind (empty for the relationship)."""
     capital_basis: str
     """"regulatory" or "economic": the capital RAROC and the minimum spread use."""
     funded: float
-    """Amount earning interest and funded [currency]."""
+    """Amount earning interest and funded [currency units]."""
     commitment_fee_base: float
-    """Undrawn commitment charged the commitment fee [currency]."""
+    """Undrawn commitment charged the commitment fee [currency units]."""
     issued: float
-    """Amount issued charged the issuance fee [currency]."""
+    """Amount issued charged the issuance fee [currency units]."""
     ead: float
-    """[currency]"""
+    """[currency units]"""
     base_rate: float
     """[fraction/year]"""
     proposed_spread: float
@@ -96,11 +100,11 @@ class FacilityPricing:
     expected_loss: float
     """One-year EL [currency/year]."""
     capital: float
-    """Capital on the chosen basis [currency]."""
+    """Capital on the chosen basis [currency units]."""
     capital_regulatory: float
-    """[currency]"""
+    """[currency units]"""
     capital_economic: float
-    """[currency]"""
+    """[currency units]"""
     capital_return_rate: float
     """[fraction/year]"""
     capital_benefit: float
@@ -215,20 +219,29 @@ def price_lines(
 
     Parameters
     ----------
-    lines
+    lines : list[PricingLine]
         One :class:`PricingLine` per facility, rates already resolved (facility over deal).
-    base_rate, capital_return_rate, hurdle_rate
-        Deal-level rates [fraction/year].
-    capital_basis
+    base_rate : float
+        The deal's reference rate [fraction/year].
+    capital_return_rate : float
+        Return earned on the capital held [fraction/year].
+    hurdle_rate : float
+        RAROC the relationship must reach [fraction/year].
+    capital_basis : str
         "regulatory" or "economic".
-    deal_spread
+    deal_spread : float
         The deal's proposed spread, reported for a relationship with nothing funded [fraction/year].
 
     Returns
     -------
-    tuple
-        (per-facility results, relationship result). The relationship's minimum spread is the
-        one spread on every funded amount at which the relationship meets the hurdle.
+    tuple[tuple[FacilityPricing, ...], FacilityPricing]
+        (per-facility results, relationship result). The relationship's minimum spread is the one spread on
+        every funded amount at which the relationship meets the hurdle.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     if capital_basis not in ("regulatory", "economic"):
         raise ValueError(f"pricing.capital_basis: got {capital_basis!r}; allowed: regulatory, economic")
@@ -316,9 +329,9 @@ class DealPricing:
     hurdle_rate: float
     """[fraction/year]"""
     exposure: float
-    """Total EAD [currency]."""
+    """Total EAD [currency units]."""
     funded: float
-    """Total drawn [currency]."""
+    """Total drawn [currency units]."""
     income: float
     """[currency/year]"""
     funding_cost: float
@@ -328,11 +341,11 @@ class DealPricing:
     expected_loss: float
     """One-year EL [currency/year]."""
     capital: float
-    """On the chosen basis [currency]."""
+    """On the chosen basis [currency units]."""
     capital_regulatory: float
-    """[currency]"""
+    """[currency units]"""
     capital_economic: float
-    """[currency]"""
+    """[currency units]"""
     capital_benefit: float
     """[currency/year]"""
     risk_adjusted_return: float
@@ -350,15 +363,36 @@ class DealPricing:
     spread_shortfall: float | None
     """[fraction/year]"""
     meets_hurdle: bool
+    """True when the income reaches the minimum income."""
     note: str
+    """Notes on the pricing, joined with semicolons."""
     facilities: tuple[FacilityPricing, ...]
+    """Each facility's pricing, in case order."""
     relationship: FacilityPricing
+    """The relationship's pricing (the sums)."""
 
 
 def deal_pricing(
     facilities: tuple[FacilityPricing, ...], relationship: FacilityPricing, *, rates: dict[str, float], label: str
 ) -> DealPricing:
-    """Assemble :class:`DealPricing` from :func:`price_lines` and the deal's rates."""
+    """Assemble :class:`DealPricing` from :func:`price_lines` and the deal's rates.
+
+    Parameters
+    ----------
+    facilities : tuple[FacilityPricing, ...]
+        Each facility's pricing, from :func:`price_lines`.
+    relationship : FacilityPricing
+        The relationship's pricing, from :func:`price_lines`.
+    rates : dict[str, float]
+        The deal's rates by name [fraction/year].
+    label : str
+        What the pricing is of, in words.
+
+    Returns
+    -------
+    DealPricing
+        The deal's pricing.
+    """
     r = relationship
     return DealPricing(
         capital_basis=r.capital_basis,

@@ -22,7 +22,18 @@ _SHORT_REPR.maxstring = _SHORT_REPR.maxother = _MAX_VALUE_CHARS
 
 
 def show_value(value: Any) -> str:
-    """A short, unambiguous rendering of a user's value for a message."""
+    """A short, unambiguous rendering of a user's value for a message.
+
+    Parameters
+    ----------
+    value : Any
+        The value as given.
+
+    Returns
+    -------
+    str
+        The rendering.
+    """
     if isinstance(value, (str, float, int, bool)):
         text = repr(value) if len(str(value)) <= 10 * _MAX_VALUE_CHARS else repr(str(value)[:_MAX_VALUE_CHARS])
     elif value is None:
@@ -41,10 +52,20 @@ class Problem:
     """One bad input: where it is, what was given, what is allowed."""
 
     field: str
+    """Dotted path of the field, e.g. ``facilities[0].drawn``."""
     value: Any
+    """The value as given."""
     allowed: str
+    """What is allowed, in words."""
 
     def sentence(self) -> str:
+        """Render the problem as one sentence, e.g. ``field: got 3; allowed: 0 to 1.``.
+
+        Returns
+        -------
+        str
+            The sentence.
+        """
         return f"{self.field}: got {show_value(self.value)}; allowed: {self.allowed}."
 
 
@@ -58,9 +79,39 @@ class CaseError(ValueError):
 
     @classmethod
     def single(cls, field: str, value: Any, allowed: str, source: str = "case") -> CaseError:
+        """Build a case error of one problem.
+
+        Parameters
+        ----------
+        field : str
+            Dotted path of the field.
+        value : Any
+            The value as given.
+        allowed : str
+            What is allowed, in words.
+        source : str, optional
+            What holds the input (the case, a scenario), named in the message.
+
+        Returns
+        -------
+        CaseError
+            The error with its one problem.
+        """
         return cls([Problem(field, value, allowed)], source=source)
 
     def paragraph(self, limit: int = 8) -> str:
+        """Render the problems as one paragraph, the first ``limit`` in full.
+
+        Parameters
+        ----------
+        limit : int, optional
+            Largest number of problems written out; the rest are counted.
+
+        Returns
+        -------
+        str
+            The paragraph.
+        """
         shown = self.problems[:limit]
         head = f"The {self.source} has {len(self.problems)} problem{'s' if len(self.problems) != 1 else ''}: "
         body = " ".join(p.sentence() for p in shown)
@@ -70,6 +121,7 @@ class CaseError(ValueError):
 
     @property
     def fields(self) -> tuple[str, ...]:
+        """The field of each problem, in order."""
         return tuple(p.field for p in self.problems)
 
 
@@ -89,6 +141,7 @@ class InputError(ValueError):
 
     @property
     def problem(self) -> Problem:
+        """The error as a :class:`Problem` (field, value, allowed)."""
         return Problem(self.field, self.value, self.allowed)
 
 
@@ -101,5 +154,8 @@ class Caution:
     """
 
     code: str
+    """Stable identifier, e.g. ``pd.override``."""
     message: str
+    """A plain sentence."""
     field: str = ""
+    """The input it concerns; empty for none."""

@@ -34,6 +34,27 @@ def ccf_preset(
 
     ``maturity_years`` stands in for the original maturity (Basel II's 1-year boundary).
     A bond's unsettled amount is a forward purchase commitment, converted at 100 %.
+
+    Parameters
+    ----------
+    kind : FacilityKind
+        Facility kind: bond, term_loan, revolver, guarantee or letter_of_credit.
+    standard : Standard, optional
+        Basel standard: ``basel_iii`` or ``basel_ii``.
+    maturity_years : float, optional
+        Original maturity of the commitment [years] (Basel II's one-year boundary).
+    cancellable : bool, optional
+        True for an unconditionally cancellable commitment.
+
+    Returns
+    -------
+    tuple[float, str]
+        The CCF [fraction] and its source.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     if standard not in ("basel_iii", "basel_ii"):
         raise ValueError(f"exposure.ccf_standard: got {standard!r}; allowed: 'basel_iii' or 'basel_ii'")
@@ -61,7 +82,27 @@ def ccf_preset(
 
 
 def exposure_at_default(*, drawn: float, committed: float, ccf: float) -> float:
-    """EAD = drawn + CCF x max(committed - drawn, 0) [currency]."""
+    """EAD = drawn + CCF x max(committed - drawn, 0) [currency units].
+
+    Parameters
+    ----------
+    drawn : float
+        Drawn amount [currency units].
+    committed : float
+        Committed amount [currency units].
+    ccf : float
+        Credit conversion factor [fraction], in [0, 1].
+
+    Returns
+    -------
+    float
+        EAD [currency units].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if drawn < 0 or committed < 0:
         raise ValueError(f"drawn and committed must be >= 0 (got {drawn!r}, {committed!r})")
     if not 0 <= ccf <= 1:
@@ -71,14 +112,24 @@ def exposure_at_default(*, drawn: float, committed: float, ccf: float) -> float:
 
 @dataclass(frozen=True)
 class FacilityExposure:
+    """One facility's exposure at default and the CCF it rests on."""
+
     id: str
-    kind: str
-    drawn: float  # [currency]
-    committed: float  # [currency]
-    undrawn: float  # max(committed - drawn, 0) [currency]
-    ccf: float  # [fraction]
-    ccf_source: str  # "facility", "grade table (grade X)" or the preset's citation
-    ead: float  # [currency]
+    """Facility id."""
+    kind: FacilityKind
+    """Facility kind."""
+    drawn: float
+    """[currency units]"""
+    committed: float
+    """[currency units]"""
+    undrawn: float
+    """max(committed - drawn, 0) [currency units]"""
+    ccf: float
+    """[fraction]"""
+    ccf_source: str
+    """"facility", "grade table (grade X)" or the preset's citation."""
+    ead: float
+    """[currency units]"""
 
 
 def resolve_ccf(
@@ -91,7 +142,30 @@ def resolve_ccf(
     maturity_years: float,
     cancellable: bool,
 ) -> tuple[float, str]:
-    """The CCF in force and where it came from (facility > grade table > preset)."""
+    """The CCF in force and where it came from (facility > grade table > preset).
+
+    Parameters
+    ----------
+    kind : FacilityKind
+        Facility kind: bond, term_loan, revolver, guarantee or letter_of_credit.
+    own_ccf : float | None
+        The CCF set on the facility [fraction]; None for none.
+    grade : str | None
+        The borrower's grade; None when not graded.
+    grade_table : list[tuple[str, float, str | None]] | None
+        The case's CCF-by-grade rows (grade, CCF [fraction], kind or None for any kind); None for none.
+    standard : Standard
+        Basel standard: ``basel_iii`` or ``basel_ii``.
+    maturity_years : float
+        Maturity of the facility [years].
+    cancellable : bool
+        True for an unconditionally cancellable commitment.
+
+    Returns
+    -------
+    tuple[float, str]
+        The CCF in force [fraction] and where it came from.
+    """
     if own_ccf is not None:
         return own_ccf, "set on the facility"
     if grade_table and grade is not None:
@@ -107,6 +181,33 @@ def resolve_ccf(
 def facility_exposure(
     *, id: str, kind: FacilityKind, drawn: float, committed: float, ccf: float, ccf_source: str
 ) -> FacilityExposure:
+    """Build a facility's exposure: undrawn amount and EAD = drawn + CCF x max(committed - drawn, 0).
+
+    Parameters
+    ----------
+    id : str
+        Facility id.
+    kind : FacilityKind
+        Facility kind: bond, term_loan, revolver, guarantee or letter_of_credit.
+    drawn : float
+        Drawn amount [currency units], >= 0.
+    committed : float
+        Committed amount [currency units], >= 0.
+    ccf : float
+        Credit conversion factor [fraction], in [0, 1].
+    ccf_source : str
+        Where the CCF came from, in words.
+
+    Returns
+    -------
+    FacilityExposure
+        The facility's amounts, CCF and EAD.
+
+    Raises
+    ------
+    ValueError
+        If an amount is negative or the CCF is outside [0, 1].
+    """
     return FacilityExposure(
         id=id,
         kind=kind,

@@ -23,31 +23,26 @@ _ROW_FIELDS = ("grade", "pd_upper")
 
 @dataclass(frozen=True)
 class Grade:
-    """One band of a master scale.
-
-    Fields:
-        label: the grade's name, e.g. "4".
-        pd_lower: lower bound of the band, exclusive [fraction].
-        pd_upper: upper bound of the band, inclusive [fraction].
-    """
+    """One band of a master scale."""
 
     label: str
+    """The grade's name, e.g. "4"."""
     pd_lower: float
+    """Lower bound of the band, exclusive [fraction]."""
     pd_upper: float
+    """Upper bound of the band, inclusive [fraction]."""
 
 
 @dataclass(frozen=True)
 class MasterScale:
-    """Grades covering (0, 1] without gaps or overlaps, PD strictly increasing.
-
-    Fields:
-        grades: the bands, best grade first; the first lower bound is 0, each
-            lower bound equals the previous upper bound, the last upper is 1.
-    """
+    """Grades covering (0, 1] without gaps or overlaps, PD strictly increasing."""
 
     grades: tuple[Grade, ...]
+    """The bands, best grade first; the first lower bound is 0, each lower bound equals the previous upper bound, the
+    last upper is 1."""
 
     def __post_init__(self) -> None:
+        """Check the bands: a non-empty tuple of grades, unique labels, contiguous bands ending at 1."""
         if not isinstance(self.grades, tuple) or not self.grades:
             raise ValueError(f"grades must be a non-empty tuple of Grade; got {self.grades!r}")
         seen: dict[str, int] = {}
@@ -99,40 +94,41 @@ class MasterScale:
 
 @dataclass(frozen=True)
 class GradeResult:
-    """The grade of one PD.
-
-    Fields:
-        pd: the PD graded [fraction].
-        grade: label of the band holding ``pd``.
-        pd_lower: the band's exclusive lower bound [fraction].
-        pd_upper: the band's inclusive upper bound [fraction].
-        band_midpoint_geometric: sqrt(pd_lower * pd_upper), the band's
-            midpoint on a log scale [fraction]; None for the best band, whose
-            lower bound is 0 and so has no geometric midpoint.
-    """
+    """The grade of one PD."""
 
     pd: float
+    """The PD graded [fraction]."""
     grade: str
+    """Label of the band holding ``pd``."""
     pd_lower: float
+    """The band's exclusive lower bound [fraction]."""
     pd_upper: float
+    """The band's inclusive upper bound [fraction]."""
     band_midpoint_geometric: float | None
+    """sqrt(pd_lower * pd_upper), the band's midpoint on a log scale [fraction]; None for the best band, whose lower
+    bound is 0 and so has no geometric midpoint."""
 
 
 def master_scale_from_rows(rows: Sequence[Mapping[str, object]]) -> MasterScale:
     """Build a master scale from rows {grade: str, pd_upper: float}.
 
-    Args:
-        rows: one mapping per grade with keys ``grade`` (a label) and
-            ``pd_upper`` (the band's inclusive upper bound [fraction], in
-            (0, 1]); in any order. The row with the largest ``pd_upper`` must
-            have ``pd_upper = 1.0``: the default grade closes the scale.
+    Parameters
+    ----------
+    rows : Sequence[Mapping[str, object]]
+        One mapping per grade with keys ``grade`` (a label) and ``pd_upper`` (the
+        band's inclusive upper bound [fraction], in (0, 1]); in any order. The row with the largest ``pd_upper``
+        must have ``pd_upper = 1.0``: the default grade closes the scale.
 
-    Returns:
-        The ``MasterScale``, bands sorted by ``pd_upper``; each band's lower
-        bound is the previous band's upper bound (0 for the first).
+    Returns
+    -------
+    MasterScale
+        The ``MasterScale``, bands sorted by ``pd_upper``; each band's lower bound is the previous
+        band's upper bound (0 for the first).
 
-    Raises:
-        ValueError: naming the row index, the field, the value and the rule.
+    Raises
+    ------
+    ValueError
+        Naming the row index, the field, the value and the rule.
     """
     if isinstance(rows, (str, bytes)) or not isinstance(rows, Sequence) or not rows:
         raise ValueError(f"rows must be a non-empty list of {{grade, pd_upper}} mappings; got {rows!r}")
@@ -210,13 +206,23 @@ default-equivalent. Bands are (lower, upper]: lower exclusive, upper inclusive.
 def assign_grade(pd: float, scale: MasterScale = DEFAULT_MASTER_SCALE) -> GradeResult:
     """The grade whose band (pd_lower, pd_upper] holds ``pd``.
 
-    Args:
-        pd: probability of default [fraction], in (0, 1]; a PD of exactly 0
-            lies in no band (lower bounds are exclusive).
-        scale: the master scale; ``DEFAULT_MASTER_SCALE`` if omitted.
+    Parameters
+    ----------
+    pd : float
+        Probability of default [fraction], in (0, 1]; a PD of exactly 0 lies in no band (lower bounds are
+        exclusive).
+    scale : MasterScale, optional
+        The master scale; ``DEFAULT_MASTER_SCALE`` if omitted.
 
-    Returns:
+    Returns
+    -------
+    GradeResult
         ``GradeResult`` with the band's bounds and its geometric midpoint.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     if not isinstance(scale, MasterScale):
         raise ValueError(f"scale must be a MasterScale; got {scale!r}")

@@ -132,7 +132,25 @@ _StrictLoader.add_constructor("tag:yaml.org,2002:bool", _construct_bool)
 
 
 def parse_text(text: str, name: str) -> Any:
-    """Plain data from YAML or JSON text (JSON is valid YAML, but JSON gets JSON's messages)."""
+    """Plain data from YAML or JSON text (JSON is valid YAML, but JSON gets JSON's messages).
+
+    Parameters
+    ----------
+    text : str
+        The case file's text.
+    name : str
+        File name, used in messages and to tell JSON from YAML.
+
+    Returns
+    -------
+    Any
+        The parsed data.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
+    """
     if name.lower().endswith(".json"):
         try:
             return json.loads(
@@ -200,7 +218,26 @@ def _json_pairs(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
 
 
 def resolve_statements(data: Any, base_dir: Path | None) -> Any:
-    """Inline a ``statements: {file: path, sheet: name}`` entry (path relative to the case file)."""
+    """Inline a ``statements: {file: path, sheet: name}`` entry (path relative to the case file).
+
+    Parameters
+    ----------
+    data : Any
+        Plain data of the case file.
+    base_dir : Path | None
+        Folder the statements file's path is relative to; None when there is no case file on disk (a
+        file path is then refused).
+
+    Returns
+    -------
+    Any
+        The data with the statements inline.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
+    """
     if not isinstance(data, dict):
         return data
     spec = data.get("statements")
@@ -264,7 +301,23 @@ def resolve_statements(data: Any, base_dir: Path | None) -> Any:
 
 
 def load_case(path: str | Path) -> Case:
-    """Read, inline and validate a case file. Raises CaseError for every user mistake."""
+    """Read, inline and validate a case file. Raises CaseError for every user mistake.
+
+    Parameters
+    ----------
+    path : str | Path
+        Path of the case file (YAML or JSON).
+
+    Returns
+    -------
+    Case
+        The validated case.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
+    """
     path = Path(path)
     if not path.is_file():
         raise CaseError.single("CASE", str(path), "the path of an existing .yaml, .yml or .json file", "command")
@@ -283,7 +336,28 @@ def load_case(path: str | Path) -> Case:
 
 
 def load_case_text(text: str, name: str = "case.yaml", base_dir: Path | None = None) -> Case:
-    """Validate a case given as text (an upload)."""
+    """Validate a case given as text (an upload).
+
+    Parameters
+    ----------
+    text : str
+        The case file's text.
+    name : str, optional
+        File name, used in messages and to tell JSON from YAML.
+    base_dir : Path | None, optional
+        Folder a statements file's path is relative to; None when the text has no file on disk (a
+        statements file path is then refused).
+
+    Returns
+    -------
+    Case
+        The validated case.
+
+    Raises
+    ------
+    CaseError
+        If the text cannot be read or the case does not validate (each problem names its field).
+    """
     data = parse_text(text, name)
     data = resolve_statements(data, base_dir)
     return parse_case(data, source="case file")

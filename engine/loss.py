@@ -25,13 +25,50 @@ from typing import Any
 
 
 def expected_loss(*, ead: float, pd: float, lgd: float) -> float:
-    """EL [currency] = EAD [currency] x PD [fraction] x LGD [fraction]."""
+    """EL [currency units] = EAD [currency units] x PD [fraction] x LGD [fraction].
+
+    Parameters
+    ----------
+    ead : float
+        Exposure at default [currency units].
+    pd : float
+        Probability of default over the horizon [fraction], in [0, 1].
+    lgd : float
+        Loss given default [fraction].
+
+    Returns
+    -------
+    float
+        EL [currency units].
+    """
     _check(ead=ead, pd=pd, lgd=lgd)
     return ead * pd * lgd
 
 
 def unexpected_loss(*, ead: float, pd: float, lgd: float, lgd_std: float) -> float:
-    """UL [currency] = EAD sqrt(PD sigma_LGD^2 + LGD^2 PD (1 - PD))."""
+    """UL [currency units] = EAD sqrt(PD sigma_LGD^2 + LGD^2 PD (1 - PD)).
+
+    Parameters
+    ----------
+    ead : float
+        Exposure at default [currency units].
+    pd : float
+        Probability of default over the horizon [fraction], in [0, 1].
+    lgd : float
+        Loss given default [fraction].
+    lgd_std : float
+        Standard deviation of the LGD [fraction], >= 0.
+
+    Returns
+    -------
+    float
+        UL [currency units].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     _check(ead=ead, pd=pd, lgd=lgd)
     if lgd_std < 0:
         raise ValueError(f"lgd_std: got {lgd_std!r}; allowed: >= 0")
@@ -96,7 +133,7 @@ def _covariance_by_quadrature(first: Any, second: Any) -> float:
 
 @lru_cache(maxsize=256)
 def _unit_covariance(a1: float, b1: float, a2: float, b2: float) -> float:
-    """cov of the beta(a1, b1) and beta(a2, b2) quantiles of one uniform, on [0, 1]."""
+    """Covariance of the beta(a1, b1) and beta(a2, b2) quantiles of one uniform, on [0, 1]."""
     from obligor_memo.engine.recovery import RecoveryLaw  # the law type the engine fits
 
     def unit(a: float, b: float) -> RecoveryLaw:
@@ -111,6 +148,18 @@ def comonotonic_second_moment(*, eads: Sequence[float], laws: Sequence[Any]) -> 
 
     E[S^2] = E[S]^2 + sum_i sum_j EAD_i EAD_j cov(R_i, R_j): the variances are exact, each
     covariance as :func:`_quantile_covariance` says (exact or controlled to about 1e-11).
+
+    Parameters
+    ----------
+    eads : Sequence[float]
+        Exposure at default of each facility [currency units].
+    laws : Sequence[Any]
+        Recovery law of each facility (objects with ``ppf``, ``mean`` and ``var``).
+
+    Returns
+    -------
+    float
+        E[S^2] [currency units squared].
     """
     mean_s = sum(e * (1.0 - float(law.mean())) for e, law in zip(eads, laws))
     var_s = 0.0
@@ -136,6 +185,31 @@ def borrower_unexpected_loss(
     Loss = D x S with S = sum EAD_i LGD_i (random); var = PD var(S) + E[S]^2 PD (1 - PD).
     With the recovery ``laws`` the comonotonic var(S) is exact (quadrature); without them it is
     the upper bound (sum EAD_i sd_i)^2.
+
+    Parameters
+    ----------
+    eads : list[float]
+        Exposure at default of each facility [currency units].
+    lgds : list[float]
+        Mean LGD of each facility [fraction].
+    lgd_stds : list[float]
+        Standard deviation of each facility's LGD [fraction].
+    pd : float
+        Probability of default over the horizon [fraction], in [0, 1].
+    join : str, optional
+        How recoveries are joined: ``comonotonic`` or ``independent``.
+    laws : Sequence[Any] | None, optional
+        Recovery law of each facility, for the exact comonotonic variance; None for the upper bound.
+
+    Returns
+    -------
+    float
+        UL of the borrower [currency units].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     mean_s = sum(e * l for e, l in zip(eads, lgds))
     if join == "comonotonic":

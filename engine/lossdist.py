@@ -45,9 +45,10 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal, Protocol
+from typing import Literal, Protocol, cast
 
 import numpy as np
+import numpy.typing as npt
 
 Join = Literal["comonotonic", "independent"]
 JOINS: tuple[str, ...] = ("comonotonic", "independent")
@@ -61,70 +62,85 @@ DEFAULT_SEED = 20_061_999
 # of doubles near 1, so the curve is as exact as the recovery laws' ppf.
 
 
+FloatArray = npt.NDArray[np.float64]
+"""An array of floats (numpy ``float64``)."""
+
+
 class RecoveryLaw(Protocol):
     """Distribution of a recovery rate on [0, 1] [fraction]."""
 
-    def ppf(self, q: np.ndarray) -> np.ndarray: ...
+    def ppf(self, q: FloatArray) -> float | FloatArray:
+        """Quantile function: the recovery rate at each probability level in ``q`` [fraction]."""
+        ...
 
-    def mean(self) -> float: ...
+    def mean(self) -> float:
+        """Mean recovery rate [fraction]."""
+        ...
 
-    def var(self) -> float: ...
+    def var(self) -> float:
+        """Variance of the recovery rate [fraction squared]."""
+        ...
+
+
+class _LawWithCdf(RecoveryLaw, Protocol):
+    """A recovery law with its CDF (the independent join's convolution reads it)."""
+
+    def cdf(self, x: FloatArray) -> float | FloatArray: ...
+
+
+class _LawWithPpfIntegral(RecoveryLaw, Protocol):
+    """A recovery law with the closed-form integral of its quantile function."""
+
+    def ppf_integral(self, u: float) -> float: ...
 
 
 @dataclass(frozen=True)
 class LossDistribution:
-    """The borrower's loss over the horizon and its tail measures.
-
-    Fields:
-        pd: probability of default over the horizon [fraction].
-        confidence: q, the confidence level of VaR and ES [fraction].
-        join: how the facilities' recoveries are joined.
-        method: "exact" (closed form and quadrature), "fft convolution" or "monte carlo".
-        exposures: EAD of each facility [currency].
-        recovery_means: E[R_i] of each facility [fraction].
-        total_exposure: sum of EAD [currency].
-        loss_given_default_mean: E[G] = sum EAD_i (1 - E R_i) [currency].
-        expected_loss: EL = PD * E[G] [currency].
-        tail_fraction: u* = min(1, (1-q)/PD), the share of default scenarios
-            lying in the (1-q) tail [fraction].
-        var: value at risk at ``confidence`` (not a variance) [currency].
-        expected_shortfall: ES at ``confidence`` [currency].
-        economic_capital: max(VaR - EL, 0) [currency].
-        capital_floored: True when VaR - EL < 0 and the zero floor binds.
-        n_sims: Monte Carlo draws of the loss given default (0 when exact).
-        seed: seed of the Monte Carlo generator (None when exact).
-        var_standard_error: standard error of ``var`` [currency]; 0 when exact.
-        expected_shortfall_standard_error: standard error of
-            ``expected_shortfall`` [currency]; 0 when exact.
-        quadrature_error: QUADPACK's bound on the absolute error of the ES
-            integral, or for the FFT the grid bound n h / 2 on VaR [currency]; 0 when
-            the result is exact.
-        curve_loss: grid of losses x from 0 to ``total_exposure`` [currency].
-        curve_cdf: P(L <= x) on that grid, the atom 1 - PD at x = 0 included
-            [fraction].
-    """
+    """The borrower's loss over the horizon and its tail measures."""
 
     pd: float
+    """Probability of default over the horizon [fraction]."""
     confidence: float
+    """q, the confidence level of VaR and ES [fraction]."""
     join: str
+    """How the facilities' recoveries are joined."""
     method: str
+    """"exact" (closed form and quadrature), "fft convolution" or "monte carlo"."""
     exposures: tuple[float, ...]
+    """EAD of each facility [currency units]."""
     recovery_means: tuple[float, ...]
+    """E[R_i] of each facility [fraction]."""
     total_exposure: float
+    """Sum of EAD [currency units]."""
     loss_given_default_mean: float
+    """E[G] = sum EAD_i (1 - E R_i) [currency units]."""
     expected_loss: float
+    """EL = PD * E[G] [currency units]."""
     tail_fraction: float
+    """u* = min(1, (1-q)/PD), the share of default scenarios lying in the (1-q) tail [fraction]."""
     var: float
+    """Value at risk at ``confidence`` (not a variance) [currency units]."""
     expected_shortfall: float
+    """ES at ``confidence`` [currency units]."""
     economic_capital: float
+    """max(VaR - EL, 0) [currency units]."""
     capital_floored: bool
+    """True when VaR - EL < 0 and the zero floor binds."""
     n_sims: int
+    """Monte Carlo draws of the loss given default (0 when exact)."""
     seed: int | None
+    """Seed of the Monte Carlo generator (None when exact)."""
     var_standard_error: float
+    """Standard error of ``var`` [currency units]; 0 when exact."""
     expected_shortfall_standard_error: float
+    """Standard error of ``expected_shortfall`` [currency units]; 0 when exact."""
     quadrature_error: float
+    """QUADPACK's bound on the absolute error of the ES integral, or for the FFT the grid bound n h / 2 on VaR
+    [currency units]; 0 when the result is exact."""
     curve_loss: tuple[float, ...]
+    """Grid of losses x from 0 to ``total_exposure`` [currency units]."""
     curve_cdf: tuple[float, ...]
+    """P(L <= x) on that grid, the atom 1 - PD at x = 0 included [fraction]."""
 
 
 def _check_probability(name: str, value: float, *, open_low: float | None = None) -> float:
@@ -139,10 +155,10 @@ def _check_probability(name: str, value: float, *, open_low: float | None = None
     return number
 
 
-def _check_join(join: str) -> str:
+def _check_join(join: str) -> Join:
     if join not in JOINS:
         raise ValueError(f"join must be one of {', '.join(JOINS)}; got {join!r}")
-    return join
+    return cast(Join, join)
 
 
 def _check_exposures_and_laws(
@@ -194,7 +210,7 @@ def _check_count(name: str, value: int, minimum: int) -> int:
 
 
 def _loss_given_default_comonotonic(u: np.ndarray, exposures: np.ndarray, laws: Sequence[RecoveryLaw]) -> np.ndarray:
-    """G(u) = sum_i EAD_i (1 - F_i^{-1}(u)) [currency] for u in [0, 1]."""
+    """G(u) = sum_i EAD_i (1 - F_i^{-1}(u)) [currency units] for u in [0, 1]."""
     total = np.zeros_like(u, dtype=float)
     for ead, law in zip(exposures, laws):
         if ead > 0.0:
@@ -209,7 +225,7 @@ def _loss_given_default_sample(
     n_draws: int,
     rng: np.random.Generator,
 ) -> np.ndarray:
-    """Draws of the loss given default G [currency] under the chosen join."""
+    """Draws of the loss given default G [currency units] under the chosen join."""
     if join == "comonotonic":
         return _loss_given_default_comonotonic(rng.random(n_draws), exposures, laws)
     total = np.zeros(n_draws)
@@ -230,17 +246,26 @@ def monte_carlo_loss(
     n_sims: int,
     seed: int,
 ) -> np.ndarray:
-    """Simulated borrower losses L [currency], one per scenario.
+    """Simulated borrower losses L [currency units], one per scenario.
 
-    Args:
-        pd: probability of default over the horizon [fraction], in [0, 1].
-        exposures: EAD of each facility [currency], finite, >= 0.
-        recovery_laws: one recovery-rate law per facility [fraction].
-        join: "comonotonic" (one uniform drives all recoveries) or "independent".
-        n_sims: number of scenarios, >= 1.
-        seed: seed of ``numpy.random.default_rng``.
+    Parameters
+    ----------
+    pd : float
+        Probability of default over the horizon [fraction], in [0, 1].
+    exposures : Sequence[float]
+        EAD of each facility [currency units], finite, >= 0.
+    recovery_laws : Sequence[RecoveryLaw]
+        One recovery-rate law per facility [fraction].
+    join : Join
+        "comonotonic" (one uniform drives all recoveries) or "independent".
+    n_sims : int
+        Number of scenarios, >= 1.
+    seed : int
+        Seed of ``numpy.random.default_rng``.
 
-    Returns:
+    Returns
+    -------
+    np.ndarray
         Array of ``n_sims`` losses; scenarios without default have loss 0.
     """
     probability = _check_probability("pd", pd)
@@ -334,7 +359,8 @@ def _comonotonic_tail(
 
     if all(hasattr(law, "ppf_integral") for law in laws):
         # Closed form: integral_0^end G = sum EAD_i (end - integral_0^end F_i^-1).
-        integral = sum(float(e) * (end - law.ppf_integral(end)) for e, law in zip(exposures, laws) if e > 0.0)
+        closed_form = cast(Sequence[_LawWithPpfIntegral], laws)
+        integral = sum(float(e) * (end - law.ppf_integral(end)) for e, law in zip(exposures, closed_form) if e > 0.0)
         return value_at_risk, probability / tail * integral, 0.0
 
     from scipy import integrate  # deferred: only recovery laws without a closed form need it
@@ -354,7 +380,7 @@ def _law_cdf_of_loss(law: RecoveryLaw, ead: float, x: np.ndarray) -> np.ndarray:
     r = 1.0 - x / ead
     if getattr(law, "point_mass", False) or float(law.var()) == 0.0:
         return (r <= float(law.mean())).astype(float)
-    return 1.0 - np.asarray(law.cdf(r), dtype=float)
+    return 1.0 - np.asarray(cast(_LawWithCdf, law).cdf(r), dtype=float)
 
 
 def _independent_fft(
@@ -444,31 +470,41 @@ def loss_distribution(
 ) -> LossDistribution:
     """Borrower loss L = 1{default} sum EAD_i (1 - R_i): EL, VaR, ES, capital, CDF.
 
-    Args:
-        pd: probability of default over the horizon [fraction], in [0, 1].
-        exposures: EAD of each facility [currency], finite, >= 0.
-        recovery_laws: one recovery-rate law per facility, values in [0, 1.5]
-            [fraction]; duck typed: ``ppf(u)``, ``mean()``, ``var()``.
-        confidence: q for VaR and ES [fraction], in (0.5, 1).
-        join: "comonotonic" (exact, conservative) or "independent" (Monte Carlo).
-        n_curve: number of grid points of the charted CDF, >= 2.
-        n_sims: draws of the loss given default for the independent join, >= 2.
-        seed: seed of the Monte Carlo generator for the independent join.
-        independent_method: "fft" (default; the facilities' discretised loss laws convolved,
-            exact to the grid of ``n_grid`` points) or "monte_carlo" (the seeded reference).
-        n_grid: points of the FFT grid over the range of the summed loss given default.
+    Parameters
+    ----------
+    pd : float
+        Probability of default over the horizon [fraction], in [0, 1].
+    exposures : Sequence[float]
+        EAD of each facility [currency units], finite, >= 0.
+    recovery_laws : Sequence[RecoveryLaw]
+        One recovery-rate law per facility, values in [0, 1.5] [fraction]; duck typed:
+        ``ppf(u)``, ``mean()``, ``var()``.
+    confidence : float, optional
+        q for VaR and ES [fraction], in (0.5, 1).
+    join : Join, optional
+        "comonotonic" (exact, conservative) or "independent" (Monte Carlo).
+    n_curve : int, optional
+        Number of grid points of the charted CDF, >= 2.
+    n_sims : int, optional
+        Draws of the loss given default for the independent join, >= 2.
+    seed : int, optional
+        Seed of the Monte Carlo generator for the independent join.
+    independent_method : Literal["fft", "monte_carlo"], optional
+        "fft" (default; the facilities' discretised loss laws convolved,
+        exact to the grid of ``n_grid`` points) or "monte_carlo" (the seeded reference).
+    n_grid : int, optional
+        Points of the FFT grid over the range of the summed loss given default.
 
-    Returns:
-        A ``LossDistribution``. EL = PD * sum EAD_i (1 - E R_i) is exact under
-        both joins; economic capital = max(VaR - EL, 0) (Basel Committee,
-        "An Explanatory Note on the Basel II IRB Risk Weight Functions", 2005:
-        capital covers the unexpected loss, the quantile in excess of EL).
-
-    The independent join simulates only default scenarios (the default event is
-    mixed in exactly through u*), which spends every draw in the tail. With a
-    single facility of positive exposure both joins are one law and the exact
-    route is taken. For recovery laws with atoms, VaR uses G(u*), i.e. the
-    left-continuous ppf at u*.
+    Returns
+    -------
+    LossDistribution
+        A ``LossDistribution``. EL = PD * sum EAD_i (1 - E R_i) is exact under both joins;
+        economic capital = max(VaR - EL, 0) (Basel Committee, "An Explanatory Note on the Basel II IRB Risk
+        Weight Functions", 2005: capital covers the unexpected loss, the quantile in excess of EL). The
+        independent join simulates only default scenarios (the default event is mixed in exactly through u*),
+        which spends every draw in the tail. With a single facility of positive exposure both joins are one law
+        and the exact route is taken. For recovery laws with atoms, VaR uses G(u*), i.e. the left-continuous ppf
+        at u*.
     """
     probability = _check_probability("pd", pd)
     level = _check_probability("confidence", confidence, open_low=0.5)

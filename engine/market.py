@@ -115,15 +115,23 @@ def merton_equity_value(
 
     E = V N(d1) - D e^{-rT} N(d2), d1 = (ln(V/D) + (r + s^2/2)T)/(s sqrt T), d2 = d1 - s sqrt T.
 
-    Args:
-        asset_value: V, market value of assets [currency].
-        asset_volatility: s, volatility of asset returns [fraction/year^0.5].
-        default_point: D, debt due at the horizon [currency].
-        risk_free_rate: r, continuously compounded [1/year].
-        horizon_years: T [years].
+    Parameters
+    ----------
+    asset_value : ArrayLike
+        V, market value of assets [currency units].
+    asset_volatility : ArrayLike
+        s, volatility of asset returns [fraction/year^0.5].
+    default_point : ArrayLike
+        D, debt due at the horizon [currency units].
+    risk_free_rate : ArrayLike
+        r, continuously compounded [1/year].
+    horizon_years : ArrayLike
+        T [years].
 
-    Returns:
-        E, market value of equity [currency]; a float for scalar inputs, else an array.
+    Returns
+    -------
+    float | FloatArray
+        E, market value of equity [currency units]; a float for scalar inputs, else an array.
     """
     V = _checked("asset_value", asset_value)
     s = _checked("asset_volatility", asset_volatility)
@@ -143,26 +151,46 @@ class MertonBatch:
     (flat C-order index, reason) pairs; nothing is left NaN without a reason.
     """
 
-    asset_value: FloatArray  # V [currency]
-    asset_volatility: FloatArray  # s [fraction/year^0.5]
-    d1: FloatArray  # [standard deviations]
-    d2: FloatArray  # [standard deviations]
-    distance_to_default: FloatArray  # [standard deviations]; d2 when risk-neutral
-    pd: FloatArray  # N(-distance_to_default) over the horizon [fraction]
-    leverage: FloatArray  # D / V [fraction]
-    iterations: NDArray[np.int64]  # Newton steps plus bracketed-search evaluations
-    residual: FloatArray  # larger relative residual of the two equations [fraction]
-    used_fallback: NDArray[np.bool_]  # the bracketed search was needed
+    asset_value: FloatArray
+    """V [currency units]"""
+    asset_volatility: FloatArray
+    """s [fraction/year^0.5]"""
+    d1: FloatArray
+    """[standard deviations]"""
+    d2: FloatArray
+    """[standard deviations]"""
+    distance_to_default: FloatArray
+    """[standard deviations]; d2 when risk-neutral."""
+    pd: FloatArray
+    """N(-distance_to_default) over the horizon [fraction]"""
+    leverage: FloatArray
+    """D / V [fraction]"""
+    iterations: NDArray[np.int64]
+    """Newton steps plus bracketed-search evaluations."""
+    residual: FloatArray
+    """Larger relative residual of the two equations [fraction]"""
+    used_fallback: NDArray[np.bool_]
+    """The bracketed search was needed."""
     converged: NDArray[np.bool_]
+    """True where the solve met the accuracy bar."""
     failures: tuple[tuple[int, str], ...]
-    equity_value: FloatArray  # E [currency]
-    equity_volatility: FloatArray  # sE [fraction/year^0.5]
-    default_point: FloatArray  # D [currency]
-    risk_free_rate: FloatArray  # r [1/year]
-    horizon_years: FloatArray  # T [years]
-    asset_drift: FloatArray | None  # mu [1/year]; None when risk-neutral
+    """(flat C-order index, reason) of every element not converged."""
+    equity_value: FloatArray
+    """E [currency units]"""
+    equity_volatility: FloatArray
+    """sE [fraction/year^0.5]"""
+    default_point: FloatArray
+    """D [currency units]"""
+    risk_free_rate: FloatArray
+    """r [1/year]"""
+    horizon_years: FloatArray
+    """T [years]"""
+    asset_drift: FloatArray | None
+    """mu [1/year]; None when risk-neutral."""
     measure: Measure
+    """``risk_neutral`` or ``physical``: the measure of the PD."""
     engine_version: str = ENGINE_VERSION
+    """Version of the engine that produced the result."""
 
 
 @dataclass(frozen=True)
@@ -170,23 +198,41 @@ class MertonSolution:
     """One borrower's Merton solution; fields and units as in `MertonBatch`."""
 
     asset_value: float
+    """V [currency units]."""
     asset_volatility: float
+    """s [fraction/year^0.5]."""
     d1: float
+    """[standard deviations]"""
     d2: float
+    """[standard deviations]"""
     distance_to_default: float
+    """[standard deviations]; d2 when risk-neutral."""
     pd: float
+    """N(-distance_to_default) over the horizon [fraction]."""
     leverage: float
+    """D / V [fraction]."""
     iterations: int
+    """Newton steps plus bracketed-search evaluations."""
     residual: float
-    solver: Literal["newton", "bracketed"]  # "bracketed": the fall-back search was needed
+    """Larger relative residual of the two equations [fraction]."""
+    solver: Literal["newton", "bracketed"]
+    """"bracketed": the fall-back search was needed."""
     equity_value: float
+    """E [currency units]."""
     equity_volatility: float
+    """sE [fraction/year^0.5]."""
     default_point: float
+    """D [currency units]."""
     risk_free_rate: float
+    """r [1/year]."""
     horizon_years: float
+    """T [years]."""
     asset_drift: float | None
+    """mu [1/year]; None when risk-neutral."""
     measure: Measure
+    """``risk_neutral`` or ``physical``: the measure of the PD."""
     engine_version: str = ENGINE_VERSION
+    """Version of the engine that produced the result."""
 
 
 def _residuals(
@@ -280,8 +326,10 @@ def _reduced_gap(d2: FloatArray, a: FloatArray, b: FloatArray) -> tuple[FloatArr
 def _bracketed(
     E: FloatArray, sE: FloatArray, lnK: FloatArray, sqT: FloatArray
 ) -> tuple[FloatArray, FloatArray, NDArray[np.int64]]:
-    """Fall-back: bracket the root of the reduced equation in d2, then safeguarded
-    Newton (a bisection whenever Newton would leave the bracket); vectorised."""
+    """Fall-back: bracket the root of the reduced equation in d2, then safeguarded Newton.
+
+    A bisection is taken whenever Newton would leave the bracket; vectorised.
+    """
     a, b = E / np.exp(lnK), sE * sqT
     u0 = a * b / (1.0 + a)
     start = (np.log1p(a) - 0.5 * u0 * u0) / u0  # exact in the low-leverage limit
@@ -364,22 +412,37 @@ def solve_merton_many(
 ) -> MertonBatch:
     """Solve the Merton (1974) equations for many borrowers at once (inputs broadcast).
 
-    Args:
-        equity_value: E, market capitalisation [currency].
-        equity_volatility: sE, annualised volatility of equity returns [fraction/year^0.5].
-        default_point: D, debt treated as due at the horizon [currency].
-        risk_free_rate: r, continuously compounded [1/year].
-        horizon_years: T [years].
-        asset_drift: mu [1/year]; None gives risk-neutral PD = N(-d2), a value gives
-            the physical PD = N(-DD), DD = (ln(V/D) + (mu - s^2/2)T)/(s sqrt T).
-        invalid: "raise" (ValueError naming the first bad argument and element) or
-            "flag" (bad elements become failures like non-converged ones).
+    Parameters
+    ----------
+    equity_value : ArrayLike
+        E, market capitalisation [currency units].
+    equity_volatility : ArrayLike
+        sE, annualised volatility of equity returns [fraction/year^0.5].
+    default_point : ArrayLike
+        D, debt treated as due at the horizon [currency units].
+    risk_free_rate : ArrayLike
+        r, continuously compounded [1/year].
+    horizon_years : ArrayLike
+        T [years].
+    asset_drift : ArrayLike | None, optional
+        mu [1/year]; None gives risk-neutral PD = N(-d2), a value gives the physical
+        PD = N(-DD), DD = (ln(V/D) + (mu - s^2/2)T)/(s sqrt T).
+    invalid : Literal["raise", "flag"], optional
+        "raise" (ValueError naming the first bad argument and element) or
+        "flag" (bad elements become failures like non-converged ones).
 
-    Returns:
-        MertonBatch. No element is returned as converged unless both relative
-        residuals, plus a bound on their rounding error, are at most 1e-9 at the
-        returned V and s; when equity is so small a fraction of the debt that this
-        cannot be checked in double precision the element is a failure, with reason.
+    Returns
+    -------
+    MertonBatch
+        MertonBatch. No element is returned as converged unless both relative residuals, plus a
+        bound on their rounding error, are at most 1e-9 at the returned V and s; when equity is so small a
+        fraction of the debt that this cannot be checked in double precision the element is a failure, with
+        reason.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     if invalid not in ("raise", "flag"):
         raise ValueError(f"invalid={invalid!r} is not allowed; allowed: 'raise' or 'flag'")
@@ -487,6 +550,33 @@ def solve_merton(
     Raises ValueError for a bad input (naming it, its value and the allowed range),
     or when no V, s can be shown to meet both equations to a relative 1e-9 (the
     message names the inputs and what to check).
+
+    Parameters
+    ----------
+    equity_value : float
+        E, market capitalisation [currency units].
+    equity_volatility : float
+        sE, annualised volatility of equity returns [1/sqrt(year), e.g. 0.40].
+    default_point : float
+        D, debt treated as due at the horizon [currency units].
+    risk_free_rate : float
+        r, continuously compounded [1/year].
+    horizon_years : float
+        T [years].
+    asset_drift : float | None, optional
+        mu [1/year]; None gives the risk-neutral PD N(-d2), a value the
+        physical PD N(-DD).
+
+    Returns
+    -------
+    MertonSolution
+        Asset value, asset volatility, distance to default and PD, with the solve's diagnostics.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its range (naming it, its value and the range), or the equations have no
+        solution meeting the accuracy bar.
     """
     given = {
         "equity_value": equity_value,

@@ -21,20 +21,34 @@ from scipy import special
 class NaiveDD:
     """Bharath-Shumway (2008) naive distance to default; floats for scalar inputs, else arrays."""
 
-    debt_volatility: float | FloatArray  # sigma_D [fraction/year^0.5]
-    asset_value: float | FloatArray  # V = E + F [currency]
-    asset_volatility: float | FloatArray  # sigma_V [fraction/year^0.5]
-    drift: float | FloatArray  # mu [1/year]
+    debt_volatility: float | FloatArray
+    """sigma_D [fraction/year^0.5]"""
+    asset_value: float | FloatArray
+    """V = E + F [currency units]"""
+    asset_volatility: float | FloatArray
+    """sigma_V [fraction/year^0.5]"""
+    drift: float | FloatArray
+    """mu [1/year]"""
     drift_source: Literal["trailing_equity_return", "risk_free_rate"]
-    distance_to_default: float | FloatArray  # [standard deviations]
-    pd: float | FloatArray  # N(-DD) over the horizon [fraction]
-    equity_value: float | FloatArray  # E [currency]
-    equity_volatility: float | FloatArray  # sigma_E [fraction/year^0.5]
-    face_value_debt: float | FloatArray  # F [currency]
-    horizon_years: float | FloatArray  # T [years]
-    trailing_equity_return: float | FloatArray | None  # [fraction]
-    risk_free_rate: float | FloatArray | None  # [1/year]
+    """Which input gave the drift: the trailing equity return or the risk-free rate."""
+    distance_to_default: float | FloatArray
+    """[standard deviations]"""
+    pd: float | FloatArray
+    """N(-DD) over the horizon [fraction]"""
+    equity_value: float | FloatArray
+    """E [currency units]"""
+    equity_volatility: float | FloatArray
+    """sigma_E [fraction/year^0.5]"""
+    face_value_debt: float | FloatArray
+    """F [currency units]"""
+    horizon_years: float | FloatArray
+    """T [years]"""
+    trailing_equity_return: float | FloatArray | None
+    """[fraction]"""
+    risk_free_rate: float | FloatArray | None
+    """[1/year]"""
     engine_version: str = ENGINE_VERSION
+    """Version of the engine that produced the result."""
 
 
 def naive_distance_to_default(
@@ -52,15 +66,30 @@ def naive_distance_to_default(
     sigma_V = E/(E+F) sigma_E + F/(E+F) sigma_D;
     DD = (ln((E+F)/F) + (mu - sigma_V^2/2) T) / (sigma_V sqrt T);  PD = N(-DD).
 
-    Args:
-        equity_value: E [currency].
-        equity_volatility: sigma_E [fraction/year^0.5].
-        face_value_debt: F [currency].
-        horizon_years: T [years].
-        trailing_equity_return: mu, the firm's equity return over the past year
-            [fraction], as in the paper.
-        risk_free_rate: [1/year]; the drift used only when no trailing return is given
-            (recorded in `drift_source`).
+    Parameters
+    ----------
+    equity_value : ArrayLike
+        E [currency units].
+    equity_volatility : ArrayLike
+        sigma_E [fraction/year^0.5].
+    face_value_debt : ArrayLike
+        F [currency units].
+    horizon_years : ArrayLike
+        T [years].
+    trailing_equity_return : ArrayLike | None, optional
+        mu, the firm's equity return over the past year [fraction], as in the paper.
+    risk_free_rate : ArrayLike | None, optional
+        r [1/year]; the drift used only when no trailing return is given (recorded in `drift_source`).
+
+    Returns
+    -------
+    NaiveDD
+        Every quantity of the calculation: asset value and volatility, DD and PD, and the drift used.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     E = _checked("equity_value", equity_value)
     sE = _checked("equity_volatility", equity_volatility)

@@ -1,5 +1,6 @@
-"""Probability of default: asset trend, balance-sheet or market-implied PD, override, grade and
-term structure. One step of the chain run by :mod:`engine.evaluate`.
+"""Probability of default: asset trend, balance-sheet or market-implied PD, override, grade, term structure.
+
+One step of the chain run by :mod:`engine.evaluate`.
 
 The balance-sheet PD follows :mod:`engine.structural`; the market-implied PD solves the Merton
 model (:mod:`engine.market`) with the balance-sheet default point as the debt barrier; the PD in
@@ -12,12 +13,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from obligor_memo.engine.case import Case
+from obligor_memo.engine.case import Case, PdSettings
 from obligor_memo.engine.errors import CaseError, Caution, InputError
 from obligor_memo.engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
 from obligor_memo.engine.market import MertonSolution, solve_merton
 from obligor_memo.engine.naive_dd import NaiveDD, naive_distance_to_default
 from obligor_memo.engine.structural import (
+    BalanceSheetPd,
     PdTermStructure,
     balance_sheet_pd,
     constant_hazard_term_structure,
@@ -30,13 +32,14 @@ from obligor_memo.engine.trend import AssetTrend, fit_asset_trend
 
 @dataclass(frozen=True)
 class PdResult:
-    """The PD in force and how it was reached. Rates [fraction], money [currency]."""
+    """The PD in force and how it was reached. Rates [fraction], money [currency units]."""
 
     method: str
     """balance_sheet | market"""
     measure: str
     """physical | risk_neutral"""
     asset_value: float
+    """V [currency units]."""
     asset_growth: float | None
     """[1/year] (balance sheet)."""
     asset_volatility: float
@@ -44,21 +47,29 @@ class PdResult:
     asset_return: float
     """Drift used in DD [1/year]."""
     default_point: float
+    """DP [currency units]."""
     short_term_share: float
+    """a [fraction]."""
     long_term_share: float
+    """b [fraction]."""
     horizon_years: float
     """[years]"""
     distance_to_default: float
+    """DD over the horizon [standard deviations]."""
     model_pd: float
     """The model's PD over the horizon [fraction]."""
     pd: float
     """The PD in force over the horizon (override where set, converted to the horizon) [fraction]."""
     overridden: bool
+    """True when the analyst's PD is in force."""
     override_reason: str | None
+    """The analyst's reason for the override; None without one."""
     grade: str | None
+    """Grade of the one-year PD; None before grading."""
     grade_lower: float | None
     """Band (lower, upper] of the grade."""
     grade_upper: float | None
+    """Upper bound of the band [fraction]."""
     pd_one_year: float = math.nan
     """One-year PD in force [fraction]: the PD of capital, IRB EL and RAROC (CRE32.3)."""
     one_year_basis: str = ""
@@ -74,18 +85,33 @@ class MarketResult:
     """Market-implied PD (Merton 1974) and the naive cross-check (Bharath and Shumway 2008)."""
 
     default_point: float
-    """the debt barrier D [currency]"""
+    """the debt barrier D [currency units]"""
     merton: MertonSolution | None
     """None when the solve failed (see message)"""
     naive: NaiveDD
+    """The naive distance to default, the cross-check."""
     message: str
     """"" or why the Merton solve failed"""
 
 
 def engine_error(field: str, exc: ValueError) -> CaseError:
-    """A step's error as a CaseError: an :class:`InputError` keeps its own field, value and
-    allowed text; any other ValueError (a step's internal limit) is reported on ``field`` with
-    its message as what is allowed."""
+    """A step's error as a CaseError.
+
+    An :class:`InputError` keeps its own field, value and allowed text; any other ValueError (a
+    step's internal limit) is reported on ``field`` with its message as what is allowed.
+
+    Parameters
+    ----------
+    field : str
+        Dotted path of the case field the error is reported on.
+    exc : ValueError
+        The step's error.
+
+    Returns
+    -------
+    CaseError
+        The error as a case error.
+    """
     if isinstance(exc, InputError):
         return CaseError([exc.problem])
     return CaseError.single(field, "", str(exc))
@@ -94,8 +120,28 @@ def engine_error(field: str, exc: ValueError) -> CaseError:
 def estimate_pd(
     case: Case, *, cross_check: bool = True
 ) -> tuple[AssetTrend | None, PdResult, list[Caution], MarketResult | None]:
-    """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist
-    (``cross_check=False`` skips the market cross-check when the PD does not come from it)."""
+    """Asset trend, the balance-sheet PD, and the market-implied PD where market data exist.
+
+    ``cross_check=False`` skips the market cross-check when the PD does not come from it.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    cross_check : bool, optional
+        False skips the market cross-check when the PD does not come from it.
+
+    Returns
+    -------
+    tuple[AssetTrend | None, PdResult, list[Caution], MarketResult | None]
+        The asset trend (None if not available), the PD result, the cautions and the market result (None without
+        market data or cross-check).
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
+    """
     settings = case.pd
     if settings.method == "market":
         trend, cautions = None, []
@@ -105,21 +151,23 @@ def estimate_pd(
             cautions.append(Caution("trend.unavailable", "No asset trend: " + exc.problems[0].allowed, "statements"))
         market = _market(case, required=True)
         m = market.merton
+        mk = case.market
+        # The schema requires market data for the market method; a required solve that fails raises.
+        assert mk is not None and m is not None
         measure = settings.measure
-        drift = case.market.risk_free_rate
+        drift = mk.risk_free_rate
         if measure == "physical":
-            drift = (
-                case.market.asset_drift
-                if case.market.asset_drift is not None
-                else (trend.expected_return if trend is not None else None)
+            physical_drift = (
+                mk.asset_drift if mk.asset_drift is not None else (trend.expected_return if trend is not None else None)
             )
-            if drift is None:
+            if physical_drift is None:
                 raise CaseError.single(
                     "pd.measure",
                     "physical",
                     "risk_neutral, or physical together with market.asset_drift or enough statements for a trend",
                 )
-            if case.market.asset_drift is None:
+            drift = physical_drift
+            if mk.asset_drift is None:
                 cautions.append(
                     Caution(
                         "market.drift_from_trend",
@@ -153,7 +201,7 @@ def estimate_pd(
             grade_lower=None,
             grade_upper=None,
         )
-        model_pd = pd_from_distance(result.distance_to_default)
+        model_pd = float(pd_from_distance(result.distance_to_default))
         result = replace(result, model_pd=model_pd, pd=model_pd)
         return trend, *_with_override(settings, result, cautions), market
     trend, bs, cautions = _balance_sheet(case)
@@ -177,10 +225,10 @@ def estimate_pd(
         grade_lower=None,
         grade_upper=None,
     )
-    market = _market(case, required=False) if (case.market is not None and cross_check) else None
-    if market is not None and market.message:
-        cautions.append(Caution("market.unsolved", market.message, "market"))
-    return trend, *_with_override(settings, result, cautions), market
+    cross = _market(case, required=False) if (case.market is not None and cross_check) else None
+    if cross is not None and cross.message:
+        cautions.append(Caution("market.unsolved", cross.message, "market"))
+    return trend, *_with_override(settings, result, cautions), cross
 
 
 def hazard_convert(pd: float, *, from_years: float, to_years: float) -> float:
@@ -188,13 +236,27 @@ def hazard_convert(pd: float, *, from_years: float, to_years: float) -> float:
 
     1 - (1 - PD)^(to / from): the constant-hazard rule of the term structure
     (``constant_hazard_term_structure``); the identity when the horizons agree.
+
+    Parameters
+    ----------
+    pd : float
+        PD over ``from_years`` [fraction], in [0, 1].
+    from_years : float
+        Horizon the PD is stated for [years].
+    to_years : float
+        Horizon wanted [years].
+
+    Returns
+    -------
+    float
+        PD over ``to_years`` [fraction].
     """
     if from_years == to_years or pd >= 1.0:
         return pd
     return -math.expm1(to_years / from_years * math.log1p(-pd))
 
 
-def _with_override(settings, result: PdResult, cautions: list[Caution]) -> tuple[PdResult, list[Caution]]:
+def _with_override(settings: PdSettings, result: PdResult, cautions: list[Caution]) -> tuple[PdResult, list[Caution]]:
     """The PD in force over the horizon and over one year, the override converted where set."""
     horizon = settings.horizon_years
     if settings.override is None:
@@ -252,6 +314,7 @@ def _with_override(settings, result: PdResult, cautions: list[Caution]) -> tuple
 def _market(case: Case, *, required: bool) -> MarketResult:
     """Solve the Merton model with the balance-sheet default point as the debt barrier."""
     mk = case.market
+    assert mk is not None  # called only when the case has market data
     latest = case.statements[-1]
     dp = (
         case.pd.default_point.short_term_share * latest.short_term_liabilities
@@ -285,7 +348,7 @@ def _market(case: Case, *, required: bool) -> MarketResult:
     return MarketResult(default_point=dp, merton=merton, naive=naive, message=message)
 
 
-def _balance_sheet(case: Case):
+def _balance_sheet(case: Case) -> tuple[AssetTrend, BalanceSheetPd, list[Caution]]:
     """Asset trend and balance-sheet PD; user-facing errors as CaseError."""
     cautions: list[Caution] = []
     settings = case.pd
@@ -319,7 +382,20 @@ def _balance_sheet(case: Case):
 
 
 def term_structure(case: Case, pd: PdResult) -> PdTermStructure:
-    """Cumulative PD for each year up to the longest facility maturity (at least the horizon)."""
+    """Cumulative PD for each year up to the longest facility maturity (at least the horizon).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    pd : PdResult
+        The PD step's result.
+
+    Returns
+    -------
+    PdTermStructure
+        Cumulative, marginal and conditional PD by year [fraction].
+    """
     longest = max([f.maturity_years for f in case.facilities] + [pd.horizon_years])
     years = max(1, math.ceil(longest - 1e-9))
     if pd.overridden:
@@ -338,7 +414,20 @@ def term_structure(case: Case, pd: PdResult) -> PdTermStructure:
 
 
 def grade_pd(case: Case, pd: PdResult) -> tuple[PdResult, str]:
-    """Grade the PD in force on the case's master scale (or the illustrative default)."""
+    """Grade the PD in force on the case's master scale (or the illustrative default).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    pd : PdResult
+        The PD step's result.
+
+    Returns
+    -------
+    tuple[PdResult, str]
+        The PD result with its grade, and the scale's source (``case file`` or ``illustrative default``).
+    """
     if case.pd.master_scale is not None:
         scale = master_scale_from_rows([r.model_dump() for r in case.pd.master_scale])
         source = "case file"

@@ -27,84 +27,76 @@ from obligor_memo.engine import ENGINE_VERSION
 
 @dataclass(frozen=True)
 class RarocResult:
-    """RAROC per unit of exposure, with every term of the numerator.
-
-    Attributes:
-        income_rate: interest and fee income [fraction of exposure/year].
-        funding_cost_rate: cost of funding the exposure [fraction of exposure/year].
-        operating_cost_rate: operating cost [fraction of exposure/year].
-        expected_loss_rate: expected loss, PD x LGD [fraction of exposure/year].
-        capital_rate: capital held [fraction of exposure].
-        capital_return_rate: return earned on the capital held [fraction/year].
-        capital_benefit_rate: capital_rate x capital_return_rate [fraction of exposure/year].
-        risk_adjusted_return_rate: the RAROC numerator [fraction of exposure/year].
-        raroc: risk_adjusted_return_rate / capital_rate [fraction/year].
-        engine_version: version of the engine that produced the result.
-    """
+    """RAROC per unit of exposure, with every term of the numerator."""
 
     income_rate: float
+    """Interest and fee income [fraction of exposure/year]."""
     funding_cost_rate: float
+    """Cost of funding the exposure [fraction of exposure/year]."""
     operating_cost_rate: float
+    """Operating cost [fraction of exposure/year]."""
     expected_loss_rate: float
+    """Expected loss, PD x LGD [fraction of exposure/year]."""
     capital_rate: float
+    """Capital held [fraction of exposure]."""
     capital_return_rate: float
+    """Return earned on the capital held [fraction/year]."""
     capital_benefit_rate: float
+    """capital_rate x capital_return_rate [fraction of exposure/year]."""
     risk_adjusted_return_rate: float
+    """The RAROC numerator [fraction of exposure/year]."""
     raroc: float
+    """risk_adjusted_return_rate / capital_rate [fraction/year]."""
     engine_version: str
+    """Version of the engine that produced the result."""
 
 
 @dataclass(frozen=True)
 class PricingResult:
-    """RAROC of a proposed price in amounts, and the spread the hurdle requires.
-
-    Attributes:
-        exposure: exposure priced, usually the EAD [currency].
-        base_rate: reference rate the spread is quoted over [fraction/year].
-        proposed_spread: margin over base_rate offered [fraction/year].
-        fee_rate: annualised fees [fraction of exposure/year].
-        funding_spread: the lender's funding margin over base_rate [fraction/year].
-        operating_cost_rate: operating cost [fraction of exposure/year].
-        capital_return_rate: return earned on the capital held [fraction/year].
-        hurdle_rate: RAROC the facility must reach [fraction/year].
-        income: (base_rate + proposed_spread + fee_rate) x exposure [currency/year].
-        funding_cost: (base_rate + funding_spread) x exposure [currency/year].
-        operating_cost: operating_cost_rate x exposure [currency/year].
-        expected_loss: expected loss [currency/year].
-        capital: capital held against the exposure [currency].
-        capital_benefit: capital x capital_return_rate [currency/year].
-        risk_adjusted_return: the RAROC numerator [currency/year].
-        raroc: risk_adjusted_return / capital [fraction/year].
-        minimum_income: income at which RAROC equals the hurdle [currency/year].
-        minimum_spread: spread over base_rate at which RAROC equals the hurdle,
-            fees held at fee_rate [fraction/year].
-        spread_shortfall: minimum_spread - proposed_spread; negative is a
-            cushion above the hurdle [fraction/year].
-        meets_hurdle: True when spread_shortfall <= 0, i.e. RAROC >= hurdle.
-        engine_version: version of the engine that produced the result.
-    """
+    """RAROC of a proposed price in amounts, and the spread the hurdle requires."""
 
     exposure: float
+    """Exposure priced, usually the EAD [currency units]."""
     base_rate: float
+    """Reference rate the spread is quoted over [fraction/year]."""
     proposed_spread: float
+    """Margin over base_rate offered [fraction/year]."""
     fee_rate: float
+    """Annualised fees [fraction of exposure/year]."""
     funding_spread: float
+    """The lender's funding margin over base_rate [fraction/year]."""
     operating_cost_rate: float
+    """Operating cost [fraction of exposure/year]."""
     capital_return_rate: float
+    """Return earned on the capital held [fraction/year]."""
     hurdle_rate: float
+    """RAROC the facility must reach [fraction/year]."""
     income: float
+    """(base_rate + proposed_spread + fee_rate) x exposure [currency/year]."""
     funding_cost: float
+    """(base_rate + funding_spread) x exposure [currency/year]."""
     operating_cost: float
+    """operating_cost_rate x exposure [currency/year]."""
     expected_loss: float
+    """Expected loss [currency/year]."""
     capital: float
+    """Capital held against the exposure [currency units]."""
     capital_benefit: float
+    """Capital x capital_return_rate [currency/year]."""
     risk_adjusted_return: float
+    """The RAROC numerator [currency/year]."""
     raroc: float
+    """risk_adjusted_return / capital [fraction/year]."""
     minimum_income: float
+    """Income at which RAROC equals the hurdle [currency/year]."""
     minimum_spread: float
+    """Spread over base_rate at which RAROC equals the hurdle, fees held at fee_rate [fraction/year]."""
     spread_shortfall: float
+    """minimum_spread - proposed_spread; negative is a cushion above the hurdle [fraction/year]."""
     meets_hurdle: bool
+    """True when spread_shortfall <= 0, i.e. RAROC >= hurdle."""
     engine_version: str
+    """Version of the engine that produced the result."""
 
 
 def _number(name: str, value: float, *, low: float, high: float, unit: str) -> float:
@@ -174,21 +166,30 @@ def raroc(
     RAROC = (income - funding - operating - EL + capital_rate x capital_return_rate)
             / capital_rate  (Crouhy, Galai and Mark, Risk Management, 2001).
 
-    Args:
-        income_rate: interest plus fees, in [-1, 1] [fraction of exposure/year].
-        funding_cost_rate: funding cost, in [-1, 1] [fraction of exposure/year].
-        operating_cost_rate: operating cost, in [0, 1] [fraction of exposure/year].
-        expected_loss_rate: expected loss PD x LGD, in [0, 1] [fraction of exposure/year].
-        capital_rate: capital held, in (0, 1] [fraction of exposure].
-        capital_return_rate: return on the capital, usually the risk-free
-            rate, in [-1, 1] [fraction/year].
+    Parameters
+    ----------
+    income_rate : float
+        Interest plus fees, in [-1, 1] [fraction of exposure/year].
+    funding_cost_rate : float
+        Funding cost, in [-1, 1] [fraction of exposure/year].
+    operating_cost_rate : float
+        Operating cost, in [0, 1] [fraction of exposure/year].
+    expected_loss_rate : float
+        Expected loss PD x LGD, in [0, 1] [fraction of exposure/year].
+    capital_rate : float
+        Capital held, in (0, 1] [fraction of exposure].
+    capital_return_rate : float
+        Return on the capital, usually the risk-free rate, in [-1, 1] [fraction/year].
 
-    Returns:
+    Returns
+    -------
+    RarocResult
         RarocResult; `raroc` [fraction/year].
 
-    Raises:
-        ValueError: an argument is outside its range; capital_rate <= 0 makes
-            RAROC undefined.
+    Raises
+    ------
+    ValueError
+        An argument is outside its range; capital_rate <= 0 makes RAROC undefined.
     """
     income_rate = _rate("income_rate", income_rate)
     funding_cost_rate, operating_cost_rate, expected_loss_rate, capital_rate, capital_return_rate = (
@@ -227,12 +228,24 @@ def minimum_income_rate(
     income_min = hurdle x C + funding + operating + EL - C x capital_return_rate,
     the RAROC definition (see `raroc`) solved for income.
 
-    Args:
-        hurdle_rate: required RAROC, in [0, 1] [fraction/year].
-        funding_cost_rate, operating_cost_rate, expected_loss_rate,
-        capital_rate, capital_return_rate: as in `raroc`.
+    Parameters
+    ----------
+    hurdle_rate : float
+        Required RAROC, in [0, 1] [fraction/year].
+    funding_cost_rate : float
+        As in :func:`raroc`.
+    operating_cost_rate : float
+        As in :func:`raroc`.
+    expected_loss_rate : float
+        As in :func:`raroc`.
+    capital_rate : float
+        As in :func:`raroc`.
+    capital_return_rate : float
+        As in :func:`raroc`.
 
-    Returns:
+    Returns
+    -------
+    float
         Minimum income rate [fraction of exposure/year].
     """
     hurdle_rate = _number("hurdle_rate", hurdle_rate, low=0.0, high=1.0, unit="[fraction/year]")
@@ -270,26 +283,40 @@ def price_borrower(
     The minimum spread solves RAROC = hurdle with fees held at fee_rate:
     minimum_spread = income_min / exposure - base_rate - fee_rate.
 
-    Args:
-        exposure: exposure priced, > 0, usually the EAD [currency].
-        proposed_spread: margin over base_rate, in [-1, 1] [fraction/year].
-        fee_rate: annualised fees, in [0, 1] [fraction of exposure/year].
-        base_rate: reference rate, in [-1, 1] [fraction/year].
-        funding_spread: the lender's funding margin over base_rate, in [-1, 1] [fraction/year].
-        operating_cost_rate: operating cost, in [0, 1] [fraction of exposure/year].
-        expected_loss: expected loss over the year, in [0, exposure] [currency/year].
-        capital: capital held against the exposure, > 0 and <= exposure; the
-            basis (regulatory or economic) is the caller's [currency].
-        capital_return_rate: return on the capital, in [-1, 1] [fraction/year].
-        hurdle_rate: required RAROC, in [0, 1] [fraction/year].
+    Parameters
+    ----------
+    exposure : float
+        Exposure priced, > 0, usually the EAD [currency units].
+    proposed_spread : float
+        Margin over base_rate, in [-1, 1] [fraction/year].
+    fee_rate : float
+        Annualised fees, in [0, 1] [fraction of exposure/year].
+    base_rate : float
+        Reference rate, in [-1, 1] [fraction/year].
+    funding_spread : float
+        The lender's funding margin over base_rate, in [-1, 1] [fraction/year].
+    operating_cost_rate : float
+        Operating cost, in [0, 1] [fraction of exposure/year].
+    expected_loss : float
+        Expected loss over the year, in [0, exposure] [currency/year].
+    capital : float
+        Capital held against the exposure, > 0 and <= exposure; the basis (regulatory or economic) is the
+        caller's [currency units].
+    capital_return_rate : float
+        Return on the capital, in [-1, 1] [fraction/year].
+    hurdle_rate : float
+        Required RAROC, in [0, 1] [fraction/year].
 
-    Returns:
-        PricingResult with every amount; `raroc` [fraction/year],
-        `minimum_spread` and `spread_shortfall` [fraction/year].
+    Returns
+    -------
+    PricingResult
+        PricingResult with every amount; `raroc` [fraction/year], `minimum_spread` and
+        `spread_shortfall` [fraction/year].
 
-    Raises:
-        ValueError: an argument is outside its range; capital <= 0 makes RAROC
-            undefined.
+    Raises
+    ------
+    ValueError
+        An argument is outside its range; capital <= 0 makes RAROC undefined.
     """
     exposure = _positive("exposure", exposure, high=math.inf, unit="[currency]")
     proposed_spread = _rate("proposed_spread", proposed_spread)

@@ -35,9 +35,14 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from functools import cached_property
+from typing import overload
 
 import numpy as np
+import numpy.typing as npt
 from scipy import special
+
+FloatArray = npt.NDArray[np.float64]
+"""An array of floats (numpy ``float64``)."""
 
 _SUPERVISORY_LGD = {
     "basel_ii": {
@@ -60,7 +65,23 @@ MAX_UPPER = 1.5
 
 
 def secured_supervisory_lgd(standard: str = "basel_iii") -> tuple[float, str]:
-    """The foundation-IRB LGD_S of the covered part (receivables, real estate), with its source."""
+    """The foundation-IRB LGD_S of the covered part (receivables, real estate), with its source.
+
+    Parameters
+    ----------
+    standard : str, optional
+        Basel standard: ``basel_iii`` or ``basel_ii``.
+
+    Returns
+    -------
+    tuple[float, str]
+        LGD_S [fraction] and its source.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     try:
         return _SUPERVISORY_LGD[standard]["senior_secured"]
     except KeyError:
@@ -68,7 +89,25 @@ def secured_supervisory_lgd(standard: str = "basel_iii") -> tuple[float, str]:
 
 
 def seniority_recovery_mean(seniority: str, standard: str = "basel_iii") -> tuple[float, str]:
-    """Mean recovery = 1 - the foundation-IRB supervisory LGD for the seniority, with its source."""
+    """Mean recovery = 1 - the foundation-IRB supervisory LGD for the seniority, with its source.
+
+    Parameters
+    ----------
+    seniority : str
+        Seniority: senior_secured, senior_unsecured or subordinated.
+    standard : str, optional
+        Basel standard: ``basel_iii`` or ``basel_ii``.
+
+    Returns
+    -------
+    tuple[float, str]
+        Mean recovery [fraction] and its source.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     try:
         lgd, source = _SUPERVISORY_LGD[standard][seniority]
     except KeyError:
@@ -80,13 +119,48 @@ def seniority_recovery_mean(seniority: str, standard: str = "basel_iii") -> tupl
 
 
 def largest_feasible_std(*, mean: float, upper: float = 1.0) -> float:
-    """upper x sqrt(m (1 - m)), m = mean / upper: the beta law needs std strictly below it."""
+    """Largest std of a beta law with this mean: upper x sqrt(m (1 - m)), m = mean / upper.
+
+    The beta law needs the std strictly below it.
+
+    Parameters
+    ----------
+    mean : float
+        Mean recovery [fraction of EAD].
+    upper : float, optional
+        Top of the recovery law's support [fraction of EAD], in (0, 1.5].
+
+    Returns
+    -------
+    float
+        The bound on the std [fraction of EAD].
+    """
     m = mean / upper
     return upper * math.sqrt(max(m * (1 - m), 0.0))
 
 
 def beta_parameters_from_moments(*, mean: float, std: float, upper: float = 1.0) -> tuple[float, float]:
-    """(alpha, beta) of the beta law on [0, upper] with the given mean and std (method of moments)."""
+    """(alpha, beta) of the beta law on [0, upper] with the given mean and std (method of moments).
+
+    Parameters
+    ----------
+    mean : float
+        Mean recovery [fraction of EAD].
+    std : float
+        Standard deviation of the recovery [fraction of EAD].
+    upper : float, optional
+        Top of the recovery law's support [fraction of EAD], in (0, 1.5].
+
+    Returns
+    -------
+    tuple[float, float]
+        The beta shapes (alpha, beta).
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if not (0 < upper <= MAX_UPPER):
         raise ValueError(f"recovery.upper: got {upper!r}; allowed: a number above 0 up to {MAX_UPPER:g}")
     if not (0 < mean < upper):
@@ -130,10 +204,12 @@ class RecoveryLaw:
 
     @property
     def point_mass(self) -> bool:
+        """True when the unsecured recovery is fixed (std 0): no beta shapes."""
         return self.alpha is None
 
     @property
     def scale(self) -> float:
+        """Width (1 - c) x upper of the uncovered part's recovery range [fraction]."""
         return (1.0 - self.floor) * self.upper
 
     @property
@@ -147,24 +223,34 @@ class RecoveryLaw:
         return self.offset + self.scale
 
     def mean(self) -> float:
+        """Mean recovery c r_s + (1 - c) E[R_u] [fraction]."""
         return self.offset + (1.0 - self.floor) * self.unsecured_mean
 
     def var(self) -> float:
+        """Variance of the recovery ((1 - c) std(R_u))^2 [fraction squared]."""
         return ((1.0 - self.floor) * self.unsecured_std) ** 2
 
     def std(self) -> float:
+        """Standard deviation of the recovery [fraction]."""
         return math.sqrt(self.var())
+
+    @property
+    def _shapes(self) -> tuple[float, float]:
+        """The beta shapes (a, b); a point mass has none (TypeError)."""
+        if self.alpha is None or self.beta is None:
+            raise TypeError("a point-mass recovery law has no beta shapes")
+        return self.alpha, self.beta
 
     @cached_property
     def median_split(self) -> float:
-        """u = I_{1/2}(a, b): below it the beta quantile is under 1/2, above it over 1/2."""
-        return float(special.betainc(self.alpha, self.beta, 0.5))
+        """Probability level u = I_{1/2}(a, b) at which the beta quantile is 1/2."""
+        return float(special.betainc(*self._shapes, 0.5))
 
     @cached_property
     def _log_beta(self) -> float:
-        return float(special.betaln(self.alpha, self.beta))
+        return float(special.betaln(*self._shapes))
 
-    def _unit_quantile(self, q: np.ndarray) -> np.ndarray:
+    def _unit_quantile(self, q: FloatArray) -> FloatArray:
         """Quantile of B ~ beta(a, b) accurate near both ends.
 
         Below the median split, z = I^-1_q(a, b); above it, z = 1 - I^-1_{1-q}(b, a), so a
@@ -173,7 +259,7 @@ class RecoveryLaw:
         Stegun 26.5.4) is inverted in logarithms: with shapes far below 1 (a std near its limit)
         the law is almost two atoms at 0 and 1 and the iterative inverse loses its digits.
         """
-        a, b = self.alpha, self.beta
+        a, b = self._shapes
         split = self.median_split
         log_beta = self._log_beta
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
@@ -185,7 +271,23 @@ class RecoveryLaw:
             high = np.where((high_lead < _LEAD_TERM) | np.isnan(high), high_lead, high)
         return np.where(q <= split, low, 1.0 - high)
 
-    def ppf(self, q):
+    @overload
+    def ppf(self, q: float) -> float: ...
+    @overload
+    def ppf(self, q: npt.ArrayLike) -> float | FloatArray: ...
+    def ppf(self, q: npt.ArrayLike) -> float | FloatArray:
+        """Quantile function: the recovery rate below which a share ``q`` of outcomes falls.
+
+        Parameters
+        ----------
+        q : npt.ArrayLike
+            Probability level(s) in [0, 1] [fraction].
+
+        Returns
+        -------
+        float | FloatArray
+            Recovery rate(s) [fraction]: a float for a scalar input, else an array.
+        """
         q = np.asarray(q, dtype=float)
         if self.point_mass:
             out = np.full_like(q, self.mean())
@@ -193,29 +295,52 @@ class RecoveryLaw:
             out = self.offset + self.scale * self._unit_quantile(q)
         return float(out) if out.ndim == 0 else out
 
-    def cdf(self, x):
+    @overload
+    def cdf(self, x: float) -> float: ...
+    @overload
+    def cdf(self, x: npt.ArrayLike) -> float | FloatArray: ...
+    def cdf(self, x: npt.ArrayLike) -> float | FloatArray:
+        """Distribution function P(R <= x).
+
+        Parameters
+        ----------
+        x : npt.ArrayLike
+            Recovery rate(s) [fraction].
+
+        Returns
+        -------
+        float | FloatArray
+            P(R <= x) [fraction]: a float for a scalar input, else an array.
+        """
         x = np.asarray(x, dtype=float)
         if self.point_mass:
             out = (x >= self.mean()).astype(float)
         else:
             z = np.clip((x - self.offset) / self.scale, 0.0, 1.0)
-            out = special.betainc(self.alpha, self.beta, z)
+            out = special.betainc(*self._shapes, z)
         return float(out) if out.ndim == 0 else out
 
-    def pdf(self, x):
-        """Density [1/fraction]; 0 outside the support; undefined (nan-free 0) for a point mass."""
+    def pdf(self, x: npt.ArrayLike) -> FloatArray:
+        """Density [1/fraction]; 0 outside the support; undefined (nan-free 0) for a point mass.
+
+        Parameters
+        ----------
+        x : npt.ArrayLike
+            Recovery rate(s) [fraction].
+
+        Returns
+        -------
+        FloatArray
+            Density at ``x`` [1/fraction].
+        """
         x = np.asarray(x, dtype=float)
         if self.point_mass:
             return np.zeros_like(x)
         z = (x - self.offset) / self.scale
         inside = (z > 0) & (z < 1)
         zc = np.where(inside, z, 0.5)
-        log_pdf = (
-            (self.alpha - 1) * np.log(zc)
-            + (self.beta - 1) * np.log1p(-zc)
-            - special.betaln(self.alpha, self.beta)
-            - math.log(self.scale)
-        )
+        a, b = self._shapes
+        log_pdf = (a - 1) * np.log(zc) + (b - 1) * np.log1p(-zc) - special.betaln(a, b) - math.log(self.scale)
         return np.where(inside, np.exp(log_pdf), 0.0)
 
     def ppf_integral(self, u: float) -> float:
@@ -224,12 +349,27 @@ class RecoveryLaw:
         For B ~ beta(a, b): E[B 1{B <= x}] = a / (a + b) I_x(a + 1, b) (the first incomplete moment
         of the beta law; I the regularised incomplete beta function), so with R = c + s B the
         integral is c u + s a/(a + b) I_{x(u)}(a + 1, b), x(u) = I^-1_u(a, b).
+
+        Parameters
+        ----------
+        u : float
+            Upper limit of the integral, in [0, 1] [fraction].
+
+        Returns
+        -------
+        float
+            E[R 1{R <= F^-1(u)}] [fraction].
+
+        Raises
+        ------
+        ValueError
+            If an input is outside its allowed range (the message names it, its value and what is allowed).
         """
         if not 0 <= u <= 1:
             raise ValueError(f"u: got {u!r}; allowed: 0 to 1")
         if self.point_mass:
             return self.mean() * u
-        a, b = self.alpha, self.beta
+        a, b = self._shapes
         m = a / (a + b)
         if u <= 0.0:
             return 0.0
@@ -272,10 +412,26 @@ def recovery_law(
 
     Parameters
     ----------
-    mean, std : moments of the unsecured recovery R_u [fraction].
-    upper : top of R_u's support, in (0, 1.5] [fraction].
-    collateral_cover : share c of EAD covered by collateral after haircut, in [0, 1] [fraction].
-    secured_recovery : recovery r_s = 1 - LGD_S of the covered part, in [0, 1] [fraction].
+    mean : float
+        Mean of the unsecured recovery R_u [fraction], in [0, upper].
+    std : float
+        Standard deviation of R_u [fraction]; 0 for a fixed recovery.
+    upper : float, optional
+        Top of R_u's support, in (0, 1.5] [fraction].
+    collateral_cover : float, optional
+        Share c of EAD covered by collateral after haircut, in [0, 1] [fraction].
+    secured_recovery : float, optional
+        Recovery r_s = 1 - LGD_S of the covered part, in [0, 1] [fraction].
+
+    Returns
+    -------
+    RecoveryLaw
+        The fitted law.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     if not 0 <= collateral_cover <= 1:
         raise ValueError(f"collateral cover: got {collateral_cover!r}; allowed: 0 to 1")
@@ -298,16 +454,55 @@ def recovery_law(
 
 
 def collateral_cover(*, collateral_value: float, haircut: float, ead: float) -> float:
-    """c = min(C x (1 - haircut) / EAD, 1) [fraction]; 0 when EAD is 0."""
+    """Collateral cover c = min(C x (1 - haircut) / EAD, 1) [fraction]; 0 when EAD is 0.
+
+    Parameters
+    ----------
+    collateral_value : float
+        Collateral value before haircut [currency units].
+    haircut : float
+        Haircut on the collateral value [fraction], in [0, 1).
+    ead : float
+        Exposure at default [currency units].
+
+    Returns
+    -------
+    float
+        The covered share c [fraction], in [0, 1].
+    """
     if ead <= 0:
         return 0.0
     return min(collateral_value * (1.0 - haircut) / ead, 1.0)
 
 
 def downturn_lgd(law: RecoveryLaw, *, method: str, quantile: float = 0.9, add_on: float = 0.0) -> float:
-    """Downturn LGD: 'quantile' takes the LGD at the chosen quantile of the loss-given-default law
-    (recovery at 1 - quantile); 'add_on' adds a fixed amount to the mean LGD, capped at 1;
-    'none' returns the mean LGD."""
+    """Downturn LGD of a recovery law by the case's method.
+
+    'quantile' takes the LGD at the chosen quantile of the loss-given-default law (recovery at
+    1 - quantile); 'add_on' adds a fixed amount to the mean LGD, capped at 1; 'none' returns the
+    mean LGD.
+
+    Parameters
+    ----------
+    law : RecoveryLaw
+        The facility's recovery law.
+    method : str
+        ``none``, ``quantile`` or ``add_on``.
+    quantile : float, optional
+        Quantile of the loss-given-default law for the ``quantile`` method [fraction].
+    add_on : float, optional
+        Amount added to the mean LGD for the ``add_on`` method [fraction].
+
+    Returns
+    -------
+    float
+        Downturn LGD [fraction].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if method == "none":
         return law.lgd
     if method == "quantile":

@@ -27,7 +27,26 @@ def roll_forward(
     engine_version: str | None = None,
     figures: Mapping[str, Any] | None = None,
 ) -> dict[str, Any]:
-    """The new case dict started from ``previous``; figures default to those computed now."""
+    """The new case dict started from ``previous``; figures default to those computed now.
+
+    Parameters
+    ----------
+    previous : Case
+        The case of the last review.
+    approved_on : str | None, optional
+        Date the previous case was approved (text); None leaves it unset.
+    fingerprint : str | None, optional
+        Fingerprint of the approved case; None computes it from ``previous``.
+    engine_version : str | None, optional
+        Engine version of the approved figures; None for this engine.
+    figures : Mapping[str, Any] | None, optional
+        Key figures approved; None computes them now from ``previous`` (with this engine's version).
+
+    Returns
+    -------
+    dict[str, Any]
+        The new case, as a dict.
+    """
     from obligor_memo.engine.compare import key_figures
     from obligor_memo.engine.evaluate import evaluate
     from obligor_memo.engine.evaluate import fingerprint as case_fingerprint

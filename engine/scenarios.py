@@ -77,7 +77,18 @@ def _leaf_paths(model: type[BaseModel], prefix: str) -> list[str]:
 
 
 def valid_paths(case: Case) -> tuple[str, ...]:
-    """Every path a scenario may set on this case (facilities by id and by ``*``)."""
+    """Every path a scenario may set on this case (facilities by id and by ``*``).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+
+    Returns
+    -------
+    tuple[str, ...]
+        The paths: case sections first, then each facility key under ``*`` and under every id.
+    """
     paths: list[str] = []
     for name, info in Case.model_fields.items():
         if name in _FROZEN_SECTIONS or name == "facilities":
@@ -100,7 +111,8 @@ class _Target:
 
     holder: dict[str, Any]
     key: str
-    location: str  # as parse_case reports it, e.g. facilities[1].recovery.mean
+    location: str
+    """As parse_case reports it, e.g. facilities[1].recovery.mean."""
 
 
 @dataclass
@@ -234,6 +246,25 @@ def apply_overrides(case: Case, overrides: typing.Mapping[str, ScenarioValue], *
     ``f"{where}.set['{path}']"``. Raises :class:`~engine.errors.CaseError` for an unknown path
     (suggesting the nearest valid one), a path into ``statements`` or ``scenarios``, an
     incomplete new block, or a value the case schema does not allow. ``case`` is not changed.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case; not changed.
+    overrides : typing.Mapping[str, ScenarioValue]
+        Dotted path -> value, e.g. ``{"pd.horizon_years": 3}``.
+    where : str
+        Where the overrides come from, named in messages (e.g. ``scenarios[2]``).
+
+    Returns
+    -------
+    Case
+        The new, validated case.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
     """
     data = case_to_dict(case)  # a fresh dict: model_dump copies
     created: dict[str, _Created] = {}
@@ -288,6 +319,20 @@ def remap_problems(
     ``located`` holds (pydantic location, override path, value). A problem sharing no leading
     location with any override goes to the single override, or else to ``<where>.set`` as a whole.
     Identical problems (a wildcard hitting several facilities) are reported once.
+
+    Parameters
+    ----------
+    problems : typing.Iterable[Problem]
+        The case-level problems of the case with the overrides applied.
+    located : list[tuple[str, str, Any]]
+        (pydantic location, override path, value) of each override.
+    where : str
+        Where the overrides come from, named in messages (e.g. ``scenarios[2]``).
+
+    Returns
+    -------
+    list[Problem]
+        The problems with fields under ``<where>.set``.
     """
     out: list[Problem] = []
     for p in problems:
@@ -348,7 +393,18 @@ _NUMERIC = (
 
 
 def headline_figures(results: Results) -> Headline:
-    """The headline figures of one evaluated case."""
+    """The headline figures of one evaluated case.
+
+    Parameters
+    ----------
+    results : Results
+        An evaluation.
+
+    Returns
+    -------
+    Headline
+        PD, distance to default, grade, EAD, EL, UL, RWA, economic capital and RAROC of the case.
+    """
     pd, total = results.pd, results.total
     return Headline(
         pd=pd.pd,
@@ -369,6 +425,20 @@ def headline_figures(results: Results) -> Headline:
 
 
 def headline_delta(scenario: Headline, base: Headline) -> HeadlineDelta:
+    """Scenario minus base for each numeric headline figure.
+
+    Parameters
+    ----------
+    scenario : Headline
+        The scenario's headline figures.
+    base : Headline
+        The base case's headline figures.
+
+    Returns
+    -------
+    HeadlineDelta
+        Each difference, in the figure's unit; None where either side is None.
+    """
     values: dict[str, Any] = {}
     for name in _NUMERIC:
         a, b = getattr(scenario, name), getattr(base, name)
@@ -377,8 +447,27 @@ def headline_delta(scenario: Headline, base: Headline) -> HeadlineDelta:
 
 
 def checked_base(case: Case, base: Results) -> Results:
-    """``base`` if it is the evaluation of ``case``; the scenario and sensitivity settings may
-    differ, as they do not enter evaluate()."""
+    """Check that ``base`` is the evaluation of ``case``.
+
+    The scenario and sensitivity settings may differ, as they do not enter evaluate().
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    base : Results
+        An evaluation to check.
+
+    Returns
+    -------
+    Results
+        ``base``, checked.
+
+    Raises
+    ------
+    ValueError
+        If ``base`` is the evaluation of a different case.
+    """
     unused = {"scenarios": [], "sensitivity": case.sensitivity}
     if base.case.model_copy(update=unused) != case.model_copy(update=unused):
         raise ValueError(
@@ -393,6 +482,23 @@ def evaluate_scenarios(case: Case, base: Results | None = None) -> tuple[Scenari
     A scenario that does not validate (or that the engine cannot evaluate) raises
     :class:`~engine.errors.CaseError` whose fields start ``scenarios[i].set[...]`` and whose
     source names the scenario.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    base : Results | None, optional
+        The case's evaluation, if already computed; None evaluates it here.
+
+    Returns
+    -------
+    tuple[ScenarioResult, ...]
+        One result per scenario, in case order.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
     """
     if not case.scenarios:
         return ()

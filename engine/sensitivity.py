@@ -18,7 +18,7 @@ volatility and every cell re-solves E = V N(d1) - DP e^{-rT} N(d2), sE E = N(d1)
 (``engine.market.solve_merton_many``, vectorised).
 
 Units: shares and rates [fraction], growth [1/year], volatility [1/sqrt(year)], horizon [years],
-money [currency].
+money [currency units].
 """
 
 from __future__ import annotations
@@ -84,8 +84,27 @@ def _clip_pair(base: float, step: float, lowest: float, highest: float) -> tuple
 
 
 def feasible_recovery_means(*, std: float, upper: float) -> tuple[float, float]:
-    """The interval of mean recovery [fraction] for which a beta law with ``std`` on [0, upper]
-    exists: mean (upper - mean) > std^2 (moment fit, see engine.recovery), with a small margin."""
+    """The interval of mean recovery [fraction] for which a beta law with ``std`` on [0, upper] exists.
+
+    The law needs mean (upper - mean) > std^2 (moment fit, see engine.recovery); a small margin is kept.
+
+    Parameters
+    ----------
+    std : float
+        Standard deviation of the recovery [fraction of EAD].
+    upper : float
+        Top of the recovery law's support [fraction of EAD].
+
+    Returns
+    -------
+    tuple[float, float]
+        (lowest, highest) mean recovery [fraction].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if not (0 < upper <= MAX_UPPER):
         raise ValueError(f"upper: got {upper!r}; allowed: a number above 0 and at most {MAX_UPPER:g}")
     if not (0 <= std < upper / 2):
@@ -106,8 +125,23 @@ class _Runner:
         self._seen: dict[tuple[tuple[str, Any], ...], Results | ValueError] = {}
 
     def run(self, overrides: dict[str, Any], where: str) -> Results | ValueError:
-        """The results, or the error that stopped this point (CaseError for a case that does not
-        validate): one extreme point must not sink the whole table, and the row reports it."""
+        """Evaluate the case with ``overrides``, or return the error that stopped this point.
+
+        A case that does not validate gives its CaseError: one extreme point must not sink the
+        whole table, and the row reports it.
+
+        Parameters
+        ----------
+        overrides : dict[str, Any]
+            Dotted case path -> new value.
+        where : str
+            Which point this is, named in messages (e.g. ``sensitivity.ccf.down``).
+
+        Returns
+        -------
+        Results | ValueError
+            The evaluation of the case with ``overrides`` applied, or the error that stopped it.
+        """
         key = tuple(sorted(overrides.items()))
         if key not in self._seen:
             try:
@@ -186,6 +220,18 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
     facility's mean recovery (around the mean in use; kept where the beta law is feasible).
     ``base`` saves re-evaluating the case. Under an analyst PD override the model inputs move
     the model PD but not the PD in force, so PD and EL stay put on those rows (noted).
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    base : Results | None, optional
+        The case's evaluation, if already computed; None evaluates it here.
+
+    Returns
+    -------
+    OneWaySensitivity
+        The rows, largest EL swing first, and notes.
     """
     base = checked_base(case, base) if base is not None else evaluate(case)
     steps = case.sensitivity.steps
@@ -202,6 +248,9 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
         step = float(getattr(steps, name))
         row_notes: list[str] = []
         shifts: list[FacilityShift] = []
+        value: float | None
+        low_value: float | None
+        high_value: float | None
         if name in _CASE_LEVEL:
             path, lowest, highest, unit, label = _CASE_LEVEL[name]
             value = _case_level_base(name, base.pd)
@@ -241,9 +290,10 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
                 row_notes.append(f"the {side} case does not validate: {outcome.paragraph()}")
             elif isinstance(outcome, ValueError):
                 row_notes.append(f"the engine could not evaluate the {side} case: {outcome}")
-        low_ok, high_ok = isinstance(low, Results), isinstance(high, Results)
-        el_low = low.total.expected_loss if low_ok else None
-        el_high = high.total.expected_loss if high_ok else None
+        low_result = low if isinstance(low, Results) else None
+        high_result = high if isinstance(high, Results) else None
+        el_low = low_result.total.expected_loss if low_result is not None else None
+        el_high = high_result.total.expected_loss if high_result is not None else None
         el_base = base.total.expected_loss
         rows.append(
             SensitivityRow(
@@ -258,10 +308,10 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
                 facilities=tuple(shifts),
                 clipped=clipped,
                 pd_base=base.pd.pd,
-                pd_low=low.pd.pd if low_ok else None,
-                pd_high=high.pd.pd if high_ok else None,
-                model_pd_low=low.pd.model_pd if low_ok else None,
-                model_pd_high=high.pd.model_pd if high_ok else None,
+                pd_low=low_result.pd.pd if low_result is not None else None,
+                pd_high=high_result.pd.pd if high_result is not None else None,
+                model_pd_low=low_result.pd.model_pd if low_result is not None else None,
+                model_pd_high=high_result.pd.model_pd if high_result is not None else None,
                 el_base=el_base,
                 el_low=el_low,
                 el_high=el_high,
@@ -299,10 +349,37 @@ def balance_sheet_pd_grid(
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Balance-sheet PD over long-term shares (columns) x asset volatilities (rows).
 
-    asset_value V, liabilities [currency]; asset_growth g [1/year] (log drift: mu = g + s^2/2);
-    shares [fraction]; asset_volatilities s [1/sqrt(year)], each > 0; horizon_years T [years].
-    Returns (default point per column [currency], DD [rows, columns], PD [rows, columns]).
     A column whose default point is 0 has DD = +inf and PD = 0: no debt to default on.
+
+    Parameters
+    ----------
+    asset_value : float
+        V, latest total assets [currency units].
+    asset_growth : float
+        g, annual growth of log assets (log drift; mu = g + s^2/2) [1/year].
+    short_term_liabilities : float
+        Short-term liabilities of the latest year [currency units].
+    long_term_liabilities : float
+        Long-term liabilities of the latest year [currency units].
+    short_term_share : float
+        Share a of short-term liabilities in the default point [fraction], in [0, 1].
+    long_term_shares : Any
+        Long-term shares b of the columns [fraction].
+    asset_volatilities : Any
+        Asset volatilities s of the rows [1/sqrt(year)], each > 0.
+    horizon_years : float
+        Horizon T of the PD [years].
+
+    Returns
+    -------
+    tuple[np.ndarray, np.ndarray, np.ndarray]
+        Default point per column [currency units], DD [rows, columns] [standard deviations] and PD [rows,
+        columns] [fraction].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     shares = np.asarray(long_term_shares, dtype=float).reshape(-1)
     vols = np.asarray(asset_volatilities, dtype=float).reshape(-1)
@@ -338,8 +415,27 @@ def _axis(axis: GridAxis, field: str, highest: float | None = None) -> np.ndarra
 
 
 def centred_volatility_axis(volatility: float, points: int = 21) -> np.ndarray:
-    """``points`` volatilities from max(0.01, s/2) to 2 s, evenly spaced in log(s), so that the
-    middle point is s itself (whenever s/2 >= 0.01) and halving and doubling are equally far."""
+    """Volatilities from max(0.01, s/2) to 2 s, evenly spaced in log(s).
+
+    The middle point is s itself (whenever s/2 >= 0.01), so halving and doubling are equally far.
+
+    Parameters
+    ----------
+    volatility : float
+        The volatility s in use [1/sqrt(year)].
+    points : int, optional
+        Number of points, odd for s to be the middle one.
+
+    Returns
+    -------
+    np.ndarray
+        The volatilities [1/sqrt(year)].
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
+    """
     if not (volatility > 0 and math.isfinite(volatility)):
         raise ValueError(f"volatility: got {volatility!r}; allowed: a finite number above 0")
     if points < 2:
@@ -352,6 +448,23 @@ def pd_grid(case: Case, base: Results | None = None) -> PdGrid:
     """The two-way model-PD grid of the case (see the module notes for both methods).
 
     ``base`` supplies the PD step's values in use; without it only the PD step is run.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    base : Results | None, optional
+        The case's evaluation, if already computed; None evaluates it here.
+
+    Returns
+    -------
+    PdGrid
+        The model PD over the two axes.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
     """
     pd = checked_base(case, base).pd if base is not None else estimate_pd(case)[1]
     settings = case.sensitivity

@@ -1,7 +1,7 @@
 """The Shapley value of a cooperative game, exactly, by the formula over subsets.
 
 Shapley, "A value for n-person games", Contributions to the Theory of Games II (1953):
-phi_i = sum over S in N \\ {i} of |S|! (n - |S| - 1)! / n! x (v(S + i) - v(S)).
+phi_i = sum over S in N minus {i} of |S|! (n - |S| - 1)! / n! x (v(S + i) - v(S)).
 Computed in rationals (fractions.Fraction), so efficiency holds exactly before rounding.
 """
 
@@ -19,6 +19,18 @@ def shapley_values(players: Sequence[Hashable], value: Callable[[frozenset], Any
 
     ``value(S)`` is the worth of coalition S (a frozenset of players) as a float or Fraction;
     each coalition is asked once. Efficiency holds exactly: the values sum to v(N) - v(empty).
+
+    Parameters
+    ----------
+    players : Sequence[Hashable]
+        The players, each hashable.
+    value : Callable[[frozenset], Any]
+        Worth v(S) of a coalition S (a frozenset of players), as a float or Fraction.
+
+    Returns
+    -------
+    dict[Hashable, Fraction]
+        Exact Shapley value of each player.
     """
     n = len(players)
     worth: dict[frozenset, Fraction] = {}
@@ -41,8 +53,22 @@ def shapley_values(players: Sequence[Hashable], value: Callable[[frozenset], Any
 
 
 def floats_summing_to(shares: dict[Hashable, Fraction], total: float) -> dict[Hashable, float]:
-    """Round exact shares to floats and give the rounding left over to the largest share, so the
-    float shares add (math.fsum) to ``total`` up to its last bit."""
+    """Round exact shares to floats, the rounding left over going to the largest share.
+
+    The float shares then add (math.fsum) to ``total`` up to its last bit.
+
+    Parameters
+    ----------
+    shares : dict[Hashable, Fraction]
+        Exact share of each player.
+    total : float
+        The total the floats must add up to.
+
+    Returns
+    -------
+    dict[Hashable, float]
+        Float share of each player, adding up to ``total``.
+    """
     out = {k: float(v) for k, v in shares.items()}
     if not out:
         return out

@@ -103,13 +103,38 @@ _DATE = re.compile(r"^(?:\d{1,2}[./-]\d{1,2}[./-]((?:19|20|21)\d\d)|((?:19|20|21
 
 
 def normalise(label: Any) -> str:
+    """Normalise a line label for matching: lower case, ``&`` as ``and``, brackets and punctuation dropped.
+
+    Parameters
+    ----------
+    label : Any
+        A line label as read from the file.
+
+    Returns
+    -------
+    str
+        The label's words, single-spaced.
+    """
     text = str(label).strip().lower().replace("&", " and ")
     text = re.sub(r"\(.*?\)", " ", text)  # "(EUR k)", "(note 4)"
     return " ".join(re.sub(r"[^a-z0-9]+", " ", text).split())
 
 
 def field_for(label: Any, mapping: dict[str, str] | None = None) -> str | None:
-    """The field a line label means, or None; the analyst's mapping first."""
+    """The field a line label means, or None; the analyst's mapping first.
+
+    Parameters
+    ----------
+    label : Any
+        A line label as read from the file.
+    mapping : dict[str, str] | None, optional
+        The analyst's mapping of line labels to case fields, tried first; None for none.
+
+    Returns
+    -------
+    str | None
+        The case field, or None.
+    """
     if mapping:
         for given, target in mapping.items():
             if normalise(given) == normalise(label):
@@ -118,7 +143,18 @@ def field_for(label: Any, mapping: dict[str, str] | None = None) -> str | None:
 
 
 def year_of(cell: Any) -> int | None:
-    """A header cell as a financial year, or None."""
+    """A header cell as a financial year, or None.
+
+    Parameters
+    ----------
+    cell : Any
+        A header cell.
+
+    Returns
+    -------
+    int | None
+        The year, or None.
+    """
     if isinstance(cell, bool) or cell is None:
         return None
     if isinstance(cell, (dt.date, dt.datetime)):
@@ -138,11 +174,16 @@ def year_of(cell: Any) -> int | None:
 class Layout:
     """What was found in a table: orientation, header row, recognised and unrecognised lines."""
 
-    orientation: str  # "wide" (years across) or "long" (years down)
-    header_row: int  # 1-based row of the header in the file
-    recognised: dict[str, str] = field(default_factory=dict)  # label in file -> field
+    orientation: str
+    """"wide" (years across) or "long" (years down)"""
+    header_row: int
+    """1-based row of the header in the file."""
+    recognised: dict[str, str] = field(default_factory=dict)
+    """Label in file -> field."""
     unrecognised: list[str] = field(default_factory=list)
-    records: list[dict[str, Any]] = field(default_factory=list)  # year -> raw cells per field
+    """Line labels that matched no field."""
+    records: list[dict[str, Any]] = field(default_factory=list)
+    """Year -> raw cells per field."""
 
 
 def _text(cell: Any) -> bool:
@@ -150,7 +191,22 @@ def _text(cell: Any) -> bool:
 
 
 def detect(rows: list[list[Any]], mapping: dict[str, str] | None = None, *, scan: int = 15) -> Layout | None:
-    """The table's layout, or None when no header of either kind is found in the first rows."""
+    """The table's layout, or None when no header of either kind is found in the first rows.
+
+    Parameters
+    ----------
+    rows : list[list[Any]]
+        The table's rows as read (cells of any type).
+    mapping : dict[str, str] | None, optional
+        The analyst's mapping of line labels to case fields, tried first; None for none.
+    scan : int, optional
+        Number of leading rows searched for a header.
+
+    Returns
+    -------
+    Layout | None
+        The layout, or None.
+    """
     for index, row in enumerate(rows[:scan]):
         years = [(c, year_of(v)) for c, v in enumerate(row) if year_of(v) is not None]
         labels_below = (

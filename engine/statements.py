@@ -47,7 +47,25 @@ def _header_key(text: Any) -> str:
 
 
 def parse_number(text: Any, *, decimal: str = ".") -> float | None:
-    """A cell as a float: '1,234.5', '1 234,5' (with decimal=','), '(12)' for -12; '' -> None."""
+    """A cell as a float: '1,234.5', '1 234,5' (with decimal=','), '(12)' for -12; '' -> None.
+
+    Parameters
+    ----------
+    text : Any
+        The cell: a number, or text such as '1,234.5', '1 234,5' or '(12)'.
+    decimal : str, optional
+        Decimal separator of the file's numbers: ``.`` or ``,``.
+
+    Returns
+    -------
+    float | None
+        The number, or None for an empty cell.
+
+    Raises
+    ------
+    ValueError
+        If the cell is text that is not a number.
+    """
     if text is None:
         return None
     if isinstance(text, bool):
@@ -164,11 +182,17 @@ class StatementsRead:
     """A statements file as read: the rows (amounts already in currency units) and how."""
 
     rows: list[dict[str, Any]]
+    """One dict per year (field -> amount [currency units])."""
     unit: str = "units"
-    orientation: str = "long"  # "long": years down the rows; "wide": across
+    """Unit the file was stated in."""
+    orientation: str = "long"
+    """"long": years down the rows; "wide": across."""
     header_row: int = 1
-    recognised: dict[str, str] = field(default_factory=dict)  # label in the file -> field
+    """1-based row of the header in the file."""
+    recognised: dict[str, str] = field(default_factory=dict)
+    """Label in the file -> field."""
     unrecognised: tuple[str, ...] = ()
+    """Line labels of the file that matched no field."""
 
 
 def read_statement_table(
@@ -177,6 +201,22 @@ def read_statement_table(
     """Rows of a statements table as plain dicts (column -> number), ready for the case schema.
 
     ``name`` is used in messages and to tell CSV from XLSX by its ending.
+
+    Parameters
+    ----------
+    data : bytes
+        The file's bytes.
+    name : str
+        File name, used in messages and to tell CSV from XLSX by its ending.
+    sheet : str | None, optional
+        Worksheet of an XLSX file; None for the first.
+    decimal : str, optional
+        Decimal separator of the file's numbers: ``.`` or ``,``.
+
+    Returns
+    -------
+    list[dict[str, Any]]
+        One dict per row (column -> number).
     """
     return read_statements(data, name, sheet=sheet, decimal=decimal).rows
 
@@ -190,9 +230,36 @@ def read_statements(
     unit: str = "units",
     mapping: dict[str, str] | None = None,
 ) -> StatementsRead:
-    """A statements table in any of the usual layouts (see :mod:`engine.statement_layout`):
-    a plain table with the case's column names, or title rows, years across or down and the
-    trade's usual wording; amounts multiplied by ``unit``."""
+    """Read a statements table in any of the usual layouts (see :mod:`engine.statement_layout`).
+
+    A plain table with the case's column names, or title rows, years across or down and the
+    trade's usual wording; amounts multiplied by ``unit``.
+
+    Parameters
+    ----------
+    data : bytes
+        The file's bytes.
+    name : str
+        File name, used in messages and to tell CSV from XLSX by its ending.
+    sheet : str | None, optional
+        Worksheet of an XLSX file; None for the first.
+    decimal : str, optional
+        Decimal separator of the file's numbers: ``.`` or ``,``.
+    unit : str, optional
+        Unit the file's amounts are stated in, one of ``UNITS``; amounts are multiplied by it.
+    mapping : dict[str, str] | None, optional
+        The analyst's mapping of line labels to case fields, tried first; None for none.
+
+    Returns
+    -------
+    StatementsRead
+        The rows, the layout found and the lines left unmatched.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or evaluated (each problem names its field).
+    """
     if unit not in UNITS:
         raise CaseError.single("statements.unit", unit, "units, thousands or millions", "statements file")
     candidates = [sheet]
@@ -444,17 +511,36 @@ class YearRatios:
     """Key ratios of one financial year [fraction]."""
 
     year: int
-    total_liabilities: float  # [currency] given, or short + long term
-    leverage: float  # total liabilities / total assets
-    short_term_share_of_debt: float  # short-term / (short + long)
-    equity_ratio: float | None  # book equity / total assets
-    ebit_margin: float | None  # EBIT / sales
-    return_on_assets: float | None  # EBIT / total assets
-    asset_growth: float | None  # ln(TA_t / TA_{t-1})
+    """Financial year."""
+    total_liabilities: float
+    """[currency units] given, or short + long term."""
+    leverage: float
+    """Total liabilities / total assets [fraction]."""
+    short_term_share_of_debt: float
+    """Short-term / (short + long) debt [fraction]"""
+    equity_ratio: float | None
+    """Book equity / total assets [fraction]."""
+    ebit_margin: float | None
+    """EBIT / sales [fraction]."""
+    return_on_assets: float | None
+    """EBIT / total assets [fraction]."""
+    asset_growth: float | None
+    """ln(TA_t / TA_{t-1}) [1/year]"""
 
 
 def year_ratios(rows: list[Any]) -> tuple[YearRatios, ...]:
-    """Ratios per year from validated, year-sorted statement rows."""
+    """Ratios per year from validated, year-sorted statement rows.
+
+    Parameters
+    ----------
+    rows : list[Any]
+        Validated statement rows, sorted by year.
+
+    Returns
+    -------
+    tuple[YearRatios, ...]
+        The ratios of each year.
+    """
     out = []
     previous = None
     for row in rows:
@@ -482,13 +568,26 @@ def year_ratios(rows: list[Any]) -> tuple[YearRatios, ...]:
 
 
 def statement_cautions(case: Any) -> list[Caution]:
-    """What the reader should know about the statements as read: the unit they were given in,
-    the lines of the file that matched no field, and amounts whose scale looks wrong.
+    """What the reader should know about the statements as read.
+
+    The unit they were given in, the lines of the file that matched no field, and amounts whose
+    scale looks wrong.
 
     The scale check is a plausibility rule (common practice, not a standard): a borrower's
     committed facilities are rarely more than 20 times its total assets, and total assets
     below 1,000 beside facilities of a million or more usually mean a file in thousands or
-    millions read as units."""
+    millions read as units.
+
+    Parameters
+    ----------
+    case : Any
+        The validated case.
+
+    Returns
+    -------
+    list[Caution]
+        The cautions, possibly none.
+    """
     out: list[Caution] = []
     source = getattr(case, "statements_source", None)
     currency = case.borrower.currency

@@ -14,10 +14,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from typing import overload
 
 import numpy as np
+import numpy.typing as npt
 from obligor_memo.engine.errors import InputError
 from scipy.special import ndtr
+
+FloatArray = npt.NDArray[np.float64]
+"""An array of floats (numpy ``float64``)."""
 
 
 def default_point(
@@ -27,18 +32,80 @@ def default_point(
     short_term_share: float = 1.0,
     long_term_share: float = 0.5,
 ) -> float:
-    """DP = a x STL + b x LTL [currency] (common practice: a = 1, b = 0.5)."""
+    """DP = a x STL + b x LTL [currency units] (common practice: a = 1, b = 0.5).
+
+    Parameters
+    ----------
+    short_term_liabilities : float
+        Short-term liabilities of the latest year [currency units].
+    long_term_liabilities : float
+        Long-term liabilities of the latest year [currency units].
+    short_term_share : float, optional
+        Share a of short-term liabilities in the default point [fraction], in [0, 1].
+    long_term_share : float, optional
+        Share b of long-term liabilities in the default point [fraction], in [0, 1].
+
+    Returns
+    -------
+    float
+        The default point DP [currency units].
+
+    Raises
+    ------
+    InputError
+        If an input is outside its allowed range (carries the field, the value and the allowed text).
+    """
     for name, value in (("short_term_share", short_term_share), ("long_term_share", long_term_share)):
         if not (0 <= value <= 1):
             raise InputError(f"pd.default_point.{name}", value, "a number from 0 to 1")
     return short_term_share * short_term_liabilities + long_term_share * long_term_liabilities
 
 
-def distance_to_default(*, asset_value, default_point, asset_return, asset_volatility, horizon_years):
+@overload
+def distance_to_default(
+    *, asset_value: float, default_point: float, asset_return: float, asset_volatility: float, horizon_years: float
+) -> float: ...
+@overload
+def distance_to_default(
+    *,
+    asset_value: npt.ArrayLike,
+    default_point: npt.ArrayLike,
+    asset_return: npt.ArrayLike,
+    asset_volatility: npt.ArrayLike,
+    horizon_years: npt.ArrayLike,
+) -> float | FloatArray: ...
+def distance_to_default(
+    *,
+    asset_value: npt.ArrayLike,
+    default_point: npt.ArrayLike,
+    asset_return: npt.ArrayLike,
+    asset_volatility: npt.ArrayLike,
+    horizon_years: npt.ArrayLike,
+) -> float | FloatArray:
     """DD = (ln(V/DP) + (mu - s^2/2) T) / (s sqrt T) [standard deviations]. Broadcasts over arrays.
 
-    asset_value, default_point [currency]; asset_return mu [1/year]; asset_volatility s
-    [1/sqrt(year)]; horizon_years T [years].
+    Parameters
+    ----------
+    asset_value : npt.ArrayLike
+        V, the value of the assets [currency units], > 0; a number or an array.
+    default_point : npt.ArrayLike
+        DP, the default point [currency units], > 0; a number or an array.
+    asset_return : npt.ArrayLike
+        mu, the expected asset return [1/year]; a number or an array.
+    asset_volatility : npt.ArrayLike
+        s, annual volatility of the asset value [1/sqrt(year), e.g. 0.25], > 0; a number or an array.
+    horizon_years : npt.ArrayLike
+        T, the horizon [years], > 0; a number or an array.
+
+    Returns
+    -------
+    float | FloatArray
+        DD [standard deviations]: a float for scalar inputs, else an array.
+
+    Raises
+    ------
+    ValueError
+        If an input is outside its allowed range (the message names it, its value and what is allowed).
     """
     v = np.asarray(asset_value, dtype=float)
     dp = np.asarray(default_point, dtype=float)
@@ -54,8 +121,23 @@ def distance_to_default(*, asset_value, default_point, asset_return, asset_volat
     return float(dd) if dd.ndim == 0 else dd
 
 
-def pd_from_distance(distance) -> float | np.ndarray:
-    """PD = N(-DD), the standard normal CDF (scipy.special.ndtr)."""
+@overload
+def pd_from_distance(distance: float) -> float: ...
+@overload
+def pd_from_distance(distance: npt.ArrayLike) -> float | FloatArray: ...
+def pd_from_distance(distance: npt.ArrayLike) -> float | FloatArray:
+    """PD = N(-DD), the standard normal CDF (scipy.special.ndtr).
+
+    Parameters
+    ----------
+    distance : npt.ArrayLike
+        Distance to default DD [standard deviations]; a number or an array.
+
+    Returns
+    -------
+    float | FloatArray
+        PD = N(-DD) [fraction]: a float for a scalar input, else an array.
+    """
     out = ndtr(-np.asarray(distance, dtype=float))
     return float(out) if np.ndim(out) == 0 else out
 
@@ -64,18 +146,30 @@ def pd_from_distance(distance) -> float | np.ndarray:
 class BalanceSheetPd:
     """Every quantity of the balance-sheet structural PD."""
 
-    asset_value: float  # V: latest total assets [currency]
-    asset_growth: float  # g [1/year]
-    asset_volatility: float  # s [1/sqrt(year)]
-    asset_return: float  # mu = g + s^2/2 [1/year]
-    short_term_liabilities: float  # latest [currency]
-    long_term_liabilities: float  # latest [currency]
-    short_term_share: float  # a [fraction]
-    long_term_share: float  # b [fraction]
-    default_point: float  # DP [currency]
-    horizon_years: float  # T [years]
-    distance_to_default: float  # DD
-    pd: float  # N(-DD) [fraction]
+    asset_value: float
+    """V: latest total assets [currency units]"""
+    asset_growth: float
+    """g [1/year]"""
+    asset_volatility: float
+    """s [1/sqrt(year)]"""
+    asset_return: float
+    """mu = g + s^2/2 [1/year]"""
+    short_term_liabilities: float
+    """Latest [currency units]"""
+    long_term_liabilities: float
+    """Latest [currency units]"""
+    short_term_share: float
+    """a [fraction]"""
+    long_term_share: float
+    """b [fraction]"""
+    default_point: float
+    """DP [currency units]"""
+    horizon_years: float
+    """T [years]"""
+    distance_to_default: float
+    """Distance to default DD [standard deviations]."""
+    pd: float
+    """N(-DD) [fraction]"""
 
 
 def balance_sheet_pd(
@@ -89,7 +183,37 @@ def balance_sheet_pd(
     long_term_share: float = 0.5,
     horizon_years: float = 1.0,
 ) -> BalanceSheetPd:
-    """Balance-sheet PD with mu = g + s^2/2, so the log-asset drift mu - s^2/2 equals g."""
+    """Balance-sheet PD with mu = g + s^2/2, so the log-asset drift mu - s^2/2 equals g.
+
+    Parameters
+    ----------
+    asset_value : float
+        V, latest total assets [currency units].
+    asset_growth : float
+        g, annual growth of the log asset value [1/year].
+    asset_volatility : float
+        s, annual volatility of the asset value [1/sqrt(year), e.g. 0.25].
+    short_term_liabilities : float
+        Short-term liabilities of the latest year [currency units].
+    long_term_liabilities : float
+        Long-term liabilities of the latest year [currency units].
+    short_term_share : float, optional
+        Share a of short-term liabilities in the default point [fraction], in [0, 1].
+    long_term_share : float, optional
+        Share b of long-term liabilities in the default point [fraction], in [0, 1].
+    horizon_years : float, optional
+        Horizon T of the PD [years].
+
+    Returns
+    -------
+    BalanceSheetPd
+        Every quantity of the calculation.
+
+    Raises
+    ------
+    InputError
+        If an input is outside its allowed range (carries the field, the value and the allowed text).
+    """
     dp = default_point(
         short_term_liabilities=short_term_liabilities,
         long_term_liabilities=long_term_liabilities,
@@ -127,10 +251,15 @@ class PdTermStructure:
     """Cumulative and marginal PD by year [fraction]; ``basis`` says how it was built."""
 
     years: tuple[float, ...]
+    """Years 1, 2, ... [years]."""
     cumulative: tuple[float, ...]
-    marginal: tuple[float, ...]  # cumulative(t) - cumulative(t-1)
-    conditional: tuple[float, ...]  # marginal / survival to t-1 (annual hazard)
+    """Cumulative PD to each year [fraction]."""
+    marginal: tuple[float, ...]
+    """cumulative(t) - cumulative(t-1) [fraction]"""
+    conditional: tuple[float, ...]
+    """marginal / survival to t-1, the annual hazard [fraction]"""
     basis: str
+    """How the term structure was built, in words."""
     running_max_from: float | None = None
     """Year after which the model's cumulative PD fell and the running maximum was taken
     (marginal PD 0 from there on) [years]; None when it never fell."""
@@ -139,9 +268,31 @@ class PdTermStructure:
 def structural_term_structure(
     *, asset_value: float, default_point: float, log_drift: float, asset_volatility: float, years: int, basis: str
 ) -> PdTermStructure:
-    """Cumulative PD(t) = N(-(ln(V/DP) + m t)/(s sqrt t)) for t = 1..years, m the log-asset drift
-    (g on the balance sheet; r - s^2/2 risk-neutral in the market model). The default point is held
-    at today's value: a simplification stated in the memo's cautions."""
+    """Structural PD term structure: cumulative PD(t) = N(-(ln(V/DP) + m t)/(s sqrt t)), t = 1..years.
+
+    m is the log-asset drift (g on the balance sheet; r - s^2/2 risk-neutral in the market model).
+    The default point is held at today's value: a simplification stated in the memo's cautions.
+
+    Parameters
+    ----------
+    asset_value : float
+        V, the value of the assets [currency units].
+    default_point : float
+        DP, the default point (debt barrier) [currency units].
+    log_drift : float
+        m, the drift of the log asset value [1/year]: g on the balance sheet, r - s^2/2 risk-neutral.
+    asset_volatility : float
+        s, annual volatility of the asset value [1/sqrt(year), e.g. 0.25].
+    years : int
+        Number of years of the term structure, from 1.
+    basis : str
+        How the term structure was built, in words (printed with it).
+
+    Returns
+    -------
+    PdTermStructure
+        Cumulative, marginal and conditional PD by year [fraction].
+    """
     t = np.arange(1, years + 1, dtype=float)
     dd = (math.log(asset_value) - math.log(default_point) + log_drift * t) / (asset_volatility * np.sqrt(t))
     cumulative = np.asarray(pd_from_distance(dd))
@@ -156,13 +307,30 @@ def structural_term_structure(
 
 
 def constant_hazard_term_structure(*, pd: float, horizon_years: float, years: int, basis: str) -> PdTermStructure:
-    """Cumulative PD(t) = 1 - (1 - PD)^(t / T): a constant annual hazard reproducing PD at T."""
+    """Cumulative PD(t) = 1 - (1 - PD)^(t / T): a constant annual hazard reproducing PD at T.
+
+    Parameters
+    ----------
+    pd : float
+        PD over ``horizon_years`` [fraction], in [0, 1].
+    horizon_years : float
+        Horizon T of the PD [years].
+    years : int
+        Number of years of the term structure, from 1.
+    basis : str
+        How the term structure was built, in words (printed with it).
+
+    Returns
+    -------
+    PdTermStructure
+        Cumulative, marginal and conditional PD by year [fraction].
+    """
     t = np.arange(1, years + 1, dtype=float)
     cumulative = 1.0 - (1.0 - pd) ** (t / horizon_years) if pd < 1 else np.ones_like(t)
     return _from_cumulative(t, cumulative, basis)
 
 
-def _from_cumulative(t: np.ndarray, cumulative: np.ndarray, basis: str) -> PdTermStructure:
+def _from_cumulative(t: FloatArray, cumulative: FloatArray, basis: str) -> PdTermStructure:
     previous = np.concatenate([[0.0], cumulative[:-1]])
     marginal = cumulative - previous
     survival = 1.0 - previous

@@ -18,12 +18,28 @@ from obligor_memo.engine.errors import Caution, InputError
 class LinearFit:
     """y = intercept + slope * year, fitted by ordinary least squares."""
 
-    slope: float  # [y-units / year]
-    intercept: float  # [y-units] at year 0
-    r_squared: float | None  # None when y does not vary (R^2 undefined)
+    slope: float
+    """[y-units / year]"""
+    intercept: float
+    """[y-units] at year 0."""
+    r_squared: float | None
+    """None when y does not vary (R^2 undefined)"""
     n: int
+    """Number of points fitted."""
 
     def at(self, year: float) -> float:
+        """Value of the fitted line at ``year``.
+
+        Parameters
+        ----------
+        year : float
+            A calendar year.
+
+        Returns
+        -------
+        float
+            intercept + slope x year [y-units].
+        """
         return self.intercept + self.slope * year
 
 
@@ -31,6 +47,23 @@ def least_squares_line(years: np.ndarray, values: np.ndarray) -> LinearFit:
     """Ordinary least squares of ``values`` on ``years`` with R^2 = 1 - SSR/SST.
 
     Years are centred before fitting: raw calendar years squared lose digits in float64.
+
+    Parameters
+    ----------
+    years : np.ndarray
+        Financial years, ascending.
+    values : np.ndarray
+        One value per year (here ln(total assets)).
+
+    Returns
+    -------
+    LinearFit
+        Slope, intercept and R^2 of the fit.
+
+    Raises
+    ------
+    InputError
+        If an input is outside its allowed range (carries the field, the value and the allowed text).
     """
     x = np.asarray(years, dtype=float)
     y = np.asarray(values, dtype=float)
@@ -49,14 +82,45 @@ def least_squares_line(years: np.ndarray, values: np.ndarray) -> LinearFit:
 
 
 def annual_log_changes(years: np.ndarray, values: np.ndarray) -> np.ndarray:
-    """ln(A_t / A_{t-1}) per year. Across a gap of k years the change is divided by sqrt(k) so
-    that its variance is that of one year under a random walk (the mean is not used)."""
+    """Annual log changes ln(A_t / A_{t-1}).
+
+    Across a gap of k years the change is divided by sqrt(k) so that its variance is that of one
+    year under a random walk (the mean is not used).
+
+    Parameters
+    ----------
+    years : np.ndarray
+        Financial years, ascending.
+    values : np.ndarray
+        Total assets of each year [currency units], > 0.
+
+    Returns
+    -------
+    np.ndarray
+        One change per consecutive pair of years [1/year].
+    """
     gaps = np.diff(np.asarray(years, dtype=float))
     return np.diff(np.log(values)) / np.sqrt(gaps)
 
 
 def sample_volatility(changes: np.ndarray) -> float:
-    """Sample standard deviation with n - 1 in the denominator (numpy ddof=1)."""
+    """Sample standard deviation with n - 1 in the denominator (numpy ddof=1).
+
+    Parameters
+    ----------
+    changes : np.ndarray
+        Annual log changes [1/year].
+
+    Returns
+    -------
+    float
+        The sample standard deviation [1/sqrt(year)].
+
+    Raises
+    ------
+    InputError
+        If an input is outside its allowed range (carries the field, the value and the allowed text).
+    """
     if changes.size < 2:
         raise InputError(
             "annual log changes", changes.size, "at least 2 (three years of statements) to estimate a volatility"
@@ -68,20 +132,34 @@ def sample_volatility(changes: np.ndarray) -> float:
 class AssetTrend:
     """The asset history in the window and everything fitted from it."""
 
-    years: tuple[int, ...]  # window used, oldest first
-    total_assets: tuple[float, ...]  # [currency]
-    window_years: int  # number of years in the window
-    log_fit: LinearFit  # ln(total assets) on year; slope = growth g [1/year]
-    level_fit: LinearFit  # total assets on year; slope [currency/year]
-    log_changes: tuple[float, ...]  # annual log changes [1/year]
-    growth_estimate: float  # g from the log fit [1/year]
-    volatility_estimate: float | None  # sample std of log changes [1/sqrt(year)]
-    growth_used: float  # estimate or the analyst's override [1/year]
-    volatility_used: float  # estimate or the analyst's override [1/sqrt(year)]
+    years: tuple[int, ...]
+    """Window used, oldest first."""
+    total_assets: tuple[float, ...]
+    """[currency units]"""
+    window_years: int
+    """Number of years in the window."""
+    log_fit: LinearFit
+    """ln(total assets) on year; slope = growth g [1/year]"""
+    level_fit: LinearFit
+    """Total assets on year; slope [currency/year]"""
+    log_changes: tuple[float, ...]
+    """Annual log changes [1/year]"""
+    growth_estimate: float
+    """g from the log fit [1/year]"""
+    volatility_estimate: float | None
+    """Sample std of log changes [1/sqrt(year)]"""
+    growth_used: float
+    """Estimate or the analyst's override [1/year]"""
+    volatility_used: float
+    """Estimate or the analyst's override [1/sqrt(year)]"""
     growth_overridden: bool
+    """True when the analyst's growth is used."""
     volatility_overridden: bool
-    expected_return: float  # mu = g + s^2 / 2 [1/year]
+    """True when the analyst's volatility is used."""
+    expected_return: float
+    """mu = g + s^2 / 2 [1/year]"""
     cautions: tuple[Caution, ...]
+    """What the reader should know about the fit."""
 
 
 def fit_asset_trend(
@@ -98,6 +176,29 @@ def fit_asset_trend(
     of annual log changes; the expected asset return is mu = g + s^2/2 (the drift of a geometric
     Brownian motion whose log grows at g; e.g. Hull, Options, Futures, and Other Derivatives,
     the lognormal property of stock prices).
+
+    Parameters
+    ----------
+    years : list[int]
+        Financial year of each statement, ascending.
+    total_assets : list[float]
+        Total assets of each year [currency units], > 0.
+    window_years : int | None, optional
+        Number of latest years fitted; None for all years.
+    growth_override : float | None, optional
+        The analyst's growth g, used instead of the estimate [1/year]; None for none.
+    volatility_override : float | None, optional
+        The analyst's volatility s, used instead of the estimate [1/sqrt(year)]; None for none.
+
+    Returns
+    -------
+    AssetTrend
+        Growth, volatility and expected return estimated and in use, with their cautions.
+
+    Raises
+    ------
+    InputError
+        If an input is outside its allowed range (carries the field, the value and the allowed text).
     """
     y = np.asarray(years, dtype=float)
     a = np.asarray(total_assets, dtype=float)

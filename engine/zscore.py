@@ -97,38 +97,49 @@ VARIANT_NAMES: tuple[str, ...] = tuple(v.name for v in _VARIANTS)
 
 @dataclass(frozen=True)
 class ZScore:
-    """One Z-score variant for one set of statements.
-
-    Fields:
-        variant: the variant's name, e.g. "Z (1968)".
-        score: Z = sum_j coefficient_j * X_j [dimensionless]; None when a
-            needed column is missing.
-        zone: "safe" (score above the upper cut-off), "grey" (between the
-            cut-offs, both included), "distress" (below the lower cut-off);
-            None when there is no score.
-        components: the ratios X1.. [fraction]; a ratio is None when one of
-            its columns is missing.
-        ratio_definitions: each ratio as "numerator / denominator" columns.
-        coefficients: published discriminant coefficients by ratio.
-        zone_cutoffs: {"distress_below": ..., "safe_above": ...}.
-        missing: names of the columns this variant needs but did not get.
-        source: citation of the variant.
-    """
+    """One Z-score variant for one set of statements."""
 
     variant: str
+    """The variant's name, e.g. "Z (1968)"."""
     score: float | None
+    """Z = sum_j coefficient_j * X_j [dimensionless]; None when a needed column is missing."""
     zone: Zone | None
+    """"safe" (score above the upper cut-off), "grey" (between the cut-offs, both included), "distress" (below the
+    lower cut-off); None when there is no score."""
     components: Mapping[str, float | None]
+    """The ratios X1.. [fraction]; a ratio is None when one of its columns is missing."""
     ratio_definitions: Mapping[str, str]
+    """Each ratio as "numerator / denominator" columns."""
     coefficients: Mapping[str, float]
+    """Published discriminant coefficients by ratio."""
     zone_cutoffs: Mapping[str, float]
+    """{"distress_below": ..., "safe_above": ...}."""
     missing: tuple[str, ...]
+    """Names of the columns this variant needs but did not get."""
     source: str
+    """Citation of the variant."""
 
 
 def altman_zone(*, score: float, distress_below: float, safe_above: float) -> Zone:
-    """Zone of a score: "safe" if score > safe_above, "distress" if score <
-    distress_below, else "grey" (the published grey zone includes both cut-offs)."""
+    """Zone of a score: "safe", "grey" or "distress".
+
+    "safe" if score > safe_above, "distress" if score < distress_below, else "grey" (the
+    published grey zone includes both cut-offs).
+
+    Parameters
+    ----------
+    score : float
+        The Z-score.
+    distress_below : float
+        Cut-off below which the score is in distress.
+    safe_above : float
+        Cut-off above which the score is safe.
+
+    Returns
+    -------
+    Zone
+        ``safe``, ``grey`` or ``distress``.
+    """
     if score > safe_above:
         return "safe"
     if score < distress_below:
@@ -165,19 +176,30 @@ def altman_scores(
 ) -> tuple[ZScore, ...]:
     """Every Altman Z-score variant the supplied columns allow.
 
-    Args:
-        total_assets: book total assets [currency], > 0.
-        working_capital: current assets minus current liabilities [currency], any sign.
-        retained_earnings: accumulated retained earnings [currency], any sign.
-        ebit: earnings before interest and taxes, over the year [currency], any sign.
-        sales: net sales over the year [currency], >= 0.
-        market_equity: market value of equity [currency], >= 0 (used by Z (1968)).
-        book_equity: book value of equity [currency], any sign (used by Z', Z'').
-        total_liabilities: book total liabilities [currency], > 0.
+    Parameters
+    ----------
+    total_assets : float
+        Book total assets [currency units], > 0.
+    working_capital : float | None, optional
+        Current assets minus current liabilities [currency units], any sign.
+    retained_earnings : float | None, optional
+        Accumulated retained earnings [currency units], any sign.
+    ebit : float | None, optional
+        Earnings before interest and taxes, over the year [currency units], any sign.
+    sales : float | None, optional
+        Net sales over the year [currency units], >= 0.
+    market_equity : float | None, optional
+        Market value of equity [currency units], >= 0 (used by Z (1968)).
+    book_equity : float | None, optional
+        Book value of equity [currency units], any sign (used by Z', Z'').
+    total_liabilities : float | None, optional
+        Book total liabilities [currency units], > 0.
 
-    Returns:
-        One ``ZScore`` per variant, in the order of ``VARIANT_NAMES``; a variant
-        lacking columns has score and zone None and lists the missing names.
+    Returns
+    -------
+    tuple[ZScore, ...]
+        One ``ZScore`` per variant, in the order of ``VARIANT_NAMES``; a variant lacking
+        columns has score and zone None and lists the missing names.
     """
     any_sign = "a finite number of any sign [currency]"
     columns: dict[str, float | None] = {
@@ -210,7 +232,7 @@ def altman_scores(
 
 
 def _ratio(numerator: float, denominator: float) -> float:
-    """numerator / denominator, inf (not an exception) when the quotient overflows."""
+    """Quotient numerator / denominator, inf (not an exception) when the quotient overflows."""
     try:
         return numerator / denominator
     except OverflowError:
