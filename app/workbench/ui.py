@@ -320,6 +320,15 @@ def metric(where: Any, label: str, value: str, help: str | None = None) -> None:
     where.metric(label, value, help=help)
 
 
+def metric_rows(where: Any, items: list[tuple[str, str, str | None]], per_row: int = 3) -> None:
+    """Metrics (label, value, help) laid out ``per_row`` to a row, so that none is squeezed
+    until its figure is cut or runs into the next one."""
+    for start in range(0, len(items), per_row):
+        cells = where.columns(per_row)
+        for cell, (label, value, tip) in zip(cells, items[start : start + per_row]):
+            cell.metric(label, value, help=tip)
+
+
 # --------------------------------------------------------------------------- fields
 
 
@@ -361,9 +370,11 @@ def number_field(
     optional: bool = False,
     help: str | None = None,
     placeholder: str | None = None,
+    messages: Any = None,
 ) -> None:
     """A number bound to ``path``, typed as people write it (``unit`` percent: 2.75 means
-    2.75 %, stored as 0.0275). Empty is allowed when ``optional`` (null: the engine estimates)."""
+    2.75 %, stored as 0.0275). Empty is allowed when ``optional`` (null: the engine estimates).
+    ``messages``: where its messages go when ``where`` is a narrow column (a container below the row)."""
     where = where or st
     current = state.get_path(st.session_state.raw, path)
     key = _key(path)
@@ -380,7 +391,7 @@ def number_field(
         on_change=_store_number,
         args=(path, key, unit, label),
     )
-    show_problems(path, where)
+    show_problems(path, messages or where)
 
 
 def select_field(

@@ -46,8 +46,13 @@ with controls:
     )
     st.subheader("Default point")
     c1, c2 = st.columns(2)
-    _ui.number_field("Short-term share (%)", "pd.default_point.short_term_share", where=c1, unit=entry.PERCENT)
-    _ui.number_field("Long-term share (%)", "pd.default_point.long_term_share", where=c2, unit=entry.PERCENT)
+    below = st.container()
+    _ui.number_field(
+        "Short-term share (%)", "pd.default_point.short_term_share", where=c1, unit=entry.PERCENT, messages=below
+    )
+    _ui.number_field(
+        "Long-term share (%)", "pd.default_point.long_term_share", where=c2, unit=entry.PERCENT, messages=below
+    )
     _ui.number_field("Horizon (years)", "pd.horizon_years", unit=entry.YEARS)
     methods = ["balance_sheet", "market"] if ss.raw.get("market") else ["balance_sheet"]
     _ui.select_field(
@@ -74,20 +79,25 @@ with chart:
         st.stop()
     _ui.chart(st, charts.asset_trend_figure(results), key="asset_trend")
     p = results.pd
-    m = st.columns(5)
-    m[0].metric("Distance to default", num(p.distance_to_default, 2))
-    m[1].metric("PD in force", pd_pct(p.pd), help="The override where one is set, else the model's.")
-    m[2].metric("Grade", p.grade or "n/a")
-    m[3].metric("Default point", millions(p.default_point, cur))
-    m[4].metric("Asset value", millions(p.asset_value, cur))
-    fits = st.columns(4)
+    shown = [
+        ("Distance to default", num(p.distance_to_default, 2), None),
+        ("PD in force", pd_pct(p.pd), "The override where one is set, else the model's."),
+        ("Grade", p.grade or "n/a", None),
+        ("Default point", millions(p.default_point, cur), None),
+        ("Asset value", millions(p.asset_value, cur), None),
+    ]
     if trend is not None:
-        fits[0].metric("Growth used" + (" (override)" if trend.growth_overridden else ""), pct(trend.growth_used))
-        fits[1].metric(
-            "Volatility used" + (" (override)" if trend.volatility_overridden else ""), pct(trend.volatility_used)
-        )
-        fits[2].metric("Expected asset return", pct(trend.expected_return))
-        fits[3].metric("Window", years(trend.window_years))
+        shown += [
+            ("Growth used" + (" (override)" if trend.growth_overridden else ""), pct(trend.growth_used), None),
+            (
+                "Volatility used" + (" (override)" if trend.volatility_overridden else ""),
+                pct(trend.volatility_used),
+                None,
+            ),
+            ("Expected asset return", pct(trend.expected_return), None),
+            ("Window", years(trend.window_years), None),
+        ]
+    _ui.metric_rows(st, shown, per_row=3)
     if p.overridden:
         st.warning(f"Model PD {pd_pct(p.model_pd)} replaced by the analyst's {pd_pct(p.pd)}: {p.override_reason}")
     for caution in results.cautions:
@@ -109,16 +119,21 @@ if market is not None:
         "volatility; cross-checked by the naive distance to default of Bharath and Shumway (2008)."
     )
     merton = market.merton
-    cols = st.columns(5)
-    cols[0].metric("Asset value (Merton)", millions(merton.asset_value, cur) if merton else "n/a")
-    cols[1].metric("Asset volatility (Merton)", pct(merton.asset_volatility) if merton else "n/a")
-    cols[2].metric("Distance to default (Merton)", num(merton.distance_to_default, 2) if merton else "n/a")
-    cols[3].metric("PD (Merton)", pd_pct(merton.pd) if merton else "n/a")
-    cols[4].metric(
-        "PD (naive cross-check)",
-        pd_pct(float(market.naive.pd)),
-        help=f"Naive DD {num(float(market.naive.distance_to_default), 2)}; drift from "
-        f"{market.naive.drift_source.replace('_', ' ')}",
+    _ui.metric_rows(
+        st,
+        [
+            ("Asset value (Merton)", millions(merton.asset_value, cur) if merton else "n/a", None),
+            ("Asset volatility (Merton)", pct(merton.asset_volatility) if merton else "n/a", None),
+            ("Distance to default (Merton)", num(merton.distance_to_default, 2) if merton else "n/a", None),
+            ("PD (Merton)", pd_pct(merton.pd) if merton else "n/a", None),
+            (
+                "PD (naive cross-check)",
+                pd_pct(float(market.naive.pd)),
+                f"Naive DD {num(float(market.naive.distance_to_default), 2)}; drift from "
+                f"{market.naive.drift_source.replace('_', ' ')}",
+            ),
+        ],
+        per_row=5,
     )
     if market.message:
         st.warning(market.message)

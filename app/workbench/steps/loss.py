@@ -106,9 +106,12 @@ if ss.raw.get("pricing") is None:
     st.button("Add a pricing proposal", on_click=_add_pricing)
     st.stop()
 c = st.columns(4)
-_ui.number_field("Proposed spread (% a year)", "pricing.proposed_spread", where=c[0], unit=entry.PERCENT)
-_ui.number_field("Fee rate (% a year)", "pricing.fee_rate", where=c[1], unit=entry.PERCENT)
-_ui.number_field("Hurdle rate (% a year)", "pricing.hurdle_rate", where=c[2], unit=entry.PERCENT)
+below = st.container()
+_ui.number_field(
+    "Proposed spread (% a year)", "pricing.proposed_spread", where=c[0], unit=entry.PERCENT, messages=below
+)
+_ui.number_field("Fee rate (% a year)", "pricing.fee_rate", where=c[1], unit=entry.PERCENT, messages=below)
+_ui.number_field("Hurdle rate (% a year)", "pricing.hurdle_rate", where=c[2], unit=entry.PERCENT, messages=below)
 _ui.select_field(
     "Capital basis",
     "pricing.capital_basis",
@@ -117,10 +120,15 @@ _ui.select_field(
     labels={"regulatory": "Regulatory capital", "economic": "Economic capital"},
 )
 c = st.columns(4)
-_ui.number_field("Base rate (% a year)", "pricing.base_rate", where=c[0], unit=entry.PERCENT)
-_ui.number_field("Funding spread (% a year)", "pricing.funding_spread", where=c[1], unit=entry.PERCENT)
-_ui.number_field("Operating cost (% a year)", "pricing.operating_cost_rate", where=c[2], unit=entry.PERCENT)
-_ui.number_field("Return on capital held (% a year)", "pricing.capital_return_rate", where=c[3], unit=entry.PERCENT)
+below = st.container()
+_ui.number_field("Base rate (% a year)", "pricing.base_rate", where=c[0], unit=entry.PERCENT, messages=below)
+_ui.number_field("Funding spread (% a year)", "pricing.funding_spread", where=c[1], unit=entry.PERCENT, messages=below)
+_ui.number_field(
+    "Operating cost (% a year)", "pricing.operating_cost_rate", where=c[2], unit=entry.PERCENT, messages=below
+)
+_ui.number_field(
+    "Return on capital held (% a year)", "pricing.capital_return_rate", where=c[3], unit=entry.PERCENT, messages=below
+)
 p = results.pricing
 if p is None:
     for caution in results.cautions:

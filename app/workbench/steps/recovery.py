@@ -66,17 +66,21 @@ with left:
     )
     if fac_raw.get("recovery") is not None:
         c1, c2, c3 = st.columns(3)
-        _ui.number_field("Recovery mean (%)", f"{base}.recovery.mean", where=c1, unit=entry.PERCENT)
-        _ui.number_field("Recovery std (%)", f"{base}.recovery.std", where=c2, unit=entry.PERCENT)
-        _ui.number_field("Upper bound (%)", f"{base}.recovery.upper", where=c3, unit=entry.PERCENT)
+        below = st.container()
+        _ui.number_field("Recovery mean (%)", f"{base}.recovery.mean", where=c1, unit=entry.PERCENT, messages=below)
+        _ui.number_field("Recovery std (%)", f"{base}.recovery.std", where=c2, unit=entry.PERCENT, messages=below)
+        _ui.number_field("Upper bound (%)", f"{base}.recovery.upper", where=c3, unit=entry.PERCENT, messages=below)
     key = f"coll_on{ss.gen}:{index}"
     st.toggle(
         "Collateral", value=fac_raw.get("collateral") is not None, key=key, on_change=_toggle_collateral, args=(key,)
     )
     if fac_raw.get("collateral") is not None:
         c1, c2 = st.columns(2)
-        _ui.number_field(f"Collateral value ({cur})", f"{base}.collateral.value", where=c1, unit=entry.MONEY)
-        _ui.number_field("Haircut (%)", f"{base}.collateral.haircut", where=c2, unit=entry.PERCENT)
+        below = st.container()
+        _ui.number_field(
+            f"Collateral value ({cur})", f"{base}.collateral.value", where=c1, unit=entry.MONEY, messages=below
+        )
+        _ui.number_field("Haircut (%)", f"{base}.collateral.haircut", where=c2, unit=entry.PERCENT, messages=below)
         _ui.text_field("Collateral description", f"{base}.collateral.description")
     st.subheader("For all facilities")
     _ui.select_field(
@@ -103,11 +107,16 @@ with right:
         st.error("No results for this facility yet: fix the messages beside its fields.")
         st.stop()
     _ui.chart(st, charts.recovery_figure(results, chosen), key="recovery")
-    m = st.columns(4)
-    m[0].metric("LGD", pct(fac_res.lgd, 1))
-    m[1].metric("LGD std", pct(fac_res.lgd_std, 1))
-    m[2].metric("Downturn LGD (capital)", pct(fac_res.downturn_lgd, 1))
-    m[3].metric("Collateral cover", pct(fac_res.collateral_cover, 1))
+    _ui.metric_rows(
+        st,
+        [
+            ("LGD", pct(fac_res.lgd, 1), None),
+            ("LGD std", pct(fac_res.lgd_std, 1), None),
+            ("Downturn LGD (capital)", pct(fac_res.downturn_lgd, 1), None),
+            ("Collateral cover", pct(fac_res.collateral_cover, 1), None),
+        ],
+        per_row=4,
+    )
     law = (
         "point mass at the mean"
         if fac_res.alpha is None
