@@ -89,7 +89,7 @@ def test_each_layout_is_previewed_then_accepted_as_the_plain_rows(app, name, uni
     for label, field in LABELS.items():
         assert label in shown
         assert _select(app, f"Field for {label}").value == field
-    assert "2016–2025 (10)" in shown and "2016: 300,000,000" in shown  # years and first values, in units
+    assert "2016–2025" in shown and "2016: 300,000,000" in shown  # years and first values, in units
     assert _select(app, "Amounts in the file are in").value == unit
     assert _select(app, "Years run").value == orientation
     for label in unrecognised:

@@ -181,11 +181,11 @@ def cancel() -> None:
 # --------------------------------------------------------------------------- the section
 
 
-def _years_text(years: list[int]) -> str:
+def _years_text(years: list[int], *, count: bool = False) -> str:
     if not years:
         return "no figures"
     if years == list(range(years[0], years[-1] + 1)) and len(years) > 2:
-        return f"{years[0]}–{years[-1]} ({len(years)})"
+        return f"{years[0]}–{years[-1]}" + (f" ({len(years)} years)" if count else "")
     return ", ".join(str(y) for y in years)
 
 
@@ -201,7 +201,7 @@ def line_table(read: dict[str, Any]) -> list[dict[str, str]]:
         out.append(
             {
                 "years": _years_text([y for y, _ in cells]) if target else "not read",
-                "values": "; ".join(f"{y}: {money(v)}" for y, v in cells[:FIRST_VALUES]) if target else "",
+                "values": " · ".join(f"{y}: {money(v)}" for y, v in cells[:FIRST_VALUES]) if target else "",
             }
         )
     return out
@@ -273,17 +273,17 @@ def section() -> None:
             help="As found in the file; change it if the years were taken the wrong way.",
         )
         years = [row["year"] for row in read["rows"]]
-        st.caption(f"Years found: {_years_text(years)}.")
+        st.caption(f"Years found: {_years_text(years, count=True)}.")
         if preview.get("error"):
             st.error(preview["error"], icon=":material/error:")
         options = [NOT_USED, *FIELD_WORDS]
         shown = line_table(read)
-        head = st.columns([3, 3, 2, 5])
+        head = st.columns([3, 3, 1.4, 6.6])
         for col, title in zip(head, ("Line in the file", "Field", "Years", "First values")):
             col.markdown(f"**{title}**")
         fixed = read["kind"] == "plain"
         for index, (line, cells) in enumerate(zip(lines, shown)):
-            row = st.columns([3, 3, 2, 5], vertical_alignment="center")
+            row = st.columns([3, 3, 1.4, 6.6], vertical_alignment="center")
             label = line["label"] if not fixed else words(line["label"])
             row[0].markdown(label if line["detected"] or line["field"] else f"{label} :orange[(not recognised)]")
             if fixed:
@@ -320,7 +320,7 @@ def section() -> None:
             st.error(message, icon=":material/error:")
         if problems:
             st.caption("Accepting keeps these problems beside the statements; the results stay on the last valid case.")
-        b1, b2 = st.columns(2)
+        b1, b2, _ = st.columns([2.2, 1, 5])
         b1.button(
             "Accept these statements",
             on_click=accept,
