@@ -106,6 +106,8 @@ def test_each_layout_is_previewed_then_accepted_as_the_plain_rows(app, name, uni
     assert {k: source["mapping"][k] for k in LABELS} == LABELS
     assert "mapping_preview" not in app.session_state
     assert not app.session_state["problems"]
+    notice = " ".join(s.value for s in app.success)
+    assert f"Read 10 year(s) of statements (2016–2025) from {name}, amounts in {unit}." in notice
 
 
 def test_a_plain_table_is_previewed_with_its_own_column_names(app):
@@ -228,3 +230,30 @@ def test_a_value_the_case_refuses_is_shown_before_accepting_with_its_year(app):
     message = _errors(app)
     assert "Statements, year 2023, short-term liabilities: got -5" in message
     assert "statements[" not in message
+
+
+def test_the_orientation_can_be_changed_and_a_reading_that_does_not_fit_keeps_the_preview(app):
+    _open(app, "borrower")
+    _upload(app, "statements_wide_dates.xlsx")
+    before = app.session_state["mapping_preview"]["read"]
+    _select(app, "Years run").set_value("long").run()
+    assert not app.exception
+    message = _errors(app)
+    assert "statements_wide_dates.xlsx" in message and "a year column" in message
+    assert "The preview below is as before" in message
+    assert app.session_state["mapping_preview"]["read"] == before
+    assert _select(app, "Years run").value == "wide"  # the select shows what the preview holds
+    assert not _button(app, "Accept these statements").disabled  # the preview as before may be accepted
+    _select(app, "Years run").set_value("long").run()  # tried again: same message, nothing lost
+    assert app.session_state["mapping_preview"]["read"] == before
+
+
+def test_a_long_table_read_with_the_years_across_is_refused_and_the_preview_still_accepted(app):
+    _open(app, "borrower")
+    _upload(app, "statements_long_millions.csv")
+    _select(app, "Years run").set_value("wide").run()
+    assert "two or more years" in _errors(app)
+    assert _select(app, "Years run").value == "long"
+    _button(app, "Accept these statements").click().run()
+    assert app.session_state["raw"]["statements_source"]["orientation"] == "long"
+    _same_rows(app.session_state["raw"]["statements"], PLAIN)

@@ -327,6 +327,6 @@ def section() -> None:
             type="primary",
             icon=":material/check:",
             key=f"map_accept_{pid}",
-            disabled=bool(preview.get("error")),
+            disabled=bool(preview.get("pending")),  # a line choice not yet read (a required field unset)
         )
         b2.button("Cancel", on_click=cancel, icon=":material/close:", key=f"map_cancel_{pid}")

@@ -30,7 +30,7 @@ from typing import Any
 
 import yaml
 from obligor_memo.app import settings
-from obligor_memo.engine.case import Case, case_to_dict, parse_case
+from obligor_memo.engine.case import Case, StatementRow, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError, Problem
 
 log = logging.getLogger(__name__)
@@ -396,7 +396,10 @@ def with_statements(raw: dict[str, Any], preview: dict[str, Any]) -> dict[str, A
         "unrecognised": list(preview["unrecognised"]),
         "mapping": statements_mapping(preview),
     }
-    out = set_path(raw, "statements", preview["rows"])
+    # in the case dict's own form (every field of a row, empty ones None), as case_to_dict writes it
+    fields = list(StatementRow.model_fields)
+    rows = [{f: row.get(f) for f in fields} for row in preview["rows"]]
+    out = set_path(raw, "statements", rows)
     return set_path(out, "statements_source", source)
 
 
