@@ -257,3 +257,38 @@ def test_a_long_table_read_with_the_years_across_is_refused_and_the_preview_stil
     _button(app, "Accept these statements").click().run()
     assert app.session_state["raw"]["statements_source"]["orientation"] == "long"
     _same_rows(app.session_state["raw"]["statements"], PLAIN)
+
+
+TABLE = "Year,Total assets,Current liabilities,Non-current liabilities\n2023,10,4,3\n2024,11,4,3\n"
+
+
+@pytest.mark.parametrize(
+    ("title", "unit"),
+    [
+        ("Key figures (EUR k)", "thousands"),
+        ("Amounts in EUR thousands", "thousands"),
+        ("in '000", "thousands"),
+        ("Figures in TEUR", "thousands"),
+        ("Statements (EUR m)", "millions"),
+        ("USD millions", "millions"),
+        ("mEUR", "millions"),
+        ("I'm the borrower's title", None),
+        ("Key financials", None),
+        ("EUR m, some lines in EUR k", None),  # two units named: none chosen
+    ],
+)
+def test_the_unit_named_in_a_title_row_is_found(title, unit):
+    hint = state.unit_hint(f"{title}\n{TABLE}".encode(), "s.csv")
+    assert (hint[0] if hint else None) == unit
+    if hint:
+        assert hint[1] == title
+
+
+def test_a_title_naming_the_unit_sets_it_in_the_preview_and_the_rows(app):
+    _open(app, "borrower")
+    _upload(app, "k.csv", f"Key figures (EUR k)\n{TABLE}".encode())
+    read = app.session_state["mapping_preview"]["read"]
+    assert read["unit"] == "thousands" and read["rows"][0]["total_assets"] == 10_000.0
+    assert "The file says “Key figures (EUR k)”: amounts are read in thousands." in " ".join(
+        c.value for c in app.caption
+    )

@@ -277,7 +277,7 @@ def section() -> None:
         if preview.get("error"):
             st.error(preview["error"], icon=":material/error:")
         options = [NOT_USED, *FIELD_WORDS]
-        shown = line_table(read)
+        shown = line_table({**read, "lines": lines})
         head = st.columns([3, 3, 1.4, 6.6])
         for col, title in zip(head, ("Line in the file", "Field", "Years", "First values")):
             col.markdown(f"**{title}**")

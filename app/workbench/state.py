@@ -403,9 +403,16 @@ def with_statements(raw: dict[str, Any], preview: dict[str, Any]) -> dict[str, A
     return set_path(out, "statements_source", source)
 
 
+_CURRENCIES = r"(?:eur|usd|gbp|chf|sek|nok|dkk|pln|czk|jpy|cad|aud)"
 _UNIT_WORDS = (
-    ("thousands", re.compile(r"\b(thousands?|000s?|k|keur|teur|kusd|tusd|ksek|tsek)\b")),
-    ("millions", re.compile(r"\b(millions?|mn|mio|m|eurm|meur|usdm|musd)\b")),
+    (
+        "thousands",
+        re.compile(r"\bthousands?\b|\b000s?\b|\(k\)|\b" + _CURRENCIES + r" ?k\b|\b(?:k|t)" + _CURRENCIES + r"\b"),
+    ),
+    (
+        "millions",
+        re.compile(r"\bmillions?\b|\bmn\b|\bmio\b|\(m\)|\b" + _CURRENCIES + r" ?m\b|\bm" + _CURRENCIES + r"\b"),
+    ),
 )
 
 
