@@ -94,10 +94,7 @@ def start(data: bytes, name: str) -> None:
 
 def _refused(name: str, exc: CaseError) -> None:
     ss = st.session_state
-    ss.upload_error = (
-        f"{name} could not be read. {exc.paragraph()} Allowed: a CSV or XLSX table with the years "
-        "as a header row (across) or a year column (down) and a line per item."
-    )
+    ss.upload_error = f"{name} could not be read. {exc.paragraph()}"
     ss.pop(KEY, None)
 
 
