@@ -183,6 +183,13 @@ def test_a_required_line_left_without_a_field_is_named_and_blocks_accepting(app)
     assert not app.exception
     assert "Total assets: no line of the file goes to it" in _errors(app)
     assert _button(app, "Accept these statements").disabled
+    # another choice (here the unit) drops the unread line choice: the selects show the preview again
+    _select(app, "Amounts in the file are in").set_value("thousands").run()
+    assert "no line of the file goes to it" not in _errors(app)
+    assert _select(app, "Field for Total Assets").value == "total_assets"
+    assert app.session_state["mapping_preview"]["read"]["unit"] == "thousands"
+    _select(app, "Field for Total Assets").set_value("not used").run()
+    assert _button(app, "Accept these statements").disabled
     _select(app, "Field for Employees").set_value("total_assets").run()
     assert "no line of the file goes to it" not in _errors(app)
     assert not _button(app, "Accept these statements").disabled

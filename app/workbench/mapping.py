@@ -108,6 +108,8 @@ def _reread(**changes: Any) -> None:
     read = preview["read"]
     unit = changes.get("unit", read["unit"])
     lines = changes.get("lines", read["lines"])
+    if "lines" not in changes and preview.pop("pending", None) is not None:
+        preview["id"] = uuid.uuid4().hex[:8]  # a line choice not read is dropped: the selects show the preview's
     orientation = changes.get("orientation")
     missing = [f for f in REQUIRED if not any(line["field"] == f for line in lines)]
     if missing and orientation is None and read["kind"] != "plain":
