@@ -47,6 +47,9 @@ def test_roll_forward_journey(server, tmp_path):  # noqa: F811
         page.locator('[data-testid="stFileUploader"]', has_text="Replace the statements").locator(
             'input[type="file"]'
         ).set_input_files(str(statements))
+        page.get_by_role("button", name="Accept these statements").first.wait_for(timeout=20000)
+        _settle(page)
+        page.get_by_role("button", name="Accept these statements").first.click()
         page.get_by_text("Read 11 year(s)").first.wait_for(timeout=20000)
         _settle(page)
         # change the revolver's CCF: the grid's fifth column, second row

@@ -32,7 +32,7 @@ from typing import Any
 
 import yaml
 from obligor_memo.app import settings
-from obligor_memo.engine.case import Case, case_to_dict, parse_case
+from obligor_memo.engine.case import Case, StatementRow, case_to_dict, parse_case
 from obligor_memo.engine.errors import CaseError, Problem
 
 log = logging.getLogger(__name__)
@@ -307,8 +307,197 @@ def case_dict_from_upload(data: bytes, name: str) -> dict[str, Any]:
     return case_to_dict(load_case_text(text, name, base_dir=None))
 
 
-def statements_from_upload(data: bytes, name: str) -> list[dict[str, Any]]:
-    """Statement rows from an uploaded CSV/XLSX. Raises CaseError naming the bad cell."""
-    from obligor_memo.engine.statements import read_statement_table
+# --------------------------------------------------------------------------- statements uploads
 
-    return plain(read_statement_table(data, name))
+
+def statements_from_upload(
+    data: bytes,
+    name: str,
+    *,
+    unit: str = "units",
+    mapping: dict[str, str] | None = None,
+    orientation: str | None = None,
+    lines: list[dict[str, Any]] | None = None,
+) -> dict[str, Any]:
+    """An uploaded CSV/XLSX read for the mapping preview (plain data). Raises CaseError naming
+    the file and the bad cell.
+
+    The file is read by ``engine.statements.read_statements`` (wide or long layouts, title rows,
+    the trade's wording, amounts multiplied by ``unit``) with ``mapping`` ({label in file:
+    field or "ignore"}, such as the one saved with the case last time). ``orientation`` ("wide":
+    years across the columns, "long": years down the rows) overrides the detected one.
+    ``lines`` are the preview's lines after the user's choices (label in the file, detected
+    field, chosen field or None for not used): the file is read again with them as the mapping.
+
+    The result holds ``rows`` (what the case's statements become), the ``lines``, the labels
+    still unrecognised and how the file was read."""
+    from obligor_memo.engine.statements import read_statements
+
+    if lines is not None:
+        mapping = statements_mapping({"kind": "layout", "lines": lines})
+    chosen = {k: v for k, v in (mapping or {}).items() if isinstance(k, str) and isinstance(v, str) and v}
+    read = read_statements(data, name, unit=unit, mapping=chosen or None)
+    kind = "plain" if not read.recognised and not read.unrecognised else "layout"
+    if orientation is not None and orientation != read.orientation:
+        read = _read_forced(data, name, unit=unit, mapping=chosen, orientation=orientation)
+        kind, lines = "layout", None
+    if lines is None:
+        lines = _lines_of(read, kind, chosen, data, name)
+    return plain(
+        {
+            "file": name,
+            "unit": read.unit,
+            "orientation": read.orientation,
+            "header_row": read.header_row,
+            "kind": kind,
+            "lines": lines,
+            "rows": read.rows,
+            "recognised": dict(read.recognised),
+            "unrecognised": list(read.unrecognised),
+        }
+    )
+
+
+def _lines_of(read: Any, kind: str, mapping: dict[str, str], data: bytes, name: str) -> list[dict[str, Any]]:
+    """The preview's lines of a first read: each label found with the field it maps to (None
+    when not used), ``detected`` being the field its wording alone gives. Lines the mapping
+    sets to "ignore" are skipped by the reader, so they are found by reading once more without
+    those entries: a line is never dropped from the list unseen."""
+    from obligor_memo.engine.statement_layout import field_for, normalise
+    from obligor_memo.engine.statements import read_statements
+
+    if kind == "plain":  # the case's own column names: each column is read as named
+        fields = list(dict.fromkeys(k for row in read.rows for k in row if k != "year"))
+        return [{"label": f, "detected": f, "field": f} for f in fields]
+    out = [
+        {"label": label, "detected": field_for(label), "field": f}
+        for label, f in read.recognised.items()
+        if f != "year"
+    ]
+    out += [{"label": label, "detected": None, "field": None} for label in read.unrecognised]
+    ignored = {normalise(k) for k, v in mapping.items() if v == "ignore"}
+    if ignored:
+        kept = {k: v for k, v in mapping.items() if v != "ignore"}
+        try:
+            again = read_statements(data, name, unit=read.unit, mapping=kept or None)
+        except CaseError:  # an ignored line with a bad cell: it stays ignored, as saved
+            return out
+        found = list(again.recognised) + list(again.unrecognised)
+        out += [
+            {"label": label, "detected": field_for(label), "field": None}
+            for label in found
+            if normalise(label) in ignored
+        ]
+    return out
+
+
+def _read_forced(data: bytes, name: str, *, unit: str, mapping: dict[str, str], orientation: str) -> Any:
+    """The file read with the years across the columns ("wide") or down the rows ("long"), the
+    header row found as the engine finds it but only of that kind."""
+    from obligor_memo.engine import statement_layout as layout_mod
+    from obligor_memo.engine import statements as statements_mod
+
+    sheets: list[str | None] = [None]
+    if name.lower().endswith((".xlsx", ".xlsm")):
+        sheets = statements_mod._sheet_names(data, name) or [None]
+    for sheet in sheets:
+        rows = statements_mod._table(data, name, sheet)
+        for index, row in enumerate(rows[:15]):
+            if orientation == "wide":
+                years = [(c, layout_mod.year_of(v)) for c, v in enumerate(row) if layout_mod.year_of(v) is not None]
+                if len(years) >= 2 and len({y for _, y in years}) == len(years):
+                    found = layout_mod._wide(rows, index, years, mapping or None)
+                    return statements_mod._from_layout(found, name, ".", unit)
+            else:
+                fields = [layout_mod.field_for(v, mapping or None) for v in row if v not in (None, "")]
+                if "year" in fields and sum(f not in (None, "year", layout_mod.IGNORE) for f in fields) >= 1:
+                    found = layout_mod._long(rows, index, mapping or None)
+                    return statements_mod._from_layout(found, name, ".", unit)
+    wanted = (
+        "a header row of two or more years (such as FY2023, 2024) within the first 15 rows"
+        if orientation == "wide"
+        else "a header row with a year column (Year, Fiscal year) and line items within the first 15 rows"
+    )
+    raise CaseError.single(
+        f"statements file {name}",
+        "years across the columns" if orientation == "wide" else "years down the rows",
+        wanted,
+        "statements file",
+    )
+
+
+def statements_mapping(preview: dict[str, Any]) -> dict[str, str]:
+    """The mapping to save with the case, {label in file: field or "ignore"}: every line of a
+    laid-out file as chosen (lines left unrecognised and unused are not in it). Empty for a
+    table with the case's own column names, which reads as named."""
+    if preview.get("kind") == "plain":
+        return {}
+    out: dict[str, str] = {}
+    for line in preview["lines"]:
+        if line["field"] is not None:
+            out[line["label"]] = line["field"]
+        elif line["detected"] is not None:
+            out[line["label"]] = "ignore"
+    return out
+
+
+def with_statements(raw: dict[str, Any], preview: dict[str, Any]) -> dict[str, Any]:
+    """A copy of the case dict with the statements replaced by the preview's rows and how they
+    were read kept in ``statements_source`` (file, unit, orientation, mapping)."""
+    source = {
+        "file": preview["file"],
+        "unit": preview["unit"],
+        "orientation": preview["orientation"],
+        "header_row": preview["header_row"],
+        "recognised": dict(preview["recognised"]),
+        "unrecognised": list(preview["unrecognised"]),
+        "mapping": statements_mapping(preview),
+    }
+    # in the case dict's own form (every field of a row, empty ones None), as case_to_dict writes it
+    fields = list(StatementRow.model_fields)
+    rows = [{f: row.get(f) for f in fields} for row in preview["rows"]]
+    out = set_path(raw, "statements", rows)
+    return set_path(out, "statements_source", source)
+
+
+_CURRENCIES = r"(?:eur|usd|gbp|chf|sek|nok|dkk|pln|czk|jpy|cad|aud)"
+_UNIT_WORDS = (
+    (
+        "thousands",
+        re.compile(r"\bthousands?\b|\b000s?\b|\(k\)|\b" + _CURRENCIES + r" ?k\b|\b(?:k|t)" + _CURRENCIES + r"\b"),
+    ),
+    (
+        "millions",
+        re.compile(r"\bmillions?\b|\bmn\b|\bmio\b|\(m\)|\b" + _CURRENCIES + r" ?m\b|\bm" + _CURRENCIES + r"\b"),
+    ),
+)
+
+
+def unit_hint(data: bytes, name: str) -> tuple[str, str] | None:
+    """The unit the file's title rows (or header) name, with the text that says so: "EUR
+    thousands", "(EUR m)", "in '000". None when they name none, or both."""
+    from obligor_memo.engine import statement_layout as layout_mod
+    from obligor_memo.engine import statements as statements_mod
+
+    sheets: list[str | None] = [None]
+    if name.lower().endswith((".xlsx", ".xlsm")):
+        sheets = statements_mod._sheet_names(data, name) or [None]
+    for sheet in sheets:
+        try:
+            rows = statements_mod._table(data, name, sheet)
+        except CaseError:
+            return None
+        found = layout_mod.detect(rows)
+        if found is None and len(sheets) > 1:
+            continue
+        above = rows[: found.header_row] if found is not None else rows[:1]
+        hits: dict[str, str] = {}
+        for row in above:
+            for cell in row:
+                if isinstance(cell, str) and layout_mod.year_of(cell) is None:
+                    text = cell.lower().replace("'000", " 000 ")
+                    for unit, pattern in _UNIT_WORDS:
+                        if pattern.search(text):
+                            hits.setdefault(unit, cell.strip())
+        return next(iter(hits.items())) if len(hits) == 1 else None
+    return None

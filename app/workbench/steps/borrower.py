@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 from obligor_memo.app.workbench import entry, state
+from obligor_memo.app.workbench import mapping as _mapping
 from obligor_memo.app.workbench import review as _review
 from obligor_memo.app.workbench import ui as _ui
 from obligor_memo.engine.case import StatementRow
@@ -47,10 +48,9 @@ def _open_case_file(key: str) -> None:
 
 
 def _upload_statements(key: str) -> None:
-    rows, name = _read_upload(key, state.statements_from_upload)
-    if rows is not None:
-        raw = state.set_path(st.session_state.raw, "statements", rows)
-        _ui.replace_case(raw, f"Read {len(rows)} year(s) of statements from {name}.")
+    upload = st.session_state.get(key)
+    if upload is not None:  # read into the mapping preview; the case changes on "Accept"
+        _mapping.start(upload.getvalue(), upload.name)
 
 
 _results = _ui.header("Borrower and statements", "Open a case, then check the statements: every later step reads them.")
@@ -79,8 +79,10 @@ with left:
         key=f"stmt_upload{ss.gen}",
         on_change=_upload_statements,
         args=(f"stmt_upload{ss.gen}",),
-        help="Columns: " + ", ".join(COLUMNS) + ". One row per financial year; at most "
-        "200 years and 2 MB. Formulas are not evaluated: paste values.",
+        help="An analyst's table: years across the columns or down the rows, title rows above "
+        "the header, the usual wording (Total assets, Current liabilities, Revenue...), amounts in "
+        "units, thousands or millions. You check what was read before it replaces the statements. "
+        "At most 200 years and 2 MB; formulas are not evaluated: paste values.",
     )
     if ss.get("upload_error"):
         st.error(ss.upload_error + " The case in the workbench is unchanged.", icon=":material/error:")
@@ -91,6 +93,7 @@ with right:
     _ui.text_field("Currency (ISO 4217)", "borrower.currency", where=c1)
     _ui.text_field("Country", "borrower.country", where=c2)
     _ui.text_field("Sector", "borrower.sector")
+_mapping.section()  # the preview of a statements upload, until accepted or cancelled
 
 unit = state.get_path(ss.raw, "statements_source.unit", "units") or "units"
 st.subheader(f"Statements (amounts in {_ui.currency()}{'' if unit == 'units' else ' ' + unit})")

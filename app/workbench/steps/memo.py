@@ -5,6 +5,7 @@ from __future__ import annotations
 import importlib
 import logging
 import re
+from collections.abc import Callable
 from typing import Any
 
 import streamlit as st
@@ -43,6 +44,18 @@ STEPS = {
     "charts": "Charts drawn and placed",
     "writing": "Writing the PDF",
 }
+
+
+def _results_workbook(case: Any) -> Callable[[], bytes]:
+    """The results workbook of the last valid case, built when the button is clicked (the full
+    analysis and the workbook take a moment; the page does not wait for them)."""
+
+    def build() -> bytes:
+        from obligor_memo.app.present.export import export_workbook
+
+        return export_workbook(_ui.analysed(case))
+
+    return build
 
 
 def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
@@ -175,4 +188,16 @@ with right:
             mime="application/json",
         )
 
+    if results is not None:
+        st.download_button(
+            "Download results (XLSX)",
+            _results_workbook(results.case),
+            file_name=f"{stem}_results.xlsx",
+            mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+            icon=":material/table_view:",
+            key="results_download",
+            help="The inputs, the statements as read (with their unit), each facility's results, the "
+            "totals, term structure, sensitivity, PD grid and scenarios: one sheet each, as "
+            "`obligor-memo export` writes them.",
+        )
     _memo_print_panel(results, stem)
