@@ -15,7 +15,7 @@ from typing import Any
 
 import streamlit as st
 from obligor_memo.app.present.formatting import money
-from obligor_memo.app.workbench import state
+from obligor_memo.app.workbench import entry, state
 from obligor_memo.app.workbench import ui as _ui
 from obligor_memo.engine.errors import CaseError
 
@@ -217,16 +217,11 @@ def duplicates(lines: list[dict[str, Any]]) -> dict[str, list[str]]:
 
 def would_be_problems(read: dict[str, Any]) -> list[str]:
     """What the case would say about these statements once accepted, in the screen's words."""
-    checked = state.check(state.with_statements(st.session_state.raw, read))
-    out = []
-    for problem in state.problems_at(checked.problems, "statements"):
-        parts = state.split_path(problem.field)
-        where = "Statements"
-        if len(parts) >= 2 and isinstance(parts[1], int) and parts[1] < len(read["rows"]):
-            where += f", year {read['rows'][parts[1]].get('year')}"
-            if len(parts) > 2:
-                where += f", {_in_sentence(words(str(parts[2])))}"
-        out.append(f"{where}: got {_ui.show_value(problem.value)}; allowed: {problem.allowed}.")
+    candidate = state.with_statements(st.session_state.raw, read)
+    checked = state.check(candidate)
+    out = [
+        entry.message(p.field, p.value, p.allowed, candidate) for p in state.problems_at(checked.problems, "statements")
+    ]
     return out
 
 
