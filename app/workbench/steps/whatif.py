@@ -217,7 +217,7 @@ def _signed_rate(value: float | None, decimals: int = 2) -> str | None:
 
 
 st.subheader("Before and after" if overlay else "The case as it stands (move a control to compare)")
-m = st.columns(6)
+m = [*st.columns(3), *st.columns(3)]  # two rows: six figures in one row are cut on a laptop screen
 figures = (
     ("PD in force", pd_pct(head.pd), pd_pct(base_head.pd), _signed_rate(delta.pd, 4), "inverse"),
     (
