@@ -24,38 +24,38 @@ if results is None:
 t = results.total
 rows = [
     {
-        "facility": f.id,
-        f"EAD [{cur}]": money(f.ead),
+        "Facility": f.id,
+        "EAD": money(f.ead),
         "PD": pd_pct(f.capital_pd),
         "LGD": pct(f.lgd, 1),
-        "downturn LGD": pct(f.downturn_lgd, 1),
-        f"EL [{cur}]": money(f.expected_loss),
-        f"UL [{cur}]": money(f.unexpected_loss),
-        "M [years]": f"{f.capital_maturity:g}",
+        "Downturn LGD": pct(f.downturn_lgd, 1),
+        "EL": money(f.expected_loss),
+        "UL": money(f.unexpected_loss),
+        "M (years)": f"{f.capital_maturity:g}",
         "RW": pct(f.risk_weight, 1),
-        f"RWA [{cur}]": money(f.rwa),
-        f"regulatory capital, 8 % of RWA [{cur}]": money(f.regulatory_capital),
+        "RWA": money(f.rwa),
+        "Capital (8 % of RWA)": money(f.regulatory_capital),
     }
     for f in results.facilities
 ]
 rows.append(
     {
-        "facility": "Total",
-        f"EAD [{cur}]": money(t.ead),
+        "Facility": "Total",
+        "EAD": money(t.ead),
         "PD": pd_pct(results.pd.pd),
         "LGD": "",
-        "downturn LGD": "",
-        f"EL [{cur}]": money(t.expected_loss),
-        f"UL [{cur}]": money(t.unexpected_loss),
-        "M [years]": "",
+        "Downturn LGD": "",
+        "EL": money(t.expected_loss),
+        "UL": money(t.unexpected_loss),
+        "M (years)": "",
         "RW": "",
-        f"RWA [{cur}]": money(t.rwa),
-        f"regulatory capital, 8 % of RWA [{cur}]": money(t.regulatory_capital),
+        "RWA": money(t.rwa),
+        "Capital (8 % of RWA)": money(t.regulatory_capital),
     }
 )
 st.dataframe(pd.DataFrame(rows), hide_index=True)
 st.caption(
-    "PD column: the PD used in the risk weight (after the floor). The total UL joins the "
+    f"Amounts in {cur}. PD column: the PD used in the risk weight (after the floor). The total UL joins the "
     f"facilities' recoveries {state.get_path(ss.valid, 'capital.recovery_join', 'comonotonic')}."
 )
 

@@ -65,8 +65,8 @@ with left:
         args=(key,),
     )
     if fac_raw.get("recovery") is not None:
-        c1, c2, c3 = st.columns(3)
-        below = st.container()
+        # One under the other: the left column is too narrow for three fields side by side.
+        c1 = c2 = c3 = below = st.container()
         _ui.number_field("Recovery mean (%)", f"{base}.recovery.mean", where=c1, unit=entry.PERCENT, messages=below)
         _ui.number_field("Recovery std (%)", f"{base}.recovery.std", where=c2, unit=entry.PERCENT, messages=below)
         _ui.number_field("Upper bound (%)", f"{base}.recovery.upper", where=c3, unit=entry.PERCENT, messages=below)

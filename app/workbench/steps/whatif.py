@@ -264,12 +264,10 @@ measure = st.radio(
     key="whatif_measure",
     format_func={"el": "Expected loss", "pd": "PD in force"}.get,
 )
-# The tornado's row labels are long: it gets the wider column so its bars keep their length.
-left, right = st.columns([2, 3])
-with left:
-    _ui.chart(st, charts.pd_grid_figure(shown), key="whatif_pd_grid")
-with right:
-    _ui.chart(st, charts.sensitivity_figure(shown, measure=measure), key="whatif_tornado")
+# One under the other: side by side, a laptop screen crushes the tornado's long row labels
+# onto its bars and cuts the heat map's axis titles.
+_ui.chart(st, charts.sensitivity_figure(shown, measure=measure), key="whatif_tornado")
+_ui.chart(st, charts.pd_grid_figure(shown), key="whatif_pd_grid")
 notes = list(shown.sensitivity.notes) + [
     n for row in shown.sensitivity.rows if row.note for n in [f"{row.label}: {row.note}"]
 ]
