@@ -165,7 +165,7 @@ def _button(at, label: str):
 
 
 def _downloads(at) -> list:
-    return [d for d in at.get("download_button") if "PDF memo" in d.proto.label]
+    return [d for d in at.get("download_button") if "(PDF)" in d.proto.label]
 
 
 @pytest.mark.parametrize("kind", ["missing", pytest.param("hanging", marks=pytest.mark.slow)])
@@ -185,7 +185,7 @@ def test_memo_page_reports_the_fault_and_prints_without_charts(kind, tmp_path, m
     assert at.session_state["raw"]["memo"]["reviewed_by"] == "R. Second"
     _button(at, "Print the memo without charts").click().run()
     assert not at.exception
-    assert [d.proto.label for d in _downloads(at)] == ["Download the PDF memo (without charts)"]
+    assert [d.proto.label for d in _downloads(at)] == ["Memo without charts (PDF)"]
     assert at.session_state["memo_pdf"][1].startswith(b"%PDF-")
     memo.stop_chart_exporter()
     assert_group_gone(tmp_path)

@@ -25,7 +25,7 @@ def test_download_results_gives_the_export_workbook(app, monkeypatch):
 
     monkeypatch.setattr(MediaFileManager, "add_deferred", recording)
     _open(app, "memo")
-    button = next(d for d in app.get("download_button") if d.proto.label == "Download results (XLSX)")
+    button = next(d for d in app.get("download_button") if d.proto.label == "Results (XLSX)")
     assert button.proto.deferred_file_id  # built when clicked, not on every run of the page
     assert "Hollowmere_Lifting_Group_results.xlsx" in built
     data = built["Hollowmere_Lifting_Group_results.xlsx"]()

@@ -533,6 +533,8 @@ class Column:
     help: str | None = None
     max_chars: int | None = None
     default: Any = None
+    width: str | None = None
+    """"small", "medium" or "large"; None: the grid's own choice."""
     empty_text: str | None = None
     """For an optional number: the word an empty cell shows ("preset"); the cell is then typed as
     text and read as people write numbers."""
@@ -579,17 +581,22 @@ class Column:
 
     def config(self, currency: str) -> Any:
         cc = st.column_config
+        sized = {"width": self.width} if self.width else {}
         if self.kind == "select":
             return cc.SelectboxColumn(
-                self.label, options=list((self.options or {}).values()), required=self.required, help=self.help
+                self.label,
+                options=list((self.options or {}).values()),
+                required=self.required,
+                help=self.help,
+                **sized,
             )
         if self.kind == "check":
-            return cc.CheckboxColumn(self.label, help=self.help)
+            return cc.CheckboxColumn(self.label, help=self.help, **sized)
         if self.kind == "text" or self.empty_text is not None:
-            return cc.TextColumn(self.label, required=self.required, max_chars=self.max_chars, help=self.help)
+            return cc.TextColumn(self.label, required=self.required, max_chars=self.max_chars, help=self.help, **sized)
         fmt = {entry.PERCENT: "%.2f %%", entry.INTEGER: "%d", entry.YEARS: "%.2f", entry.MONEY: "localized"}
         return cc.NumberColumn(
-            self.label, required=self.required, format=fmt.get(self.unit, "%.4f"), help=self.help, step=None
+            self.label, required=self.required, format=fmt.get(self.unit, "%.4f"), help=self.help, step=None, **sized
         )
 
 

@@ -106,7 +106,7 @@ def _memo_print_panel(results: Any, stem: str) -> None:
             _print(memo_module, results, charts=False)
     pdf = ss.get("memo_pdf")
     if pdf and pdf[0] == results.fingerprint:
-        label = "Download the PDF memo" if pdf[2] else "Download the PDF memo (without charts)"
+        label = "Memo (PDF)" if pdf[2] else "Memo without charts (PDF)"
         st.download_button(
             label,
             pdf[1],
@@ -126,8 +126,8 @@ results = _ui.header(
 ss = st.session_state
 
 RISK_COLUMNS = (
-    _ui.Column("risk", "Risk", kind="text", required=True, max_chars=300),
-    _ui.Column("mitigant", "Mitigant", kind="text", max_chars=300, default=""),
+    _ui.Column("risk", "Risk", kind="text", required=True, max_chars=300, width="medium"),
+    _ui.Column("mitigant", "Mitigant", kind="text", max_chars=300, default="", width="medium"),
 )
 
 left, right = st.columns([2, 1])
@@ -162,27 +162,27 @@ with right:
             "second keeps your edits as typed (it will show the same messages when opened)."
         )
         st.download_button(
-            "Download the last valid case (YAML)",
+            "Last valid case (YAML)",
             state.case_file_text(ss.valid, "yaml"),
             file_name=f"{stem}.yaml",
             mime="application/x-yaml",
         )
         st.download_button(
-            "Download the case as typed (YAML)",
+            "Case as typed (YAML)",
             state.case_file_text(ss.raw, "yaml"),
             file_name=f"{stem}_draft.yaml",
             mime="application/x-yaml",
         )
     else:
         st.download_button(
-            "Download the case file (YAML)",
+            "Case file (YAML)",
             state.case_file_text(ss.raw, "yaml"),
             file_name=f"{stem}.yaml",
             mime="application/x-yaml",
             icon=":material/download:",
         )
         st.download_button(
-            "Download the case file (JSON)",
+            "Case file (JSON)",
             state.case_file_text(ss.raw, "json"),
             file_name=f"{stem}.json",
             mime="application/json",
@@ -190,7 +190,7 @@ with right:
 
     if results is not None:
         st.download_button(
-            "Download results (XLSX)",
+            "Results (XLSX)",
             _results_workbook(results.case),
             file_name=f"{stem}_results.xlsx",
             mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
