@@ -469,6 +469,25 @@ def rows_of(items: Any) -> list[dict[str, Any]]:
     return rows
 
 
+@st.cache_resource(max_entries=256, show_spinner=False)
+def _figure(
+    name: str, fingerprint: str, layers: bool, arguments: str, _results: Any, _args: tuple, _kwargs: dict
+) -> Any:
+    # Keyed on the case's fingerprint (and whether the what-if layers are filled): the same
+    # inputs always draw the same figure, so a rerun that did not move it does not rebuild it
+    # (building a plotly figure costs more than the evaluation it shows). Never mutated.
+    from obligor_memo.app import charts
+
+    return getattr(charts, name)(_results, *_args, **_kwargs)
+
+
+def figure(name: str, results: Any, *args: Any, **kwargs: Any) -> Any:
+    """``app.charts.<name>(results, ...)``, built once per case and arguments."""
+    arguments = json.dumps([args, kwargs], sort_keys=True, default=str)
+    layers = getattr(results, "sensitivity", None) is not None
+    return _figure(name, results.fingerprint, layers, arguments, results, args, kwargs)
+
+
 def chart(where: Any, figure: Any, key: str) -> None:
     """A figure exactly as the memo prints it (our layout, not the Streamlit theme)."""
     where.plotly_chart(figure, key=key, theme=None, config={"displaylogo": False})

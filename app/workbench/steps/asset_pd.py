@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import streamlit as st
-from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import millions, num, pct, pd_pct, years
 from obligor_memo.app.workbench import entry
 from obligor_memo.app.workbench import ui as _ui
@@ -77,7 +76,7 @@ with chart:
     if results is None:
         st.error("No valid case yet: fix the messages on the Borrower page.")
         st.stop()
-    _ui.chart(st, charts.asset_trend_figure(results), key="asset_trend")
+    _ui.chart(st, _ui.figure("asset_trend_figure", results), key="asset_trend")
     p = results.pd
     shown = [
         ("Distance to default", num(p.distance_to_default, 2), None),
@@ -107,9 +106,9 @@ with chart:
 st.divider()
 left, right = st.columns([1.3, 1])
 with left:
-    _ui.chart(st, charts.term_structure_figure(results), key="term_structure")
+    _ui.chart(st, _ui.figure("term_structure_figure", results), key="term_structure")
 with right:
-    _ui.chart(st, charts.liabilities_figure(results), key="liabilities")
+    _ui.chart(st, _ui.figure("liabilities_figure", results), key="liabilities")
 
 market = getattr(results, "market", None)
 if market is not None:

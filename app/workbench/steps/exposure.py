@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import pandas as pd
 import streamlit as st
-from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import money, pct
 from obligor_memo.app.workbench import entry
 from obligor_memo.app.workbench import ui as _ui
@@ -101,7 +100,7 @@ st.dataframe(
     hide_index=True,
     column_config={"CCF source": st.column_config.TextColumn("CCF source", width="large")},
 )
-_ui.chart(st, charts.exposure_figure(results), key="exposure")
+_ui.chart(st, _ui.figure("exposure_figure", results), key="exposure")
 for caution in results.cautions:
     if caution.code.startswith("exposure"):
         st.caption(f":material/info: {caution.message}")

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import pandas as pd
 import streamlit as st
-from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import millions, money, pct, pd_pct
 from obligor_memo.app.workbench import entry, state
 from obligor_memo.app.workbench import ui as _ui
@@ -68,7 +67,7 @@ m[4].metric("RWA", millions(t.rwa, cur))
 
 left, right = st.columns([2, 1])
 with left:
-    _ui.chart(st, charts.loss_distribution_figure(results), key="loss_distribution")
+    _ui.chart(st, _ui.figure("loss_distribution_figure", results), key="loss_distribution")
 with right:
     st.subheader("Capital settings")
     _ui.number_field("Confidence (%)", "capital.confidence", unit=entry.PERCENT, help="For example 99.9 (for 99.9 %).")

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import streamlit as st
-from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import money, num, pct
 from obligor_memo.app.workbench import entry, state
 from obligor_memo.app.workbench import ui as _ui
@@ -106,7 +105,7 @@ with right:
     if fac_res is None:
         st.error("No results for this facility yet: fix the messages beside its fields.")
         st.stop()
-    _ui.chart(st, charts.recovery_figure(results, chosen), key="recovery")
+    _ui.chart(st, _ui.figure("recovery_figure", results, chosen), key="recovery")
     _ui.metric_rows(
         st,
         [

@@ -13,7 +13,6 @@ import logging
 
 import pandas as pd
 import streamlit as st
-from obligor_memo.app import charts
 from obligor_memo.app.present.formatting import millions, money, num, pct, pd_pct
 from obligor_memo.app.workbench import entry
 from obligor_memo.app.workbench import ui as _ui
@@ -266,8 +265,8 @@ measure = st.radio(
 )
 # One under the other: side by side, a laptop screen crushes the tornado's long row labels
 # onto its bars and cuts the heat map's axis titles.
-_ui.chart(st, charts.sensitivity_figure(shown, measure=measure), key="whatif_tornado")
-_ui.chart(st, charts.pd_grid_figure(shown), key="whatif_pd_grid")
+_ui.chart(st, _ui.figure("sensitivity_figure", shown, measure=measure), key="whatif_tornado")
+_ui.chart(st, _ui.figure("pd_grid_figure", shown), key="whatif_pd_grid")
 notes = list(shown.sensitivity.notes) + [
     n for row in shown.sensitivity.rows if row.note for n in [f"{row.label}: {row.note}"]
 ]
@@ -364,7 +363,7 @@ if overlay and whatif is not None:
 rows += [_row(s.name, s.figures, s.delta) for s in compared]
 st.dataframe(pd.DataFrame(rows).set_index("Scenario"), width="stretch")
 if compared:
-    _ui.chart(st, charts.scenarios_figure(_ui.analysed(base_case)), key="scenarios")
+    _ui.chart(st, _ui.figure("scenarios_figure", _ui.analysed(base_case)), key="scenarios")
     for s in compared:
         settings = "; ".join(entry.override_words(k, v) for k, v in s.overrides)
         st.caption(f"**{s.name}**: {s.description or '(no description)'} ({settings})")
