@@ -10,13 +10,12 @@ from __future__ import annotations
 import json
 import logging
 from collections.abc import Callable
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import streamlit as st
 from obligor_memo.app.present.formatting import millions, num, pct, pd_pct
-from obligor_memo.app.workbench import entry, state
+from obligor_memo.app.workbench import entry, grids, state
 from obligor_memo.engine.errors import CaseError, Problem
 
 log = logging.getLogger(__name__)
@@ -534,142 +533,18 @@ def key_figures(where: Any) -> None:
 # --------------------------------------------------------------------------- data grids
 
 
-@dataclass(frozen=True)
-class Column:
-    """One column of a data grid bound to a list of records in the case.
-
-    ``kind`` is "number", "text", "select" or "check"; a number's ``unit`` is one of
-    entry.UNITS (a percent column shows 75 for a stored 0.75); a select shows ``options``'
-    words and stores their keys.
-    """
-
-    name: str
-    label: str
-    kind: str = "number"
-    unit: str = entry.NUMBER
-    required: bool = False
-    options: dict[str, str] | None = None
-    help: str | None = None
-    max_chars: int | None = None
-    default: Any = None
-    width: str | None = None
-    """"small", "medium" or "large"; None: the grid's own choice."""
-    empty_text: str | None = None
-    """For an optional number: the word an empty cell shows ("preset"); the cell is then typed as
-    text and read as people write numbers."""
-
-    def to_screen(self, value: Any) -> Any:
-        if self.kind == "number" and self.empty_text is not None:
-            if value is None:
-                return self.empty_text
-            if isinstance(value, (int, float)) and not isinstance(value, bool):
-                return entry.show(value, self.unit)
-            return str(value)
-        if self.kind == "select":
-            return (self.options or {}).get(value, value)
-        if self.kind == "check":
-            return bool(value)
-        if self.kind == "number":
-            if not isinstance(value, (int, float)) or isinstance(value, bool):
-                return None
-            return entry.to_percent(value) if self.unit == entry.PERCENT else value
-        return "" if value is None else str(value)
-
-    def from_screen(self, value: Any) -> Any:
-        if value is None or (isinstance(value, float) and value != value):
-            return self.default if self.kind in ("check", "text") else None
-        if self.kind == "select":
-            words = {v: k for k, v in (self.options or {}).items()}
-            return words.get(value, value)
-        if self.kind == "check":
-            return bool(value)
-        if self.kind == "number":
-            if isinstance(value, str):
-                if self.empty_text is not None and value.strip().casefold() in (self.empty_text.casefold(), ""):
-                    return None
-                try:
-                    value = entry.parse(value, self.unit)
-                except entry.EntryError:
-                    return value
-                if value is None:
-                    return None
-            if self.unit == entry.INTEGER:
-                return int(value) if float(value).is_integer() else float(value)
-            return entry.to_fraction(value) if self.unit == entry.PERCENT else float(value)
-        return str(value)
-
-    def config(self, currency: str) -> Any:
-        cc = st.column_config
-        sized = {"width": self.width} if self.width else {}
-        if self.kind == "select":
-            return cc.SelectboxColumn(
-                self.label,
-                options=list((self.options or {}).values()),
-                required=self.required,
-                help=self.help,
-                **sized,
-            )
-        if self.kind == "check":
-            return cc.CheckboxColumn(self.label, help=self.help, **sized)
-        if self.kind == "text" or self.empty_text is not None:
-            return cc.TextColumn(self.label, required=self.required, max_chars=self.max_chars, help=self.help, **sized)
-        fmt = {entry.PERCENT: "%.2f %%", entry.INTEGER: "%d", entry.YEARS: "%.2f", entry.MONEY: "localized"}
-        return cc.NumberColumn(
-            self.label, required=self.required, format=fmt.get(self.unit, "%.4f"), help=self.help, step=None, **sized
-        )
-
-
-def _grid_frame(records: list[Any], columns: tuple[Column, ...]) -> Any:
-    import pandas as pd
-
-    data = {c.name: [c.to_screen(r.get(c.name) if isinstance(r, dict) else None) for r in records] for c in columns}
-    frame = pd.DataFrame(data, columns=[c.name for c in columns])
-    for c in columns:
-        if c.kind == "number" and c.empty_text is None:
-            frame[c.name] = pd.to_numeric(frame[c.name], errors="coerce").astype("float64")
-        elif c.kind == "check":
-            frame[c.name] = frame[c.name].astype(bool)
-        else:
-            frame[c.name] = frame[c.name].astype(object)
-    return frame
-
-
-def apply_grid_delta(
-    records: list[Any], delta: dict[str, Any], columns: tuple[Column, ...], defaults: dict[str, Any] | None = None
-) -> list[dict[str, Any]]:
-    """The records after one data-editor change (``edited_rows``, ``added_rows``,
-    ``deleted_rows``); keys the grid does not show (a facility's recovery, collateral) are kept."""
-    by_name = {c.name: c for c in columns}
-    out = [dict(r) if isinstance(r, dict) else {} for r in records]
-    for index, changes in (delta.get("edited_rows") or {}).items():
-        i = int(index)
-        if 0 <= i < len(out):
-            for name, value in changes.items():
-                if name in by_name:
-                    out[i][name] = by_name[name].from_screen(value)
-    deleted = {int(i) for i in (delta.get("deleted_rows") or [])}
-    out = [r for i, r in enumerate(out) if i not in deleted]
-    for added in delta.get("added_rows") or []:
-        row = dict(defaults or {})
-        for name, value in added.items():
-            if name in by_name:
-                row[name] = by_name[name].from_screen(value)
-        out.append(row)
-    return out
-
-
-def _grid_changed(path: str, key: str, columns: tuple[Column, ...], defaults: dict[str, Any] | None) -> None:
+def _grid_changed(path: str, key: str, columns: tuple[grids.Column, ...], defaults: dict[str, Any] | None) -> None:
     ss = st.session_state
     records = state.get_path(ss.raw, path)
     records = records if isinstance(records, list) else []
-    changed = apply_grid_delta(records, ss[key], columns, defaults)
+    changed = grids.apply_grid_delta(records, ss[key], columns, defaults)
     if changed != records:
         commit(state.set_path(ss.raw, path, changed))
 
 
 def grid(
     path: str,
-    columns: tuple[Column, ...],
+    columns: tuple[grids.Column, ...],
     *,
     name: str,
     defaults: dict[str, Any] | None = None,
@@ -688,7 +563,7 @@ def grid(
     key = f"{name}{ss.gen}"
     sizing = {"height": height} if height else {}
     st.data_editor(
-        _grid_frame(records, columns),
+        grids.grid_frame(records, columns),
         key=key,
         num_rows="dynamic",
         hide_index=True,

@@ -60,7 +60,8 @@ with controls:
         methods,
         labels={"balance_sheet": "Balance sheet (asset trend)", "market": "Market (equity value and volatility)"},
     )
-    with st.expander("Analyst's PD override"):
+    # A section holding an error stays open.
+    with st.expander("Analyst's PD override", expanded=bool(_ui.state.problems_at(ss.problems, "pd.override"))):
         _ui.number_field(
             "PD override (%; empty = the model's)",
             "pd.override",

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import streamlit as st
-from obligor_memo.app.workbench import entry, state
+from obligor_memo.app.workbench import grids, state
 from obligor_memo.app.workbench import mapping as _mapping
 from obligor_memo.app.workbench import review as _review
 from obligor_memo.app.workbench import ui as _ui
@@ -12,15 +12,6 @@ from obligor_memo.engine.errors import CaseError
 
 COLUMNS = list(StatementRow.model_fields)
 REQUIRED = ("year", "total_assets", "short_term_liabilities", "long_term_liabilities")
-STATEMENT_COLUMNS = tuple(
-    _ui.Column(
-        c,
-        entry.STATEMENT_LABELS.get(c, c.replace("_", " ")).capitalize() if c != "ebit" and c != "ebitda" else c.upper(),
-        unit=entry.INTEGER if c == "year" else entry.MONEY,
-        required=c in REQUIRED,
-    )
-    for c in COLUMNS
-)
 
 
 def _open_sample() -> None:
@@ -102,6 +93,6 @@ st.caption(
     "two liability lines are required; the other lines feed the Z-score and the credit analysis. "
     "A change you regret: Undo the last change, in the sidebar."
 )
-_ui.grid("statements", STATEMENT_COLUMNS, name="stmt_grid")
+_ui.grid("statements", grids.STATEMENT_COLUMNS, name="stmt_grid")
 _ui.show_problems("statements")
 _review.section(_results)

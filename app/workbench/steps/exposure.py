@@ -5,40 +5,8 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 from obligor_memo.app.present.formatting import money, pct
-from obligor_memo.app.workbench import entry
+from obligor_memo.app.workbench import grids
 from obligor_memo.app.workbench import ui as _ui
-
-KINDS = {
-    "term_loan": "Term loan",
-    "revolver": "Revolving credit",
-    "bond": "Bond held",
-    "guarantee": "Guarantee",
-    "letter_of_credit": "Letter of credit",
-}
-SENIORITIES = {
-    "senior_secured": "Senior secured",
-    "senior_unsecured": "Senior unsecured",
-    "subordinated": "Subordinated",
-}
-STATUSES = {"new": "New", "renewal": "Renewal", "increase": "Increase", "unchanged": "Unchanged"}
-FACILITY_COLUMNS = (
-    _ui.Column("id", "Id", kind="text", required=True, max_chars=40),
-    _ui.Column("kind", "Kind", kind="select", options=KINDS, required=True),
-    _ui.Column("status", "Request", kind="select", options=STATUSES),
-    _ui.Column("committed", "Committed", unit=entry.MONEY, required=True),
-    _ui.Column("drawn", "Drawn", unit=entry.MONEY, required=True),
-    _ui.Column(
-        "ccf",
-        "CCF (%)",
-        unit=entry.PERCENT,
-        empty_text="preset",
-        help="A percentage such as 75; 'preset' (or empty): the preset of the facility's kind.",
-    ),
-    _ui.Column("cancellable", "Cancellable", kind="check", default=False),
-    _ui.Column("seniority", "Seniority", kind="select", options=SENIORITIES, required=True),
-    _ui.Column("maturity_years", "Maturity (years)", unit=entry.YEARS, required=True),
-    _ui.Column("description", "Description", kind="text", max_chars=300, default=""),
-)
 
 results = _ui.header(
     "Facilities and exposure", "EAD = drawn + CCF x undrawn. Leave CCF empty for the preset of the kind."
@@ -62,9 +30,9 @@ st.caption(
 )
 _ui.grid(
     "facilities",
-    FACILITY_COLUMNS,
+    grids.FACILITY_COLUMNS,
     name="fac_grid",
-    defaults={"cancellable": False, "description": "", "status": "new"},
+    defaults=grids.FACILITY_DEFAULTS,
 )
 _ui.show_problems("facilities")
 
@@ -76,7 +44,7 @@ st.dataframe(
         [
             {
                 "Facility": f.id,
-                "Kind": KINDS.get(f.kind, f.kind),
+                "Kind": grids.KINDS.get(f.kind, f.kind),
                 "Drawn": money(f.drawn),
                 "Undrawn": money(f.undrawn),
                 "CCF": pct(f.ccf, 0),

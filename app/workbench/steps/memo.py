@@ -10,7 +10,7 @@ from typing import Any
 
 import streamlit as st
 from obligor_memo.app import settings
-from obligor_memo.app.workbench import state
+from obligor_memo.app.workbench import grids, state
 from obligor_memo.app.workbench import ui as _ui
 
 log = logging.getLogger(__name__)
@@ -125,11 +125,6 @@ results = _ui.header(
 )
 ss = st.session_state
 
-RISK_COLUMNS = (
-    _ui.Column("risk", "Risk", kind="text", required=True, max_chars=300, width="medium"),
-    _ui.Column("mitigant", "Mitigant", kind="text", max_chars=300, default="", width="medium"),
-)
-
 left, right = st.columns([2, 1])
 with left:
     _ui.text_field("Request", "memo.request", area=True, height=80)
@@ -138,7 +133,7 @@ with left:
     _ui.text_field("Conditions", "memo.conditions", area=True, height=120)
     _ui.text_field("Grade rationale (one line on the decision page)", "memo.rationale")
     st.markdown("**Key risks and mitigants** (the decision page prints the first three)")
-    _ui.grid("memo.risks", RISK_COLUMNS, name="risk_grid", defaults={"mitigant": ""})
+    _ui.grid("memo.risks", grids.RISK_COLUMNS, name="risk_grid", defaults={"mitigant": ""})
     _ui.show_problems("memo.risks")
     _ui.text_field("Why this default point", "memo.default_point_reason", area=True, height=90)
     _ui.text_field(
