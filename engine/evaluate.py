@@ -16,6 +16,7 @@ from dataclasses import dataclass
 from obligor_memo.engine import ENGINE_VERSION
 from obligor_memo.engine.capital_step import allocate, capital_exposure, capital_figures, economic_basis
 from obligor_memo.engine.case import Case, case_to_dict
+from obligor_memo.engine.covenants import covenant_tests
 from obligor_memo.engine.credit_metrics import credit_metrics
 from obligor_memo.engine.deal_pricing import DealPricing, PricingLine, deal_pricing, price_lines
 from obligor_memo.engine.errors import CaseError, Caution
@@ -251,6 +252,8 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
     )
     pricing, pricing_cautions = _price(case, tuple(facilities), total)
     cautions.extend(pricing_cautions)
+    covenants = covenant_tests(case.covenants, case.statements)
+    cautions.extend(_covenant_cautions(covenants))
     return Results(
         engine_version=ENGINE_VERSION,
         fingerprint=fingerprint(case),
@@ -270,7 +273,28 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
         cautions=tuple(cautions),
         laws=laws,
         credit_metrics=credit_metrics(case.statements),
+        covenants=covenants,
     )
+
+
+def _covenant_cautions(covenants) -> list[Caution]:
+    """A covenant breached on the latest year, or one the statements cannot test."""
+    out = []
+    for i, c in enumerate(covenants):
+        limit = f"{'at most' if c.direction == 'max' else 'at least'} {c.threshold:g}"
+        if c.breached:
+            out.append(
+                Caution(
+                    "covenant.breached",
+                    f"Covenant {c.label} {limit} is breached on {c.year}: the metric is {c.value:.2f}.",
+                    f"covenants[{i}]",
+                )
+            )
+        elif c.value is None:
+            out.append(
+                Caution("covenant.not_computable", f"Covenant {c.label} {limit}: {c.note}.", f"covenants[{i}].metric")
+            )
+    return out
 
 
 def _prepare_facility(case: Case, index: int, f, grade: str | None, cautions: list[Caution]) -> PreparedFacility:
