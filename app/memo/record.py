@@ -39,6 +39,26 @@ def canonical_case_json(results: Any) -> bytes:
     return canonical(results.case)
 
 
+def covenant_line(c: Any) -> dict[str, str]:
+    """One covenant as the memo prints it (the decision page and section 1 use these strings)."""
+    value_fmt = (lambda v: fmt.pct(v, 1)) if c.metric == "ebitda_margin" else fmt.times
+    if c.ebitda_fall_to_breach is not None and not c.breached:
+        fall = fmt.pct(c.ebitda_fall_to_breach, 1)
+    else:
+        fall = c.note or "n/a"
+    return {
+        "label": c.label,
+        "limit": f"{'at most' if c.direction == 'max' else 'at least'} {value_fmt(c.threshold)}",
+        "tested": c.tested,
+        "year": str(c.year) if c.year is not None else "n/a",
+        "value": value_fmt(c.value) if c.value is not None else "not computable",
+        "headroom": fmt.pct(c.headroom, 1) if c.headroom is not None else "n/a",
+        "fall": fall,
+        "ebitda_at_breach": fmt.money(c.ebitda_at_breach) if c.ebitda_at_breach is not None else "n/a",
+        "status": "breached" if c.breached else "holds" if c.breached is False else "not tested",
+    }
+
+
 def printed_figures(results: Any) -> dict[str, str]:
     """Every figure the memo prints and verify re-checks: label -> text as printed.
 
@@ -88,6 +108,12 @@ def printed_figures(results: Any) -> dict[str, str]:
         out["RAROC"] = fmt.pct(p.raroc, 1) if p.raroc is not None else "undefined (capital 0)"
         out["RAROC (regulatory capital)"] = fmt.pct(p.raroc_regulatory, 1)
         out["RAROC (economic capital)"] = fmt.pct(p.raroc_economic, 1)
+    for i, c in enumerate(getattr(results, "covenants", ())):
+        line = covenant_line(c)
+        name = f"Covenant {i + 1} {line['label']}"
+        out[f"{name}: value"] = line["value"]
+        out[f"{name}: headroom"] = line["headroom"]
+        out[f"{name}: EBITDA fall to breach"] = line["fall"]
     for z in getattr(results, "zscores", ()):
         if z.score is not None:
             out[f"Z-score {z.variant}"] = fmt.num(z.score, 2)

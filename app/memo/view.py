@@ -132,6 +132,7 @@ def build_view(
             scenario_sentence(decision.worst, results.pd.grade, hurdle) if decision.worst is not None else None
         ),
         "key_risks": list(case.memo.risks[:3]),
+        "covenant_lines": [pdfcase.covenant_line(c) for c in getattr(results, "covenants", ())],
         "drivers": pd_drivers(results),
         "spread_note": spread_note,
         "generated_at": generated_at,
