@@ -19,6 +19,7 @@ from obligor_memo.engine.case import Case, case_to_dict
 from obligor_memo.engine.covenants import covenant_tests
 from obligor_memo.engine.credit_metrics import credit_metrics
 from obligor_memo.engine.deal_pricing import DealPricing, PricingLine, deal_pricing, price_lines
+from obligor_memo.engine.decision import cross_check_grades, unexplained_gaps
 from obligor_memo.engine.errors import CaseError, Caution
 from obligor_memo.engine.exposure import FacilityExposure, facility_exposure, resolve_ccf
 from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
@@ -123,6 +124,8 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
         )
     zscores, z_history, z_cautions = _zscores(case) if detail else ((), (), [])
     cautions.extend(z_cautions)
+    cross_checks = cross_check_grades(case, pd, zscores, market)
+    cautions.extend(_cross_check_cautions(case, pd, cross_checks))
 
     prepared = [_prepare_facility(case, index, f, pd.grade, cautions) for index, f in enumerate(case.facilities)]
     laws = {item.exposure.id: item.law for item in prepared}
@@ -274,7 +277,28 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
         laws=laws,
         credit_metrics=credit_metrics(case.statements),
         covenants=covenants,
+        cross_checks=cross_checks,
     )
+
+
+def _cross_check_cautions(case: Case, pd: PdResult, checks) -> list[Caution]:
+    """Cross-checks more than two notches from the grade need the analyst's explanation."""
+    gaps = unexplained_gaps(checks, case.memo.cross_check_explanation)
+    if not gaps:
+        return []
+    listed = "; ".join(
+        f"{c.source}{' ' + c.reading if c.reading else ''}: grade {c.grade}, {abs(c.notches)} notches "
+        f"{'worse' if c.notches > 0 else 'better'}"
+        for c in gaps
+    )
+    return [
+        Caution(
+            "pd.cross_check_unexplained",
+            f"The cross-checks differ from grade {pd.grade} by more than two notches ({listed}) and no "
+            "explanation is recorded: the analyst must reconcile them in memo.cross_check_explanation.",
+            "memo.cross_check_explanation",
+        )
+    ]
 
 
 def _covenant_cautions(covenants) -> list[Caution]:

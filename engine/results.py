@@ -16,6 +16,7 @@ from obligor_memo.engine.case import Case, ScenarioValue, case_to_dict
 from obligor_memo.engine.covenants import CovenantTest
 from obligor_memo.engine.credit_metrics import CreditYear
 from obligor_memo.engine.deal_pricing import DealPricing
+from obligor_memo.engine.decision import CrossCheckGrade
 from obligor_memo.engine.errors import Caution
 from obligor_memo.engine.lossdist import LossDistribution
 from obligor_memo.engine.pd_estimate import MarketResult, PdResult
@@ -196,6 +197,8 @@ class Results:
     """Leverage, cover and cash flow by year, where the statements give the lines."""
     covenants: tuple[CovenantTest, ...] = ()
     """Each covenant of the case on the latest year: value, headroom, EBITDA fall to breach."""
+    cross_checks: tuple[CrossCheckGrade, ...] = ()
+    """Z-score zones and market PDs graded on the master scale against the grade in force."""
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data: the contract of ``evaluate --json`` plus every intermediate."""

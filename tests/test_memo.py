@@ -486,3 +486,28 @@ def test_numbers_and_headers_of_the_figure_tables_stay_whole(sample_pdf):
     assert page_words.count("Year") >= 3
     assert not {"Yea", "201", "r", "6"} & set(page_words)  # no header or year broken in two
     assert "3.42x" in page_words and "2.50x" in page_words
+
+
+def test_cross_checks_on_the_decision_page_and_their_explanation_in_section_2(sample_results, sample_sections):
+    decision = " ".join(sample_sections["Decision"].split())
+    # Naive market PD 4.58 % and the distress zone grade 8 against grade 4: four notches each.
+    assert "naive market PD grade 8 (4 worse)" in decision
+    assert "the analyst's reconciliation is in section 2" in decision
+    assert "not reconciled" not in decision.lower()
+    pd_text = " ".join(sample_sections["2 Probability of default"].split())
+    assert " ".join(sample_results.case.memo.cross_check_explanation.split()) in pd_text
+    assert "naive market PD PD 4.58 % 8 4 worse" in pd_text
+
+
+def test_unexplained_cross_checks_are_a_caution_on_the_decision_page(sample_results):
+    from obligor_memo.app.memo import render_memo_pdf
+    from obligor_memo.engine.analysis import analyse
+
+    case = sample_results.case
+    case = case.model_copy(update={"memo": case.memo.model_copy(update={"cross_check_explanation": ""})})
+    pdf = render_memo_pdf(analyse(case), charts=False, generated_at=STAMP)
+    first = " ".join(pdf_text(pdf).split("\f")[0].split())
+    assert "Cross-checks not reconciled." in first
+    assert "NOT RECONCILED: no explanation recorded" in first
+    assert "memo.cross_check_explanation" in first
+    assert "None is recorded." in " ".join(pdf_text(pdf).split())
