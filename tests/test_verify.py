@@ -109,3 +109,21 @@ def test_pdf_without_a_record_is_refused(tmp_path):
 def test_non_pdf_is_refused(tmp_path):
     result = run_verify(tmp_path, b"borrower: {name: x}\n")
     assert result.exit_code == 2 and "not a PDF" in result.output
+
+
+def test_letter_memo_embeds_and_prints_the_paper_it_was_printed_on(tmp_path, sample_case_path):
+    import subprocess
+
+    out = tmp_path / "letter.pdf"
+    result = CliRunner().invoke(
+        main, ["memo", str(sample_case_path), "-o", str(out), "--no-charts", "--page-size", "Letter"]
+    )
+    assert result.exit_code == 0, result.output
+    pdf = out.read_bytes()
+    assert json.loads(read_attachments(pdf)[CASE_FILE])["memo"]["page_size"] == "Letter"
+    box = PdfReader(io.BytesIO(pdf)).pages[0].mediabox
+    assert (round(float(box.width)), round(float(box.height))) == (612, 792)  # US Letter, 8.5 x 11 in
+    text = subprocess.run(["pdftotext", "-", "-"], input=pdf, capture_output=True, check=True).stdout.decode()
+    assert "page_size: Letter" in text and "page_size: A4" not in text
+    checked = run_verify(tmp_path, pdf)
+    assert checked.exit_code == 0, checked.output

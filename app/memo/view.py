@@ -181,6 +181,12 @@ def build_view(
         "covenant_lines": [pdfcase.covenant_line(c) for c in getattr(results, "covenants", ())],
         "drivers": pd_drivers(results),
         "cross": cross_check_view(results),
+        "scenario_changes": {
+            s.name: [
+                fmt.scenario_change(path, value, tuple(f.id for f in case.facilities)) for path, value in s.overrides
+            ]
+            for s in getattr(results, "scenarios", None) or ()
+        },
         "spread_note": spread_note,
         "generated_at": generated_at,
         "page_size": page_size,
