@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from obligor_memo.app.memo import record as pdfcase
+from obligor_memo.app.memo import printed as pdfcase
 from obligor_memo.app.memo.fetch import CHART_ANCHOR, CHART_SCHEME
 from obligor_memo.app.memo.templates import environment
 from obligor_memo.app.present import formatting as fmt
