@@ -270,6 +270,6 @@ def loss_distribution_figure(results: Any) -> go.Figure:
         fig,
         title=f"Borrower loss over {num(results.pd.horizon_years, 1)} year(s), {dist.join} recoveries",
         x_title=f"Loss x {money_axis(results)}",
-        y_title="Probability that loss exceeds x (log scale)",
+        y_title="P(loss > x) [log scale]",
     )
     return fig
