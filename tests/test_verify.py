@@ -134,6 +134,7 @@ def test_letter_memo_embeds_and_prints_the_paper_it_was_printed_on(tmp_path, sam
     assert "page_size: Letter" in text and "page_size: A4" not in text
     checked = run_verify(tmp_path, pdf)
     assert checked.exit_code == 0, checked.output
+    assert "decision page (page 1):" in checked.output  # the decision page fits on one Letter page
 
 
 # --------------------------------------------------------------------------- the pages themselves
@@ -230,5 +231,5 @@ def test_a_page_without_the_fingerprint_fails(memo_pdf):
 def test_numbers_are_read_whole():
     from obligor_memo.app.memo.pages import numbers
 
-    text = "EUR 198,800,000; 3.42x; RAROC -8.7 %; inputs fa2adc43388df2e9 on 2031-01-02; 0.2123 %"
+    text = "EUR 198,800,000; 3.42x; RAROC -8.7 %; inputs fa2adc43388df2e9, 8b2ca85519be6e0d on 2031-01-02; 0.2123 %"
     assert sorted(numbers(text).elements()) == sorted(["198,800,000", "3.42x", "-8.7", "2031", "0.2123"])

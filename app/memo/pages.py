@@ -23,11 +23,12 @@ import re
 import shutil
 import subprocess
 from collections import Counter
+from collections.abc import Callable
 from dataclasses import dataclass
 from html.parser import HTMLParser
 from typing import Any
 
-NUMBER = re.compile(r"(?<![\w.,])(?<!\d-)-?\d[\d,]*(?:\.\d+)?(?:x(?![\w]))?")
+NUMBER = re.compile(r"(?<![\w.,])(?<!\d-)-?\d[\d,]*(?:\.\d+)?x?(?![\w])")
 FOOTER_FINGERPRINT = re.compile(r"Inputs\s+([0-9a-f]{16})(?![0-9a-f])")
 PAGE_NUMBER = re.compile(r"Page\s+\d+\s+of\s+\d+")
 DECISION_SECTIONS = ("summary",)
@@ -52,6 +53,29 @@ def page_texts(pdf: bytes) -> list[str]:
         return [page.extract_text() or "" for page in PdfReader(io.BytesIO(pdf)).pages]
     except Exception as exc:  # noqa: BLE001 - any reader failure means the pages cannot be read
         raise PagesUnreadable(f"the pages' text cannot be extracted ({type(exc).__name__}: {exc})") from None
+
+
+def exact_reader(pdf: bytes, fallback: list[str]) -> Callable[[int], str]:
+    """Page i's text as pypdf reads it (no joining of words hyphenated at a line end, which
+    pdftotext does and which would glue "12-" and "13" into "1213"); pdftotext's text where
+    pypdf cannot read the page."""
+    cache: dict[int, str] = {}
+    try:
+        from pypdf import PdfReader
+
+        reader: Any = PdfReader(io.BytesIO(pdf))
+    except Exception:  # noqa: BLE001 - no second reader: use the first
+        reader = None
+
+    def read(i: int) -> str:
+        if i not in cache:
+            try:
+                cache[i] = reader.pages[i].extract_text() or "" if reader is not None else fallback[i]
+            except Exception:  # noqa: BLE001 - this page only
+                cache[i] = fallback[i]
+        return cache[i]
+
+    return read
 
 
 def flat(text: str) -> str:
@@ -79,9 +103,12 @@ class _SectionText(HTMLParser):
         super().__init__(convert_charrefs=True)
         self.wanted, self.depth = wanted, 0
         self.current: str | None = None
+        self.hidden: str | None = None
         self.parts: dict[str, list[str]] = {key: [] for key in wanted}
 
     def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        if "running-strings" in (dict(attrs).get("class") or ""):
+            self.hidden = tag  # set for the running header and footer, never printed in place
         if tag == "section":
             if self.current is None and dict(attrs).get("id") in self.wanted:
                 self.current, self.depth = dict(attrs)["id"], 0
@@ -91,6 +118,8 @@ class _SectionText(HTMLParser):
             self.parts[self.current].append(" ")
 
     def handle_endtag(self, tag: str) -> None:
+        if tag == self.hidden:
+            self.hidden = None
         if tag == "section" and self.current is not None:
             if self.depth == 0:
                 self.current = None
@@ -98,7 +127,7 @@ class _SectionText(HTMLParser):
                 self.depth -= 1
 
     def handle_data(self, data: str) -> None:
-        if self.current is not None:
+        if self.current is not None and self.hidden is None:
             self.parts[self.current].append(data)
 
 
@@ -160,9 +189,18 @@ def _diff(expected: Counter[str], printed: Counter[str]) -> tuple[tuple[str, ...
 
 
 def check_pages(
-    pages: list[str], results: Any, *, recorded: dict[str, str], generated_at: str
+    pages: list[str],
+    results: Any,
+    *,
+    recorded: dict[str, str],
+    generated_at: str,
+    exact: Callable[[int], str] | None = None,
 ) -> tuple[PageCheck, ...]:
-    """The decision page and the body printed against the memo rendered again from ``results``."""
+    """The decision page and the body printed against the memo rendered again from ``results``.
+
+    ``pages`` (pdftotext) find where the decision page ends and the appendices begin; the numbers
+    are read from ``exact(i)`` (pypdf; default: ``pages[i]``)."""
+    read = exact or (lambda i: pages[i])
     from obligor_memo.app.memo.view import memo_html
 
     rendered = memo_html(
@@ -174,7 +212,7 @@ def check_pages(
     # request too long for one page runs on to the next.
     end = next((i for i, text in enumerate(pages) if stamp in flat(text)), 0)
     decision_pages = list(range(0, end + 1))
-    decision_text = " ".join(_strip_running(pages[i], borrower) for i in decision_pages)
+    decision_text = " ".join(_strip_running(read(i), borrower) for i in decision_pages)
     missing, extra = _diff(numbers(section_text(rendered, DECISION_SECTIONS)), numbers(decision_text))
     recorded_absent = tuple(
         label for label in DECISION_FIGURES if label in recorded and flat(recorded[label]) not in decision_text
@@ -191,7 +229,7 @@ def check_pages(
         (i for i, text in enumerate(pages) if i > end and re.search(r"^Appendix A\b", text, flags=re.M)), len(pages)
     )
     body_pages = list(range(end + 1, appendix))
-    body_text = " ".join(_strip_running(pages[i], borrower) for i in body_pages)
+    body_text = " ".join(_strip_running(read(i), borrower) for i in body_pages)
     expected_body = numbers(section_text(rendered, BODY_SECTIONS))
     body_missing, _ = _diff(expected_body, numbers(body_text))
     body = PageCheck("body", tuple(i + 1 for i in body_pages), sum(expected_body.values()), body_missing, ())

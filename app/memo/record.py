@@ -237,7 +237,9 @@ def verify_memo(pdf: bytes) -> VerifyReport:
     try:
         texts = page_reading.page_texts(pdf)
         page_fingerprints = page_reading.footer_fingerprints(texts)
-        page_checks = page_reading.check_pages(texts, results, recorded=recorded, generated_at=meta[2])
+        page_checks = page_reading.check_pages(
+            texts, results, recorded=recorded, generated_at=meta[2], exact=page_reading.exact_reader(pdf, texts)
+        )
     except page_reading.PagesUnreadable as exc:
         note = str(exc)
     return VerifyReport(
