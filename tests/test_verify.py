@@ -233,3 +233,23 @@ def test_numbers_are_read_whole():
 
     text = "EUR 198,800,000; 3.42x; RAROC -8.7 %; inputs fa2adc43388df2e9, 8b2ca85519be6e0d on 2031-01-02; 0.2123 %"
     assert sorted(numbers(text).elements()) == sorted(["198,800,000", "3.42x", "-8.7", "2031", "0.2123"])
+
+
+def test_a_decision_page_that_runs_on_verifies_and_counts_both_pages():
+    from conftest import SAMPLE_CASE
+    from obligor_memo.app.memo import render_memo_pdf
+    from obligor_memo.engine.analysis import analyse
+    from obligor_memo.engine.loading import load_case
+
+    case = load_case(SAMPLE_CASE)
+    # A 5,000-character request full of numbers and a 300-character word: the decision page
+    # runs on to page 2, and every number of it is still read.
+    phrase = "Renewal of the revolver of EUR 60m for 3 years at 2.75 % on the terms stated"
+    request = " ".join([phrase] * 70)[:4690] + " " + "Q" * 300  # 4,991 characters: within the limit
+    case = case.model_copy(update={"memo": case.memo.model_copy(update={"request": request})})
+    report = verify_memo(render_memo_pdf(analyse(case), charts=False))
+    decision = next(c for c in report.page_checks if c.part == "decision page")
+    assert decision.pages == (1, 2) and decision.holds
+    # The request alone prints 60, 3 and 2.75 once per whole phrase in its first 4,690 characters.
+    assert decision.expected >= 3 * (4690 // (len(phrase) + 1))
+    assert report.ok
