@@ -42,6 +42,7 @@ LIMITS = {
     "scenarios[].set": 50,  # inputs one scenario changes
     "pd.master_scale": 30,  # grade rows
     "exposure.ccf_by_grade": 200,  # CCF rows by grade
+    "covenants": 20,  # financial covenants tested on the latest year
 }
 
 
@@ -344,6 +345,47 @@ class MemoText(_Model):
     page_size: Literal["A4", "Letter"] = "A4"
 
 
+# --------------------------------------------------------------------------- covenants
+
+CovenantMetric = Literal["net_debt_to_ebitda", "interest_cover", "debt_to_equity", "ebitda_margin"]
+# The direction each metric's covenant takes (common practice: leverage is capped, cover floored).
+COVENANT_DIRECTION = {
+    "net_debt_to_ebitda": "max",
+    "interest_cover": "min",
+    "debt_to_equity": "max",
+    "ebitda_margin": "min",
+}
+
+
+class Covenant(_Model):
+    """One financial covenant, tested on the latest statement year (engine.covenants)."""
+
+    metric: CovenantMetric
+    threshold: Annotated[float, Field(gt=0, le=1000)]
+    """The limit [times; a fraction for ebitda_margin]."""
+    direction: Literal["max", "min"]
+    """"max": the metric must stay at or below the threshold; "min": at or above it."""
+    tested: Annotated[str, Field(min_length=1, max_length=60)] = "annual"
+    """How often it is tested, in words (annual, half-yearly, quarterly, ...)."""
+
+    @model_validator(mode="after")
+    def _consistent(self) -> Covenant:
+        expected = COVENANT_DIRECTION[self.metric]
+        if self.direction != expected:
+            kind = "cap" if expected == "max" else "floor"
+            raise FieldError(
+                "direction",
+                self.direction,
+                f"'{expected}' for {self.metric} (a covenant on it is a {kind}: "
+                f"the metric must stay {'at or below' if expected == 'max' else 'at or above'} the threshold)",
+            )
+        if self.metric == "ebitda_margin" and self.threshold >= 1:
+            raise FieldError("threshold", self.threshold, "a margin as a fraction above 0 and below 1, e.g. 0.15")
+        if not self.tested.strip():
+            raise FieldError("tested", self.tested, "how often it is tested, in words, e.g. annual or quarterly")
+        return self
+
+
 # --------------------------------------------------------------------------- review (roll-forward)
 
 
@@ -415,6 +457,7 @@ class Case(_Model):
     pricing: Pricing | None = None
     sensitivity: Sensitivity = Sensitivity()
     scenarios: list[Scenario] = Field(default_factory=list, max_length=LIMITS["scenarios"])
+    covenants: list[Covenant] = Field(default_factory=list, max_length=LIMITS["covenants"])
     statements_source: StatementsSource | None = None
     memo: MemoText = MemoText()
     review: Review | None = None

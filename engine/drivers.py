@@ -149,7 +149,7 @@ def break_evens(results: Any) -> tuple[BreakEven, ...]:
     if secured is not None:
         specs.append(
             (
-                f"Mean recovery of {secured.id}",
+                f"Recovery mean of {secured.id}, unsecured law",
                 f"facilities.{secured.id}.recovery.mean",
                 secured.recovery.mean,
                 0.01,

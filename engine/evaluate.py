@@ -16,8 +16,10 @@ from dataclasses import dataclass
 from obligor_memo.engine import ENGINE_VERSION
 from obligor_memo.engine.capital_step import allocate, capital_exposure, capital_figures, economic_basis
 from obligor_memo.engine.case import Case, case_to_dict
+from obligor_memo.engine.covenants import covenant_tests
 from obligor_memo.engine.credit_metrics import credit_metrics
 from obligor_memo.engine.deal_pricing import DealPricing, PricingLine, deal_pricing, price_lines
+from obligor_memo.engine.decision import cross_check_grades, unexplained_gaps
 from obligor_memo.engine.errors import CaseError, Caution
 from obligor_memo.engine.exposure import FacilityExposure, facility_exposure, resolve_ccf
 from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
@@ -122,6 +124,8 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
         )
     zscores, z_history, z_cautions = _zscores(case) if detail else ((), (), [])
     cautions.extend(z_cautions)
+    cross_checks = cross_check_grades(case, pd, zscores, market)
+    cautions.extend(_cross_check_cautions(case, pd, cross_checks))
 
     prepared = [_prepare_facility(case, index, f, pd.grade, cautions) for index, f in enumerate(case.facilities)]
     laws = {item.exposure.id: item.law for item in prepared}
@@ -251,6 +255,8 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
     )
     pricing, pricing_cautions = _price(case, tuple(facilities), total)
     cautions.extend(pricing_cautions)
+    covenants = covenant_tests(case.covenants, case.statements)
+    cautions.extend(_covenant_cautions(covenants))
     return Results(
         engine_version=ENGINE_VERSION,
         fingerprint=fingerprint(case),
@@ -270,7 +276,49 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
         cautions=tuple(cautions),
         laws=laws,
         credit_metrics=credit_metrics(case.statements),
+        covenants=covenants,
+        cross_checks=cross_checks,
     )
+
+
+def _cross_check_cautions(case: Case, pd: PdResult, checks) -> list[Caution]:
+    """Cross-checks more than two notches from the grade need the analyst's explanation."""
+    gaps = unexplained_gaps(checks, case.memo.cross_check_explanation)
+    if not gaps:
+        return []
+    listed = "; ".join(
+        f"{c.source}{' ' + c.reading if c.reading else ''}: grade {c.grade}, {abs(c.notches)} notches "
+        f"{'worse' if c.notches > 0 else 'better'}"
+        for c in gaps
+    )
+    return [
+        Caution(
+            "pd.cross_check_unexplained",
+            f"The cross-checks differ from grade {pd.grade} by more than two notches ({listed}) and no "
+            "explanation is recorded: the analyst must reconcile them in memo.cross_check_explanation.",
+            "memo.cross_check_explanation",
+        )
+    ]
+
+
+def _covenant_cautions(covenants) -> list[Caution]:
+    """A covenant breached on the latest year, or one the statements cannot test."""
+    out = []
+    for i, c in enumerate(covenants):
+        limit = f"{'at most' if c.direction == 'max' else 'at least'} {c.threshold:g}"
+        if c.breached:
+            out.append(
+                Caution(
+                    "covenant.breached",
+                    f"Covenant {c.label} {limit} is breached on {c.year}: the metric is {c.value:.2f}.",
+                    f"covenants[{i}]",
+                )
+            )
+        elif c.value is None:
+            out.append(
+                Caution("covenant.not_computable", f"Covenant {c.label} {limit}: {c.note}.", f"covenants[{i}].metric")
+            )
+    return out
 
 
 def _prepare_facility(case: Case, index: int, f, grade: str | None, cautions: list[Caution]) -> PreparedFacility:

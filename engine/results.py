@@ -13,8 +13,10 @@ from dataclasses import dataclass, field, fields, is_dataclass
 from typing import Any
 
 from obligor_memo.engine.case import Case, ScenarioValue, case_to_dict
+from obligor_memo.engine.covenants import CovenantTest
 from obligor_memo.engine.credit_metrics import CreditYear
 from obligor_memo.engine.deal_pricing import DealPricing
+from obligor_memo.engine.decision import CrossCheckGrade
 from obligor_memo.engine.errors import Caution
 from obligor_memo.engine.lossdist import LossDistribution
 from obligor_memo.engine.pd_estimate import MarketResult, PdResult
@@ -190,9 +192,13 @@ class Results:
     pd_grid: PdGrid | None = None
     """Attached by engine.analysis.analyse."""
     scenarios: tuple[ScenarioResult, ...] | None = None
+    """Attached by engine.analysis.analyse."""
     credit_metrics: tuple[CreditYear, ...] = ()
     """Leverage, cover and cash flow by year, where the statements give the lines."""
-    """Attached by engine.analysis.analyse."""
+    covenants: tuple[CovenantTest, ...] = ()
+    """Each covenant of the case on the latest year: value, headroom, EBITDA fall to breach."""
+    cross_checks: tuple[CrossCheckGrade, ...] = ()
+    """Z-score zones and market PDs graded on the master scale against the grade in force."""
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data: the contract of ``evaluate --json`` plus every intermediate."""

@@ -116,7 +116,7 @@ def test_recovery_density_matches_scipy_beta(results, facility_id):
     for key, q in (("5 %", 0.05), ("50 %", 0.50), ("95 %", 0.95)):
         mark = _trace(fig, f"{key} quantile")
         assert mark.x[0] == pytest.approx(ref.ppf(q), rel=1e-9)
-    assert _trace(fig, "Mean recovery").x[0] == pytest.approx(ref.mean(), rel=1e-9)
+    assert _trace(fig, "Expected recovery").x[0] == pytest.approx(ref.mean(), rel=1e-9)
 
 
 def test_point_mass_is_drawn_as_a_spike(results):

@@ -457,3 +457,57 @@ def test_appendix_inputs_read_back_as_the_case(sample_results, make_case, sample
         assert yaml.safe_load(view.inputs_yaml(data)) == expected
     appendix = sample_sections["Appendix I Inputs and record"]
     assert "confidence: 0.999" in appendix and "kind: term_loan" in appendix
+
+
+# --------------------------------------------------------------------------- covenants, whole words
+
+
+def test_covenant_row_on_the_decision_page_and_in_the_credit_analysis(sample_results, sample_sections):
+    # The sample's covenant: net debt / EBITDA at most 4.0x, on 2025.
+    # net debt 210,555,000 - 25,365,000 = 185,190,000; / EBITDA 54,220,000 = 3.42x
+    # headroom (4.0 - 3.4155) / 4.0 = 14.6 %; EBITDA fall to breach 1 - 3.4155 / 4.0 = 14.6 %
+    # EBITDA at breach 185,190,000 / 4.0 = 46,297,500
+    decision = " ".join(sample_sections["Decision"].split())
+    assert "Covenant 3.42x Net debt / EBITDA at most 4.00x, tested half-yearly: headroom 14.6 % on 2025" in decision
+    assert "EBITDA fall to breach 14.6 %" in decision
+    body = " ".join(sample_sections["1 The borrower and its accounts"].split())
+    assert "Covenants, tested on the latest year" in body
+    assert "Net debt / EBITDA at most 4.00x half-yearly 2025 3.42x 14.6 % 14.6 % 46,297,500" in body
+
+
+def test_numbers_and_headers_of_the_figure_tables_stay_whole(sample_pdf):
+    import test_memo_layout as layout_test
+
+    page_words = [t for p, *_, t in layout_test.words(sample_pdf) if p == 2]  # section 1's tables
+    years = [str(y) for y in range(2016, 2026)]
+    # Each year prints once in the ratios and once in the credit metrics (and once in the covenant row).
+    for year in years:
+        assert page_words.count(year) >= 2, year
+    assert page_words.count("Year") >= 3
+    assert not {"Yea", "201", "r", "6"} & set(page_words)  # no header or year broken in two
+    assert "3.42x" in page_words and "2.50x" in page_words
+
+
+def test_cross_checks_on_the_decision_page_and_their_explanation_in_section_2(sample_results, sample_sections):
+    decision = " ".join(sample_sections["Decision"].split())
+    # Naive market PD 4.58 % and the distress zone grade 8 against grade 4: four notches each.
+    assert "naive market PD grade 8 (4 worse)" in decision
+    assert "the analyst's reconciliation is in section 2" in decision
+    assert "not reconciled" not in decision.lower()
+    pd_text = " ".join(sample_sections["2 Probability of default"].split())
+    assert " ".join(sample_results.case.memo.cross_check_explanation.split()) in pd_text
+    assert "naive market PD PD 4.58 % 8 4 worse" in pd_text
+
+
+def test_unexplained_cross_checks_are_a_caution_on_the_decision_page(sample_results):
+    from obligor_memo.app.memo import render_memo_pdf
+    from obligor_memo.engine.analysis import analyse
+
+    case = sample_results.case
+    case = case.model_copy(update={"memo": case.memo.model_copy(update={"cross_check_explanation": ""})})
+    pdf = render_memo_pdf(analyse(case), charts=False, generated_at=STAMP)
+    first = " ".join(pdf_text(pdf).split("\f")[0].split())
+    assert "Cross-checks not reconciled." in first
+    assert "NOT RECONCILED: no explanation recorded" in first
+    assert "memo.cross_check_explanation" in first
+    assert "None is recorded." in " ".join(pdf_text(pdf).split())

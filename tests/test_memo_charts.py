@@ -223,3 +223,55 @@ def test_partial_bundle_draws_every_chart_pixel_identical_to_the_full_one(analys
     for partial, full in zip(pictures["partial"], pictures["full"]):
         a, b = Image.open(partial).convert("RGB"), Image.open(full).convert("RGB")
         assert a.size == b.size and ImageChops.difference(a, b).getbbox() is None, partial.name
+
+
+# --------------------------------------------------------------------------- printed text size
+
+# pdftotext's word box is the font's ascent to descent: 1.164 em for DejaVu Sans (measured on
+# the memo's own 9 pt body text: boxes 10.48 pt high).
+_EM = 1.164
+
+
+def _printed_sizes(pdf: bytes) -> list[tuple[int, float, str]]:
+    """(page, font size [pt], word) of every word whose orientation is clear from its box:
+    wider than high (horizontal) or at least twice as high as wide (a rotated axis title)."""
+    import html
+    import re
+
+    out = subprocess.run(["pdftotext", "-bbox", "-", "-"], input=pdf, capture_output=True, check=True)
+    found = []
+    for n, page in enumerate(re.findall(r"<page (.*?)</page>", out.stdout.decode(), flags=re.S), start=1):
+        for m in re.finditer(r'xMin="([\d.]+)" yMin="([\d.]+)" xMax="([\d.]+)" yMax="([\d.]+)">(.*?)</word>', page):
+            x0, y0, x1, y1 = (float(m.group(i)) for i in range(1, 5))
+            word = html.unescape(m.group(5))
+            w, h = x1 - x0, y1 - y0
+            if len(word) < 2:
+                continue  # a lone narrow glyph's box cannot tell its orientation
+            if w >= h:
+                found.append((n, h / _EM, word))
+            elif h >= 2 * w:
+                found.append((n, w / _EM, word))
+    return found
+
+
+@needs_browser
+def test_every_printed_word_is_at_least_7_pt(charted_pdf):
+    sizes = _printed_sizes(charted_pdf)
+    assert len(sizes) > 3000  # the charts' words are read too (vector text)
+    small = [(page, round(size, 2), word) for page, size, word in sizes if size < 6.95]
+    assert small == []
+
+
+def test_chart_fonts_print_at_7_pt_in_their_boxes(analysed):
+    from obligor_memo.app.memo.figures import COLUMN_PT, PRINT_MIN_PT, SMALL_SHARE, build_figures, chart_specs
+
+    # A4: 210 mm less two 16 mm margins = 178 mm = 504.6 pt of column (1 in = 25.4 mm = 72 pt).
+    assert COLUMN_PT == pytest.approx(504.57, abs=0.01)
+    figures, _ = build_figures(analysed)
+    widths = {s.key: s.width for s in chart_specs(analysed)}
+    for key, fig in figures.items():
+        box = COLUMN_PT * (SMALL_SHARE if widths[key] < 700 else 1.0)
+        scale = box / widths[key]  # pt on paper per px of the export
+        sizes = [fig.layout.font.size] + [a.font.size for a in fig.layout.annotations if a.font.size is not None]
+        sizes += [t.textfont.size for t in fig.data if getattr(t, "textfont", None) is not None and t.textfont.size]
+        assert min(sizes) * scale >= PRINT_MIN_PT, key

@@ -77,9 +77,11 @@ def recovery_figure(results: Any, facility_id: str, *, points: int = 400) -> go.
                 hovertemplate="recovery %{x:.1%}: density %{y:.2f}<extra></extra>",
             )
         )
-        y_title = "Density [1 / unit of recovery rate]"
+        y_title = "Density [1 / unit]"  # per unit of recovery rate; short enough for a half-width chart
         fig.update_yaxes(range=[0, top])
-    marks = [("mean", mean, COPPER, "solid", f"Mean recovery {pct(mean, 1)} (LGD {pct(fac.lgd, 1)})")]
+    # The effective law's mean, 1 - LGD: distinct words from the unsecured law's mean (appendix C).
+    expected = "Expected recovery with collateral" if fac.collateral_cover > 0 else "Expected recovery"
+    marks = [("mean", mean, COPPER, "solid", f"{expected} {pct(mean, 1)} (LGD {pct(fac.lgd, 1)})")]
     for key, label, colour, dash in (
         ("q05", "5 %", MOSS, "dot"),
         ("q50", "50 %", PLUM, "dash"),
@@ -268,6 +270,6 @@ def loss_distribution_figure(results: Any) -> go.Figure:
         fig,
         title=f"Borrower loss over {num(results.pd.horizon_years, 1)} year(s), {dist.join} recoveries",
         x_title=f"Loss x {money_axis(results)}",
-        y_title="Probability that loss exceeds x (log scale)",
+        y_title="P(loss > x) [log scale]",
     )
     return fig

@@ -53,7 +53,12 @@ def layout_dict(
         "ticks": "outside",
         "tickcolor": STEEL,
         "showline": True,
+        "automargin": True,  # the margin grows to hold long tick labels, so no title runs over them
     }
+    bottom = 120 if legend_below else 50
+    # The legend starts a fixed distance below the plot (past the tick labels and the x-axis
+    # title, about 60 px at the base font), whatever the figure's height.
+    plot_height = max(height - 60 - bottom, 60)
     return {
         "template": "none",
         "title": {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 16, "color": INK}},
@@ -61,10 +66,12 @@ def layout_dict(
         "paper_bgcolor": "white",
         "plot_bgcolor": "white",
         "height": height,
-        "margin": {"l": 70, "r": 30, "t": 60, "b": 120 if legend_below else 50},
+        "margin": {"l": 70, "r": 30, "t": 60, "b": bottom},
         "hoverlabel": {"font": {"family": FONT}},
         "legend": (
-            {"orientation": "h", "yanchor": "top", "y": -0.24, "xanchor": "left", "x": 0.0} if legend_below else {}
+            {"orientation": "h", "yanchor": "top", "y": -min(0.6, 60 / plot_height), "xanchor": "left", "x": 0.0}
+            if legend_below
+            else {}
         ),
         "xaxis": {**axis, "title": {"text": x_title}},
         "yaxis": {**axis, "title": {"text": y_title}},

@@ -25,6 +25,34 @@ from obligor_memo.app.memo.chart_browser import (
 from obligor_memo.app.memo.svg_slim import slim_svg
 
 PRINT_FONT = "DejaVu Sans"
+# Chart text is at least 7 pt on the printed page. A chart is exported ``width`` px wide and
+# scaled into its box: the A4 text column (210 - 2 x 16 mm = 178 mm = 504.6 pt; Letter's is
+# wider) or half of it for a small chart (49 %). One px of font prints as box / width pt.
+PRINT_MIN_PT = 7.2
+COLUMN_PT = 178 / 25.4 * 72
+SMALL_SHARE = 0.49
+
+
+def min_font_px(width_px: int) -> int:
+    """The smallest font [px] that prints at PRINT_MIN_PT once the chart is scaled into its box."""
+    import math
+
+    box = COLUMN_PT * (SMALL_SHARE if width_px < 700 else 1.0)
+    return math.ceil(PRINT_MIN_PT * width_px / box)
+
+
+def raise_small_text(fig: Any, min_px: int) -> None:
+    """Every font of the figure at least ``min_px``: the base font (ticks, legend, axis titles
+    inherit it), annotations and trace text set smaller on their own."""
+    base = fig.layout.font.size or 12
+    fig.update_layout(font_size=max(base, min_px))
+    for annotation in fig.layout.annotations or ():
+        if annotation.font.size is not None and annotation.font.size < min_px:
+            annotation.font.size = min_px
+    for trace in fig.data:
+        font = getattr(trace, "textfont", None)
+        if font is not None and font.size is not None and not isinstance(font.size, tuple) and font.size < min_px:
+            trace.textfont.size = min_px
 
 
 # --------------------------------------------------------------------------- figures
@@ -46,7 +74,7 @@ def chart_specs(results: Any) -> list[ChartSpec]:
         ChartSpec("term_structure", "term_structure_figure"),
         ChartSpec("exposure", "exposure_figure"),
     ]
-    specs += [ChartSpec(f"recovery:{f.id}", "recovery_figure", (f.id,), width=520) for f in results.facilities]
+    specs += [ChartSpec(f"recovery:{f.id}", "recovery_figure", (f.id,), width=440) for f in results.facilities]
     specs += [
         ChartSpec("loss_distribution", "loss_distribution_figure"),
         ChartSpec("sensitivity", "sensitivity_figure"),
@@ -81,10 +109,11 @@ def build_figures(results: Any) -> tuple[dict[str, Any], dict[str, str]]:
             continue
         # The memo's own font: the same letters as the text, and no font fallback per label.
         fig.update_layout(paper_bgcolor="white", plot_bgcolor="white", font_family=PRINT_FONT)
+        raise_small_text(fig, min_font_px(spec.width))
         if spec.width < 700:
             # Half-width on paper: the legend wraps to one entry a line, so give it its own room
             # below the axis title instead of letting the two overlap.
-            fig.update_layout(height=430, margin={"b": 135}, legend={"y": -0.28})
+            fig.update_layout(height=470, margin={"b": 150}, legend={"y": -0.30})
         object.__setattr__(fig, "_memo_width", spec.width)
         figures[spec.key] = fig
     return figures, notes

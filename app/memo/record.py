@@ -21,7 +21,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from obligor_memo.app.present import formatting as fmt
+from obligor_memo.app.memo.printed import printed_figures  # defined there, re-exported here
 
 CASE_FILE = "case.json"
 FIGURES_FILE = "printed-figures.json"
@@ -37,75 +37,6 @@ def canonical_case_json(results: Any) -> bytes:
     from obligor_memo.engine.evaluate import canonical_case_json as canonical
 
     return canonical(results.case)
-
-
-def printed_figures(results: Any) -> dict[str, str]:
-    """Every figure the memo prints and verify re-checks: label -> text as printed.
-
-    Summary amounts carry the currency; per-facility amounts are printed in tables whose header
-    names the currency, so they are recorded without it, as printed.
-    """
-    cur = results.case.borrower.currency
-    pd, t = results.pd, results.total
-    out: dict[str, str] = {
-        "PD in force": fmt.pd_pct(pd.pd),
-        "Model PD": fmt.pd_pct(pd.model_pd),
-        "Distance to default": fmt.num(pd.distance_to_default, 3),
-        "Grade": pd.grade if pd.grade is not None else "not graded",
-        "Asset value": fmt.money(pd.asset_value, cur),
-        "Asset volatility": fmt.pct(pd.asset_volatility),
-        "Default point": fmt.money(pd.default_point, cur),
-        "Total EAD": fmt.money(t.ead, cur),
-        "Total EL": fmt.money(t.expected_loss, cur),
-        "EL rate": fmt.pct(t.el_rate, 3),
-        "Total UL": fmt.money(t.unexpected_loss, cur),
-        "Total RWA": fmt.money(t.rwa, cur),
-        "Regulatory capital": fmt.money(t.regulatory_capital, cur),
-        "Loss quantile (VaR)": fmt.money(t.value_at_risk, cur),
-        "Economic capital": fmt.money(t.economic_capital, cur),
-        "Economic capital (single factor)": fmt.money(t.economic_capital_single_factor, cur),
-        "Economic capital (standalone)": fmt.money(t.economic_capital_standalone, cur),
-        "One-year PD": fmt.pd_pct(pd.pd_one_year),
-        "IRB EL": fmt.money(t.regulatory_expected_loss, cur),
-        "Lifetime EL": fmt.money(t.lifetime_expected_loss),  # table headed [currency]
-    }
-    if pd.asset_growth is not None:
-        out["Asset growth"] = fmt.pct(pd.asset_growth)
-    for f in results.facilities:
-        out[f"{f.id}: EAD"] = fmt.money(f.ead)
-        out[f"{f.id}: CCF"] = fmt.pct(f.ccf, 0)
-        out[f"{f.id}: LGD"] = fmt.pct(f.lgd, 1)
-        out[f"{f.id}: EL"] = fmt.money(f.expected_loss)
-        out[f"{f.id}: UL"] = fmt.money(f.unexpected_loss)
-        out[f"{f.id}: risk weight"] = fmt.pct(f.risk_weight, 1)
-        out[f"{f.id}: RWA"] = fmt.money(f.rwa)
-    p = results.pricing
-    if p is not None:
-        out["Minimum spread"] = (
-            fmt.pct(p.minimum_spread) if p.minimum_spread is not None else "not defined (nothing drawn)"
-        )
-        out["Proposed spread"] = fmt.pct(p.proposed_spread)
-        out["RAROC"] = fmt.pct(p.raroc, 1) if p.raroc is not None else "undefined (capital 0)"
-        out["RAROC (regulatory capital)"] = fmt.pct(p.raroc_regulatory, 1)
-        out["RAROC (economic capital)"] = fmt.pct(p.raroc_economic, 1)
-    for z in getattr(results, "zscores", ()):
-        if z.score is not None:
-            out[f"Z-score {z.variant}"] = fmt.num(z.score, 2)
-    market = getattr(results, "market", None)
-    if market is not None:
-        if market.merton is not None:
-            out["Market-implied PD"] = fmt.pd_pct(market.merton.pd)
-            out["Market distance to default"] = fmt.num(market.merton.distance_to_default, 3)
-        out["Naive market PD"] = fmt.pd_pct(float(market.naive.pd))
-    for s in getattr(results, "scenarios", None) or ():
-        out[f"Scenario {s.name}: PD"] = fmt.pd_pct(s.figures.pd)
-        out[f"Scenario {s.name}: EL"] = fmt.money(s.figures.expected_loss)
-        out[f"Scenario {s.name}: RWA"] = fmt.money(s.figures.rwa)
-    sensitivity = getattr(results, "sensitivity", None)
-    for row in sensitivity.rows if sensitivity is not None else ():
-        out[f"Sensitivity {row.label}: EL low"] = fmt.money(row.el_low)
-        out[f"Sensitivity {row.label}: EL high"] = fmt.money(row.el_high)
-    return out
 
 
 def figures_record(results: Any, *, generated_at: str) -> bytes:
@@ -156,6 +87,22 @@ class VerifyReport:
     case_fingerprint: str
     generated_at: str
     checks: tuple[FigureCheck, ...] = field(default_factory=tuple)
+    page_fingerprints: tuple[str | None, ...] = ()
+    """The fingerprint in each page's footer (16 hex digits; None: the page carries none)."""
+    page_checks: tuple[Any, ...] = ()
+    """pages.PageCheck of the decision page and the body."""
+    pages_note: str = ""
+    """Why the pages could not be read ("" when they were)."""
+
+    @property
+    def pages_belong(self) -> bool:
+        """Every page carries the fingerprint of the attached case."""
+        short = self.case_fingerprint[:16]
+        return bool(self.page_fingerprints) and all(f == short for f in self.page_fingerprints)
+
+    @property
+    def pages_hold(self) -> bool:
+        return not self.pages_note and self.pages_belong and all(c.holds for c in self.page_checks)
 
     @property
     def fingerprint_holds(self) -> bool:
@@ -167,7 +114,42 @@ class VerifyReport:
 
     @property
     def ok(self) -> bool:
-        return self.fingerprint_holds and not self.changed
+        return self.fingerprint_holds and not self.changed and self.pages_hold
+
+    def _page_lines(self) -> list[str]:
+        if self.pages_note:
+            return [f"PAGES NOT READ: {self.pages_note}."]
+        short = self.case_fingerprint[:16]
+        lines = []
+        foreign = [i + 1 for i, f in enumerate(self.page_fingerprints) if f != short]
+        if not foreign:
+            lines.append(
+                f"Pages: all {len(self.page_fingerprints)} pages carry the attached case's fingerprint {short}."
+            )
+        else:
+            shown = sorted({f or "none" for f in self.page_fingerprints if f != short})
+            lines.append(
+                f"PAGES DO NOT BELONG TO THE ATTACHMENTS: page(s) {', '.join(map(str, foreign[:20]))} carry "
+                f"{', '.join(shown)}, the attached case is {short}."
+            )
+        for c in self.page_checks:
+            pages = f"page{'s' if len(c.pages) != 1 else ''} {', '.join(map(str, c.pages))}"
+            scope = "every number" if c.part == "decision page" else "every number of the text and tables"
+            if c.holds:
+                lines.append(
+                    f"  holds    {c.part} ({pages}): {scope} as recomputed, {c.matched} of {c.expected} numbers read"
+                    + (" (chart labels not checked)" if c.part == "body" else "")
+                )
+                continue
+            detail = []
+            if c.missing:
+                detail.append("recomputed but not printed: " + ", ".join(c.missing[:12]))
+            if c.extra:
+                detail.append("printed but not recomputed: " + ", ".join(c.extra[:12]))
+            if c.recorded_absent:
+                detail.append("recorded figures not on the page: " + ", ".join(c.recorded_absent))
+            lines.append(f"  CHANGED  {c.part} ({pages}): " + "; ".join(detail))
+        return lines
 
     def text(self) -> str:
         """A plain report, one line per figure, that a committee secretary can file."""
@@ -196,18 +178,22 @@ class VerifyReport:
                 lines.append(f"  GONE     {c.label.ljust(width)}  printed {c.printed}, no longer computed")
             else:
                 lines.append(f"  CHANGED  {c.label.ljust(width)}  printed {c.printed}, now {c.now}")
+        lines.extend(self._page_lines())
         held = sum(c.holds and c.printed is not None for c in self.checks)
         printed = sum(c.printed is not None for c in self.checks)
-        verdict = (
-            "all printed figures hold"
-            if self.ok
-            else (
-                f"{len(self.changed)} figure(s) differ: " + ", ".join(c.label for c in self.changed)
-                if self.changed
-                else "the figures hold but the inputs do not match the fingerprint"
-            )
+        read = sum(c.matched for c in self.page_checks)
+        if self.ok:
+            verdict = "the recorded figures and the numbers read on the pages hold"
+        elif self.changed:
+            verdict = f"{len(self.changed)} figure(s) differ: " + ", ".join(c.label for c in self.changed)
+        elif not self.fingerprint_holds:
+            verdict = "the figures hold but the inputs do not match the fingerprint"
+        else:
+            verdict = "the attachments hold but the pages do not agree with them"
+        lines.append(
+            f"{held} of {printed} recorded figures hold; {read} numbers read on the decision page and the "
+            f"body checked against the recomputation; {verdict}."
         )
-        lines.append(f"{held} of {printed} printed figures hold; {verdict}.")
         return "\n".join(lines)
 
 
@@ -243,6 +229,19 @@ def verify_memo(pdf: bytes) -> VerifyReport:
     now = printed_figures(results)
     labels = list(recorded) + [label for label in now if label not in recorded]
     checks = tuple(FigureCheck(label, recorded.get(label), now.get(label)) for label in labels)
+    from obligor_memo.app.memo import pages as page_reading
+
+    page_fingerprints: tuple[str | None, ...] = ()
+    page_checks: tuple[Any, ...] = ()
+    note = ""
+    try:
+        texts = page_reading.page_texts(pdf)
+        page_fingerprints = page_reading.footer_fingerprints(texts)
+        page_checks = page_reading.check_pages(
+            texts, results, recorded=recorded, generated_at=meta[2], exact=page_reading.exact_reader(pdf, texts)
+        )
+    except page_reading.PagesUnreadable as exc:
+        note = str(exc)
     return VerifyReport(
         printed_engine_version=meta[0],
         current_engine_version=ENGINE_VERSION,
@@ -250,4 +249,7 @@ def verify_memo(pdf: bytes) -> VerifyReport:
         case_fingerprint=embedded_hash,
         generated_at=meta[2],
         checks=checks,
+        page_fingerprints=page_fingerprints,
+        page_checks=page_checks,
+        pages_note=note,
     )

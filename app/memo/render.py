@@ -36,13 +36,15 @@ def render_memo_html(
 ) -> str:
     """The memo's HTML with the charts inline as SVG data URIs (for reading or another renderer;
     :func:`render_memo_pdf` references the charts instead and draws them while laying out)."""
+    size = _page_size(results, page_size)
+    results = as_printed(results, size)
     svgs, notes = export_charts(results) if charts else ({}, {})
     return memo_html(
         results,
         charts=svgs,
         notes=notes,
         charts_requested=charts,
-        page_size=_page_size(results, page_size),
+        page_size=size,
         stamp=_stamp(generated_at),
     )
 
@@ -57,6 +59,19 @@ def _page_size(results: Any, page_size: str | None) -> str:
     if size not in PAGE_SIZES:
         raise ValueError(f"page_size: got {size!r}; allowed: {', '.join(PAGE_SIZES)}")
     return size
+
+
+def as_printed(results: Any, size: str) -> Any:
+    """The results with the case saying the paper it is printed on: a memo printed on Letter from
+    an A4 case embeds, lists and fingerprints ``memo.page_size: Letter`` (no figure depends on it)."""
+    if results.case.memo.page_size == size:
+        return results
+    import dataclasses
+
+    from obligor_memo.engine.evaluate import fingerprint
+
+    case = results.case.model_copy(update={"memo": results.case.memo.model_copy(update={"page_size": size})})
+    return dataclasses.replace(results, case=case, fingerprint=fingerprint(case))
 
 
 def html_to_pdf(
@@ -142,6 +157,7 @@ def render_memo_pdf(
     "writing" (placing them).
     """
     size = _page_size(results, page_size)
+    results = as_printed(results, size)
     stamp = _stamp(generated_at)
     with layout.objects_set_aside():  # plotly's figure building makes many objects too
         job = ChartJob(results, exporter=exporter) if charts else None

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from obligor_memo.app.memo import record as pdfcase
+from obligor_memo.app.memo import printed as pdfcase
 from obligor_memo.app.memo.fetch import CHART_ANCHOR, CHART_SCHEME
 from obligor_memo.app.memo.templates import environment
 from obligor_memo.app.present import formatting as fmt
@@ -58,6 +58,52 @@ def scenario_sentence(line: Any, base_grade: str | None, hurdle: float | None) -
         verdict = "meets" if line.meets_hurdle else "falls below"
         text += f"; RAROC {fmt.pct(line.raroc, 1)} {verdict} the {fmt.pct(hurdle, 1)} hurdle"
     return text + "."
+
+
+def cross_check_view(results: Any) -> dict[str, Any]:
+    """The cross-checks graded against the grade in force, in words, and whether they need the
+    analyst's reconciliation (more than two notches apart) and have it."""
+    from obligor_memo.engine.decision import NOTCH_TOLERANCE, ZONE_PD
+
+    checks = getattr(results, "cross_checks", ())
+    rows = []
+    for c in checks:
+        read = f"{c.reading} zone, read as PD {fmt.pct(c.pd, 1)}" if c.reading else f"PD {fmt.pd_pct(c.pd)}"
+        notches = "same grade" if c.notches == 0 else f"{abs(c.notches)} {'worse' if c.notches > 0 else 'better'}"
+        rows.append(
+            {
+                "source": c.source,
+                "read": read,
+                "grade": c.grade,
+                "notches": notches,
+                "far": abs(c.notches) > NOTCH_TOLERANCE,
+            }
+        )
+    far = [r for r in rows if r["far"]]
+    explained = bool(results.case.memo.cross_check_explanation.strip())
+    grade = results.pd.grade
+    if not checks:
+        sentence = "no cross-check available for these inputs"
+    elif not far:
+        sentence = f"every cross-check within {NOTCH_TOLERANCE} notches of grade {grade}"
+    else:
+        listed = "; ".join(f"{r['source']} grade {r['grade']} ({r['notches']})" for r in far)
+        tail = (
+            "the analyst's reconciliation is in section 2" if explained else "NOT RECONCILED: no explanation recorded"
+        )
+        sentence = f"{listed}, against grade {grade}: {tail}"
+    unexplained = next((c.message for c in results.cautions if c.code == "pd.cross_check_unexplained"), None)
+    zones = ", ".join(f"{zone} {fmt.pct(value, 1)}" for zone, value in ZONE_PD.items())
+    worst = max(checks, key=lambda c: abs(c.notches), default=None)
+    value = f"grade {worst.grade}" if far and worst is not None else "—"
+    return {
+        "rows": rows,
+        "sentence": sentence,
+        "value": value,
+        "unexplained": unexplained,
+        "zone_convention": zones,
+        "far": bool(far),
+    }
 
 
 def short_fingerprint(results: Any) -> str:
@@ -132,7 +178,15 @@ def build_view(
             scenario_sentence(decision.worst, results.pd.grade, hurdle) if decision.worst is not None else None
         ),
         "key_risks": list(case.memo.risks[:3]),
+        "covenant_lines": [pdfcase.covenant_line(c) for c in getattr(results, "covenants", ())],
         "drivers": pd_drivers(results),
+        "cross": cross_check_view(results),
+        "scenario_changes": {
+            s.name: [
+                fmt.scenario_change(path, value, tuple(f.id for f in case.facilities)) for path, value in s.overrides
+            ]
+            for s in getattr(results, "scenarios", None) or ()
+        },
         "spread_note": spread_note,
         "generated_at": generated_at,
         "page_size": page_size,

@@ -64,3 +64,85 @@ def years(value: float | None) -> str:
     if value is None:
         return "n/a"
     return f"{value:g} y"
+
+
+# --------------------------------------------------------------------------- scenario changes in words
+
+# A case path a scenario sets -> (words, how its value prints). Paths not listed print their
+# words from the path itself (never the dotted path).
+_RATE1 = ("pct", 1)
+_CHANGE_WORDS: dict[str, tuple[str, tuple[str, int]]] = {
+    "pd.asset_growth": ("Asset growth", ("pct_a_year", 1)),
+    "pd.asset_volatility": ("Asset volatility", _RATE1),
+    "pd.default_point.long_term_share": ("Long-term liabilities in the default point", ("pct", 0)),
+    "pd.default_point.short_term_share": ("Short-term liabilities in the default point", ("pct", 0)),
+    "pd.horizon_years": ("PD horizon", ("years", 0)),
+    "pd.override": ("PD set by the analyst", ("pd", 0)),
+    "pd.window_years": ("Trend window", ("years", 0)),
+    "pd.method": ("PD method", ("label", 0)),
+    "lgd.standard": ("LGD standard", ("standard", 0)),
+    "exposure.ccf_standard": ("CCF standard", ("standard", 0)),
+    "capital.confidence": ("Capital confidence", _RATE1),
+    "pricing.proposed_spread": ("Proposed spread", ("pct", 2)),
+    "pricing.hurdle_rate": ("Hurdle rate", _RATE1),
+    "pricing.base_rate": ("Base rate", ("pct", 2)),
+    "pricing.funding_spread": ("Funding spread", ("pct", 2)),
+}
+_FACILITY_WORDS: dict[str, tuple[str, tuple[str, int]]] = {
+    "ccf": ("CCF", ("pct", 0)),
+    "drawn": ("drawn", ("money", 0)),
+    "committed": ("committed", ("money", 0)),
+    "maturity_years": ("maturity", ("years", 0)),
+    "recovery.mean": ("recovery mean, unsecured law", _RATE1),
+    "recovery.std": ("recovery std, unsecured law", _RATE1),
+    "collateral.value": ("collateral value", ("money", 0)),
+    "collateral.haircut": ("collateral haircut", ("pct", 0)),
+    "seniority": ("seniority", ("label", 0)),
+}
+
+
+def _change_value(value: object, how: tuple[str, int]) -> str:
+    kind, decimals = how
+    if value is None:
+        return "not set (estimated)"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, (int, float)):
+        number = float(value)
+        if kind == "pct":
+            return pct(number, decimals)
+        if kind == "pct_a_year":
+            return f"{pct(number, decimals)} a year"
+        if kind == "pd":
+            return pd_pct(number)
+        if kind == "years":
+            return years(number)
+        if kind == "money":
+            return money(number)
+        return f"{number:g}"
+    text = str(value)
+    if kind == "standard":
+        return {"basel_ii": "Basel II", "basel_iii": "Basel III"}.get(text, text.replace("_", " "))
+    return text.replace("_", " ")
+
+
+def _path_words(path: str) -> str:
+    return " ".join(part.replace("_", " ") for part in path.split("."))
+
+
+def scenario_change(path: str, value: object, facility_ids: tuple[str, ...] = ()) -> str:
+    """One input a scenario sets, in words: 'pd.asset_growth = -0.05' -> 'Asset growth -5.0 % a year'."""
+    if path in _CHANGE_WORDS:
+        words, how = _CHANGE_WORDS[path]
+        return f"{words} {_change_value(value, how)}"
+    if path.startswith("facilities."):
+        rest = path[len("facilities.") :]
+        # The longest facility id the path starts with (ids may hold dots), or the wildcard.
+        owner = next((i for i in sorted((*facility_ids, "*"), key=len, reverse=True) if rest.startswith(i + ".")), None)
+        if owner is not None:
+            field = rest[len(owner) + 1 :]
+            who = "Every facility" if owner == "*" else owner
+            words, how = _FACILITY_WORDS.get(field, (_path_words(field), ("plain", 0)))
+            return f"{who}: {words} {_change_value(value, how)}"
+    words = _path_words(path)
+    return f"{words[:1].upper()}{words[1:]} {_change_value(value, ('plain', 0))}"
