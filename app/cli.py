@@ -139,9 +139,12 @@ def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> No
 @click.argument("memo_pdf", metavar="MEMO.pdf", type=click.Path(exists=True, dir_okay=False, path_type=Path))
 @_guard
 def verify(memo_pdf: Path) -> None:
-    """Re-compute MEMO.pdf from the case it carries and check every printed figure.
+    """Re-compute MEMO.pdf from the case it carries and check the figures on its pages.
 
-    Exit 0 when every figure holds and the inputs match their fingerprint, 1 otherwise.
+    Checks the fingerprint in every page footer against the attached case, every number on the
+    decision page and every recomputed number of the body's text and tables (chart labels and the
+    appendices are not read), and reports how many numbers it checked. Exit 0 when all hold, 1
+    otherwise.
     """
     from obligor_memo.app.memo.record import MemoRecordError, verify_memo
 

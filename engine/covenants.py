@@ -1,5 +1,4 @@
-"""Financial covenants tested on the latest year: the value now, the headroom, the EBITDA fall
-that would breach each.
+"""Financial covenants tested on the latest year: value, headroom and EBITDA fall to breach.
 
 A covenant caps a multiple (``direction = "max"``: net debt / EBITDA, debt / equity) or sets a
 floor under one (``"min"``: interest cover, EBITDA margin). The metrics are those of

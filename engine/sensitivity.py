@@ -276,7 +276,7 @@ def one_way_sensitivity(case: Case, base: Results | None = None) -> OneWaySensit
         else:
             path = f"facilities.*.{'ccf' if name == 'ccf' else 'recovery.mean'}"
             unit = "[fraction]"
-            label = "CCF (each facility)" if name == "ccf" else "Mean recovery (each facility)"
+            label = "CCF (each facility)" if name == "ccf" else "Recovery mean, unsecured law (each facility)"
             value = low_value = high_value = None
             low_set, high_set, shifts, facility_notes = _facility_plan(name, case, base, step)
             row_notes.extend(facility_notes)

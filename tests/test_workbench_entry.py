@@ -172,3 +172,20 @@ def test_a_second_session_on_the_same_case_is_told_instead_of_overwriting(tmp_pa
     next(b for b in first.button if b.label == "Keep this tab's version").click().run()
     saved = json.loads((tmp_path / "cases" / f"{first.session_state['case_id']}.json").read_text())
     assert saved["raw"]["borrower"]["sector"] == "From the first tab" and saved["revision"] == 4
+
+
+def test_a_covenant_row_reads_its_threshold_in_the_metric_s_unit_and_takes_its_direction():
+    from obligor_memo.app.workbench import grids
+
+    delta = {"added_rows": [{"metric": "EBITDA margin", "threshold": "12", "tested": "quarterly"}]}
+    rows = grids.apply_grid_delta([], delta, grids.COVENANT_COLUMNS, {"tested": "annual"})
+    rows = [grids.complete_covenant(r) for r in rows]
+    # A margin is a rate: typed in per cent, stored as a fraction; a floor, so "min".
+    assert rows == [{"tested": "quarterly", "metric": "ebitda_margin", "threshold": 0.12, "direction": "min"}]
+    lev = grids.apply_grid_delta(
+        rows, {"edited_rows": {"0": {"metric": "Net debt / EBITDA", "threshold": "4"}}}, grids.COVENANT_COLUMNS
+    )
+    lev = [grids.complete_covenant(r) for r in lev]
+    assert lev[0]["threshold"] == 4.0 and lev[0]["direction"] == "max"
+    frame = grids.grid_frame(rows, grids.COVENANT_COLUMNS)
+    assert frame.loc[0, "threshold"] == "12" and frame.loc[0, "metric"] == "EBITDA margin"

@@ -10,26 +10,9 @@ from __future__ import annotations
 from typing import Any
 
 from obligor_memo.app.present import formatting as fmt
+from obligor_memo.app.present.covenants import covenant_line
 
-
-def covenant_line(c: Any) -> dict[str, str]:
-    """One covenant as the memo prints it (the decision page and section 1 use these strings)."""
-    value_fmt = (lambda v: fmt.pct(v, 1)) if c.metric == "ebitda_margin" else fmt.times
-    if c.ebitda_fall_to_breach is not None and not c.breached:
-        fall = fmt.pct(c.ebitda_fall_to_breach, 1)
-    else:
-        fall = c.note or "n/a"
-    return {
-        "label": c.label,
-        "limit": f"{'at most' if c.direction == 'max' else 'at least'} {value_fmt(c.threshold)}",
-        "tested": c.tested,
-        "year": str(c.year) if c.year is not None else "n/a",
-        "value": value_fmt(c.value) if c.value is not None else "not computable",
-        "headroom": fmt.pct(c.headroom, 1) if c.headroom is not None else "n/a",
-        "fall": fall,
-        "ebitda_at_breach": fmt.money(c.ebitda_at_breach) if c.ebitda_at_breach is not None else "n/a",
-        "status": "breached" if c.breached else "holds" if c.breached is False else "not tested",
-    }
+__all__ = ["covenant_line", "printed_figures"]
 
 
 def printed_figures(results: Any) -> dict[str, str]:

@@ -235,6 +235,11 @@ FIELDS: dict[str, FieldName] = {
     "memo.default_point_reason": FieldName(MEMO, "Why this default point"),
     "memo.cross_check_explanation": FieldName(MEMO, "Cross-checks reconciled"),
     "memo.risks": FieldName(MEMO, "Key risks and mitigants"),
+    "covenants": FieldName(MEMO, "Covenants"),
+    "covenants[*].metric": FieldName(MEMO, "metric"),
+    "covenants[*].threshold": FieldName(MEMO, "threshold"),
+    "covenants[*].direction": FieldName(MEMO, "must stay"),
+    "covenants[*].tested": FieldName(MEMO, "tested"),
     "memo.prepared_by": FieldName(MEMO, "Prepared by"),
     "memo.reviewed_by": FieldName(MEMO, "Reviewed by"),
     "memo.approved_by": FieldName(MEMO, "Approved by"),
@@ -308,6 +313,9 @@ def where(path: str, raw: dict[str, Any] | None) -> str:
         items = raw.get("scenarios") if isinstance(raw.get("scenarios"), list) else []
         item = items[parts[1]] if parts[1] < len(items) and isinstance(items[parts[1]], dict) else {}
         return f"Scenario {item.get('name') or parts[1] + 1}"
+    if parts[:1] == ["covenants"] and len(parts) >= 2 and isinstance(parts[1], int):
+        tail = f", {field_name(path).label}" if len(parts) > 2 and field_name(path) else ""
+        return f"Covenant {parts[1] + 1}{tail}"
     if parts[:2] == ["memo", "risks"] and len(parts) >= 3 and isinstance(parts[2], int):
         tail = f", {parts[3]}" if len(parts) > 3 else ""
         return f"Key risk {parts[2] + 1}{tail}"

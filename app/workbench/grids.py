@@ -4,12 +4,13 @@ their keys), and one data-editor change applied to the case's records."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Callable
+from dataclasses import dataclass, replace
 from typing import Any
 
 import streamlit as st
 from obligor_memo.app.workbench import entry
-from obligor_memo.engine.case import StatementRow
+from obligor_memo.engine.case import COVENANT_DIRECTION, StatementRow
 
 
 @dataclass(frozen=True)
@@ -32,9 +33,17 @@ class Column:
     default: Any = None
     width: str | None = None
     """"small", "medium" or "large"; None: the grid's own choice."""
+    unit_for: Callable[[dict[str, Any]], str] | None = None
+    """The unit read off the row itself (a covenant's threshold: times, or % for a margin)."""
     empty_text: str | None = None
     """For an optional number: the word an empty cell shows ("preset"); the cell is then typed as
     text and read as people write numbers."""
+
+    def for_row(self, row: Any) -> Column:
+        """This column as it reads and writes the cell of ``row``."""
+        if self.unit_for is None:
+            return self
+        return replace(self, unit=self.unit_for(row if isinstance(row, dict) else {}), unit_for=None)
 
     def to_screen(self, value: Any) -> Any:
         if self.kind == "number" and self.empty_text is not None:
@@ -100,7 +109,10 @@ class Column:
 def grid_frame(records: list[Any], columns: tuple[Column, ...]) -> Any:
     import pandas as pd
 
-    data = {c.name: [c.to_screen(r.get(c.name) if isinstance(r, dict) else None) for r in records] for c in columns}
+    data = {
+        c.name: [c.for_row(r).to_screen(r.get(c.name) if isinstance(r, dict) else None) for r in records]
+        for c in columns
+    }
     frame = pd.DataFrame(data, columns=[c.name for c in columns])
     for c in columns:
         if c.kind == "number" and c.empty_text is None:
@@ -123,15 +135,21 @@ def apply_grid_delta(
         i = int(index)
         if 0 <= i < len(out):
             for name, value in changes.items():
-                if name in by_name:
+                if name in by_name and by_name[name].unit_for is None:
                     out[i][name] = by_name[name].from_screen(value)
+            for name, value in changes.items():  # units read off the row, once its choices are in
+                if name in by_name and by_name[name].unit_for is not None:
+                    out[i][name] = by_name[name].for_row(out[i]).from_screen(value)
     deleted = {int(i) for i in (delta.get("deleted_rows") or [])}
     out = [r for i, r in enumerate(out) if i not in deleted]
     for added in delta.get("added_rows") or []:
         row = dict(defaults or {})
         for name, value in added.items():
-            if name in by_name:
+            if name in by_name and by_name[name].unit_for is None:
                 row[name] = by_name[name].from_screen(value)
+        for name, value in added.items():
+            if name in by_name and by_name[name].unit_for is not None:
+                row[name] = by_name[name].for_row(row).from_screen(value)
         out.append(row)
     return out
 
@@ -184,3 +202,31 @@ RISK_COLUMNS = (
     Column("risk", "Risk", kind="text", required=True, max_chars=300, width="medium"),
     Column("mitigant", "Mitigant", kind="text", max_chars=300, default="", width="medium"),
 )
+
+COVENANT_METRICS = {
+    "net_debt_to_ebitda": "Net debt / EBITDA",
+    "interest_cover": "Interest cover (EBITDA / interest)",
+    "debt_to_equity": "Debt / equity",
+    "ebitda_margin": "EBITDA margin",
+}
+COVENANT_DIRECTIONS = {"max": "at most", "min": "at least"}
+COVENANT_COLUMNS = (
+    Column("metric", "Metric", kind="select", options=COVENANT_METRICS, required=True, width="medium"),
+    Column("direction", "Must stay", kind="select", options=COVENANT_DIRECTIONS, help="Set from the metric."),
+    Column(
+        "threshold",
+        "Threshold (x, or % for a margin)",
+        unit_for=lambda row: entry.PERCENT if row.get("metric") == "ebitda_margin" else entry.NUMBER,
+        empty_text="",
+        help="A multiple such as 4.0 (4.0x); for the EBITDA margin a percentage such as 12.",
+    ),
+    Column("tested", "Tested", kind="text", max_chars=60, default="annual"),
+)
+
+
+def complete_covenant(row: dict[str, Any]) -> dict[str, Any]:
+    """A covenant's direction follows from its metric (a leverage cap, a cover floor)."""
+    metric = row.get("metric")
+    if metric in COVENANT_DIRECTION:
+        return {**row, "direction": COVENANT_DIRECTION[metric]}
+    return row

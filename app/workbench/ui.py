@@ -533,11 +533,19 @@ def key_figures(where: Any) -> None:
 # --------------------------------------------------------------------------- data grids
 
 
-def _grid_changed(path: str, key: str, columns: tuple[grids.Column, ...], defaults: dict[str, Any] | None) -> None:
+def _grid_changed(
+    path: str,
+    key: str,
+    columns: tuple[grids.Column, ...],
+    defaults: dict[str, Any] | None,
+    complete: Callable[[dict[str, Any]], dict[str, Any]] | None = None,
+) -> None:
     ss = st.session_state
     records = state.get_path(ss.raw, path)
     records = records if isinstance(records, list) else []
     changed = grids.apply_grid_delta(records, ss[key], columns, defaults)
+    if complete is not None:
+        changed = [complete(r) for r in changed]
     if changed != records:
         commit(state.set_path(ss.raw, path, changed))
 
@@ -549,6 +557,7 @@ def grid(
     name: str,
     defaults: dict[str, Any] | None = None,
     height: int | None = None,
+    complete: Callable[[dict[str, Any]], dict[str, Any]] | None = None,
 ) -> None:
     """A data grid whose source is the case itself, rebuilt from it on every run.
 
@@ -570,5 +579,5 @@ def grid(
         **sizing,
         column_config={c.name: c.config(currency()) for c in columns},
         on_change=_grid_changed,
-        args=(path, key, columns, defaults),
+        args=(path, key, columns, defaults, complete),
     )

@@ -10,6 +10,7 @@ from typing import Any
 
 import streamlit as st
 from obligor_memo.app import settings
+from obligor_memo.app.present.covenants import covenant_sentence
 from obligor_memo.app.workbench import grids, state
 from obligor_memo.app.workbench import ui as _ui
 
@@ -131,6 +132,20 @@ with left:
     _ui.text_field("Summary", "memo.summary", area=True, height=160)
     _ui.text_field("Recommendation", "memo.recommendation", area=True, height=100)
     _ui.text_field("Conditions", "memo.conditions", area=True, height=120)
+    st.markdown(
+        "**Covenants** (tested on the latest statement year; the memo prints headroom and the EBITDA fall to breach)"
+    )
+    _ui.grid(
+        "covenants",
+        grids.COVENANT_COLUMNS,
+        name="covenant_grid",
+        defaults={"tested": "annual"},
+        complete=grids.complete_covenant,
+    )
+    _ui.show_problems("covenants")
+    if results is not None and getattr(results, "covenants", None):
+        for test in results.covenants:
+            st.caption(covenant_sentence(test))
     _ui.text_field("Grade rationale (one line on the decision page)", "memo.rationale")
     st.markdown("**Key risks and mitigants** (the decision page prints the first three)")
     _ui.grid("memo.risks", grids.RISK_COLUMNS, name="risk_grid", defaults={"mitigant": ""})
