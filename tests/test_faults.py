@@ -20,6 +20,7 @@ from obligor_memo.app import memo
 from obligor_memo.app.cli import main
 from obligor_memo.app.memo import chart_browser, chart_pages, fetch, layout, render, svg_slim, templates, view  # noqa: F401
 from obligor_memo.app.memo import figures as memo_figures
+from obligor_memo.app.memo.chart_browser import DEFAULT_TIMEOUT_SECONDS
 
 SHORT_TIMEOUT = "1"  # seconds: long enough for a script to start, short enough for the suite
 
@@ -72,8 +73,10 @@ def test_memo_command_reports_a_faulty_browser(kind, tmp_path, monkeypatch, samp
     assert result.exit_code == 2, result.output
     assert "Traceback" not in result.output and not out.exists()
     assert "could not be started" in result.output and "--no-charts" in result.output
-    # The start-up timeout plus a bounded clean-up; a hang must not take the default 30 s.
-    assert seconds < 2 * float(SHORT_TIMEOUT) + 8
+    # The short start-up timeout was honoured: waiting for the default one (30 s) would take longer
+    # than the whole command did. (The rest of the time is the analysis and layout, which depend
+    # on the machine; bench/ measures them.)
+    assert seconds < DEFAULT_TIMEOUT_SECONDS
     assert_group_gone(tmp_path)
 
 
