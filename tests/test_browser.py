@@ -64,7 +64,7 @@ def _metric(page, label: str) -> str:
 
 def _settle(page) -> None:
     page.wait_for_timeout(300)
-    page.wait_for_function("() => !document.querySelector('[data-testid=\"stStatusWidget\"]')", timeout=15000)
+    page.wait_for_function("() => !document.querySelector('[data-testid=\"stStatusWidget\"]')", timeout=60000)
     page.wait_for_timeout(300)
 
 
@@ -81,12 +81,12 @@ def test_default_point_moves_pd(server):
         )
         page = browser.new_page(viewport={"width": 1500, "height": 1100})
         page.goto(url, wait_until="networkidle")
-        page.get_by_text("Hollowmere Lifting Group").first.wait_for(timeout=20000)
+        page.get_by_text("Hollowmere Lifting Group").first.wait_for(timeout=60000)
         _settle(page)
         page.screenshot(path=str(ARTIFACTS / "01_borrower.png"), full_page=True)
 
         page.get_by_role("link", name="Asset trend and PD").click()
-        page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=20000)
+        page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=60000)
         _settle(page)
         before = _metric(page, "PD in force")
         page.screenshot(path=str(ARTIFACTS / "02_asset_pd_before.png"), full_page=True)
@@ -98,7 +98,7 @@ def test_default_point_moves_pd(server):
             "(old) => [...document.querySelectorAll('[data-testid=\"stMetric\"]')]"
             ".some(m => m.innerText.includes('PD in force') && !m.innerText.includes(old))",
             arg=before,
-            timeout=15000,
+            timeout=60000,
         )
         _settle(page)
         after = _metric(page, "PD in force")
@@ -112,7 +112,7 @@ def test_default_point_moves_pd(server):
         box = page.get_by_role("textbox", name="Short-term share (%)", exact=True)
         box.fill("-50")
         box.press("Enter")
-        page.get_by_text("Short-term share of the default point: got -50 %").first.wait_for(timeout=15000)
+        page.get_by_text("Short-term share of the default point: got -50 %").first.wait_for(timeout=60000)
         _settle(page)
         assert _metric(page, "PD in force") == after
         page.screenshot(path=str(ARTIFACTS / "04_bad_value.png"), full_page=True)
@@ -129,7 +129,7 @@ def test_default_point_moves_pd(server):
             start=5,
         ):
             page.get_by_role("link", name=name).click()
-            page.get_by_role("heading", name=name).first.wait_for(timeout=20000)
+            page.get_by_role("heading", name=name).first.wait_for(timeout=60000)
             _settle(page)
             page.screenshot(
                 path=str(ARTIFACTS / f"{index:02d}_{name.split()[0].lower().strip(',-')}.png"), full_page=True
@@ -138,7 +138,7 @@ def test_default_point_moves_pd(server):
 
         # What-if: a control moves the PD metric and redraws the heat map and tornado.
         page.get_by_role("link", name="What-if and scenarios").click()
-        page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=20000)
+        page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=60000)
         _settle(page)
         before = _metric(page, "PD in force")
         # The case's share is 100 % after the edit above; the what-if lightens it.
@@ -149,10 +149,10 @@ def test_default_point_moves_pd(server):
             "(old) => [...document.querySelectorAll('[data-testid=\"stMetric\"]')]"
             ".some(m => m.innerText.includes('PD in force') && !m.innerText.includes(old))",
             arg=before,
-            timeout=15000,
+            timeout=60000,
         )
         _settle(page)
-        page.locator(".js-plotly-plot").nth(1).wait_for(timeout=15000)
+        page.locator(".js-plotly-plot").nth(1).wait_for(timeout=60000)
         # Streamlit scrolls inside its own container: a tall window shows the whole page.
         page.set_viewport_size({"width": 1500, "height": 3400})
         _settle(page)
@@ -165,7 +165,7 @@ def test_default_point_moves_pd(server):
         # The autosave keeps what was typed: a fresh load of the same address restores it.
         page.reload(wait_until="networkidle")
         page.get_by_role("link", name="Asset trend and PD").click()
-        page.get_by_role("textbox", name="Long-term share (%)", exact=True).wait_for(timeout=20000)
+        page.get_by_role("textbox", name="Long-term share (%)", exact=True).wait_for(timeout=60000)
         _settle(page)
         assert page.get_by_role("textbox", name="Long-term share (%)", exact=True).input_value() == "100"
         browser.close()
