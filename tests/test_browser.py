@@ -85,7 +85,7 @@ def test_default_point_moves_pd(server):
         _settle(page)
         page.screenshot(path=str(ARTIFACTS / "01_borrower.png"), full_page=True)
 
-        page.get_by_role("link", name="Asset trend and PD").click()
+        page.get_by_role("link", name="Asset trend and PD", exact=True).first.click()
         page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=60000)
         _settle(page)
         before = _metric(page, "PD in force")
@@ -128,7 +128,7 @@ def test_default_point_moves_pd(server):
             ],
             start=5,
         ):
-            page.get_by_role("link", name=name).click()
+            page.get_by_role("link", name=name, exact=True).first.click()
             page.get_by_role("heading", name=name).first.wait_for(timeout=60000)
             _settle(page)
             page.screenshot(
@@ -137,7 +137,7 @@ def test_default_point_moves_pd(server):
             assert not page.get_by_text("Traceback").count()
 
         # What-if: a control moves the PD metric and redraws the heat map and tornado.
-        page.get_by_role("link", name="What-if and scenarios").click()
+        page.get_by_role("link", name="What-if and scenarios", exact=True).first.click()
         page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=60000)
         _settle(page)
         before = _metric(page, "PD in force")
@@ -164,7 +164,7 @@ def test_default_point_moves_pd(server):
 
         # The autosave keeps what was typed: a fresh load of the same address restores it.
         page.reload(wait_until="networkidle")
-        page.get_by_role("link", name="Asset trend and PD").click()
+        page.get_by_role("link", name="Asset trend and PD", exact=True).first.click()
         page.get_by_role("textbox", name="Long-term share (%)", exact=True).wait_for(timeout=60000)
         _settle(page)
         assert page.get_by_role("textbox", name="Long-term share (%)", exact=True).input_value() == "100"

@@ -53,13 +53,13 @@ def test_roll_forward_journey(server, tmp_path):  # noqa: F811
         page.get_by_text("Read 11 year(s)").first.wait_for(timeout=20000)
         _settle(page)
         # change the revolver's CCF: the grid's fifth column, second row
-        page.get_by_role("link", name="Facilities and exposure").click()
+        page.get_by_role("link", name="Facilities and exposure", exact=True).first.click()
         page.get_by_role("heading", name="Facilities and exposure").first.wait_for(timeout=20000)
         _settle(page)
         edit_cell(page, 1, 5, "90")  # RCF-1's CCF, typed as a percentage
         assert not page.get_by_text("37,200,000").count(), "the CCF edit did not reach the case"  # preset EAD
         page.screenshot(path=str(ARTIFACTS / "review_01_exposure.png"), full_page=True)
-        page.get_by_role("link", name="Borrower and statements").click()
+        page.get_by_role("link", name="Borrower and statements", exact=True).first.click()
         page.get_by_text("Grade migration").first.wait_for(timeout=20000)
         _settle(page)
         page.screenshot(path=str(ARTIFACTS / "review_02_since_last_review.png"), full_page=True)
