@@ -13,6 +13,8 @@ from dataclasses import dataclass
 from decimal import Decimal, InvalidOperation
 from typing import Any
 
+from obligor_memo.app.workbench.state import split_path
+
 PERCENT = "percent"
 MONEY = "money"
 YEARS = "years"
@@ -268,13 +270,6 @@ STATEMENT_LABELS = {
 _INDEX = re.compile(r"\[\d+\]")
 
 
-def _parts(path: str) -> list[str | int]:
-    out: list[str | int] = []
-    for name, index in re.findall(r"([^.\[\]]+)|\[(\d+)\]", path):
-        out.append(int(index) if index else name)
-    return out
-
-
 def field_name(path: str) -> FieldName | None:
     """The screen name of a case path (the nearest listed ancestor when the path itself is not)."""
     pattern = _INDEX.sub("[*]", path)
@@ -289,7 +284,7 @@ def field_name(path: str) -> FieldName | None:
 def where(path: str, raw: dict[str, Any] | None) -> str:
     """A case path in the screen's words: ``facilities[1].recovery.std`` -> "Facility RCF-1,
     recovery std"; ``statements[0].total_assets`` -> "Statements, year 2016, total assets"."""
-    parts = _parts(path)
+    parts = split_path(path) if path.strip(".[]") else []
     raw = raw if isinstance(raw, dict) else {}
     if parts[:1] == ["statements"] and len(parts) >= 2 and isinstance(parts[1], int):
         rows = raw.get("statements") if isinstance(raw.get("statements"), list) else []
