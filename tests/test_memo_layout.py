@@ -71,3 +71,17 @@ def test_long_words_wrap_and_no_column_disappears(hostile_pdf):
         assert heading in text, heading  # every column of the decision tables
     first = text.split("\f")[0]
     assert "Decision" in first and "Request" in first
+
+
+def test_long_runs_get_break_chances_and_nothing_else_changes():
+    """The template filter behind the wrapping: a zero-width space every 12 characters of a run of
+    25 or more; short words, numbers and HTML the templates build are left exactly as they are."""
+    from markupsafe import Markup
+    from obligor_memo.app.memo.templates import breakable
+
+    broken = breakable("ref " + LONG_WORD + " end")
+    assert broken.replace("\u200b", "") == "ref " + LONG_WORD + " end"
+    assert max(len(part) for part in broken.replace(" ", "\u200b").split("\u200b")) == 12
+    assert breakable("A short sentence of ordinary words, 2.75 %.") == "A short sentence of ordinary words, 2.75 %."
+    assert breakable(Markup("<b>" + LONG_WORD + "</b>")) == Markup("<b>" + LONG_WORD + "</b>")
+    assert breakable(12345678901234567890123456789) == 12345678901234567890123456789
