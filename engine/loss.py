@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from functools import lru_cache
 from typing import Any
 
@@ -111,6 +111,7 @@ def _covariance_by_quadrature(first: Any, second: Any) -> float:
     from scipy import integrate  # deferred: only laws of different shapes need it
 
     m1, m2 = float(first.mean()), float(second.mean())
+    q1, q2 = _scalar_quantile(first), _scalar_quantile(second)
     points = sorted(set(_breakpoints(first) + _breakpoints(second)))
     edges = [0.0] + [p for p in points if 0.0 < p < 1.0] + [1.0]
     total = 0.0
@@ -120,7 +121,7 @@ def _covariance_by_quadrature(first: Any, second: Any) -> float:
         warnings.simplefilter("ignore", integrate.IntegrationWarning)
         for low, high in zip(edges[:-1], edges[1:]):
             value, _ = integrate.quad(
-                lambda u: (float(first.ppf(u)) - m1) * (float(second.ppf(u)) - m2),
+                lambda u: (q1(u) - m1) * (q2(u) - m2),
                 low,
                 high,
                 epsabs=1e-15,
@@ -129,6 +130,12 @@ def _covariance_by_quadrature(first: Any, second: Any) -> float:
             )
             total += value
     return total
+
+
+def _scalar_quantile(law: Any) -> Callable[[float], float]:
+    """The law's quantile function of one float: its scalar path where it has one."""
+    scalar = getattr(law, "ppf_scalar", None)
+    return scalar if scalar is not None else (lambda u: float(law.ppf(u)))
 
 
 @lru_cache(maxsize=256)
