@@ -101,8 +101,14 @@ def evaluate(case: Path, as_json: bool) -> None:
 @click.option(
     "--no-charts", is_flag=True, help="Print without charts (no browser needed); a note marks each chart's place."
 )
+@click.option(
+    "--annex",
+    is_flag=True,
+    help="Add the technical annex: PD term structure, exposure, recovery, loss and capital, "
+    "methods and sources, and every input listed.",
+)
 @_guard
-def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> None:
+def memo(case: Path, output: Path, page_size: str | None, no_charts: bool, annex: bool) -> None:
     """Write the credit memo for CASE as a PDF that carries its own inputs."""
     from obligor_memo.app.memo.chart_browser import ChartExporter, ChartsUnavailable
 
@@ -123,7 +129,7 @@ def memo(case: Path, output: Path, page_size: str | None, no_charts: bool) -> No
         from obligor_memo.engine.loading import load_case
 
         results = analyse(load_case(case))
-        pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size, exporter=browser)
+        pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size, exporter=browser, annex=annex)
     except ChartsUnavailable as exc:
         _fail(f"The memo was not written: {exc}")
     finally:

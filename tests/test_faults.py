@@ -192,3 +192,23 @@ def test_memo_page_reports_the_fault_and_prints_without_charts(kind, tmp_path, m
     assert at.session_state["memo_pdf"][1].startswith(b"%PDF-")
     memo.stop_chart_exporter()
     assert_group_gone(tmp_path)
+
+
+def test_memo_page_prints_the_technical_annex_when_ticked(tmp_path, monkeypatch):
+    """The committee memo by default; the box adds the annex, and switching it asks for a reprint."""
+    import subprocess
+
+    monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "no-such-chromium"))
+    at = _memo_page(tmp_path, monkeypatch)
+    [c for c in at.checkbox if c.label == "Technical annex"][0].check().run()
+    _button(at, "Print the memo (PDF)").click().run()  # no browser: the charts fail
+    _button(at, "Print the memo without charts").click().run()
+    assert not at.exception
+    assert [d.proto.label for d in _downloads(at)] == ["Memo with annex, without charts (PDF)"]
+    pdf = at.session_state["memo_pdf"][1]
+    text = subprocess.run(["pdftotext", "-", "-"], input=pdf, capture_output=True, check=True).stdout.decode()
+    assert "Methods and sources" in text and "Every other input, as in the case file (YAML)" in text
+    [c for c in at.checkbox if c.label == "Technical annex"][0].uncheck().run()
+    assert not _downloads(at)
+    assert any("annex was switched" in c.value for c in at.caption)
+    memo.stop_chart_exporter()

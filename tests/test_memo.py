@@ -90,7 +90,7 @@ def sample_results(sample_case):
 def sample_pdf(sample_results) -> bytes:
     from obligor_memo.app.memo import render_memo_pdf
 
-    pdf = render_memo_pdf(sample_results, charts=False, generated_at=STAMP)
+    pdf = render_memo_pdf(sample_results, charts=False, generated_at=STAMP, annex=True)
     ARTIFACTS.mkdir(exist_ok=True)
     (ARTIFACTS / "memo_sample_no_charts.pdf").write_bytes(pdf)
     return pdf
@@ -141,7 +141,7 @@ def hostile(make_case):
 
     fetch.memo_fetcher = spying_fetcher
     try:
-        pdf = memo.render_memo_pdf(results, charts=False, generated_at=STAMP)
+        pdf = memo.render_memo_pdf(results, charts=False, generated_at=STAMP, annex=True)
     finally:
         fetch.memo_fetcher = real
     return results, pdf, asked
@@ -427,7 +427,8 @@ def test_any_summary_text_reaches_the_html_as_text(sample_results, typed):
     html = render_memo_html(results, charts=False, generated_at=STAMP)
     parser = _TextOf("brief")
     parser.feed(html)
-    assert typed in "".join(parser.parts)
+    # Long words get zero-width break chances (templates.breakable); nothing else changes.
+    assert typed.replace("\u200b", "") in "".join(parser.parts).replace("\u200b", "")
 
 
 # --------------------------------------------------------------------------- reproducibility
@@ -438,7 +439,7 @@ def test_same_case_and_time_give_identical_bytes(hostile, make_case):
     from pypdf import PdfReader
 
     results, first, _ = hostile
-    again = render_memo_pdf(hostile_results(make_case), charts=False, generated_at=STAMP)
+    again = render_memo_pdf(hostile_results(make_case), charts=False, generated_at=STAMP, annex=True)
     assert again == first
     info = PdfReader(io.BytesIO(first)).metadata
     assert info.creation_date is None and info.modification_date is None
@@ -511,3 +512,63 @@ def test_unexplained_cross_checks_are_a_caution_on_the_decision_page(sample_resu
     assert "NOT RECONCILED: no explanation recorded" in first
     assert "memo.cross_check_explanation" in first
     assert "None is recorded." in " ".join(pdf_text(pdf).split())
+
+
+# --------------------------------------------------------------------------- committee memo and annex
+COMMITTEE_APPENDICES = [
+    "Appendix A Pricing",
+    "Appendix B Sensitivities and scenarios",
+    "Appendix C Cautions",
+    "Appendix D Inputs and record",
+]
+ANNEX_ONLY = ("PD term structure", "Exposure at default", "Recovery and loss given default", "Loss and capital")
+
+
+@pytest.fixture(scope="module")
+def committee_pdf(sample_results) -> bytes:
+    from obligor_memo.app.memo import render_memo_pdf
+
+    pdf = render_memo_pdf(sample_results, charts=False, generated_at=STAMP)
+    ARTIFACTS.mkdir(exist_ok=True)
+    (ARTIFACTS / "memo_sample_committee_no_charts.pdf").write_bytes(pdf)
+    return pdf
+
+
+def test_committee_memo_prints_the_committees_appendices_lettered_in_order(committee_pdf, sample_pdf):
+    text = pdf_text(committee_pdf)
+    positions = []
+    for heading in HEADINGS[:5] + COMMITTEE_APPENDICES:
+        match = re.search(r"^" + re.escape(heading) + r"\s*$", text, flags=re.M)
+        assert match is not None, heading
+        positions.append(match.start())
+    assert positions == sorted(positions)
+    for title in ANNEX_ONLY + ("Methods and sources",):
+        assert not re.search(r"^Appendix [A-I] " + re.escape(title) + r"\s*$", text, flags=re.M), title
+    assert "Every other input, as in the case file (YAML)" not in text
+    flat = " ".join(text.split())
+    # The cross-references follow the letters: the cautions are appendix C here, G with the annex.
+    assert "further cautions on these figures in appendix C" in flat
+    assert "read the cautions in appendix C" in flat
+    assert "read the cautions in appendix G" in " ".join(pdf_text(sample_pdf).split())
+    assert "obligor-memo memo --annex" in flat  # says where the rest is
+
+
+def test_committee_memo_is_shorter_and_carries_the_same_decision(committee_pdf, sample_pdf):
+    from pypdf import PdfReader
+
+    short, full = (len(PdfReader(io.BytesIO(p)).pages) for p in (committee_pdf, sample_pdf))
+    assert short < full and short <= 14, (short, full)
+    first = pdf_text(committee_pdf).split("\f")[0].replace(f"Page 1 of {short}", f"Page 1 of {full}")
+    assert first.replace("appendix C", "appendix G") == pdf_text(sample_pdf).split("\f")[0]
+
+
+def test_the_command_line_prints_the_annex_on_request(tmp_path):
+    from click.testing import CliRunner
+
+    from obligor_memo.app.cli import main
+
+    out = tmp_path / "memo.pdf"
+    sample = ROOT / "sample_data" / "hollowmere.yaml"
+    result = CliRunner().invoke(main, ["memo", str(sample), "-o", str(out), "--no-charts", "--annex"])
+    assert result.exit_code == 0, result.output
+    assert re.search(r"^Appendix I Inputs and record\s*$", pdf_text(out.read_bytes()), flags=re.M)

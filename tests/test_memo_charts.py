@@ -56,7 +56,7 @@ def analysed(sample_case):
 def charted_pdf(analysed) -> bytes:
     exporter = memo.start_chart_exporter()
     try:
-        pdf = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=UTC))
+        pdf = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=UTC), annex=True)
     finally:
         pass  # kept running for the reuse test below; stopped by the last test
     ARTIFACTS.mkdir(exist_ok=True)
@@ -167,7 +167,7 @@ def test_same_case_prints_the_same_bytes_with_charts(charted_pdf, analysed):
 
     memo_figures._SVG_CACHE.clear()
     chart_pages._PAGES_CACHE.clear()
-    again = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=UTC))
+    again = memo.render_memo_pdf(analysed, generated_at=datetime(2031, 1, 2, tzinfo=UTC), annex=True)
     assert again == charted_pdf
 
 

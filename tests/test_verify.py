@@ -123,7 +123,7 @@ def test_letter_memo_embeds_and_prints_the_paper_it_was_printed_on(tmp_path, sam
 
     out = tmp_path / "letter.pdf"
     result = CliRunner().invoke(
-        main, ["memo", str(sample_case_path), "-o", str(out), "--no-charts", "--page-size", "Letter"]
+        main, ["memo", str(sample_case_path), "-o", str(out), "--no-charts", "--annex", "--page-size", "Letter"]
     )
     assert result.exit_code == 0, result.output
     pdf = out.read_bytes()

@@ -26,6 +26,7 @@ import re
 import signal
 import threading
 import time
+from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
@@ -121,6 +122,15 @@ def _kill_group(group: int | None) -> None:
         log.debug("browser process group %s not killed: %s", group, exc)
 
 
+# The chart browser runs at this niceness (lower priority than the layout).
+BROWSER_NICENESS = 10
+
+
+def _lower_priority() -> None:
+    """In the browser's process, before it starts: a lower CPU priority (niceness)."""
+    os.nice(BROWSER_NICENESS)
+
+
 def _browser_classes() -> tuple[type, type]:
     """kaleido's browser with our flags, and without its page reload after every figure."""
     from choreographer.browsers.chromium import Chromium
@@ -129,6 +139,16 @@ def _browser_classes() -> tuple[type, type]:
     class PrintChromium(Chromium):
         def get_cli(self) -> list[str]:
             return [*super().get_cli(), *BROWSER_FLAGS]
+
+        def get_popen_args(self) -> Mapping[str, Any]:
+            # The browser draws the charts while this process lays the memo out, and the charts
+            # are needed only once the layout is done: on two cores, Chromium's start-up (several
+            # processes) took CPU from the layout. A lower priority gives the layout the CPU
+            # first; the browser still has the other core (children inherit the niceness).
+            args = dict(super().get_popen_args())
+            if hasattr(os, "nice"):
+                args["preexec_fn"] = _lower_priority
+            return args
 
     class BatchKaleido(Kaleido):
         async def _return_kaleido_tab(self, tab: Any) -> None:

@@ -66,8 +66,20 @@ class ChartSpec:
     width: int = 760  # export width [px]; the page scales it to the column
 
 
-def chart_specs(results: Any) -> list[ChartSpec]:
-    """The memo's charts in the order the memo prints them (the first are drawn first)."""
+# Charts printed only in the technical annex (the sections of view.ANNEX_SECTIONS).
+ANNEX_CHARTS = ("term_structure", "exposure", "recovery:", "loss_distribution")
+
+
+def chart_specs(results: Any, annex: bool = True) -> list[ChartSpec]:
+    """The memo's charts in the order the memo prints them (the first are drawn first); without
+    the annex, only the charts the committee memo prints."""
+    specs = _all_specs(results)
+    if annex:
+        return specs
+    return [spec for spec in specs if not spec.key.startswith(ANNEX_CHARTS)]
+
+
+def _all_specs(results: Any) -> list[ChartSpec]:
     specs = [
         ChartSpec("asset_trend", "asset_trend_figure"),
         ChartSpec("liabilities", "liabilities_figure"),
@@ -88,13 +100,13 @@ def chart_specs(results: Any) -> list[ChartSpec]:
     return specs
 
 
-def build_figures(results: Any) -> tuple[dict[str, Any], dict[str, str]]:
+def build_figures(results: Any, annex: bool = True) -> tuple[dict[str, Any], dict[str, str]]:
     """The workbench's figures for this memo, and a note for each one that cannot be built."""
     from obligor_memo.app import charts
 
     figures: dict[str, Any] = {}
     notes: dict[str, str] = {}
-    for spec in chart_specs(results):
+    for spec in chart_specs(results, annex):
         builder: Callable[..., Any] | None = getattr(charts, spec.builder, None)
         if builder is None:
             notes[spec.key] = f"This chart is not available in this version ({spec.builder} is missing)."
@@ -165,12 +177,12 @@ def export_figures(figures: dict[str, Any], *, exporter: ChartExporter | None = 
         return {key: _SVG_CACHE[keys[key]] for key in figures}
 
 
-def export_charts(results: Any) -> tuple[dict[str, str], dict[str, str]]:
+def export_charts(results: Any, annex: bool = True) -> tuple[dict[str, str], dict[str, str]]:
     """SVG data URIs for every chart, in one Chromium session; notes where a chart is absent."""
     own = None if running_exporter() is not None else ChartExporter().start(wait=False)
     try:
         # The browser (if started here) comes up while the figures are being built.
-        figures, notes = build_figures(results)
+        figures, notes = build_figures(results, annex)
         svgs = export_figures(figures, exporter=own)
     finally:
         if own is not None:
@@ -194,7 +206,7 @@ class ChartJob:
     give the result or raise :class:`ChartsUnavailable`.
     """
 
-    def __init__(self, results: Any, *, exporter: ChartExporter | None = None):
+    def __init__(self, results: Any, *, exporter: ChartExporter | None = None, annex: bool = True):
         """``exporter``: a browser the caller started for this memo alone (the command line
         starts it before the analysis); it is closed as soon as the charts are drawn, so its
         memory is given back before the PDF is written."""
@@ -207,7 +219,7 @@ class ChartJob:
         early = exporter is None and running_exporter() is None and not _SVG_CACHE
         own = exporter or (ChartExporter().start(wait=False) if early else None)
         try:
-            self.figures, self.notes = build_figures(results)
+            self.figures, self.notes = build_figures(results, annex)
             if own is None and running_exporter() is None and not _all_drawn(self.figures):
                 own = ChartExporter().start(wait=False)
         except BaseException:

@@ -32,13 +32,18 @@ FIXED_PDF_DATE = datetime(2000, 1, 1, tzinfo=UTC)
 
 
 def render_memo_html(
-    results: Any, *, charts: bool = True, page_size: str | None = None, generated_at: datetime | None = None
+    results: Any,
+    *,
+    charts: bool = True,
+    page_size: str | None = None,
+    generated_at: datetime | None = None,
+    annex: bool = False,
 ) -> str:
     """The memo's HTML with the charts inline as SVG data URIs (for reading or another renderer;
     :func:`render_memo_pdf` references the charts instead and draws them while laying out)."""
     size = _page_size(results, page_size)
     results = as_printed(results, size)
-    svgs, notes = export_charts(results) if charts else ({}, {})
+    svgs, notes = export_charts(results, annex) if charts else ({}, {})
     return memo_html(
         results,
         charts=svgs,
@@ -46,6 +51,7 @@ def render_memo_html(
         charts_requested=charts,
         page_size=size,
         stamp=_stamp(generated_at),
+        annex=annex,
     )
 
 
@@ -146,8 +152,9 @@ def render_memo_pdf(
     generated_at: datetime | None = None,
     exporter: ChartExporter | None = None,
     progress: Callable[[str], None] | None = None,
+    annex: bool = False,
 ) -> bytes:
-    """The memo as PDF bytes. Raises :class:`ChartsUnavailable` (naming the fix) when charts are
+    """The memo as PDF bytes (the committee memo; ``annex=True`` adds the technical annex). Raises :class:`ChartsUnavailable` (naming the fix) when charts are
     asked for and no browser can draw them; ``charts=False`` prints a note in each chart's place.
     ``exporter``: a browser started for this memo alone, closed once its charts are drawn.
 
@@ -160,7 +167,7 @@ def render_memo_pdf(
     results = as_printed(results, size)
     stamp = _stamp(generated_at)
     with layout.objects_set_aside():  # plotly's figure building makes many objects too
-        job = ChartJob(results, exporter=exporter) if charts else None
+        job = ChartJob(results, exporter=exporter, annex=annex) if charts else None
     try:
         placeholders = {key: f"{CHART_SCHEME}{i}" for i, key in enumerate(job.figures)} if job else {}
         html = memo_html(
@@ -170,6 +177,7 @@ def render_memo_pdf(
             charts_requested=charts,
             page_size=size,
             stamp=stamp,
+            annex=annex,
         )
         return html_to_pdf(
             html,

@@ -6,6 +6,7 @@ from typing import Any
 
 from obligor_memo.app.memo import printed as pdfcase
 from obligor_memo.app.memo.fetch import CHART_ANCHOR, CHART_SCHEME
+from obligor_memo.app.memo.record import CASE_FILE
 from obligor_memo.app.memo.templates import environment
 from obligor_memo.app.present import formatting as fmt
 from obligor_memo.app.present.compare_report import review_view
@@ -119,8 +120,11 @@ def build_view(
     charts_requested: bool,
     generated_at: str,
     page_size: str,
+    annex: bool = False,
 ) -> dict[str, Any]:
-    """Everything the template prints; small display values only, the engine computes the rest."""
+    """Everything the template prints; small display values only, the engine computes the rest.
+
+    ``annex``: print the technical annex too (see :data:`ANNEX_SECTIONS`)."""
     from obligor_memo.engine.case import case_to_dict
 
     case = results.case
@@ -198,11 +202,34 @@ def build_view(
         "fingerprint_short": short_fingerprint(results),
         "author": case.memo.prepared_by or "obligor-memo",
         "review": review_view(results),
+        "annex": annex,
+        "appendix_letters": appendix_letters(annex),
+        "case_file": CASE_FILE,
     }
 
 
+# The appendices in print order. The committee memo carries the ones a committee reads (pricing,
+# sensitivities and scenarios, cautions, the record); the technical annex adds the model's
+# workings for a validator or a second reader. Each printed appendix gets the next letter.
+APPENDICES = ("term-structure", "exposure", "recovery", "loss", "pricing", "sensitivities", "cautions", "methods", "appendix")
+ANNEX_SECTIONS = frozenset({"term-structure", "exposure", "recovery", "loss", "methods"})
+
+
+def appendix_letters(annex: bool) -> dict[str, str]:
+    """Section id -> appendix letter, for the appendices this memo prints."""
+    printed = [s for s in APPENDICES if annex or s not in ANNEX_SECTIONS]
+    return {section: chr(ord("A") + i) for i, section in enumerate(printed)}
+
+
 def memo_html(
-    results: Any, *, charts: dict[str, str], notes: dict[str, str], charts_requested: bool, page_size: str, stamp: str
+    results: Any,
+    *,
+    charts: dict[str, str],
+    notes: dict[str, str],
+    charts_requested: bool,
+    page_size: str,
+    stamp: str,
+    annex: bool = False,
 ) -> str:
     view = build_view(
         results,
@@ -211,5 +238,6 @@ def memo_html(
         charts_requested=charts_requested,
         generated_at=stamp,
         page_size=page_size,
+        annex=annex,
     )
     return environment().get_template("memo.html").render(**view)

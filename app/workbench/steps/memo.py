@@ -61,6 +61,7 @@ def _results_workbook(case: Any) -> Callable[[], bytes]:
 
 def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
     ss = st.session_state
+    annex = bool(ss.get("memo_annex", False))
     ss.memo_chart_problem = None
     with st.status("Printing the memo..." if charts else "Printing the memo without charts...") as status:
         try:
@@ -71,8 +72,8 @@ def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
                 if step in STEPS and (charts or step != "charts"):
                     status.write(STEPS[step])
 
-            pdf = memo_module.render_memo_pdf(full, charts=charts, progress=say)
-            ss.memo_pdf = (results.fingerprint, pdf, charts)
+            pdf = memo_module.render_memo_pdf(full, charts=charts, progress=say, annex=annex)
+            ss.memo_pdf = (results.fingerprint, pdf, charts, annex)
             status.update(label="The memo is printed: download it below.", state="complete")
         except memo_module.ChartsUnavailable as exc:
             ss.memo_chart_problem = str(exc)
@@ -94,6 +95,14 @@ def _memo_print_panel(results: Any, stem: str) -> None:
             _chart_browser_started()
         except Exception:  # reported when the memo is printed, with the fix
             log.info("the chart browser did not start ahead of printing", exc_info=True)
+    st.checkbox(
+        "Technical annex",
+        key="memo_annex",
+        help="Add the model's workings for a validator or second reader: PD term structure, "
+        "exposure, recovery, loss and capital, methods and sources, and every input listed. "
+        "The committee memo without it has the decision page, the body, pricing, sensitivities "
+        "and scenarios, cautions and the record.",
+    )
     if st.button("Print the memo (PDF)", icon=":material/picture_as_pdf:", key="memo_print"):
         _print(memo_module, results, charts=True)
     if ss.get("memo_chart_problem"):
@@ -106,8 +115,13 @@ def _memo_print_panel(results: Any, stem: str) -> None:
         if st.button("Print the memo without charts", key="memo_print_plain"):
             _print(memo_module, results, charts=False)
     pdf = ss.get("memo_pdf")
-    if pdf and pdf[0] == results.fingerprint:
-        label = "Memo (PDF)" if pdf[2] else "Memo without charts (PDF)"
+    if pdf and pdf[0] == results.fingerprint and pdf[3] == bool(ss.get("memo_annex", False)):
+        label = {
+            (True, False): "Memo (PDF)",
+            (False, False): "Memo without charts (PDF)",
+            (True, True): "Memo with annex (PDF)",
+            (False, True): "Memo with annex, without charts (PDF)",
+        }[(pdf[2], pdf[3])]
         st.download_button(
             label,
             pdf[1],
@@ -116,6 +130,8 @@ def _memo_print_panel(results: Any, stem: str) -> None:
             icon=":material/download:",
             key="memo_download",
         )
+    elif pdf and pdf[0] == results.fingerprint:
+        st.caption("The technical annex was switched since the memo was printed: print it again.")
     elif pdf:
         st.caption("The case changed since the memo was printed: print it again.")
 
