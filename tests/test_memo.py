@@ -564,7 +564,6 @@ def test_committee_memo_is_shorter_and_carries_the_same_decision(committee_pdf, 
 
 def test_the_command_line_prints_the_annex_on_request(tmp_path):
     from click.testing import CliRunner
-
     from obligor_memo.app.cli import main
 
     out = tmp_path / "memo.pdf"

@@ -211,7 +211,17 @@ def build_view(
 # The appendices in print order. The committee memo carries the ones a committee reads (pricing,
 # sensitivities and scenarios, cautions, the record); the technical annex adds the model's
 # workings for a validator or a second reader. Each printed appendix gets the next letter.
-APPENDICES = ("term-structure", "exposure", "recovery", "loss", "pricing", "sensitivities", "cautions", "methods", "appendix")
+APPENDICES = (
+    "term-structure",
+    "exposure",
+    "recovery",
+    "loss",
+    "pricing",
+    "sensitivities",
+    "cautions",
+    "methods",
+    "appendix",
+)
 ANNEX_SECTIONS = frozenset({"term-structure", "exposure", "recovery", "loss", "methods"})
 
 
