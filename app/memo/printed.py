@@ -12,6 +12,11 @@ from typing import Any
 from obligor_memo.app.present import formatting as fmt
 from obligor_memo.app.present.covenants import covenant_line
 
+CASE_FILE = "case.json"
+"""The attachment holding the case the memo was computed from."""
+FIGURES_FILE = "printed-figures.json"
+"""The attachment holding every recorded figure as printed."""
+
 __all__ = ["covenant_line", "printed_figures"]
 
 

@@ -21,10 +21,9 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from obligor_memo.app.memo.printed import printed_figures  # defined there, re-exported here
+# Defined there (the view names the attached case file too), re-exported here.
+from obligor_memo.app.memo.printed import CASE_FILE, FIGURES_FILE, printed_figures
 
-CASE_FILE = "case.json"
-FIGURES_FILE = "printed-figures.json"
 RECORD_FORMAT = 1
 
 

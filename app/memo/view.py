@@ -6,7 +6,6 @@ from typing import Any
 
 from obligor_memo.app.memo import printed as pdfcase
 from obligor_memo.app.memo.fetch import CHART_ANCHOR, CHART_SCHEME
-from obligor_memo.app.memo.record import CASE_FILE
 from obligor_memo.app.memo.templates import environment
 from obligor_memo.app.present import formatting as fmt
 from obligor_memo.app.present.compare_report import review_view
@@ -204,7 +203,7 @@ def build_view(
         "review": review_view(results),
         "annex": annex,
         "appendix_letters": appendix_letters(annex),
-        "case_file": CASE_FILE,
+        "case_file": pdfcase.CASE_FILE,
     }
 
 
