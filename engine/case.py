@@ -54,8 +54,11 @@ class _Model(BaseModel):
 
 
 class Borrower(_Model):
+    """Who the memo is about: name, currency of every amount, sector and country."""
+
     name: Annotated[str, Field(min_length=1, max_length=200)]
     currency: Annotated[str, Field(pattern=r"^[A-Z]{3}$")]
+    """ISO 4217 code of the currency every amount of the case is in (three capital letters)."""
     sector: ShortText = ""
     country: ShortText = ""
 
@@ -95,28 +98,46 @@ class Market(_Model):
 
 
 class DefaultPoint(_Model):
+    """Shares of the latest liabilities in the default point DP = a x STL + b x LTL."""
+
     short_term_share: Fraction = 1.0
+    """Share a of short-term liabilities [fraction]."""
     long_term_share: Fraction = 0.5
+    """Share b of long-term liabilities [fraction]."""
 
 
 class GradeRow(_Model):
+    """One band of the case's own master scale."""
+
     grade: Annotated[str, Field(min_length=1, max_length=20)]
     pd_upper: Annotated[float, Field(gt=0, le=1)]
+    """Top of the band's one-year PD [fraction]; the last row reaches 1."""
 
 
 class PdSettings(_Model):
+    """How the PD is estimated: method, horizon, asset trend inputs, default point, override."""
+
     method: PdMethod = "balance_sheet"
+    """``balance_sheet`` (asset trend of the statements) or ``market`` (needs the market block)."""
     horizon_years: Annotated[float, Field(gt=0, le=30)] = 1.0
+    """Horizon of the PD [years]."""
     window_years: Annotated[int, Field(ge=2, le=100)] | None = None
+    """The latest N statement years the asset trend uses; None: all years."""
     asset_growth: Annotated[float, Field(ge=-1, le=1)] | None = None
+    """Asset growth g [1/year]; None: estimated from the statements."""
     asset_volatility: Annotated[float, Field(gt=0, le=3)] | None = None
+    """Asset volatility s [1/sqrt(year)]; None: estimated from the statements."""
     default_point: DefaultPoint = DefaultPoint()
     measure: Literal["risk_neutral", "physical"] = "risk_neutral"
+    """Measure of the market PD (market method only)."""
     override: Annotated[float, Field(gt=0, le=1)] | None = None
+    """The analyst's PD [fraction]; None: the model's."""
     override_reason: Text | None = None
+    """Why the override is set; required with it and printed in the memo."""
     override_horizon_years: Annotated[float, Field(gt=0, le=30)] | None = None
     """Horizon the override PD is stated for [years]; None: the case's ``horizon_years``."""
     master_scale: Annotated[list[GradeRow], Field(max_length=LIMITS["pd.master_scale"])] | None = None
+    """The case's own master scale; None: the illustrative default scale."""
 
     @model_validator(mode="after")
     def _valid_master_scale(self) -> PdSettings:
@@ -143,7 +164,9 @@ class Recovery(_Model):
     """Recovery-rate law on [0, upper], fitted by moments to a beta distribution."""
 
     mean: Fraction
+    """Mean recovery [fraction of EAD], at most ``upper``."""
     std: Annotated[float, Field(ge=0, le=1)]
+    """Standard deviation of the recovery [fraction of EAD]; 0: a fixed recovery."""
     upper: Annotated[float, Field(gt=0, le=1.5)] = 1.0
     """Top of the recovery law's support [fraction of EAD]; above 1 (bonds: accrued interest,
     post-default prices above par) a caution is shown and LGD outcomes may be negative."""
@@ -168,21 +191,34 @@ class Recovery(_Model):
 
 
 class Collateral(_Model):
+    """Collateral of one facility; after its haircut it covers part of the EAD."""
+
     value: Money
+    """Value of the collateral [currency units]."""
     haircut: Annotated[float, Field(ge=0, lt=1)] = 0.0
+    """Haircut H on the value [fraction]: C* = value x (1 - H)."""
     description: ShortText = ""
 
 
 class Facility(_Model):
+    """One facility of the borrower: amounts, CCF, seniority, maturity, recovery, collateral, pricing."""
+
     id: Annotated[str, Field(min_length=1, max_length=40)]
+    """Unique within the case."""
     kind: FacilityKind
     committed: Money
+    """Committed amount [currency units]."""
     drawn: Money
+    """Drawn amount [currency units]."""
     ccf: Fraction | None = None
+    """The facility's own CCF [fraction]; None: the grade table or the preset for the kind."""
     cancellable: bool = False
+    """An unconditionally cancellable commitment."""
     seniority: Seniority
     maturity_years: Annotated[float, Field(gt=0, le=50)]
+    """Maturity [years]."""
     recovery: Recovery | None = None
+    """The facility's recovery law; None: the default for its seniority."""
     collateral: Collateral | None = None
     pricing: FacilityPricing | None = None
     description: ShortText = ""
@@ -190,25 +226,40 @@ class Facility(_Model):
 
 
 class CcfGradeRow(_Model):
+    """One row of the CCF-by-grade table."""
+
     grade: Annotated[str, Field(min_length=1, max_length=20)]
     ccf: Fraction
+    """CCF for the grade [fraction]."""
     kind: FacilityKind | None = None
+    """The facility kind the row is for; None: every kind."""
 
 
 class ExposureSettings(_Model):
+    """Where CCFs come from when a facility has none of its own."""
+
     ccf_standard: Standard = "basel_iii"
+    """The standard whose CCF presets by kind apply."""
     ccf_by_grade: Annotated[list[CcfGradeRow], Field(max_length=LIMITS["exposure.ccf_by_grade"])] | None = None
 
 
 class Downturn(_Model):
+    """Downturn LGD of the risk weights: the mean LGD, the LGD at a quantile of its law, or mean plus an add-on."""
+
     method: Literal["none", "quantile", "add_on"] = "none"
     quantile: Annotated[float, Field(ge=0.5, lt=1)] = 0.9
+    """Quantile of the loss-given-default law for the ``quantile`` method [fraction]."""
     add_on: Annotated[float, Field(ge=0, le=0.5)] = 0.0
+    """Added to the mean LGD by the ``add_on`` method, capped at LGD 1 [fraction]."""
 
 
 class LgdSettings(_Model):
+    """Default recoveries by seniority and the downturn LGD."""
+
     standard: Standard = "basel_iii"
+    """The standard whose supervisory LGDs give the default recoveries by seniority."""
     default_recovery_std: Annotated[float, Field(ge=0, le=0.5)] = 0.25
+    """Recovery std of facilities without a recovery block [fraction]."""
     downturn: Downturn = Downturn()
 
     @model_validator(mode="after")
@@ -224,6 +275,8 @@ class LgdSettings(_Model):
 
 
 class CapitalSettings(_Model):
+    """Regulatory and economic capital settings."""
+
     confidence: Annotated[float, Field(gt=0.5, lt=1)] = 0.999
     """Confidence of the economic capital (VaR, ES, single-factor quantile) [fraction]."""
     pd_floor: Annotated[float, Field(ge=0.00001, le=0.01)] = 0.0005
@@ -231,7 +284,9 @@ class CapitalSettings(_Model):
     scaling_factor: bool = False
     """Apply the 1.06 scaling factor to RWA and so to regulatory capital (8 % of RWA)."""
     annual_sales_eur_millions: Annotated[float, Field(gt=0, le=1e7)] | None = None
+    """Annual sales for the firm-size adjustment of the correlation [EUR millions]; None: none."""
     recovery_join: Literal["comonotonic", "independent"] = "comonotonic"
+    """How the facilities' recoveries are joined (one default event for all)."""
     economic_method: Literal["single_factor", "standalone"] = "single_factor"
     """Economic capital: one-factor portfolio contribution (smooth in PD) or the standalone
     loss quantile of this one name less EL."""
@@ -285,6 +340,8 @@ class Pricing(_Model):
 
 
 class SensitivitySteps(_Model):
+    """Step of each one-way move of the sensitivity table, in the input's own unit."""
+
     short_term_share: Annotated[float, Field(gt=0, le=1)] = 0.10
     long_term_share: Annotated[float, Field(gt=0, le=1)] = 0.10
     asset_growth: Annotated[float, Field(gt=0, le=0.5)] = 0.02
@@ -295,8 +352,11 @@ class SensitivitySteps(_Model):
 
 
 class GridAxis(_Model):
+    """One axis of the PD grid: ``points`` evenly spaced values from start to stop."""
+
     start: Annotated[float, Field(ge=0, le=3)]
     stop: Annotated[float, Field(ge=0, le=3)]
+    """Last value, above start."""
     points: Annotated[int, Field(ge=2, le=101)] = 21
 
     @model_validator(mode="after")
@@ -307,18 +367,26 @@ class GridAxis(_Model):
 
 
 class Sensitivity(_Model):
+    """The one-way steps and the axes of the two-way PD grid."""
+
     steps: SensitivitySteps = SensitivitySteps()
     long_term_share_axis: GridAxis = GridAxis(start=0.0, stop=1.0, points=21)
-    asset_volatility_axis: GridAxis | None = None  # None: centred on the estimate
+    """Long-term share of the default point [fraction]."""
+    asset_volatility_axis: GridAxis | None = None
+    """Asset volatility [1/sqrt(year)]; None: centred on the volatility in use."""
 
 
 ScenarioValue = float | int | bool | str | None
 
 
 class Scenario(_Model):
+    """A named set of overrides, evaluated beside the base case."""
+
     name: Annotated[str, Field(min_length=1, max_length=60)]
+    """Unique within the case."""
     description: Text = ""
     set: dict[str, ScenarioValue] = Field(default_factory=dict, max_length=LIMITS["scenarios[].set"])
+    """Input by dotted path (facilities by id, e.g. ``facilities.RCF-1.ccf``) -> its value."""
 
 
 class RiskItem(_Model):
@@ -393,9 +461,12 @@ class ReviewRecord(_Model):
     """One earlier approved review: what it was computed from and the key figures it showed."""
 
     fingerprint: str
+    """SHA-256 of the case's canonical JSON (64 lower-case hex digits)."""
     engine_version: Annotated[str, Field(min_length=1, max_length=40)]
-    approved_on: str | None = None  # ISO date, YYYY-MM-DD
+    approved_on: str | None = None
+    """The committee's approval date, ISO (YYYY-MM-DD); None: not given."""
     figures: dict[str, float | str | None] = Field(default_factory=dict, max_length=60)
+    """Key figures as then computed, by name; a missing figure is None."""
 
     @model_validator(mode="after")
     def _well_formed(self) -> ReviewRecord:
@@ -427,8 +498,12 @@ class PreviousReview(ReviewRecord):
 
 
 class Review(_Model):
+    """The review this case rolls forward and the older ones."""
+
     previous: PreviousReview | None = None
-    history: list[ReviewRecord] = Field(default_factory=list, max_length=50)  # older, newest first
+    """None for a first review."""
+    history: list[ReviewRecord] = Field(default_factory=list, max_length=50)
+    """Older reviews, newest first."""
 
 
 class StatementsSource(_Model):
@@ -550,7 +625,25 @@ class Case(_Model):
 
 
 def parse_case(data: Any, source: str = "case") -> Case:
-    """Validate a plain mapping (from YAML, JSON or a form) into a frozen :class:`Case`."""
+    """Validate a plain mapping (from YAML, JSON or a form) into a frozen :class:`Case`.
+
+    Parameters
+    ----------
+    data : Any
+        The case as plain data; anything but a mapping is refused.
+    source : str, optional
+        Where the data came from (a file name), named in the error.
+
+    Returns
+    -------
+    Case
+        The validated case.
+
+    Raises
+    ------
+    CaseError
+        If ``data`` is not a mapping or any field is invalid (each bad field, its value and what is allowed).
+    """
     if not isinstance(data, dict):
         raise CaseError.single(
             "case", type(data).__name__, "a mapping with keys borrower, statements, facilities, ...", source
@@ -562,5 +655,16 @@ def parse_case(data: Any, source: str = "case") -> Case:
 
 
 def case_to_dict(case: Case) -> dict[str, Any]:
-    """The case as plain data (JSON/YAML-ready); parse_case(case_to_dict(c)) == c."""
+    """The case as plain data (JSON/YAML-ready); parse_case(case_to_dict(c)) == c.
+
+    Parameters
+    ----------
+    case : Case
+        A validated case.
+
+    Returns
+    -------
+    dict[str, Any]
+        Its fields as JSON-ready values.
+    """
     return case.model_dump(mode="json")

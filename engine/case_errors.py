@@ -17,12 +17,24 @@ from obligor_memo.engine.errors import Problem
 from pydantic import BaseModel, ValidationError
 from pydantic_core import ErrorDetails
 
-MAX_UNKNOWN_KEYS_SHOWN = 10  # unknown keys named one by one; the rest are counted
-MAX_SUGGESTED_KEY = 60  # longer unknown keys get no nearest-key suggestion
+MAX_UNKNOWN_KEYS_SHOWN = 10
+"""Unknown keys named one by one; the rest are counted."""
+MAX_SUGGESTED_KEY = 60
+"""Longer unknown keys get no nearest-key suggestion [characters]."""
 
 
 class FieldError(ValueError):
-    """Raised inside validators: a sub-field path relative to the model being validated."""
+    """Raised inside validators: a sub-field path relative to the model being validated.
+
+    Parameters
+    ----------
+    field : str
+        Path of the field relative to the model being validated.
+    value : Any
+        The value as given.
+    allowed : str
+        What is allowed, in words.
+    """
 
     def __init__(self, field: str, value: Any, allowed: str):
         self.field, self.value, self.allowed = field, value, allowed
@@ -30,7 +42,13 @@ class FieldError(ValueError):
 
 
 class CaseProblems(ValueError):
-    """Raised by a model validator that found several problems at once (paths from the root)."""
+    """Raised by a model validator that found several problems at once (paths from the root).
+
+    Parameters
+    ----------
+    problems : list[Problem]
+        The problems found, each with its path from the root model.
+    """
 
     def __init__(self, problems: list[Problem]):
         self.problems = problems

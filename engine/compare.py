@@ -1,4 +1,4 @@
-"""What changed since the last review, and why: the change in each key figure split by cause.
+r"""What changed since the last review, and why: the change in each key figure split by cause.
 
 Two validated cases, OLD and NEW, are compared through their inputs grouped in blocks
 (:data:`BLOCKS`, defined by case-dict paths in one table). A *hybrid* case takes the inputs of a
@@ -6,7 +6,7 @@ set S of blocks from NEW and every other block from OLD; v(S) is a key figure of
 Each block's share of a figure's change is its Shapley value in that game (Shapley, "A value
 for n-person games", 1953), computed exactly over the subsets rather than the orderings:
 
-    phi_i = sum over S in N \\ {i} of |S|! (n - |S| - 1)! / n! x (v(S + i) - v(S))
+    phi_i = sum over S in N \ {i} of |S|! (n - |S| - 1)! / n! x (v(S + i) - v(S))
 
 so n changed blocks cost 2^n light evaluations (``evaluate(case, detail=False)``; at most 6 input
 blocks, 64 evaluations). Blocks whose inputs are equal are null players (share exactly 0) and are
@@ -29,7 +29,7 @@ its Shapley value in that extended game.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Hashable, Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from fractions import Fraction
 from itertools import combinations
@@ -84,13 +84,18 @@ def _covenant_headroom(results: Any) -> float | None:
 
 @dataclass(frozen=True)
 class Figure:
-    name: str  # JSON key
-    label: str  # words for people
-    kind: str  # "pd", "money", "rate", "text": how it is formatted
+    """One key figure a comparison reports, and how it is read off a Results object."""
+
+    name: str
+    """JSON key."""
+    label: str
+    """Words for people."""
+    kind: str
+    """How it is formatted: ``pd``, ``money``, ``rate`` or ``text``."""
     read: Callable[[Any], Any] = field(repr=False, compare=False)
+    """Reads the figure off a Results object (None where it is not reported)."""
 
 
-# One mapping from Results to the compared figures; a figure an engine does not report is None.
 FIGURES: tuple[Figure, ...] = (
     Figure("grade", "Grade", "text", _attr("pd.grade")),
     Figure("pd", "PD in force", "pd", _attr("pd.pd")),
@@ -110,12 +115,24 @@ FIGURES: tuple[Figure, ...] = (
     Figure("minimum_spread", "Minimum spread", "rate", _attr("pricing.minimum_spread")),
     Figure("covenant_headroom", "Tightest covenant headroom", "rate", _covenant_headroom),
 )
+"""One mapping from Results to the compared figures; a figure an engine does not report is None."""
 FIGURE_BY_NAME = {f.name: f for f in FIGURES}
 NUMERIC = tuple(f.name for f in FIGURES if f.kind != "text")
 
 
 def key_figures(results: Any) -> dict[str, float | str | None]:
-    """Every figure of :data:`FIGURES` read off a Results object (None where not reported)."""
+    """Every figure of :data:`FIGURES` read off a Results object (None where not reported).
+
+    Parameters
+    ----------
+    results : Any
+        What ``evaluate`` returned (any object with the attributes the figures read).
+
+    Returns
+    -------
+    dict[str, float | str | None]
+        Figure name -> the grade as text, a finite number as a float, else None.
+    """
     out: dict[str, float | str | None] = {}
     for f in FIGURES:
         value = f.read(results)
@@ -136,37 +153,77 @@ class RecordedFigures:
     """OLD's figures as recorded when it was printed (memo record or review.previous)."""
 
     engine_version: str
+    """The engine version that computed the figures."""
     figures: Mapping[str, float | str | None]
+    """Figure name -> value as recorded."""
 
 
 @dataclass(frozen=True)
 class BlockShare:
-    block: str  # name; joined blocks as "a+b"
+    """One row of the attribution: a block (or joined blocks) and its share of each figure's change."""
+
+    block: str
+    """Block name; joined blocks as ``a+b``."""
     label: str
-    changes: tuple[str, ...]  # case-dict paths that differ in this block
-    deltas: dict[str, float | None]  # figure -> share of its change (None: not attributable)
+    """Words for people."""
+    changes: tuple[str, ...]
+    """Case-dict paths that differ in this block."""
+    deltas: dict[str, float | None]
+    """Figure -> the block's share of its change (None: not attributable)."""
 
 
 @dataclass(frozen=True)
 class Comparison:
-    old: dict[str, float | str | None]  # as recorded when OLD came from another engine
+    """Key figures of OLD and NEW, their change and each block's share of it."""
+
+    old: dict[str, float | str | None]
+    """OLD's figures; as recorded when OLD came from another engine version."""
     new: dict[str, float | str | None]
-    old_recomputed: dict[str, float | str | None] | None  # OLD with this engine (engine block)
-    change: dict[str, float | None]  # new - old per numeric figure
+    """NEW's figures."""
+    old_recomputed: dict[str, float | str | None] | None
+    """OLD recomputed with this engine (with the engine block); None: OLD's figures are this engine's."""
+    change: dict[str, float | None]
+    """new - old per numeric figure (None where a side does not report it as a number)."""
     attribution: tuple[BlockShare, ...]
-    grade: dict[str, Any]  # {"old", "new", "direction"}
+    """One row per block (joined blocks as one), in table order; the engine block last when present."""
+    grade: dict[str, Any]
+    """Keys ``old``, ``new`` and ``direction`` (unchanged, changed or not graded)."""
     old_engine_version: str
+    """The engine version OLD's figures come from."""
     engine_version: str
+    """This engine's version."""
     evaluations: int
+    """Cases evaluated (or refused as hybrids) for the comparison."""
     notes: tuple[str, ...]
+    """Sentences on joined blocks, figures not split and the engine block."""
     method: str = "shapley"
+    """How the change is split."""
 
     def main_cause(self, figure: str = "expected_loss") -> BlockShare | None:
-        """The block with the largest absolute share of a figure's change (None: no change)."""
+        """The block with the largest absolute share of a figure's change (None: no change).
+
+        Parameters
+        ----------
+        figure : str, optional
+            Name of the figure (a key of :data:`FIGURES`).
+
+        Returns
+        -------
+        BlockShare | None
+            The first row with the largest absolute non-zero share; None when no row has one.
+        """
         shares = [b for b in self.attribution if b.deltas.get(figure)]
-        return max(shares, key=lambda b: abs(b.deltas[figure])) if shares else None
+        return max(shares, key=lambda b: abs(b.deltas[figure] or 0.0)) if shares else None
 
     def to_dict(self) -> dict[str, Any]:
+        """The comparison as plain data (the JSON of ``compare --json``).
+
+        Returns
+        -------
+        dict[str, Any]
+            Figures, change, attribution rows (block, label, changes and each figure's share),
+            method, evaluations, grade, engine versions and notes.
+        """
         return {
             "old": dict(self.old),
             "new": dict(self.new),
@@ -185,6 +242,7 @@ class Comparison:
 
 
 def _direction(old: Any, new: Any) -> str:
+    """How the grade moved: unchanged, changed, or not graded when a side has none."""
     if old is None or new is None:
         return "not graded"
     if old == new:
@@ -201,8 +259,27 @@ def compare_cases(
 ) -> Comparison:
     """Key figures of OLD and NEW and each block's Shapley share of every figure's change.
 
-    ``old_recorded``: OLD's figures as printed; used (with an engine block) when its engine
-    version differs from this one. Raises CaseError when the two cases cannot be compared.
+    Parameters
+    ----------
+    old : Case
+        The case of the last review.
+    new : Case
+        The case now.
+    old_recorded : RecordedFigures | None, optional
+        OLD's figures as printed; used (with an engine block) when its engine version differs
+        from this one. None: OLD is evaluated with this engine.
+    evaluate_fn : Callable[[Case], Any] | None, optional
+        Evaluates one case; None: ``evaluate(case, detail=False)``.
+
+    Returns
+    -------
+    Comparison
+        The figures, their change and its attribution by block.
+
+    Raises
+    ------
+    CaseError
+        If the two cases are in different currencies, or OLD or NEW cannot be evaluated.
     """
     if evaluate_fn is None:
         from obligor_memo.engine.evaluate import evaluate
@@ -281,11 +358,12 @@ def compare_cases(
         if not (isinstance(was, float | int) and isinstance(now, float | int)):
             if was is not None or now is not None:
                 change[name] = None
-            for g in group_names:
-                per_block[g][name] = None
+            for gname in group_names:
+                per_block[gname][name] = None
             engine_shares[name] = None
             continue
-        change[name] = now - was
+        delta = now - was
+        change[name] = delta
         values = {}
         defined = True
         for size in range(len(groups) + 1):
@@ -301,17 +379,17 @@ def compare_cases(
                 f"{FIGURE_BY_NAME[name].label}: not defined for every mix of old and new "
                 "inputs, so its change is not split by cause."
             )
-            for g in group_names:
-                per_block[g][name] = None
+            for gname in group_names:
+                per_block[gname][name] = None
             engine_shares[name] = None
             continue
         exact = shapley_values(list(range(len(groups))), lambda s: values[s])
-        shares: dict[Hashable, Fraction] = {group_names[i]: v for i, v in exact.items()}
+        shares: dict[str, Fraction] = {group_names[i]: v for i, v in exact.items()}
         if engine_delta is not None:
             shares["engine"] = engine_delta.get(name, Fraction(0))
-        rounded = floats_summing_to(shares, change[name])
-        for g in group_names:
-            per_block[g][name] = rounded[g]
+        rounded = floats_summing_to(shares, delta)
+        for gname in group_names:
+            per_block[gname][name] = rounded[gname]
         engine_shares[name] = rounded.get("engine", 0.0)
 
     rows: list[BlockShare] = []

@@ -1,5 +1,7 @@
-"""The blocks of inputs a comparison steps through, defined by case-dict paths in one table,
-the paths at which two cases differ, and the hybrid case that mixes OLD's and NEW's blocks.
+"""The blocks of inputs a comparison steps through, and the hybrid case that mixes them.
+
+The blocks are defined by case-dict paths in one table; the module also finds the paths at
+which two cases differ and builds the hybrid case that mixes OLD's and NEW's blocks.
 
 A facility present on one side only keeps its own recovery terms in every hybrid, so facility
 lists always mix (see engine.compare for the other conflicts).
@@ -15,16 +17,23 @@ from typing import Any
 
 @dataclass(frozen=True)
 class Block:
+    """A block of inputs: the top-level case keys and the facility fields it owns."""
+
     name: str
+    """Identifier, e.g. ``pd``."""
     label: str
-    keys: tuple[str, ...]  # top-level case keys the block owns
-    facility_fields: tuple[str, ...] = ()  # fields of each facility the block owns ("*": the rest)
+    """Words for people."""
+    keys: tuple[str, ...]
+    """Top-level case keys the block owns."""
+    facility_fields: tuple[str, ...] = ()
+    """Fields of each facility the block owns (``*``: the fields no other block owns)."""
 
 
 RECOVERY_FIELDS = ("seniority", "recovery", "collateral")
-# Inputs that change no key figure; a hybrid takes them from NEW (scenarios and the review record
-# are dropped: they are not evaluated, and a scenario may name a facility a hybrid lacks).
+"""Facility fields of the recovery block."""
 PRESENTATION_KEYS = ("borrower", "memo", "sensitivity", "scenarios", "review")
+"""Inputs that change no key figure; a hybrid takes them from NEW (scenarios and the review record
+are dropped: they are not evaluated, and a scenario may name a facility a hybrid lacks)."""
 
 BLOCKS: tuple[Block, ...] = (
     Block("statements", "Statements and market data", ("statements", "market")),
@@ -39,10 +48,25 @@ _OWNED = {key for b in BLOCKS for key in b.keys} | {"facilities"} | set(PRESENTA
 
 
 def other_keys(old: Mapping[str, Any], new: Mapping[str, Any]) -> list[str]:
+    """Top-level keys of either case dict that no block or presentation key owns.
+
+    Parameters
+    ----------
+    old : Mapping[str, Any]
+        OLD's case dict.
+    new : Mapping[str, Any]
+        NEW's case dict.
+
+    Returns
+    -------
+    list[str]
+        The keys, sorted.
+    """
     return sorted((set(old) | set(new)) - _OWNED)
 
 
 def _keys_of(block: Block, old: Mapping[str, Any], new: Mapping[str, Any]) -> list[str]:
+    """The top-level keys a block owns (the ``other`` block: the keys no block names)."""
     return other_keys(old, new) if block.name == "other" else list(block.keys)
 
 
@@ -76,7 +100,25 @@ def _diff(a: Any, b: Any, path: str, out: list[str]) -> None:
 
 
 def changed_paths(block: Block, old: Mapping[str, Any], new: Mapping[str, Any]) -> list[str]:
-    """The case-dict paths of ``block`` whose values differ between two case dicts."""
+    """The case-dict paths of ``block`` whose values differ between two case dicts.
+
+    Facilities are matched by id and statement rows by year; a facility added, removed or
+    reordered is reported by the facilities block.
+
+    Parameters
+    ----------
+    block : Block
+        The block whose inputs are compared.
+    old : Mapping[str, Any]
+        OLD's case dict.
+    new : Mapping[str, Any]
+        NEW's case dict.
+
+    Returns
+    -------
+    list[str]
+        The differing paths, e.g. ``pd.asset_growth`` or ``facilities[RCF-1].drawn``.
+    """
     out: list[str] = []
     for key in _keys_of(block, old, new):
         _diff(old.get(key), new.get(key), key, out)
@@ -103,7 +145,25 @@ def changed_paths(block: Block, old: Mapping[str, Any], new: Mapping[str, Any]) 
 
 
 def hybrid_case_dict(old: Mapping[str, Any], new: Mapping[str, Any], from_new: Iterable[str]) -> dict[str, Any]:
-    """The case dict with the blocks named in ``from_new`` taken from NEW and the rest from OLD."""
+    """The case dict with the blocks named in ``from_new`` taken from NEW and the rest from OLD.
+
+    Presentation keys come from NEW, without scenarios and the review record; a facility present
+    on one side only keeps its own recovery terms.
+
+    Parameters
+    ----------
+    old : Mapping[str, Any]
+        OLD's case dict.
+    new : Mapping[str, Any]
+        NEW's case dict.
+    from_new : Iterable[str]
+        Names of the blocks taken from NEW.
+
+    Returns
+    -------
+    dict[str, Any]
+        The hybrid case dict (copies; neither input is changed).
+    """
     chosen = set(from_new)
     out: dict[str, Any] = {key: copy.deepcopy(new[key]) for key in PRESENTATION_KEYS if key in new}
     out["scenarios"] = []

@@ -28,20 +28,20 @@ from typing import Any
 
 from obligor_memo.engine.credit_metrics import CreditYear, credit_year
 
-# metric -> (words, the direction a covenant on it takes, whether EBITDA is its numerator/denominator)
 METRICS: dict[str, tuple[str, str, bool]] = {
     "net_debt_to_ebitda": ("Net debt / EBITDA", "max", True),
     "interest_cover": ("EBITDA / interest", "min", True),
     "debt_to_equity": ("Debt / equity", "max", False),
     "ebitda_margin": ("EBITDA margin", "min", True),
 }
-# Where a metric is missing: the lines it needs (for the note).
+"""Metric -> (words, the direction a covenant on it takes, whether EBITDA is its numerator/denominator)."""
 _NEEDS = {
     "net_debt_to_ebitda": "total_debt, cash and a positive ebitda",
     "interest_cover": "ebitda and a non-zero interest_expense",
     "debt_to_equity": "total_debt and a positive book_equity",
     "ebitda_margin": "ebitda and positive sales",
 }
+"""Where a metric is missing: the lines it needs (for the note)."""
 
 
 @dataclass(frozen=True)
@@ -74,23 +74,48 @@ class CovenantTest:
 
 
 def _headroom(value: float, threshold: float, direction: str) -> float:
+    """Room to the threshold as a fraction of it, positive when there is room."""
     return (threshold - value) / threshold if direction == "max" else (value - threshold) / threshold
 
 
 def read_covenant(
     *, metric: str, threshold: float, direction: str, tested: str, latest: CreditYear | None, row: Any
 ) -> CovenantTest:
-    """One covenant on the latest year's metrics ``latest`` (``row``: that statement row)."""
+    """One covenant on the latest year's metrics ``latest`` (``row``: that statement row).
+
+    Parameters
+    ----------
+    metric : str
+        The metric: a key of :data:`METRICS`.
+    threshold : float
+        The limit [times; a fraction for ``ebitda_margin``].
+    direction : str
+        ``max`` (the metric must stay at or below the threshold) or ``min`` (at or above it).
+    tested : str
+        How often it is tested, in words.
+    latest : CreditYear | None
+        The latest year's credit metrics; None: no year to test.
+    row : Any
+        That year's statement row (its ``interest_expense`` and ``sales`` give the EBITDA at breach).
+
+    Returns
+    -------
+    CovenantTest
+        The value, headroom, breach and EBITDA fall to breach, with a note where a figure is missing.
+    """
     label, _, ebitda_based = METRICS[metric]
     value = getattr(latest, metric) if latest is not None else None
     year = latest.year if latest is not None else None
     ebitda = latest.ebitda if latest is not None else None
-    common = dict(
-        metric=metric, label=label, direction=direction, threshold=threshold, tested=tested, year=year, ebitda=ebitda
-    )
     if value is None:
         return CovenantTest(
-            **common,  # type: ignore[arg-type]
+            metric=metric,
+            label=label,
+            direction=direction,
+            threshold=threshold,
+            tested=tested,
+            year=year,
+            ebitda=ebitda,
             value=None,
             headroom=None,
             breached=None,
@@ -101,6 +126,7 @@ def read_covenant(
     headroom = _headroom(value, threshold, direction)
     breached = headroom < 0
     at_breach: float | None = None
+    fall: float | None = None
     note = ""
     if not ebitda_based:
         note = "not EBITDA-based"
@@ -117,11 +143,18 @@ def read_covenant(
             at_breach = threshold * float(row.interest_expense)
         else:  # ebitda_margin
             at_breach = threshold * float(row.sales)
-    fall = None if at_breach is None else (ebitda - at_breach) / ebitda  # type: ignore[operator]
+        if at_breach is not None:
+            fall = (ebitda - at_breach) / ebitda
     if breached:
         note = "breached now" + (f"; {note}" if note else "")
     return CovenantTest(
-        **common,  # type: ignore[arg-type]
+        metric=metric,
+        label=label,
+        direction=direction,
+        threshold=threshold,
+        tested=tested,
+        year=year,
+        ebitda=ebitda,
         value=value,
         headroom=headroom,
         breached=breached,
@@ -132,7 +165,20 @@ def read_covenant(
 
 
 def covenant_tests(covenants: Sequence[Any], statements: Sequence[Any]) -> tuple[CovenantTest, ...]:
-    """Every covenant of the case on the latest statement year (statements sorted by year)."""
+    """Every covenant of the case on the latest statement year (statements sorted by year).
+
+    Parameters
+    ----------
+    covenants : Sequence[Any]
+        The case's covenants (each with ``metric``, ``threshold``, ``direction``, ``tested``).
+    statements : Sequence[Any]
+        The statement rows, oldest first.
+
+    Returns
+    -------
+    tuple[CovenantTest, ...]
+        One test per covenant, in order; empty without covenants or statements.
+    """
     if not covenants or not statements:
         return ()
     row = statements[-1]

@@ -25,16 +25,17 @@ class CreditYear:
     """One financial year's credit metrics (see the module docstring for the definitions)."""
 
     year: int
+    """The financial year."""
     revenue: float | None
     """Sales [currency]."""
     ebitda: float | None
-    """[currency]"""
+    """EBITDA [currency]."""
     ebitda_margin: float | None
     """EBITDA / sales [fraction]."""
     net_debt: float | None
     """Total debt - cash [currency]."""
     net_debt_to_ebitda: float | None
-    """[times]"""
+    """Net debt / EBITDA [times]."""
     interest_cover: float | None
     """EBITDA / interest expense [times]."""
     debt_to_equity: float | None
@@ -44,6 +45,7 @@ class CreditYear:
 
 
 def _ratio(top: float | None, bottom: float | None, *, positive_bottom: bool = True) -> float | None:
+    """Ratio top / bottom; None where either is missing, bottom is 0 or (``positive_bottom``) below 0."""
     if top is None or bottom is None:
         return None
     if bottom == 0 or (positive_bottom and bottom < 0):
@@ -52,7 +54,18 @@ def _ratio(top: float | None, bottom: float | None, *, positive_bottom: bool = T
 
 
 def credit_year(row: Any) -> CreditYear:
-    """The metrics of one statement row (a schema StatementRow or anything with its fields)."""
+    """The metrics of one statement row (a schema StatementRow or anything with its fields).
+
+    Parameters
+    ----------
+    row : Any
+        A statement row; a line it does not have (or holds as None) counts as missing.
+
+    Returns
+    -------
+    CreditYear
+        That year's metrics, None where a line is missing or the metric undefined.
+    """
 
     def get(name: str) -> float | None:
         value = getattr(row, name, None)
@@ -76,7 +89,19 @@ def credit_year(row: Any) -> CreditYear:
 
 
 def credit_metrics(rows: Sequence[Any]) -> tuple[CreditYear, ...]:
-    """The metrics of every year, oldest first; empty when no year has any of the lines."""
+    """The metrics of every year, oldest first; empty when no year has any of the lines.
+
+    Parameters
+    ----------
+    rows : Sequence[Any]
+        The statement rows, oldest first.
+
+    Returns
+    -------
+    tuple[CreditYear, ...]
+        One entry per row; empty when no year gives revenue, EBITDA, net debt, free cash flow
+        or interest cover.
+    """
     years = tuple(credit_year(r) for r in rows)
     wanted = ("revenue", "ebitda", "net_debt", "free_cash_flow", "interest_cover")
     return years if any(getattr(y, name) is not None for y in years for name in wanted) else ()

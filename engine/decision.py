@@ -16,14 +16,23 @@ class FacilityLine:
     """One facility as the decision page lists it."""
 
     id: str
+    """The facility's id."""
     kind: str
-    status: str | None  # new | renewal | increase | unchanged; None when not given
-    committed: float  # [currency]
-    ead: float  # [currency]
-    collateral_gross: float | None  # collateral value before haircut [currency]; None: unsecured
-    collateral_net: float | None  # after haircut [currency]
-    ltv: float | None  # committed / collateral before haircut [fraction]
-    ltv_after_haircut: float | None  # committed / collateral after haircut [fraction]
+    """The facility kind, e.g. ``term_loan``."""
+    status: str | None
+    """``new``, ``renewal``, ``increase`` or ``unchanged``; None when not given."""
+    committed: float
+    """Committed amount [currency units]."""
+    ead: float
+    """Exposure at default [currency units]."""
+    collateral_gross: float | None
+    """Collateral value before haircut [currency units]; None: no collateral."""
+    collateral_net: float | None
+    """Collateral value after haircut [currency units]; None: no collateral."""
+    ltv: float | None
+    """Committed / collateral before haircut [fraction]; None without collateral of value above 0."""
+    ltv_after_haircut: float | None
+    """Committed / collateral after haircut [fraction]; None without collateral of value above 0."""
 
 
 @dataclass(frozen=True)
@@ -31,31 +40,57 @@ class ScenarioLine:
     """One scenario read against the base case."""
 
     name: str
+    """The scenario's name."""
     pd: float
+    """The scenario's PD in force [fraction]."""
     grade: str | None
+    """The scenario's grade."""
     raroc: float | None
+    """The scenario's RAROC [fraction/year]; None without pricing or capital."""
     grade_changed: bool
-    pd_change: float  # scenario PD minus base PD [fraction]
-    raroc_change: float | None  # [fraction/year]
+    """True when the scenario's grade differs from the base's."""
+    pd_change: float
+    """Scenario PD minus base PD [fraction]."""
+    raroc_change: float | None
+    """Scenario RAROC minus base RAROC [fraction/year]; None where either side has none."""
     meets_hurdle: bool | None
+    """RAROC at or above the hurdle rate; None without a RAROC or pricing."""
 
 
 @dataclass(frozen=True)
 class Decision:
+    """The figures of the memo's decision page."""
+
     facilities: tuple[FacilityLine, ...]
-    total_committed: float  # [currency]
+    """Every facility, in the case's order."""
+    total_committed: float
+    """Sum of the committed amounts [currency units]."""
     scenarios: tuple[ScenarioLine, ...]
-    worst: ScenarioLine | None  # highest PD in force; ties broken by the lower RAROC
+    """Every scenario evaluated with the results; empty when none is attached."""
+    worst: ScenarioLine | None
+    """Highest PD in force; ties broken by the lower RAROC (a missing RAROC counts as 0)."""
 
 
 def _ratio(numerator: float, denominator: float | None) -> float | None:
+    """Numerator / denominator; None where the denominator is missing or not above 0."""
     if denominator is None or denominator <= 0:
         return None
     return numerator / denominator
 
 
 def decision_summary(results: Any) -> Decision:
-    """The decision page's figures from ``results`` (scenarios read when attached)."""
+    """The decision page's figures from ``results`` (scenarios read when attached).
+
+    Parameters
+    ----------
+    results : Any
+        Evaluated results: the case, its facilities' results, pricing and any scenarios.
+
+    Returns
+    -------
+    Decision
+        Facility lines with their loan-to-value, the total committed and the scenario lines.
+    """
     lines = []
     for case_f, res_f in zip(results.case.facilities, results.facilities):
         c = case_f.collateral
@@ -98,33 +133,58 @@ def decision_summary(results: Any) -> Decision:
 
 # --------------------------------------------------------------------------- cross-checks against the grade
 
-# How a Z-score zone is read on the master scale: a representative one-year PD per zone, graded
-# like any PD. A reading convention of this tool, not a calibration (the zones were set on other
-# samples of firms): safe 0.1 % (investment-grade territory), grey 1 %, distress 5 %.
 ZONE_PD = {"safe": 0.001, "grey": 0.01, "distress": 0.05}
-# A cross-check this many notches or fewer from the grade needs no explanation (issue rule: more
-# than two notches apart, the analyst must reconcile them).
+"""How a Z-score zone is read on the master scale: a representative one-year PD per zone [fraction],
+graded like any PD. A reading convention of this tool, not a calibration (the zones were set on
+other samples of firms): safe 0.1 % (investment-grade territory), grey 1 %, distress 5 %."""
 NOTCH_TOLERANCE = 2
+"""A cross-check this many notches or fewer from the grade needs no explanation (more than two
+notches apart, the analyst must reconcile them)."""
 
 
 @dataclass(frozen=True)
 class CrossCheckGrade:
     """One cross-check read as a grade on the case's master scale."""
 
-    source: str  # in words: "naive market PD", "Z (1968) zone"
-    reading: str  # what was read: "distress" or "" for a PD
-    pd: float  # the PD graded (the market PD, or the zone's PD of ZONE_PD) [fraction]
+    source: str
+    """The cross-check in words: "naive market PD", "Z (1968) zone"."""
+    reading: str
+    """What was read: a zone such as "distress", or "" for a PD."""
+    pd: float
+    """The PD graded (the market PD, or the zone's PD of ZONE_PD) [fraction]."""
     grade: str
-    notches: int  # cross-check grade minus the grade in force, in notches; positive: the cross-check is worse
+    """Its grade on the case's master scale."""
+    notches: int
+    """Cross-check grade minus the grade in force, in notches; positive: the cross-check is worse."""
 
 
 def _notch(scale: Any, label: str) -> int:
+    """Position of a grade on the master scale (0: the best)."""
     return [g.label for g in scale.grades].index(label)
 
 
 def cross_check_grades(case: Any, pd: Any, zscores: Any, market: Any) -> tuple[CrossCheckGrade, ...]:
-    """Every scored Z-score zone, the naive market PD and (for a balance-sheet PD) the market-implied
-    PD, each graded on the case's master scale and set against the grade in force."""
+    """Every cross-check graded on the case's master scale and set against the grade in force.
+
+    The cross-checks are every scored Z-score zone, the naive market PD and (for a balance-sheet
+    PD) the market-implied PD.
+
+    Parameters
+    ----------
+    case : Any
+        The case (its master scale and PD method).
+    pd : Any
+        The PD step's result (its grade in force).
+    zscores : Any
+        The Z-score results, or None.
+    market : Any
+        The market cross-check (naive and market-implied PD), or None.
+
+    Returns
+    -------
+    tuple[CrossCheckGrade, ...]
+        One grade per cross-check; empty when the PD has no grade.
+    """
     from obligor_memo.engine.grading import DEFAULT_MASTER_SCALE, assign_grade, master_scale_from_rows
 
     if pd.grade is None:
@@ -148,7 +208,20 @@ def cross_check_grades(case: Any, pd: Any, zscores: Any, market: Any) -> tuple[C
 
 
 def unexplained_gaps(checks: tuple[CrossCheckGrade, ...], explanation: str) -> tuple[CrossCheckGrade, ...]:
-    """The cross-checks more than NOTCH_TOLERANCE notches from the grade, when no explanation is given."""
+    """The cross-checks more than NOTCH_TOLERANCE notches from the grade, when no explanation is given.
+
+    Parameters
+    ----------
+    checks : tuple[CrossCheckGrade, ...]
+        The graded cross-checks.
+    explanation : str
+        The analyst's reconciliation; any non-blank text explains every gap.
+
+    Returns
+    -------
+    tuple[CrossCheckGrade, ...]
+        The gaps left unexplained.
+    """
     if explanation.strip():
         return ()
     return tuple(c for c in checks if abs(c.notches) > NOTCH_TOLERANCE)

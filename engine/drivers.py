@@ -1,5 +1,6 @@
-"""Why the PD is what it is: the inputs that move it most, the year that drives the volatility,
-and the break-even points at which the grade drops a notch or RAROC falls below the hurdle.
+"""Why the PD is what it is: the inputs that move it most, the year that drives it, the break-evens.
+
+The break-even points are those at which the grade drops a notch or RAROC falls below the hurdle.
 
 Leave one year out: the asset volatility is the sample standard deviation of the annual log
 changes of total assets; dropping one change at a time and re-computing the balance-sheet PD with
@@ -24,40 +25,78 @@ from scipy.optimize import brentq
 
 @dataclass(frozen=True)
 class YearLeftOut:
-    year: int  # the year whose change on the year before is left out
-    log_change: float  # that year's log change of total assets [1/year]
-    volatility: float  # sample volatility without it [1/sqrt(year)]
-    pd: float  # balance-sheet PD with that volatility, all else held [fraction]
+    """The asset volatility and balance-sheet PD with one year's change left out."""
+
+    year: int
+    """The year whose change on the year before is left out."""
+    log_change: float
+    """That year's log change of total assets [1/year]."""
+    volatility: float
+    """Sample volatility without it [1/sqrt(year)]."""
+    pd: float
+    """Balance-sheet PD with that volatility, all else held [fraction]."""
 
 
 @dataclass(frozen=True)
 class Driver:
+    """One assumption of the one-way sensitivity and how far it moves the PD in force."""
+
     label: str
-    pd_low: float | None  # PD at the lower input
-    pd_high: float | None  # PD at the higher input
-    swing: float  # |PD at the higher input - PD at the lower input| [fraction]
+    """The assumption in words."""
+    pd_low: float | None
+    """PD at the lower input [fraction]; None: that case did not validate."""
+    pd_high: float | None
+    """PD at the higher input [fraction]; None: that case did not validate."""
+    swing: float
+    """|PD at the higher input - PD at the lower input| [fraction] (the base PD for a missing side)."""
 
 
 @dataclass(frozen=True)
 class BreakEven:
-    input: str  # in words
+    """The values of one input at which the grade drops a notch and RAROC reaches the hurdle."""
+
+    input: str
+    """The input in words."""
     base: float
-    grade_notch: float | None  # value at which the grade drops one notch; None: not within range
-    below_hurdle: float | None  # value at which RAROC falls to the hurdle; None: not within range
-    low: float  # the range searched
+    """Its value in use, in the input's own unit."""
+    grade_notch: float | None
+    """Value at which the grade drops one notch; None: not within range."""
+    below_hurdle: float | None
+    """Value at which RAROC falls to the hurdle; None: not within range."""
+    low: float
+    """Lower end of the range searched."""
     high: float
+    """Upper end of the range searched."""
 
 
 @dataclass(frozen=True)
 class PdDrivers:
-    drivers: tuple[Driver, ...]  # largest PD swing first, at most three
+    """What drives the PD: the largest one-way swings, the years left out and the break-evens."""
+
+    drivers: tuple[Driver, ...]
+    """Largest PD swing first, at most three."""
     years_left_out: tuple[YearLeftOut, ...]
-    driving_year: YearLeftOut | None  # the year whose removal changes the volatility most
+    """One per year change; empty unless the volatility is estimated from at least three changes."""
+    driving_year: YearLeftOut | None
+    """The year whose removal changes the volatility most; None without years left out."""
     break_evens: tuple[BreakEven, ...]
+    """Break-evens of each input searched (balance-sheet method only)."""
 
 
 def leave_one_year_out(results: Any) -> tuple[YearLeftOut, ...]:
-    """Volatility and PD without each year's change (balance-sheet method, estimated volatility)."""
+    """Volatility and PD without each year's change (balance-sheet method, estimated volatility).
+
+    Parameters
+    ----------
+    results : Any
+        Evaluated results: the asset trend, the case.
+
+    Returns
+    -------
+    tuple[YearLeftOut, ...]
+        One entry per annual change; empty without a trend, with a volatility set in the case, or
+        with fewer than three changes.
+    """
     trend, pd, case = results.trend, results.pd, results.case
     if trend is None or trend.volatility_overridden or len(trend.log_changes) < 3:
         return ()
@@ -82,6 +121,20 @@ def leave_one_year_out(results: Any) -> tuple[YearLeftOut, ...]:
 
 
 def top_drivers(sensitivity: Any, count: int = 3) -> tuple[Driver, ...]:
+    """The assumptions of the one-way sensitivity that move the PD in force most.
+
+    Parameters
+    ----------
+    sensitivity : Any
+        The one-way sensitivity table, or None.
+    count : int, optional
+        Largest number of drivers given.
+
+    Returns
+    -------
+    tuple[Driver, ...]
+        Largest PD swing first, at most ``count``, without those that do not move it.
+    """
     if sensitivity is None:
         return ()
     rows = []
@@ -94,6 +147,7 @@ def top_drivers(sensitivity: Any, count: int = 3) -> tuple[Driver, ...]:
 
 
 def _root(f: Callable[[float], float], a: float, b: float) -> float | None:
+    """A root of f in [a, b] by Brent's method; None where f has no sign change there or fails."""
     try:
         fa, fb = f(a), f(b)
     except Exception:  # an input the case refuses at the edge: no break-even reported
@@ -106,8 +160,24 @@ def _root(f: Callable[[float], float], a: float, b: float) -> float | None:
 
 
 def break_evens(results: Any) -> tuple[BreakEven, ...]:
-    """Grade-notch and hurdle break-evens for the long-term share, volatility, growth and the
-    first secured facility's mean recovery (recovery moves RAROC, never the grade)."""
+    """Grade-notch and hurdle break-evens of the inputs that move the PD and RAROC.
+
+    The inputs searched are the long-term share of the default point, the asset volatility, the
+    asset growth (where the PD step uses one) and the unsecured mean recovery of the first facility
+    with its own recovery law (recovery moves RAROC, never the grade). Each case is evaluated
+    whole (``evaluate(..., detail=False)``).
+
+    Parameters
+    ----------
+    results : Any
+        Evaluated results: the case, its PD step and pricing.
+
+    Returns
+    -------
+    tuple[BreakEven, ...]
+        One per input with a range to search; empty unless the PD is the balance-sheet method's
+        and its grade has an upper edge.
+    """
     from obligor_memo.engine.evaluate import evaluate
     from obligor_memo.engine.scenarios import apply_overrides
 
@@ -168,6 +238,18 @@ def break_evens(results: Any) -> tuple[BreakEven, ...]:
 
 
 def pd_drivers(results: Any) -> PdDrivers:
+    """The drivers, years left out and break-evens of a case's PD.
+
+    Parameters
+    ----------
+    results : Any
+        Evaluated results (with their one-way sensitivity where it was computed).
+
+    Returns
+    -------
+    PdDrivers
+        The largest one-way PD swings, the years left out, the driving year and the break-evens.
+    """
     years = leave_one_year_out(results)
     driving = None
     if years and results.trend is not None:

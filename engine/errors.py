@@ -70,7 +70,15 @@ class Problem:
 
 
 class CaseError(ValueError):
-    """A case (file, upload or form) that cannot be evaluated as given."""
+    """A case (file, upload or form) that cannot be evaluated as given.
+
+    Parameters
+    ----------
+    problems : list[Problem] | tuple[Problem, ...]
+        Every bad input found, in order.
+    source : str, optional
+        What holds the inputs (the case, a file name), named in the message.
+    """
 
     def __init__(self, problems: list[Problem] | tuple[Problem, ...], source: str = "case"):
         self.problems: tuple[Problem, ...] = tuple(problems)
@@ -131,6 +139,15 @@ class InputError(ValueError):
     Every step raises this (not a bare ValueError) for a bad input, so a front end turns it into
     a :class:`Problem` by reading its attributes, never by parsing its text. ``str()`` is the
     same one-line sentence as :meth:`Problem.sentence` without the final stop.
+
+    Parameters
+    ----------
+    field : str
+        Dotted path of the field.
+    value : Any
+        The value as given (a string is shown as it is).
+    allowed : str
+        What is allowed, in words.
     """
 
     def __init__(self, field: str, value: Any, allowed: str):

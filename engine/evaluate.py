@@ -13,13 +13,14 @@ import json
 import math
 from dataclasses import dataclass
 
+import numpy as np
 from obligor_memo.engine import ENGINE_VERSION
 from obligor_memo.engine.capital_step import allocate, capital_exposure, capital_figures, economic_basis
-from obligor_memo.engine.case import Case, case_to_dict
-from obligor_memo.engine.covenants import covenant_tests
+from obligor_memo.engine.case import Case, Facility, StatementRow, case_to_dict
+from obligor_memo.engine.covenants import CovenantTest, covenant_tests
 from obligor_memo.engine.credit_metrics import credit_metrics
 from obligor_memo.engine.deal_pricing import DealPricing, PricingLine, deal_pricing, price_lines
-from obligor_memo.engine.decision import cross_check_grades, unexplained_gaps
+from obligor_memo.engine.decision import CrossCheckGrade, cross_check_grades, unexplained_gaps
 from obligor_memo.engine.errors import CaseError, Caution
 from obligor_memo.engine.exposure import FacilityExposure, facility_exposure, resolve_ccf
 from obligor_memo.engine.loss import borrower_unexpected_loss, expected_loss, unexpected_loss
@@ -36,7 +37,7 @@ from obligor_memo.engine.recovery import (
 from obligor_memo.engine.results import FacilityResult, Results, Totals
 from obligor_memo.engine.statements import statement_cautions, year_ratios
 from obligor_memo.engine.structural import PdTermStructure
-from obligor_memo.engine.zscore import altman_scores
+from obligor_memo.engine.zscore import Zone, ZScore, altman_scores
 
 __all__ = ["Results", "FacilityResult", "Totals", "PdResult", "MarketResult", "evaluate", "estimate_pd", "fingerprint"]
 
@@ -46,16 +47,19 @@ class PreparedFacility:
     """Exposure, recovery law and downturn LGD of one facility, before loss and capital."""
 
     exposure: FacilityExposure
+    """Drawn, committed, CCF and EAD of the exposure step."""
     capital_exposure: FacilityExposure
     """On the CCFs of capital (``capital.capital_ccf``)."""
     law: RecoveryLaw
+    """The effective recovery law (covered and uncovered parts)."""
     mean: float
     """Unsecured law's mean recovery [fraction]."""
     std: float
-    """[fraction]"""
+    """Unsecured law's recovery std [fraction]."""
     upper: float
-    """[fraction]"""
+    """Top of the unsecured law's support [fraction]."""
     source: str
+    """Where the unsecured law's mean came from, in words."""
     collateral_value: float
     """After haircut [currency]."""
     cover: float
@@ -63,17 +67,43 @@ class PreparedFacility:
     secured_lgd: float
     """LGD of the covered part [fraction]."""
     downturn_lgd: float
-    """[fraction]"""
+    """Downturn LGD of the risk weight, before its [0, 1] bounds [fraction]."""
+
+
+ZScoreYear = tuple[int, str, float | None, Zone | None]
+"""One year's score of one Z-score variant: (year, variant, score, zone)."""
 
 
 def canonical_case_json(case: Case) -> bytes:
-    """The case as fingerprinted (and embedded in the memo): sorted keys, compact, ASCII."""
+    """The case as fingerprinted (and embedded in the memo): sorted keys, compact, ASCII.
+
+    Parameters
+    ----------
+    case : Case
+        A validated case.
+
+    Returns
+    -------
+    bytes
+        Its JSON (keys sorted, no blanks between items, non-ASCII escaped), ASCII-encoded.
+    """
     text = json.dumps(case_to_dict(case), sort_keys=True, separators=(",", ":"), ensure_ascii=True)
     return text.encode("ascii")
 
 
 def fingerprint(case: Case) -> str:
-    """SHA-256 of :func:`canonical_case_json`."""
+    """SHA-256 of :func:`canonical_case_json`.
+
+    Parameters
+    ----------
+    case : Case
+        A validated case.
+
+    Returns
+    -------
+    str
+        The digest as 64 lower-case hex digits.
+    """
     return hashlib.sha256(canonical_case_json(case)).hexdigest()
 
 
@@ -93,6 +123,23 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
     ``detail=False`` is for loops that read only the headline figures (sensitivities): it skips
     the Z-scores, the market cross-check of a balance-sheet PD and the charted loss curve; every
     headline figure (PD, EAD, EL, UL, RWA, VaR, economic capital, RAROC) is the same.
+
+    Parameters
+    ----------
+    case : Case
+        A validated case.
+    detail : bool, optional
+        Compute the Z-scores, the market cross-check and the charted loss curve as well.
+
+    Returns
+    -------
+    Results
+        Every step's figures, the cautions and the case itself.
+
+    Raises
+    ------
+    CaseError
+        If the inputs cannot be evaluated together (the message names the field, its value and what is allowed).
     """
     cautions: list[Caution] = statement_cautions(case)
     trend, pd, pd_cautions, market = estimate_pd(case, cross_check=detail)
@@ -173,7 +220,7 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
     for i, (f, item) in enumerate(zip(case.facilities, prepared)):
         exp, law, cexp = item.exposure, item.law, item.capital_exposure
         lgd, lgd_std = law.lgd, law.std()
-        quantiles = {f"q{int(round(q * 100)):02d}": float(v) for q, v in zip(levels, law.ppf(levels))}
+        quantiles = {f"q{int(round(q * 100)):02d}": float(v) for q, v in zip(levels, np.atleast_1d(law.ppf(levels)))}
         facilities.append(
             FacilityResult(
                 id=f.id,
@@ -281,7 +328,7 @@ def evaluate(case: Case, *, detail: bool = True) -> Results:
     )
 
 
-def _cross_check_cautions(case: Case, pd: PdResult, checks) -> list[Caution]:
+def _cross_check_cautions(case: Case, pd: PdResult, checks: tuple[CrossCheckGrade, ...]) -> list[Caution]:
     """Cross-checks more than two notches from the grade need the analyst's explanation."""
     gaps = unexplained_gaps(checks, case.memo.cross_check_explanation)
     if not gaps:
@@ -301,7 +348,7 @@ def _cross_check_cautions(case: Case, pd: PdResult, checks) -> list[Caution]:
     ]
 
 
-def _covenant_cautions(covenants) -> list[Caution]:
+def _covenant_cautions(covenants: tuple[CovenantTest, ...]) -> list[Caution]:
     """A covenant breached on the latest year, or one the statements cannot test."""
     out = []
     for i, c in enumerate(covenants):
@@ -321,9 +368,13 @@ def _covenant_cautions(covenants) -> list[Caution]:
     return out
 
 
-def _prepare_facility(case: Case, index: int, f, grade: str | None, cautions: list[Caution]) -> PreparedFacility:
+def _prepare_facility(
+    case: Case, index: int, f: Facility, grade: str | None, cautions: list[Caution]
+) -> PreparedFacility:
     """Exposure, recovery law and downturn LGD of one facility."""
-    ccf_table = [(r.grade, r.ccf, r.kind) for r in case.exposure.ccf_by_grade] if case.exposure.ccf_by_grade else None
+    ccf_table: list[tuple[str, float, str | None]] | None = (
+        [(r.grade, r.ccf, r.kind) for r in case.exposure.ccf_by_grade] if case.exposure.ccf_by_grade else None
+    )
     ccf, ccf_source = resolve_ccf(
         kind=f.kind,
         own_ccf=f.ccf,
@@ -393,12 +444,12 @@ def _prepare_facility(case: Case, index: int, f, grade: str | None, cautions: li
     )
 
 
-def _zscores(case: Case):
+def _zscores(case: Case) -> tuple[tuple[ZScore, ...], tuple[ZScoreYear, ...], list[Caution]]:
     """Altman Z-scores for the latest year, and the book-based variants for every year."""
     cautions: list[Caution] = []
     equity = case.market.equity_value if case.market else None
 
-    def scores(row, market_equity):
+    def scores(row: StatementRow, market_equity: float | None) -> tuple[ZScore, ...]:
         return altman_scores(
             total_assets=row.total_assets,
             working_capital=row.working_capital,

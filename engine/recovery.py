@@ -59,6 +59,7 @@ _SUPERVISORY_LGD = {
 
 
 _LEAD_TERM = 1e-8
+"""Below this distance to an end of [0, 1] the beta law's leading tail term is used."""
 
 
 def _exp_or_inf(x: float) -> float:
@@ -69,7 +70,6 @@ def _exp_or_inf(x: float) -> float:
         return math.inf
 
 
-"""Below this distance to an end of [0, 1] the beta law's leading tail term is used."""
 MAX_UPPER = 1.5
 """Largest top of a recovery law's support [fraction of EAD]."""
 
@@ -258,6 +258,7 @@ class RecoveryLaw:
 
     @cached_property
     def _log_beta(self) -> float:
+        """The log of the beta function, ln B(a, b), of the shapes."""
         return float(special.betaln(*self._shapes))
 
     def _unit_quantile(self, q: FloatArray) -> FloatArray:

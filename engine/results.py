@@ -33,8 +33,11 @@ class FacilityResult:
     """One facility: exposure, recovery, loss and capital."""
 
     id: str
+    """The facility's id."""
     kind: str
+    """The facility kind, e.g. ``revolver``."""
     seniority: str
+    """``senior_secured``, ``senior_unsecured`` or ``subordinated``."""
     maturity_years: float
     """[years]"""
     drawn: float
@@ -46,6 +49,7 @@ class FacilityResult:
     ccf: float
     """[fraction]"""
     ccf_source: str
+    """Where the CCF came from, in words."""
     ead: float
     """[currency]"""
     recovery_mean: float
@@ -55,6 +59,7 @@ class FacilityResult:
     recovery_upper: float
     """Top of the unsecured law's support [fraction]."""
     recovery_source: str
+    """Where the unsecured law's mean came from, in words."""
     collateral_value: float
     """After haircut [currency]."""
     collateral_cover: float
@@ -64,8 +69,9 @@ class FacilityResult:
     alpha: float | None
     """Beta shape of the unsecured law (None: point mass)."""
     beta: float | None
+    """The other beta shape of the unsecured law (None: point mass)."""
     recovery_quantiles: dict[str, float]
-    """Of the effective recovery law [fraction]."""
+    """Quantiles of the effective recovery law at 5, 25, 50, 75 and 95 % (keys q05 .. q95) [fraction]."""
     lgd: float
     """1 - effective mean recovery [fraction]; negative possible with recoveries above par."""
     lgd_std: float
@@ -93,6 +99,7 @@ class FacilityResult:
     correlation: float
     """IRB asset correlation (after any firm-size adjustment) [fraction]."""
     maturity_adjustment: float
+    """IRB maturity adjustment of the risk weight."""
     capital_k: float
     """IRB capital per unit EAD, before the scaling factor [fraction]."""
     risk_weight: float
@@ -165,12 +172,17 @@ class Results:
     """Everything one evaluation produced; ``to_dict`` is the JSON contract."""
 
     engine_version: str
+    """The engine version that computed the results."""
     fingerprint: str
     """SHA-256 of the canonical case JSON."""
     case: Case
+    """The case evaluated."""
     trend: AssetTrend | None
+    """The asset trend of the statements; None where it cannot be fitted (a caution says why)."""
     ratios: tuple[YearRatios, ...]
+    """Balance-sheet ratios by year."""
     pd: PdResult
+    """The PD in force, its grade and how it was reached."""
     market: MarketResult | None
     """When the case has a market block."""
     master_scale_source: str
@@ -180,13 +192,19 @@ class Results:
     zscore_history: tuple[tuple[int, str, float | None, str | None], ...]
     """(year, variant, score, zone)."""
     term_structure: PdTermStructure
+    """Cumulative and marginal PD by year to the longest maturity (at least the horizon)."""
     facilities: tuple[FacilityResult, ...]
+    """One per facility, in the case's order."""
     total: Totals
+    """The borrower's figures."""
     loss_distribution: LossDistribution
     """Horizon loss distribution."""
     pricing: DealPricing | None
+    """RAROC and minimum spread; None without a pricing block."""
     cautions: tuple[Caution, ...]
+    """What the reader should know about the results."""
     laws: dict[str, RecoveryLaw] = field(repr=False, compare=False)
+    """Effective recovery law by facility id (not in the JSON)."""
     sensitivity: OneWaySensitivity | None = None
     """Attached by engine.analysis.analyse (None after a plain evaluate)."""
     pd_grid: PdGrid | None = None
@@ -201,7 +219,13 @@ class Results:
     """Z-score zones and market PDs graded on the master scale against the grade in force."""
 
     def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready data: the contract of ``evaluate --json`` plus every intermediate."""
+        """Plain JSON-ready data: the contract of ``evaluate --json`` plus every intermediate.
+
+        Returns
+        -------
+        dict[str, Any]
+            Every field but the recovery laws, as plain data (non-finite floats as None).
+        """
         out: dict[str, Any] = {"engine_version": self.engine_version, "fingerprint": self.fingerprint}
         for f in fields(self):
             if f.name in ("engine_version", "fingerprint", "laws"):
@@ -216,12 +240,19 @@ class ScenarioResult:
     """One scenario evaluated: its changes, its headline figures, and the change from the base."""
 
     name: str
+    """The scenario's name."""
     description: str
-    overrides: tuple[tuple[str, ScenarioValue], ...]  # (path, value) as written in the case
+    """The scenario's description."""
+    overrides: tuple[tuple[str, ScenarioValue], ...]
+    """(path, value) as written in the case."""
     figures: Headline
+    """The scenario's headline figures."""
     base: Headline
+    """The base case's headline figures."""
     delta: HeadlineDelta
-    results: Results = field(repr=False, compare=False)  # the full evaluation, every intermediate
+    """Scenario minus base."""
+    results: Results = field(repr=False, compare=False)
+    """The full evaluation, every intermediate."""
 
 
 def _plain(value: Any) -> Any:

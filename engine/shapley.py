@@ -11,10 +11,13 @@ import math
 from collections.abc import Callable, Hashable, Sequence
 from fractions import Fraction
 from itertools import combinations
-from typing import Any
+from typing import Any, TypeVar
+
+P = TypeVar("P", bound=Hashable)
+"""A player of the game (any hashable value)."""
 
 
-def shapley_values(players: Sequence[Hashable], value: Callable[[frozenset], Any]) -> dict[Hashable, Fraction]:
+def shapley_values(players: Sequence[P], value: Callable[[frozenset], Any]) -> dict[P, Fraction]:
     """Exact Shapley values of a cooperative game, in rationals, by the formula over subsets.
 
     ``value(S)`` is the worth of coalition S (a frozenset of players) as a float or Fraction;
@@ -22,14 +25,14 @@ def shapley_values(players: Sequence[Hashable], value: Callable[[frozenset], Any
 
     Parameters
     ----------
-    players : Sequence[Hashable]
+    players : Sequence[P]
         The players, each hashable.
     value : Callable[[frozenset], Any]
         Worth v(S) of a coalition S (a frozenset of players), as a float or Fraction.
 
     Returns
     -------
-    dict[Hashable, Fraction]
+    dict[P, Fraction]
         Exact Shapley value of each player.
     """
     n = len(players)
@@ -39,7 +42,7 @@ def shapley_values(players: Sequence[Hashable], value: Callable[[frozenset], Any
             s = frozenset(combo)
             worth[s] = Fraction(value(s))
     fact = [math.factorial(k) for k in range(n + 1)]
-    result: dict[Hashable, Fraction] = {}
+    result: dict[P, Fraction] = {}
     for player in players:
         others = [p for p in players if p != player]
         total = Fraction(0)
@@ -52,21 +55,21 @@ def shapley_values(players: Sequence[Hashable], value: Callable[[frozenset], Any
     return result
 
 
-def floats_summing_to(shares: dict[Hashable, Fraction], total: float) -> dict[Hashable, float]:
+def floats_summing_to(shares: dict[P, Fraction], total: float) -> dict[P, float]:
     """Round exact shares to floats, the rounding left over going to the largest share.
 
     The float shares then add (math.fsum) to ``total`` up to its last bit.
 
     Parameters
     ----------
-    shares : dict[Hashable, Fraction]
+    shares : dict[P, Fraction]
         Exact share of each player.
     total : float
         The total the floats must add up to.
 
     Returns
     -------
-    dict[Hashable, float]
+    dict[P, float]
         Float share of each player, adding up to ``total``.
     """
     out = {k: float(v) for k, v in shares.items()}
