@@ -281,13 +281,19 @@ def field_name(path: str) -> FieldName | None:
     return None
 
 
+def _listed(raw: dict[str, Any], key: str) -> list[Any]:
+    """``raw[key]`` where it is a list, else an empty list."""
+    items = raw.get(key)
+    return items if isinstance(items, list) else []
+
+
 def where(path: str, raw: dict[str, Any] | None) -> str:
     """A case path in the screen's words: ``facilities[1].recovery.std`` -> "Facility RCF-1,
     recovery std"; ``statements[0].total_assets`` -> "Statements, year 2016, total assets"."""
     parts = split_path(path) if path.strip(".[]") else []
     raw = raw if isinstance(raw, dict) else {}
     if parts[:1] == ["statements"] and len(parts) >= 2 and isinstance(parts[1], int):
-        rows = raw.get("statements") if isinstance(raw.get("statements"), list) else []
+        rows = _listed(raw, "statements")
         row = rows[parts[1]] if parts[1] < len(rows) and isinstance(rows[parts[1]], dict) else {}
         year = row.get("year")
         head = f"Statements, year {year}" if isinstance(year, int) else f"Statements, row {parts[1] + 1} (no year)"
@@ -295,21 +301,22 @@ def where(path: str, raw: dict[str, Any] | None) -> str:
             return f"{head}, {STATEMENT_LABELS.get(str(parts[2]), str(parts[2]).replace('_', ' '))}"
         return head
     if parts[:1] == ["facilities"] and len(parts) >= 2 and isinstance(parts[1], int):
-        items = raw.get("facilities") if isinstance(raw.get("facilities"), list) else []
+        items = _listed(raw, "facilities")
         item = items[parts[1]] if parts[1] < len(items) and isinstance(items[parts[1]], dict) else {}
         ident = item.get("id")
         head = f"Facility {ident}" if ident else f"Facility in row {parts[1] + 1}"
         if len(parts) >= 3:
             name = field_name(path)
-            label = name.label if name and name.label != "Facilities" else " ".join(map(str, parts[2:]))
+            label = name.label if name is not None and name.label != "Facilities" else " ".join(map(str, parts[2:]))
             return f"{head}, {label}"
         return head
     if parts[:1] == ["scenarios"] and len(parts) >= 2 and isinstance(parts[1], int):
-        items = raw.get("scenarios") if isinstance(raw.get("scenarios"), list) else []
+        items = _listed(raw, "scenarios")
         item = items[parts[1]] if parts[1] < len(items) and isinstance(items[parts[1]], dict) else {}
         return f"Scenario {item.get('name') or parts[1] + 1}"
     if parts[:1] == ["covenants"] and len(parts) >= 2 and isinstance(parts[1], int):
-        tail = f", {field_name(path).label}" if len(parts) > 2 and field_name(path) else ""
+        named = field_name(path) if len(parts) > 2 else None
+        tail = f", {named.label}" if named is not None else ""
         return f"Covenant {parts[1] + 1}{tail}"
     if parts[:2] == ["memo", "risks"] and len(parts) >= 3 and isinstance(parts[2], int):
         tail = f", {parts[3]}" if len(parts) > 3 else ""

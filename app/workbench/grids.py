@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, replace
-from typing import Any
+from typing import Any, Literal
 
 import streamlit as st
 from obligor_memo.app.workbench import entry
@@ -31,7 +31,7 @@ class Column:
     help: str | None = None
     max_chars: int | None = None
     default: Any = None
-    width: str | None = None
+    width: Literal["small", "medium", "large"] | None = None
     """"small", "medium" or "large"; None: the grid's own choice."""
     unit_for: Callable[[dict[str, Any]], str] | None = None
     """The unit read off the row itself (a covenant's threshold: times, or % for a margin)."""
@@ -87,22 +87,28 @@ class Column:
 
     def config(self, currency: str) -> Any:
         cc = st.column_config
-        sized = {"width": self.width} if self.width else {}
         if self.kind == "select":
             return cc.SelectboxColumn(
                 self.label,
                 options=list((self.options or {}).values()),
                 required=self.required,
                 help=self.help,
-                **sized,
+                width=self.width,
             )
         if self.kind == "check":
-            return cc.CheckboxColumn(self.label, help=self.help, **sized)
+            return cc.CheckboxColumn(self.label, help=self.help, width=self.width)
         if self.kind == "text" or self.empty_text is not None:
-            return cc.TextColumn(self.label, required=self.required, max_chars=self.max_chars, help=self.help, **sized)
+            return cc.TextColumn(
+                self.label, required=self.required, max_chars=self.max_chars, help=self.help, width=self.width
+            )
         fmt = {entry.PERCENT: "%.2f %%", entry.INTEGER: "%d", entry.YEARS: "%.2f", entry.MONEY: "localized"}
         return cc.NumberColumn(
-            self.label, required=self.required, format=fmt.get(self.unit, "%.4f"), help=self.help, step=None, **sized
+            self.label,
+            required=self.required,
+            format=fmt.get(self.unit, "%.4f"),
+            help=self.help,
+            step=None,
+            width=self.width,
         )
 
 

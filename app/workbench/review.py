@@ -69,6 +69,8 @@ def section(results) -> None:
             st.warning(view["note"])
             return
         comparison = compare_report.review_comparison(results)
+        if comparison is None:  # the case records a previous review, so this does not happen
+            return
         g = comparison.grade
         st.markdown(
             f"**Grade migration:** {g['old'] or 'n/a'} → {g['new'] or 'n/a'} "

@@ -28,7 +28,7 @@ from collections import defaultdict
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeGuard
 
 import yaml
 from obligor_memo.app import settings
@@ -55,7 +55,7 @@ def new_case_id() -> str:
     return uuid.uuid4().hex
 
 
-def is_case_id(text: Any) -> bool:
+def is_case_id(text: Any) -> TypeGuard[str]:
     """True only for ids this module makes: nothing else may reach a file path."""
     return isinstance(text, str) and _CASE_ID.fullmatch(text) is not None
 
@@ -125,7 +125,10 @@ def set_path(data: dict[str, Any], path: str, value: Any) -> dict[str, Any]:
     parts = split_path(path)
     node: Any = out
     for part, following in zip(parts[:-1], parts[1:]):
-        child = node[part] if (isinstance(node, list) or part in node) else None
+        if isinstance(node, list) and isinstance(part, int):
+            child = node[part]
+        else:
+            child = node.get(part) if isinstance(node, dict) else None
         if child is None:
             child = [] if isinstance(following, int) else {}
             node[part] = child
@@ -275,7 +278,8 @@ def restore(workdir: Path, case_id: str) -> Restored | None:
     if not isinstance(raw, dict):
         return None
     valid = record.get("valid") if isinstance(record.get("valid"), dict) else None
-    extra = record.get("extra") if isinstance(record.get("extra"), dict) else {}
+    extra = record.get("extra")
+    extra = extra if isinstance(extra, dict) else {}
     return Restored(raw, valid, extra, str(record.get("saved_at", "")), _revision_of(record))
 
 

@@ -456,7 +456,7 @@ def rows_of(items: Any) -> list[dict[str, Any]]:
         items = [items]
     rows = []
     for item in items:
-        data = asdict(item) if is_dataclass(item) else dict(item)
+        data = asdict(item) if is_dataclass(item) and not isinstance(item, type) else dict(item)
         rows.append(
             {
                 k.replace("_", " "): (
@@ -570,13 +570,12 @@ def grid(
     records = state.get_path(ss.raw, path)
     records = records if isinstance(records, list) else []
     key = f"{name}{ss.gen}"
-    sizing = {"height": height} if height else {}
     st.data_editor(
         grids.grid_frame(records, columns),
         key=key,
         num_rows="dynamic",
         hide_index=True,
-        **sizing,
+        height=height or "auto",
         column_config={c.name: c.config(currency()) for c in columns},
         on_change=_grid_changed,
         args=(path, key, columns, defaults, complete),

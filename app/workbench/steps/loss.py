@@ -134,11 +134,11 @@ if p is None:
         if caution.code.startswith("pricing"):
             st.warning(caution.message)
 else:
-    m = st.columns(4)
-    m[0].metric("RAROC", pct(p.raroc, 1), help=f"Hurdle {pct(p.hurdle_rate, 1)}")
-    m[1].metric("Minimum spread", pct(p.minimum_spread, 3))
-    m[2].metric("Proposed spread", pct(p.proposed_spread, 3))
-    m[3].metric("Capital charged", millions(p.capital, cur), help=p.capital_basis_label)
+    priced = st.columns(4)
+    priced[0].metric("RAROC", pct(p.raroc, 1), help=f"Hurdle {pct(p.hurdle_rate, 1)}")
+    priced[1].metric("Minimum spread", pct(p.minimum_spread, 3))
+    priced[2].metric("Proposed spread", pct(p.proposed_spread, 3))
+    priced[3].metric("Capital charged", millions(p.capital, cur), help=p.capital_basis_label)
     verdict = (
         f"The proposal meets the hurdle: RAROC {pct(p.raroc, 1)} against {pct(p.hurdle_rate, 1)}; "
         f"the spread could fall to {pct(p.minimum_spread, 3)}."

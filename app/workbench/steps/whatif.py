@@ -10,6 +10,7 @@ formats.
 from __future__ import annotations
 
 import logging
+from typing import Literal
 
 import pandas as pd
 import streamlit as st
@@ -217,7 +218,7 @@ def _signed_rate(value: float | None, decimals: int = 2) -> str | None:
 
 st.subheader("Before and after" if overlay else "The case as it stands (move a control to compare)")
 m = [*st.columns(3), *st.columns(3)]  # two rows: six figures in one row are cut on a laptop screen
-figures = (
+figures: tuple[tuple[str, str, str, str | None, Literal["normal", "inverse", "off"]], ...] = (
     ("PD in force", pd_pct(head.pd), pd_pct(base_head.pd), _signed_rate(delta.pd, 4), "inverse"),
     (
         "Expected loss",
@@ -314,11 +315,11 @@ def _delete_scenario(key: str) -> None:
     ss.scenario_message = ("success", f"Deleted scenario {name!r}.")
 
 
-c = st.columns([1, 2, 1])
+save_row = st.columns([1, 2, 1])
 name_key, text_key = f"scn_name{ss.gen}", f"scn_text{ss.gen}"
-c[0].text_input("Name", key=name_key, max_chars=60)
-c[1].text_input("Description", key=text_key)
-c[2].button(
+save_row[0].text_input("Name", key=name_key, max_chars=60)
+save_row[1].text_input("Description", key=text_key)
+save_row[2].button(
     "Save scenario",
     on_click=_save_scenario,
     args=(name_key, text_key, base_case),
@@ -367,9 +368,9 @@ if compared:
     for s in compared:
         settings = "; ".join(entry.override_words(k, v) for k, v in s.overrides)
         st.caption(f"**{s.name}**: {s.description or '(no description)'} ({settings})")
-    c = st.columns([2, 1, 1])
+    delete_row = st.columns([2, 1, 1])
     del_key = f"scn_delete{ss.gen}"
-    c[0].selectbox("Scenario to delete", [s.name for s in compared], key=del_key)
-    c[1].button("Delete scenario", on_click=_delete_scenario, args=(del_key,), icon=":material/delete:")
+    delete_row[0].selectbox("Scenario to delete", [s.name for s in compared], key=del_key)
+    delete_row[1].button("Delete scenario", on_click=_delete_scenario, args=(del_key,), icon=":material/delete:")
 else:
     st.caption("No saved scenarios yet.")
