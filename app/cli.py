@@ -230,8 +230,12 @@ def app(port: int, host: str, workdir: Path | None) -> None:
 )
 @_guard
 def export(case: Path, output: Path | None, csv_dir: Path | None) -> None:
-    """The results of CASE as a workbook: inputs, statements as read, facilities, totals, PD,
-    pricing, term structure, sensitivity, PD grid, scenarios (one sheet each)."""
+    """The results of CASE as a workbook (.xlsx) or CSV files, one sheet or file per table.
+
+    The tables: inputs, statements as read, facilities, totals, PD, cautions, and where the
+    results have them pricing (in total and by facility), term structure, sensitivity, PD grid,
+    scenarios and credit metrics.
+    """
     from obligor_memo.app.present.export import export_csvs, export_workbook
     from obligor_memo.engine.analysis import analyse
     from obligor_memo.engine.loading import load_case
@@ -279,7 +283,8 @@ def batch(
     """Evaluate every case (files, or folders searched for case files) and print their memos.
 
     Exit 0 when every case succeeded, 1 when some failed (listed in OUTDIR/errors.csv), 2 for a
-    mistake in the command."""
+    mistake in the command.
+    """
     from obligor_memo.app.batch import BatchUsageError, run_batch
     from obligor_memo.app.batch.run import progress_line
 

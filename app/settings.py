@@ -45,7 +45,14 @@ def _text(name: str) -> str | None:
 
 
 def current() -> Settings:
-    """The settings in force now."""
+    """The settings in force now.
+
+    Returns
+    -------
+    Settings
+        Every variable as set now, stripped; None where unset or empty (the folder and the two
+        switches with their defaults applied).
+    """
     workdir = _text(WORKDIR)
     return Settings(
         browser_path=_text(BROWSER_PATH),

@@ -1,5 +1,8 @@
-"""``obligor_memo.batch.run(paths, ...) -> pandas.DataFrame``: a book of cases at once (see
-:mod:`obligor_memo.app.batch.run`)."""
+"""A book of cases at once: ``obligor_memo.batch.run(paths, ...) -> pandas.DataFrame``.
+
+The names are those of :mod:`obligor_memo.app.batch`, whose :mod:`obligor_memo.app.batch.run`
+describes them.
+"""
 
 from obligor_memo.app.batch import BatchResult, BatchUsageError, find_cases, run, run_batch
 

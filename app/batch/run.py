@@ -43,18 +43,43 @@ class BatchResult:
     """The batch's outcome: the succeeded cases (one row each), the failed ones, and counts."""
 
     portfolio: pd.DataFrame
+    """One row per succeeded or skipped case (see :func:`obligor_memo.app.batch.portfolio.frames`)."""
     errors: pd.DataFrame
+    """One row per problem of a failed case: ``case_file``, ``field``, ``message``."""
     skipped: int = 0
+    """Cases not run again because their memo with the same inputs was already there (resume)."""
     seconds: float = 0.0
     """Wall time of the whole batch, cluster start included [s]."""
     startup_seconds: float = 0.0
     """Of which: starting the cluster (or connecting) and the chart browsers [s]."""
     workers: int = 0
+    """Workers the cluster had when the last case was done."""
     notes: list[str] = field(default_factory=list)
+    """Remarks on the batch as a whole (run_batch leaves it empty)."""
 
 
 def find_cases(paths: Iterable[str | Path]) -> list[Path]:
-    """Case files given, and those found in given folders (recursively; hidden ones skipped)."""
+    """Case files given, and those found in given folders (recursively; hidden ones skipped).
+
+    In a folder, files ending in .yaml, .yml or .json are cases, in sorted order; a file given
+    by name is taken whatever its suffix.
+
+    Parameters
+    ----------
+    paths : Iterable[str | Path]
+        Case files and folders.
+
+    Returns
+    -------
+    list[Path]
+        The cases, resolved, each once, in the order found.
+
+    Raises
+    ------
+    BatchUsageError
+        If a path does not exist, no case is found, or two cases have the same name without
+        suffix (their memos would share one file name).
+    """
     found: list[Path] = []
     for given in paths:
         path = Path(given)
@@ -89,7 +114,29 @@ def find_cases(paths: Iterable[str | Path]) -> list[Path]:
 def evaluate_case(case_file: str, outdir: str | None, memos: bool, done: dict[str, Any] | None) -> dict[str, Any]:
     """One case: {"status": "ok" | "skipped", "row": ...} or {"status": "failed", "error": ...}.
 
-    Plain data only crosses the wire (no Results objects)."""
+    Plain data only crosses the wire (no Results objects). With a memo to print the case is
+    analysed and its memo written to ``outdir/<name>.pdf`` (through a ``.pdf.part`` file);
+    otherwise it is only evaluated. No exception leaves: a case error lists each problem, any
+    other failure is one row with field "(internal)".
+
+    Parameters
+    ----------
+    case_file : str
+        Path of the case file.
+    outdir : str | None
+        Folder of the memos; None for none.
+    memos : bool
+        Whether to print the memo (only with an ``outdir``).
+    done : dict[str, Any] | None
+        The case's entry in the resume manifest (``fingerprint`` and ``row``), or None: a case
+        whose fingerprint matches and whose memo exists is skipped and keeps that row.
+
+    Returns
+    -------
+    dict[str, Any]
+        ``status`` and either ``row`` (see :func:`obligor_memo.app.batch.portfolio.row_from`)
+        or ``error`` (a list of rows with ``case_file``, ``field`` and ``message``).
+    """
     from obligor_memo.engine.errors import CaseError
     from obligor_memo.engine.evaluate import evaluate, fingerprint
     from obligor_memo.engine.loading import load_case
@@ -129,8 +176,27 @@ def evaluate_case(case_file: str, outdir: str | None, memos: bool, done: dict[st
 def evaluate_cases(
     case_files: list[str], outdir: str | None, memos: bool, done: list[dict[str, Any] | None]
 ) -> list[dict[str, Any]]:
-    """Several cases in one task: without memos a case takes milliseconds, less than a task's
-    own scheduling cost, so cases travel in chunks."""
+    """Several cases in one task, as :func:`evaluate_case` runs each.
+
+    Without memos a case takes milliseconds, less than a task's own scheduling cost, so cases
+    travel in chunks.
+
+    Parameters
+    ----------
+    case_files : list[str]
+        Paths of the case files.
+    outdir : str | None
+        Folder of the memos; None for none.
+    memos : bool
+        Whether to print the memos.
+    done : list[dict[str, Any] | None]
+        Each case's entry in the resume manifest, or None, in the order of ``case_files``.
+
+    Returns
+    -------
+    list[dict[str, Any]]
+        The outcome of each case, in order.
+    """
     return [evaluate_case(case, outdir, memos, entry) for case, entry in zip(case_files, done)]
 
 
@@ -140,6 +206,13 @@ class ChartBrowserPlugin(WorkerPlugin):
     name = "obligor-memo-chart-browser"
 
     def setup(self, worker: Any) -> None:
+        """Start the worker's chart browser without waiting for it; a failure is only logged.
+
+        Parameters
+        ----------
+        worker : Any
+            The Dask worker (not used).
+        """
         from obligor_memo.app.memo import start_chart_exporter
 
         try:
@@ -148,6 +221,13 @@ class ChartBrowserPlugin(WorkerPlugin):
             log.warning("the chart browser did not start on this worker", exc_info=True)
 
     def teardown(self, worker: Any) -> None:
+        """Close the worker's chart browser.
+
+        Parameters
+        ----------
+        worker : Any
+            The Dask worker (not used).
+        """
         from obligor_memo.app.memo import stop_chart_exporter
 
         stop_chart_exporter()
@@ -213,8 +293,39 @@ def run(
 ) -> pd.DataFrame:
     """Evaluate every case (and print its memo into ``outdir`` unless ``memos=False``).
 
-    Returns the portfolio DataFrame (one row per succeeded case); the failed cases are in
-    ``run_batch(...).errors``. Raises :class:`BatchUsageError` for a usage mistake."""
+    The failed cases are in ``run_batch(...).errors``.
+
+    Parameters
+    ----------
+    paths : Sequence[str | Path]
+        Case files and folders searched for case files (see :func:`find_cases`).
+    outdir : str | Path | None, optional
+        Folder for the memos, portfolio.csv, portfolio.xlsx, errors.csv and the resume
+        manifest (created if missing); None writes no file, and then ``memos`` must be False.
+    workers : int | None, optional
+        Worker processes of the local cluster (default 1); not used with ``scheduler``.
+    scheduler : str | None, optional
+        Address of an existing Dask scheduler, e.g. ``tcp://host:8786``; None starts a local
+        cluster (closed at the end).
+    memos : bool, optional
+        Whether to print each case's memo (one case per task; without memos cases go in chunks).
+    resume : bool, optional
+        Whether to skip cases whose memo with the same inputs is already in ``outdir``.
+    progress : Callable[[int, int, int, float], None] | None, optional
+        Called after each finished task with the cases succeeded (skipped ones included), the
+        cases in all, the cases failed and the seconds since the start [s] (see
+        :func:`progress_line`).
+
+    Returns
+    -------
+    pd.DataFrame
+        The portfolio table, one row per succeeded case.
+
+    Raises
+    ------
+    BatchUsageError
+        For a usage mistake (see :func:`run_batch`).
+    """
     return run_batch(
         paths, outdir, workers=workers, scheduler=scheduler, memos=memos, resume=resume, progress=progress
     ).portfolio
@@ -230,6 +341,46 @@ def run_batch(
     resume: bool = False,
     progress: Callable[[int, int, int, float], None] | None = None,
 ) -> BatchResult:
+    """Evaluate every case on a Dask cluster, print the memos and write the batch's files.
+
+    A case that fails becomes rows of the errors and never stops the batch. With ``outdir`` the
+    tables are written there (see :func:`obligor_memo.app.batch.portfolio.write_outputs`) with
+    the resume manifest. With memos each worker keeps one chart browser, closed at the end.
+    Ctrl+C cancels the tasks and closes the client and any local cluster before the interrupt
+    goes on.
+
+    Parameters
+    ----------
+    paths : Sequence[str | Path]
+        Case files and folders searched for case files (see :func:`find_cases`).
+    outdir : str | Path | None, optional
+        Folder for the memos, portfolio.csv, portfolio.xlsx, errors.csv and the resume
+        manifest (created if missing); None writes no file, and then ``memos`` must be False.
+    workers : int | None, optional
+        Worker processes of the local cluster (default 1); not used with ``scheduler``.
+    scheduler : str | None, optional
+        Address of an existing Dask scheduler, e.g. ``tcp://host:8786``; None starts a local
+        cluster (closed at the end).
+    memos : bool, optional
+        Whether to print each case's memo (one case per task; without memos cases go in chunks).
+    resume : bool, optional
+        Whether to skip cases whose memo with the same inputs is already in ``outdir``.
+    progress : Callable[[int, int, int, float], None] | None, optional
+        Called after each finished task with the cases succeeded (skipped ones included), the
+        cases in all, the cases failed and the seconds since the start [s] (see
+        :func:`progress_line`).
+
+    Returns
+    -------
+    BatchResult
+        The tables, the cases skipped, the timings and the number of workers.
+
+    Raises
+    ------
+    BatchUsageError
+        If ``workers`` is below 1, memos are asked for without an ``outdir``, or
+        :func:`find_cases` refuses the paths.
+    """
     if workers is not None and workers < 1:
         raise BatchUsageError(f"--workers: got {workers}; allowed: a whole number of at least 1")
     if memos and outdir is None:
@@ -308,7 +459,19 @@ def run_batch(
 
 
 def progress_line(stream: Any = sys.stderr) -> Callable[[int, int, int, float], None]:
-    """A one-line progress display: cases done, failed and the rate."""
+    """A one-line progress display: cases done, failed and the rate.
+
+    Parameters
+    ----------
+    stream : Any, optional
+        Text stream written to (standard error by default); the line is rewritten in place
+        (carriage return) and ends with a newline once every case is handled.
+
+    Returns
+    -------
+    Callable[[int, int, int, float], None]
+        The ``progress`` callback of :func:`run_batch`.
+    """
 
     def show(ok: int, total: int, failed: int, seconds: float) -> None:
         handled = ok + failed

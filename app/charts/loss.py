@@ -1,5 +1,7 @@
-"""Exposure, recovery and loss figures: EAD per facility, each facility's recovery law, the
-borrower's loss distribution."""
+"""Exposure, recovery and loss figures.
+
+EAD per facility, each facility's recovery law, the borrower's loss distribution.
+"""
 
 from __future__ import annotations
 
@@ -39,6 +41,26 @@ def recovery_figure(results: Any, facility_id: str, *, points: int = 400) -> go.
 
     A point mass (std 0) is drawn as a single spike at the mean. Collateral shifts the law: the
     covered share recovers in full, so the density starts at the cover.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+    facility_id : str
+        Id of the facility.
+    points : int, optional
+        Number of recovery rates at which the density is evaluated.
+
+    Returns
+    -------
+    go.Figure
+        The figure, recovery rate on [0, 1] in percent of EAD; a density that runs to infinity
+        at an end is clipped in the view.
+
+    Raises
+    ------
+    ValueError
+        If no facility has the id ``facility_id`` (the message lists the ids there are).
     """
     fac = _facility(results, facility_id)
     law = results.laws[facility_id]
@@ -124,7 +146,19 @@ def recovery_figure(results: Any, facility_id: str, *, points: int = 400) -> go.
 
 
 def exposure_figure(results: Any) -> go.Figure:
-    """Per facility: drawn, the CCF-converted undrawn part, and the undrawn part left out of EAD."""
+    """Per facility: drawn, the CCF-converted undrawn part, and the undrawn part left out of EAD.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    go.Figure
+        Horizontal stacked bars, one per facility in case order, with the EAD marked; amounts
+        in millions of the case's currency, and the figure taller the more facilities there are.
+    """
     cur = currency(results)
     facs = list(results.facilities)
     ids = [f.id for f in facs]
@@ -194,7 +228,22 @@ def exposure_figure(results: Any) -> go.Figure:
 
 
 def loss_distribution_figure(results: Any) -> go.Figure:
-    """Exceedance curve P(loss > x) of the borrower's loss, log scale, with EL, VaR and EC marked."""
+    """Exceedance curve P(loss > x) of the borrower's loss, log scale, with EL, VaR and EC marked.
+
+    The economic capital shown is the standalone one of this distribution (VaR - EL, floored at
+    zero); the single-factor capital in force is not on the chart.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    go.Figure
+        The figure, losses in millions of the case's currency, with the tail level
+        (1 - confidence) as a dotted line.
+    """
     cur = currency(results)
     dist = results.loss_distribution
     loss = np.asarray(dist.curve_loss, dtype=float) / MILLION

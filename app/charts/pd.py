@@ -1,5 +1,8 @@
-"""The PD step's figures: total assets and their fits, the liabilities against the default
-point, the PD term structure."""
+"""The PD step's figures: asset trend, liabilities, PD term structure.
+
+Total assets and their fits, the liabilities against the default point, and the cumulative and
+marginal PD by year.
+"""
 
 from __future__ import annotations
 
@@ -27,7 +30,21 @@ from obligor_memo.app.present.formatting import millions, num, pct, pd_pct
 
 
 def asset_trend_figure(results: Any) -> go.Figure:
-    """Total assets by year, the log-linear and straight-line fits with R^2, the default point."""
+    """Total assets by year, the log-linear and straight-line fits with R^2, the default point.
+
+    Years inside the trend window are filled markers, those outside it open ones; the fits are
+    drawn over the window when it holds two years or more.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    go.Figure
+        The figure, amounts in millions of the case's currency.
+    """
     fig = new_figure()
     cur = currency(results)
     statements = results.case.statements
@@ -102,7 +119,19 @@ def asset_trend_figure(results: Any) -> go.Figure:
 
 
 def liabilities_figure(results: Any) -> go.Figure:
-    """Short- and long-term liabilities by year, stacked, with the default point in force."""
+    """Short- and long-term liabilities by year, stacked, with the default point in force.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    go.Figure
+        The figure, amounts in millions of the case's currency; the default point is one
+        marker on the latest year.
+    """
     cur = currency(results)
     rows = results.case.statements
     years = [r.year for r in rows]
@@ -149,7 +178,18 @@ def liabilities_figure(results: Any) -> go.Figure:
 
 
 def term_structure_figure(results: Any) -> go.Figure:
-    """Cumulative PD (line) and marginal PD per year (bars), both in percent."""
+    """Cumulative PD (line) and marginal PD per year (bars), both in percent.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    go.Figure
+        The figure over the years of ``results.term_structure``, titled with its basis.
+    """
     ts = results.term_structure
     fig = new_figure()
     fig.add_trace(

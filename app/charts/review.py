@@ -10,7 +10,25 @@ from obligor_memo.app.charts.style import COPPER, INK, MILLION, MOSS, layout_dic
 
 def review_waterfall_figure(results: Any, figure: str = "expected_loss") -> go.Figure | None:
     """OLD's figure, each block's share, NEW's figure (money in millions, PD in percent).
-    None when the case records no previous review with its inputs."""
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+    figure : str, optional
+        Name of the compared figure (a key of ``obligor_memo.engine.compare.FIGURE_BY_NAME``).
+
+    Returns
+    -------
+    go.Figure | None
+        The waterfall of :func:`waterfall_figure`; None when the case records no previous
+        review with its inputs, or the figure has no change (not reported then or now).
+
+    Raises
+    ------
+    CaseError
+        If the previous review's case no longer validates.
+    """
     from obligor_memo.app.present.compare_report import review_comparison
 
     comparison = review_comparison(results)
@@ -20,6 +38,27 @@ def review_waterfall_figure(results: Any, figure: str = "expected_loss") -> go.F
 
 
 def waterfall_figure(comparison: Any, figure: str, currency: str) -> go.Figure:
+    """The waterfall of one figure's change: last review, one bar per cause, now.
+
+    The two ends stand on zero; each cause's bar starts where the one before it ended, copper
+    when it raises the figure and moss when it lowers it. The causes shown are the blocks that
+    changed an input, and the engine block.
+
+    Parameters
+    ----------
+    comparison : Any
+        The comparison (:class:`obligor_memo.engine.compare.Comparison`).
+    figure : str
+        Name of the compared figure (a key of ``obligor_memo.engine.compare.FIGURE_BY_NAME``).
+    currency : str
+        Currency code of the money axis.
+
+    Returns
+    -------
+    go.Figure
+        The bars, money in millions of ``currency`` and other figures in percent, each labelled
+        with its value (the causes signed).
+    """
     from obligor_memo.engine.compare import FIGURE_BY_NAME
 
     spec = FIGURE_BY_NAME[figure]

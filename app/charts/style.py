@@ -27,24 +27,78 @@ MILLION = 1e6
 
 
 def currency(results: Any) -> str:
+    """The case's currency code, as the axis titles print it.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    str
+        ``results.case.borrower.currency``.
+    """
     return results.case.borrower.currency
 
 
 def money_axis(results: Any) -> str:
+    """The unit of a money axis in millions of the case's currency: '[EUR m]'.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    str
+        The unit in square brackets.
+    """
     return f"[{currency(results)} m]"
 
 
 def new_figure() -> go.Figure:
-    """An empty figure without plotly's default template: copying that template costs more
-    than drawing the figure, and apply_layout sets every property it would have set."""
+    """An empty figure without plotly's default template.
+
+    Copying that template costs more than drawing the figure, and apply_layout sets every
+    property it would have set.
+
+    Returns
+    -------
+    go.Figure
+        A figure with no data and the layout template "none".
+    """
     return go.Figure(layout={"template": "none"})
 
 
 def layout_dict(
     *, title: str, x_title: str, y_title: str, height: int = 420, legend_below: bool = True
 ) -> dict[str, Any]:
-    """The shared look of every figure as plain layout data: white ground, light grid, legend
-    under the plot. Figures built in one go.Figure(data, layout) call merge into this."""
+    """The shared look of every figure as plain layout data.
+
+    White ground, light grid, legend under the plot. Figures built in one go.Figure(data,
+    layout) call merge into this.
+
+    Parameters
+    ----------
+    title : str
+        Title of the figure, at its top left.
+    x_title : str
+        Title of the x axis.
+    y_title : str
+        Title of the y axis.
+    height : int, optional
+        Height of the figure [px].
+    legend_below : bool, optional
+        Whether the legend is a horizontal row under the plot (with a bottom margin to hold
+        it); False leaves plotly's default legend.
+
+    Returns
+    -------
+    dict[str, Any]
+        The layout: template "none", title, font, colours, height, margins, legend and both axes.
+    """
     axis = {
         "showgrid": True,
         "gridcolor": GRID,
@@ -81,7 +135,28 @@ def layout_dict(
 def apply_layout(
     fig: go.Figure, *, title: str, x_title: str, y_title: str, height: int = 420, legend_below: bool = True
 ) -> go.Figure:
-    """The shared look of every figure (see layout_dict)."""
+    """The shared look of every figure (see layout_dict).
+
+    Parameters
+    ----------
+    fig : go.Figure
+        The figure to restyle, in place.
+    title : str
+        Title of the figure, at its top left.
+    x_title : str
+        Title of the x axis.
+    y_title : str
+        Title of the y axis.
+    height : int, optional
+        Height of the figure [px].
+    legend_below : bool, optional
+        Whether the legend is a horizontal row under the plot.
+
+    Returns
+    -------
+    go.Figure
+        ``fig`` itself, its layout updated (its template is left as it is).
+    """
     # One update_layout call: separate axis updates cost more than building the traces.
     look = layout_dict(title=title, x_title=x_title, y_title=y_title, height=height, legend_below=legend_below)
     del look["template"]
@@ -90,4 +165,16 @@ def apply_layout(
 
 
 def r2_text(value: float | None) -> str:
+    """A coefficient of determination (R^2) with three decimals, for a chart label.
+
+    Parameters
+    ----------
+    value : float | None
+        The R^2 [dimensionless]; None prints as 'n/a'.
+
+    Returns
+    -------
+    str
+        The value as printed.
+    """
     return "n/a" if value is None else num(value, 3)

@@ -33,7 +33,21 @@ PD_SCALE = [[0.0, "#f7f8f9"], [0.25, "#cdd4db"], [0.5, "#8d9aa7"], [0.75, "#4c5d
 
 
 def input_value_text(value: float | None, unit: str) -> str:
-    """An assumption's value in the unit a credit analyst reads it in."""
+    """An assumption's value in the unit a credit analyst reads it in.
+
+    Parameters
+    ----------
+    value : float | None
+        The value in the engine's unit; None prints as 'n/a'.
+    unit : str
+        The engine's unit of the input: "[1/year]" and "[1/sqrt(year)]" print as a percentage
+        with one decimal, "[years]" as '5 y', anything else as a number with two decimals.
+
+    Returns
+    -------
+    str
+        The value as printed.
+    """
     if value is None:
         return "n/a"
     if unit in ("[1/year]", "[1/sqrt(year)]"):
@@ -72,7 +86,26 @@ def sensitivity_figure(results: Any, *, measure: str = "el") -> go.Figure:
     Bars run from the base value to the value with the input moved; each bar is labelled with the
     value the input was moved to. Rows are sorted by the swing |high - low| of the chosen measure,
     largest on top. A side whose case did not validate has no bar and shows the engine's note.
-    EL in millions of the case's currency, PD in percent.
+    EL in millions of the case's currency (in thousands when no EL on the chart reaches a
+    million), PD in percent.
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    measure : str, optional
+        "el" for the expected loss, "pd" for the PD in force.
+
+    Returns
+    -------
+    go.Figure
+        The tornado, with the base value as a dashed line; its title says when the PD is
+        overridden (model inputs then move the model PD only).
+
+    Raises
+    ------
+    ValueError
+        If ``measure`` is neither "el" nor "pd", or the results carry no sensitivity table.
     """
     if measure not in MEASURES:
         raise ValueError(f"measure: got {measure!r}; allowed: 'el' or 'pd'")
@@ -204,8 +237,10 @@ def _nice_step(span: float) -> float:
 
 
 def _padded_axis(rows: list[Any], measure: str, scale: float, base_value: float) -> dict[str, Any]:
-    """Room on both sides for the bar labels (outside text is not counted by autorange); ticks
-    only at values the measure can take (EL and PD are never negative)."""
+    """Room on both sides for the bar labels, ticks only where the measure can be (not below 0).
+
+    Outside text is not counted by autorange; EL and PD are never negative.
+    """
     values = [base_value] + [v / scale for r in rows for v in _measure_values(r, measure)[1:] if v is not None]
     low, high = min(values), max(values)
     span = (high - low) or abs(base_value) or 1.0
@@ -248,6 +283,22 @@ def pd_grid_figure(results: Any) -> go.Figure:
 
     z is log10(PD) (floored at PD_COLOUR_FLOOR for the colour only); the hover text gives the PD,
     the distance to default and the default point of the cell. The case's own point is marked.
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+
+    Returns
+    -------
+    go.Figure
+        The heat map, with the grid's notes on its range under the plot where the engine gives
+        them.
+
+    Raises
+    ------
+    ValueError
+        If the results carry no PD grid.
     """
     grid = getattr(results, "pd_grid", None)
     if grid is None:
@@ -366,7 +417,23 @@ def scenarios_figure(results: Any) -> go.Figure:
     """PD in force and EL of each named scenario beside the base case (two panels of dots).
 
     PD [%] on the left, EL [currency m] on the right; the base's values are repeated as a
-    dashed reference line so the distance of each scenario from the base reads at a glance.
+    dotted reference line so the distance of each scenario from the base reads at a glance.
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+
+    Returns
+    -------
+    go.Figure
+        The two panels, the base case on top and the scenarios in the engine's order below it,
+        each dot labelled with its value and its change from the base.
+
+    Raises
+    ------
+    ValueError
+        If the results carry no scenarios.
     """
     scenarios = getattr(results, "scenarios", None)
     if scenarios is None:

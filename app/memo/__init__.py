@@ -1,5 +1,7 @@
-"""The printed credit memo: results -> view -> HTML (Jinja2) -> PDF (WeasyPrint), charts placed
-as vector forms, the case and the printed figures embedded for ``verify``.
+"""The printed credit memo: results -> view -> HTML (Jinja2) -> PDF (WeasyPrint).
+
+The charts are placed as vector forms, and the case and the printed figures are embedded for
+``verify``.
 
 How a memo is printed: :class:`.figures.ChartJob` has Chromium draw the plotly figures as SVG
 (cached) and ``rsvg-convert`` make them PDF pages, on a thread; meanwhile :mod:`.view` builds

@@ -61,6 +61,16 @@ def chart_timeout() -> float:
     """Seconds allowed for the browser to start, and again for one batch of figures [s].
 
     From the environment variable OBLIGOR_MEMO_CHART_TIMEOUT when set, else 30 s.
+
+    Returns
+    -------
+    float
+        The timeout [s], in (0, 600].
+
+    Raises
+    ------
+    ChartsUnavailable
+        If the variable is not a number in (0, 600].
     """
     text = settings.current().chart_timeout
     if text is None:
@@ -78,7 +88,19 @@ def chart_timeout() -> float:
 
 
 def find_browser() -> str:
-    """BROWSER_PATH if set, else the first usual install path; raise naming the fix."""
+    """BROWSER_PATH if set, else the first usual install path; raise naming the fix.
+
+    Returns
+    -------
+    str
+        Path of an executable Chrome or Chromium.
+
+    Raises
+    ------
+    ChartsUnavailable
+        If BROWSER_PATH names no executable file, or, without it, none of
+        :data:`BROWSER_CANDIDATES` is one.
+    """
     chosen = settings.current().browser_path
     if chosen:
         if os.path.isfile(chosen) and os.access(chosen, os.X_OK):
@@ -97,7 +119,18 @@ def find_browser() -> str:
 
 
 def process_group_members(group: int) -> list[int]:
-    """Live process ids in a process group (Linux /proc); the browser runs in its own group."""
+    """Live process ids in a process group (Linux /proc); the browser runs in its own group.
+
+    Parameters
+    ----------
+    group : int
+        The process group id.
+
+    Returns
+    -------
+    list[int]
+        Ids of the processes in the group that have not exited (zombies left out).
+    """
     members = []
     for entry in os.listdir("/proc"):
         if not entry.isdigit():
@@ -132,7 +165,7 @@ def _lower_priority() -> None:
 
 
 def _browser_classes() -> tuple[type, type]:
-    """kaleido's browser with our flags, and without its page reload after every figure."""
+    """Kaleido's browser class with our flags, and its exporter class without the reload after every figure."""
     from choreographer.browsers.chromium import Chromium
     from kaleido import Kaleido
 
@@ -166,7 +199,18 @@ _VERSION = re.compile(rb"plotly\.js[^\n]*? v(\d+\.\d+\.\d+)")
 
 
 def bundle_version(path: Path) -> str | None:
-    """The plotly.js version a bundle's licence header names, or None."""
+    """The plotly.js version a bundle's licence header names, or None.
+
+    Parameters
+    ----------
+    path : Path
+        The bundle file; only its first 400 bytes are read.
+
+    Returns
+    -------
+    str | None
+        The version, e.g. "3.0.1"; None when the file cannot be read or names none.
+    """
     try:
         with open(path, "rb") as f:
             found = _VERSION.search(f.read(400))
@@ -176,9 +220,17 @@ def bundle_version(path: Path) -> str | None:
 
 
 def plotly_bundle() -> str | None:
-    """The plotly.js the browser loads: the package's cartesian bundle (1.5 MB, every trace the
-    memo draws; the browser is ready about 0.4 s sooner) when it is the very version plotly.py
-    ships, else None, meaning kaleido's default, plotly.py's full bundle (4.8 MB)."""
+    """The plotly.js the browser loads: the package's cartesian bundle, or None for the full one.
+
+    The cartesian bundle (1.5 MB) holds every trace the memo draws; with it the browser is ready
+    about 0.4 s sooner.
+
+    Returns
+    -------
+    str | None
+        Path of the package's cartesian bundle when it is the very version plotly.py ships, else
+        None, meaning kaleido's default, plotly.py's full bundle (4.8 MB).
+    """
     import plotly
 
     full = Path(plotly.__file__).resolve().parent / "package_data" / "plotly.min.js"
@@ -192,6 +244,22 @@ class ChartExporter:
     ``start(wait=False)`` launches the browser in the background, so its start-up overlaps the
     analysis and the figure building; the first export waits for it. ``timeout`` [s] bounds the
     start-up and, separately, each batch of figures; past it the browser is killed.
+
+    Parameters
+    ----------
+    browser_path : str | None, optional
+        The Chrome or Chromium to run; None finds one (:func:`find_browser`).
+    timeout : float | None, optional
+        Timeout [s], in (0, 600]; None reads it from the environment (:func:`chart_timeout`).
+    tabs : int, optional
+        Browser tabs drawing figures side by side, 1 to 8.
+
+    Raises
+    ------
+    ValueError
+        If ``timeout`` or ``tabs`` is out of range.
+    ChartsUnavailable
+        If no browser is found, or the timeout set in the environment is not allowed.
     """
 
     def __init__(self, *, browser_path: str | None = None, timeout: float | None = None, tabs: int = 1):
@@ -222,6 +290,25 @@ class ChartExporter:
         return None if process is None else process.pid
 
     def start(self, *, wait: bool = True) -> ChartExporter:
+        """Launch the browser on the exporter's own event-loop thread (once; later calls reuse it).
+
+        Parameters
+        ----------
+        wait : bool, optional
+            Whether to wait until the browser is ready; False returns at once and the first
+            export waits instead.
+
+        Returns
+        -------
+        ChartExporter
+            The exporter itself.
+
+        Raises
+        ------
+        ChartsUnavailable
+            With ``wait``, if the browser does not start within the timeout or fails to start
+            (it is then killed and the exporter closed).
+        """
         with self._lock:
             if self._opening is None:
                 from kaleido import PageGenerator
@@ -278,6 +365,23 @@ class ChartExporter:
 
         A page that fails while drawing (a script error in a busy browser, seen rarely) is given
         one more try in a freshly started browser; a timeout or a failed start is not retried.
+        The browser is started first if it is not running.
+
+        Parameters
+        ----------
+        figures : dict[str, Any]
+            Plotly figures by key, each exported at :func:`figure_size`.
+
+        Returns
+        -------
+        dict[str, str]
+            The SVG text of each figure, by the same keys.
+
+        Raises
+        ------
+        ChartsUnavailable
+            If the browser cannot be started, the batch takes longer than the timeout, or the
+            drawing fails twice (the browser is then killed).
         """
         try:
             return self._export_once(figures)
@@ -342,8 +446,17 @@ class ChartExporter:
             log.debug("reloading the chart pages failed", exc_info=True)
 
     def close(self, *, force: bool = False) -> None:
-        """Close the browser and stop the thread. ``force`` kills the browser's process group
-        first (it hangs or has failed); otherwise it is asked to quit and killed if it lingers."""
+        """Close the browser and stop the thread.
+
+        Whatever still runs in the browser's process group afterwards is killed. The exporter
+        can be started again.
+
+        Parameters
+        ----------
+        force : bool, optional
+            Whether to kill the browser's process group first (it hangs or has failed);
+            otherwise it is asked to quit and killed if it lingers.
+        """
         with self._lock:
             loop, browser, group = self._loop, self._browser, self.process_group
             self._kaleido = self._opening = self._browser = self._refresh = None
@@ -381,11 +494,34 @@ _DRAWING_FAILED = "The browser failed while drawing the charts"
 
 
 def figure_size(fig: Any) -> tuple[int, int]:
-    """Width and height [px] a figure is exported at (the SVG's own size)."""
+    """Width and height [px] a figure is exported at (the SVG's own size).
+
+    Parameters
+    ----------
+    fig : Any
+        A plotly figure; the memo sets its export width as ``_memo_width``.
+
+    Returns
+    -------
+    tuple[int, int]
+        Width (760 unless set) and height (the layout's, else 420) [px].
+    """
     return int(getattr(fig, "_memo_width", 760)), int(fig.layout.height or 420)
 
 
 def is_timeout(exc: BaseException) -> bool:
+    """Whether an exception is a timeout of any of the kinds the exporter's waits raise.
+
+    Parameters
+    ----------
+    exc : BaseException
+        The exception caught.
+
+    Returns
+    -------
+    bool
+        True for the builtin, asyncio and concurrent.futures timeout errors.
+    """
     import concurrent.futures
 
     return isinstance(exc, (TimeoutError, asyncio.TimeoutError, concurrent.futures.TimeoutError))
@@ -396,8 +532,27 @@ _EXPORTER_LOCK = threading.Lock()
 
 
 def start_chart_exporter(*, wait: bool = True) -> ChartExporter:
-    """Start (once) the process-wide exporter; later memos reuse its browser. With
-    ``wait=False`` the browser starts in the background while the caller gets on with its work."""
+    """Start (once) the process-wide exporter; later memos reuse its browser.
+
+    It is stopped when the process exits, if no one stopped it before.
+
+    Parameters
+    ----------
+    wait : bool, optional
+        Whether to wait until the browser is ready; with False the browser starts in the
+        background while the caller gets on with its work.
+
+    Returns
+    -------
+    ChartExporter
+        The process-wide exporter.
+
+    Raises
+    ------
+    ChartsUnavailable
+        If no browser is found, the timeout set in the environment is not allowed, or, with
+        ``wait``, the browser does not start.
+    """
     global _EXPORTER
     with _EXPORTER_LOCK:
         if _EXPORTER is None or not _EXPORTER.running:
@@ -412,6 +567,7 @@ def start_chart_exporter(*, wait: bool = True) -> ChartExporter:
 
 
 def stop_chart_exporter() -> None:
+    """Close the process-wide exporter and its browser, if one was started."""
     global _EXPORTER
     with _EXPORTER_LOCK:
         exporter, _EXPORTER = _EXPORTER, None
@@ -420,5 +576,12 @@ def stop_chart_exporter() -> None:
 
 
 def running_exporter() -> ChartExporter | None:
+    """The process-wide exporter when it was started and is not closed, else None.
+
+    Returns
+    -------
+    ChartExporter | None
+        The running exporter, or None.
+    """
     exporter = _EXPORTER
     return exporter if exporter is not None and exporter.running else None

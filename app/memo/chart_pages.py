@@ -41,8 +41,19 @@ class ChartPagesError(RuntimeError):
 
 
 def find_converter() -> str | None:
-    """The SVG-to-PDF program: OBLIGOR_MEMO_SVG_CONVERTER (a path, or 'none' to use WeasyPrint),
-    else ``rsvg-convert`` on the PATH, else None (WeasyPrint draws the pages)."""
+    """The SVG-to-PDF program, or None when WeasyPrint draws the pages.
+
+    Returns
+    -------
+    str | None
+        OBLIGOR_MEMO_SVG_CONVERTER (a path, or 'none' to use WeasyPrint), else ``rsvg-convert``
+        on the PATH, else None.
+
+    Raises
+    ------
+    ChartPagesError
+        If OBLIGOR_MEMO_SVG_CONVERTER names no executable file.
+    """
     chosen = settings.current().svg_converter or ""
     if chosen.lower() == "none":
         return None
@@ -57,8 +68,21 @@ def find_converter() -> str | None:
 
 
 def check_references(svg: str) -> None:
-    """A chart may refer to its own parts ('#id') and carry bitmaps inline (plotly draws a heatmap's
-    cells as a PNG data URI); anything else (a file, a web address) is refused, never loaded."""
+    """Refuse a chart that refers to anything but its own parts and inline PNG bitmaps.
+
+    A chart may refer to its own parts ('#id') and carry bitmaps inline (plotly draws a heatmap's
+    cells as a PNG data URI); anything else (a file, a web address) is refused, never loaded.
+
+    Parameters
+    ----------
+    svg : str
+        The chart's SVG text; its ``href`` and ``xlink:href`` values are checked.
+
+    Raises
+    ------
+    ChartPagesError
+        If a reference is neither '#...' nor a base64 PNG data URI.
+    """
     for url in _REFERENCE.findall(svg):
         if not (url.startswith("#") or url.startswith("data:image/png;base64,")):
             raise ChartPagesError(f"a chart refers to {url[:60]!r}; charts may only use their own parts")
@@ -72,7 +96,29 @@ _PAGES_LOCK = threading.Lock()
 
 
 def charts_pdf(svgs: Sequence[str], *, timeout: float = 60.0) -> bytes:
-    """One PDF with a page per SVG, in order, each page the SVG's own size (px -> pt)."""
+    """One PDF with a page per SVG, in order, each page the SVG's own size (px -> pt).
+
+    Drawn by the converter of :func:`find_converter`, else by WeasyPrint; the last few results
+    are cached by converter and SVG text.
+
+    Parameters
+    ----------
+    svgs : Sequence[str]
+        The charts' SVG text, each checked by :func:`check_references` first.
+    timeout : float, optional
+        Time the converter may take [s].
+
+    Returns
+    -------
+    bytes
+        The PDF.
+
+    Raises
+    ------
+    ChartPagesError
+        If a chart refers to something outside itself, the converter set is not executable,
+        or the converter fails or takes longer than ``timeout``.
+    """
     for svg in svgs:
         check_references(svg)
     converter = find_converter()
@@ -156,18 +202,40 @@ def _with_weasyprint(svgs: Sequence[str]) -> bytes:
 
 @dataclass(frozen=True)
 class Placement:
-    """Where one chart goes: ``page`` (0-based) of the memo, the box's corners in CSS px from the
-    page's top left (as WeasyPrint lays it out), and the chart's page in the charts PDF."""
+    """Where one chart goes: a page of the memo, a box on it, and the chart's page in the charts PDF."""
 
     page: int
+    """Page of the memo, 0-based."""
     box: tuple[float, float, float, float]
+    """The box's left, top, right and bottom from the page's top left, as WeasyPrint lays it out [CSS px]."""
     chart_page: int
+    """Page of the chart in the charts PDF, 0-based (the chart's number)."""
 
 
 def chart_placements(document: Any, anchors: Sequence[str]) -> list[Placement]:
-    """The laid-out box of every element whose id is in ``anchors`` (WeasyPrint's public
-    ``Page.anchors``: id -> (x1, y1, x2, y2) in CSS px); chart N is ``anchors[N]``. An id that
-    is absent is left out."""
+    """The laid-out box of every element whose id is in ``anchors``; chart N is ``anchors[N]``.
+
+    The boxes are read from WeasyPrint's public ``Page.anchors`` (id -> (x1, y1, x2, y2) in CSS
+    px); an id that appears on several pages is placed on the first.
+
+    Parameters
+    ----------
+    document : Any
+        The laid-out WeasyPrint document.
+    anchors : Sequence[str]
+        The ids of the charts' boxes, in chart order.
+
+    Returns
+    -------
+    list[Placement]
+        One placement per id found, in the order found (page by page); an id that is absent is
+        left out.
+
+    Raises
+    ------
+    ChartPagesError
+        If this WeasyPrint reports anchors without box sizes (before version 70).
+    """
     wanted = {name: i for i, name in enumerate(anchors)}
     found: dict[str, Placement] = {}
     for number, page in enumerate(document.pages):
@@ -184,14 +252,47 @@ def chart_placements(document: Any, anchors: Sequence[str]) -> list[Placement]:
 
 
 def as_form(pdf: Any, source_page: Any) -> Any:
-    """A page of another PDF as a form XObject of ``pdf`` (copied once; usable on many pages)."""
+    """A page of another PDF as a form XObject of ``pdf`` (copied once; usable on many pages).
+
+    Parameters
+    ----------
+    pdf : Any
+        The pikepdf PDF the form is copied into.
+    source_page : Any
+        The pikepdf page of the other PDF.
+
+    Returns
+    -------
+    Any
+        The form XObject, owned by ``pdf``.
+    """
     return pdf.copy_foreign(source_page.as_form_xobject())
 
 
 def form_operators(pdf: Any, page: Any, form: Any, box: tuple[float, float, float, float] | None, name: Any) -> bytes:
-    """Register ``form`` (see :func:`as_form`) as the resource ``name`` of ``page`` and return
-    the operators that draw it into ``box`` (CSS px from the page's top left), or over the
-    whole page when ``box`` is None. Fixed names keep the bytes the same from run to run."""
+    """Register ``form`` as a resource of ``page`` and return the operators that draw it into ``box``.
+
+    The form is scaled to fill the box (or the page) on both axes. Fixed names keep the bytes
+    the same from run to run.
+
+    Parameters
+    ----------
+    pdf : Any
+        The pikepdf PDF that holds ``page`` (not used).
+    page : Any
+        The pikepdf page to draw on.
+    form : Any
+        The form XObject (see :func:`as_form`).
+    box : tuple[float, float, float, float] | None
+        Left, top, right and bottom from the page's top left [CSS px]; None for the whole page.
+    name : Any
+        The resource name, a ``pikepdf.Name`` such as ``/MemoChart0``.
+
+    Returns
+    -------
+    bytes
+        The content-stream operators, in their own graphics state (``q ... Q``).
+    """
     page.add_resource(form, "/XObject", name)
     left, bottom, right, top = (float(v) for v in form.BBox)
     if box is None:
@@ -208,6 +309,14 @@ def form_operators(pdf: Any, page: Any, form: Any, box: tuple[float, float, floa
 
 
 def append_drawing(page: Any, operators: Sequence[bytes]) -> None:
-    """Draw after the page's own content, from a clean graphics state."""
+    """Draw after the page's own content, from a clean graphics state.
+
+    Parameters
+    ----------
+    page : Any
+        The pikepdf page.
+    operators : Sequence[bytes]
+        Content-stream operators (see :func:`form_operators`), drawn in order.
+    """
     page.contents_add(b"q\n", prepend=True)  # the page's own state ends before ours
     page.contents_add(b"Q\n" + b"".join(operators))

@@ -1,5 +1,8 @@
-"""The only fetcher the memo's layout gets: our own data URIs, the package's assets, and empty
-stand-ins of each chart's size (the charts are placed after layout, :mod:`.chart_pages`)."""
+"""The only fetcher the memo's layout gets: our own data URIs, the package's assets, chart stand-ins.
+
+The stand-ins are empty SVGs of each chart's size; the charts are placed after layout
+(:mod:`.chart_pages`).
+"""
 
 from __future__ import annotations
 
@@ -14,9 +17,25 @@ CHART_ANCHOR = "memo-chart-{}"  # the id of chart N's box in the HTML
 
 
 def memo_fetcher(allowed_data_uris: set[str], chart_sizes: list[tuple[int, int]] | None = None) -> Any:
-    """A WeasyPrint fetcher that serves only our own data: URIs, the package's asset files and,
-    for ``memo-chart:N``, an empty SVG of chart N's size (``chart_sizes``): the layout keeps each
-    chart's place; the chart itself is put there after writing (:mod:`app.chart_pages`)."""
+    """A WeasyPrint fetcher that serves only our own data: URIs, the package's asset files, charts' places.
+
+    For ``memo-chart:N`` it serves an empty SVG of chart N's size (``chart_sizes``): the layout
+    keeps each chart's place; the chart itself is put there after writing
+    (:mod:`.chart_pages`). Any other URL is refused with a ValueError, which WeasyPrint reports
+    and skips (the fetcher does not fail on errors).
+
+    Parameters
+    ----------
+    allowed_data_uris : set[str]
+        The ``data:`` URIs (base64) the HTML may load, each served decoded with its MIME type.
+    chart_sizes : list[tuple[int, int]] | None, optional
+        Width and height of each chart, in chart order [px]; None for no chart.
+
+    Returns
+    -------
+    Any
+        The fetcher, a ``weasyprint.urls.URLFetcher``.
+    """
     from weasyprint.urls import URLFetcher, URLFetcherResponse
 
     allowed = set(allowed_data_uris)
@@ -45,4 +64,18 @@ def memo_fetcher(allowed_data_uris: set[str], chart_sizes: list[tuple[int, int]]
 
 
 def stand_in(width: int, height: int) -> str:
+    """An empty SVG of a chart's size, holding its place in the layout.
+
+    Parameters
+    ----------
+    width : int
+        Width of the chart [px].
+    height : int
+        Height of the chart [px].
+
+    Returns
+    -------
+    str
+        The SVG document, with a matching viewBox.
+    """
     return f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" viewBox="0 0 {width} {height}"/>'

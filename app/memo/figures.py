@@ -1,5 +1,7 @@
-"""The memo's charts: the workbench's plotly figures, drawn as SVG by the chart browser
-(:mod:`app.chart_browser`), cached, and made PDF pages while the memo is laid out.
+"""The memo's charts: the workbench's plotly figures, drawn as SVG, cached, made PDF pages.
+
+The chart browser (:mod:`.chart_browser`) draws them, and the PDF pages are made while the memo
+is laid out.
 
 - the figures print in the memo's own font (DejaVu Sans), so chart labels match the text;
 - each SVG is slimmed once when drawn (:func:`slim_svg`: 1981 -> 866 elements over the sample's
@@ -34,7 +36,18 @@ SMALL_SHARE = 0.49
 
 
 def min_font_px(width_px: int) -> int:
-    """The smallest font [px] that prints at PRINT_MIN_PT once the chart is scaled into its box."""
+    """The smallest font [px] that prints at PRINT_MIN_PT once the chart is scaled into its box.
+
+    Parameters
+    ----------
+    width_px : int
+        The chart's export width [px]; below 700 it prints at half the column, else across it.
+
+    Returns
+    -------
+    int
+        The font size, rounded up [px].
+    """
     import math
 
     box = COLUMN_PT * (SMALL_SHARE if width_px < 700 else 1.0)
@@ -42,8 +55,18 @@ def min_font_px(width_px: int) -> int:
 
 
 def raise_small_text(fig: Any, min_px: int) -> None:
-    """Every font of the figure at least ``min_px``: the base font (ticks, legend, axis titles
-    inherit it), annotations and trace text set smaller on their own."""
+    """Every font of the figure at least ``min_px``, changing the figure in place.
+
+    Raised are the base font (ticks, legend, axis titles inherit it), and annotations and trace
+    text set smaller on their own; larger fonts are kept.
+
+    Parameters
+    ----------
+    fig : Any
+        The plotly figure.
+    min_px : int
+        The smallest font size [px].
+    """
     base = fig.layout.font.size or 12
     fig.update_layout(font_size=max(base, min_px))
     for annotation in fig.layout.annotations or ():
@@ -60,10 +83,16 @@ def raise_small_text(fig: Any, min_px: int) -> None:
 
 @dataclass(frozen=True)
 class ChartSpec:
+    """One chart of the memo: its key, the figure function that builds it, and its export width."""
+
     key: str
-    builder: str  # function name in app.charts
+    """Key of the chart, e.g. ``asset_trend`` or ``recovery:<facility id>``."""
+    builder: str
+    """Function name in app.charts."""
     args: tuple[Any, ...] = ()
-    width: int = 760  # export width [px]; the page scales it to the column
+    """Arguments passed to the builder after the results."""
+    width: int = 760
+    """Export width [px]; the page scales it to the column."""
 
 
 # Charts printed only in the technical annex (the sections of view.ANNEX_SECTIONS).
@@ -71,8 +100,22 @@ ANNEX_CHARTS = ("term_structure", "exposure", "recovery:", "loss_distribution")
 
 
 def chart_specs(results: Any, annex: bool = True) -> list[ChartSpec]:
-    """The memo's charts in the order the memo prints them (the first are drawn first); without
-    the annex, only the charts the committee memo prints."""
+    """The memo's charts in the order the memo prints them (the first are drawn first).
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    annex : bool, optional
+        Whether the technical annex is printed; without it, only the charts the committee memo
+        prints.
+
+    Returns
+    -------
+    list[ChartSpec]
+        The charts: one recovery chart per facility, and the two review waterfalls only when
+        the case records a previous review.
+    """
     specs = _all_specs(results)
     if annex:
         return specs
@@ -101,7 +144,24 @@ def _all_specs(results: Any) -> list[ChartSpec]:
 
 
 def build_figures(results: Any, annex: bool = True) -> tuple[dict[str, Any], dict[str, str]]:
-    """The workbench's figures for this memo, and a note for each one that cannot be built."""
+    """The workbench's figures for this memo, and a note for each one that cannot be built.
+
+    Each figure is set in the memo's font on white, its small text raised to print at least
+    PRINT_MIN_PT, and its export width kept on it (``_memo_width``).
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    annex : bool, optional
+        Whether the technical annex is printed (see :func:`chart_specs`).
+
+    Returns
+    -------
+    tuple[dict[str, Any], dict[str, str]]
+        The plotly figures by chart key, in print order, and for each chart that cannot be
+        built the note printed in its place.
+    """
     from obligor_memo.app import charts
 
     figures: dict[str, Any] = {}
@@ -138,6 +198,18 @@ _CACHE_LOCK = threading.Lock()
 
 
 def figure_key(fig: Any) -> str:
+    """The SVG cache's key of a figure: its JSON, export width and the kaleido version, hashed.
+
+    Parameters
+    ----------
+    fig : Any
+        The plotly figure.
+
+    Returns
+    -------
+    str
+        The SHA-256 hex digest.
+    """
     spec = fig.to_json() + f"|{getattr(fig, '_memo_width', 760)}|{_kaleido_version()}"
     return hashlib.sha256(spec.encode("utf-8")).hexdigest()
 
@@ -149,12 +221,45 @@ def _kaleido_version() -> str:
 
 
 def svg_data_uri(svg: str) -> str:
+    """An SVG as a base64 ``data:image/svg+xml`` URI.
+
+    Parameters
+    ----------
+    svg : str
+        The SVG text.
+
+    Returns
+    -------
+    str
+        The data URI.
+    """
     return "data:image/svg+xml;base64," + base64.b64encode(svg.encode("utf-8")).decode("ascii")
 
 
 def export_figures(figures: dict[str, Any], *, exporter: ChartExporter | None = None) -> dict[str, str]:
-    """SVG text of each figure: from the cache, else drawn by ``exporter`` (or the process-wide
-    one when running, else a browser started and closed for this call)."""
+    """SVG text of each figure, from the cache or drawn by a chart browser.
+
+    Figures not in the cache are drawn in one batch and slimmed (:func:`slim_svg`) before they
+    are cached; the cache keeps the last 64 drawings.
+
+    Parameters
+    ----------
+    figures : dict[str, Any]
+        Plotly figures by chart key.
+    exporter : ChartExporter | None, optional
+        The browser that draws them; None takes the process-wide one when running, else a
+        browser started and closed for this call.
+
+    Returns
+    -------
+    dict[str, str]
+        The slimmed SVG text of each figure, by the same keys.
+
+    Raises
+    ------
+    ChartsUnavailable
+        If a figure must be drawn and the browser cannot draw it.
+    """
     keys = {key: figure_key(fig) for key, fig in figures.items()}
     with _CACHE_LOCK:
         missing = {key: fig for key, fig in figures.items() if keys[key] not in _SVG_CACHE}
@@ -178,7 +283,28 @@ def export_figures(figures: dict[str, Any], *, exporter: ChartExporter | None = 
 
 
 def export_charts(results: Any, annex: bool = True) -> tuple[dict[str, str], dict[str, str]]:
-    """SVG data URIs for every chart, in one Chromium session; notes where a chart is absent."""
+    """SVG data URIs for every chart, in one Chromium session; notes where a chart is absent.
+
+    Without the process-wide browser running, one is started for this call (it comes up while
+    the figures are built) and closed at the end.
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    annex : bool, optional
+        Whether the technical annex is printed (see :func:`chart_specs`).
+
+    Returns
+    -------
+    tuple[dict[str, str], dict[str, str]]
+        The data URI of each chart by key, and the note of each chart that could not be built.
+
+    Raises
+    ------
+    ChartsUnavailable
+        If no browser can draw the charts.
+    """
     own = None if running_exporter() is not None else ChartExporter().start(wait=False)
     try:
         # The browser (if started here) comes up while the figures are being built.
@@ -204,12 +330,36 @@ class ChartJob:
     the SVG cache) comes up while the figures are built; on a worker thread the SVGs are then
     drawn and made one PDF of pages, while the memo is laid out. :meth:`svgs` and :meth:`pages`
     give the result or raise :class:`ChartsUnavailable`.
+
+    Attributes
+    ----------
+    figures : dict[str, Any]
+        The plotly figures by chart key, in print order (see :func:`build_figures`).
+    notes : dict[str, str]
+        The note printed in the place of each chart that could not be built.
     """
 
     def __init__(self, results: Any, *, exporter: ChartExporter | None = None, annex: bool = True):
-        """``exporter``: a browser the caller started for this memo alone (the command line
-        starts it before the analysis); it is closed as soon as the charts are drawn, so its
-        memory is given back before the PDF is written."""
+        """Build the figures now and start drawing them on a worker thread.
+
+        Parameters
+        ----------
+        results : Any
+            The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+        exporter : ChartExporter | None, optional
+            A browser the caller started for this memo alone (the command line starts it before
+            the analysis); it is closed as soon as the charts are drawn, so its memory is given
+            back before the PDF is written. None uses the process-wide browser, or one started
+            here when a figure is not in the SVG cache.
+        annex : bool, optional
+            Whether the technical annex is printed (see :func:`chart_specs`).
+
+        Raises
+        ------
+        ChartsUnavailable
+            If a browser needed here cannot be created (none found, or a bad timeout set); the
+            browser is closed when building the figures fails.
+        """
         import concurrent.futures
 
         # The first memo of a process starts its browser at once, so that it comes up while the
@@ -256,15 +406,45 @@ class ChartJob:
                 own.close()
 
     def done(self) -> bool:
-        """The drawing has finished (well or not); :meth:`svgs` will not wait."""
+        """The drawing has finished (well or not); :meth:`svgs` will not wait.
+
+        Returns
+        -------
+        bool
+            Whether the drawing has finished.
+        """
         return self._future.done()
 
     def svgs(self) -> dict[str, str]:
-        """Every drawn figure's SVG text by chart key."""
+        """Every drawn figure's SVG text by chart key, waiting for the drawing.
+
+        Returns
+        -------
+        dict[str, str]
+            The slimmed SVG text of each figure of :attr:`figures`.
+
+        Raises
+        ------
+        ChartsUnavailable
+            If the charts could not be drawn or made PDF pages, or the drawing did not finish
+            within three times the timeout plus 30 s.
+        """
         return self._result()[0]
 
     def pages(self) -> bytes:
-        """The charts as one PDF, a page per figure in the order of :attr:`figures`."""
+        """The charts as one PDF, a page per figure in the order of :attr:`figures`, waiting for the drawing.
+
+        Returns
+        -------
+        bytes
+            The PDF.
+
+        Raises
+        ------
+        ChartsUnavailable
+            If the charts could not be drawn or made PDF pages, or the drawing did not finish
+            within three times the timeout plus 30 s.
+        """
         return self._result()[1]
 
     def _result(self) -> tuple[dict[str, str], bytes]:

@@ -1,6 +1,6 @@
 """The memo's pages read back: the fingerprint each page carries and the figures it prints.
 
-``verify`` (in :mod:`record`) uses this to check the pages themselves, not only the attachments:
+``verify`` (in :mod:`.record`) uses this to check the pages themselves, not only the attachments:
 
 - every page's footer carries the first 16 hex digits of the inputs' fingerprint; all pages
   must carry the fingerprint of the attached case;
@@ -40,7 +40,25 @@ class PagesUnreadable(ValueError):
 
 
 def page_texts(pdf: bytes) -> list[str]:
-    """The text of every page, in order."""
+    """The text of every page, in order.
+
+    Read by poppler's pdftotext when it is installed and succeeds, else by pypdf.
+
+    Parameters
+    ----------
+    pdf : bytes
+        The memo's PDF.
+
+    Returns
+    -------
+    list[str]
+        One text per page.
+
+    Raises
+    ------
+    PagesUnreadable
+        If pdftotext is missing or fails and pypdf cannot read the PDF either.
+    """
     tool = shutil.which("pdftotext")
     if tool is not None:
         done = subprocess.run([tool, "-enc", "UTF-8", "-", "-"], input=pdf, capture_output=True, timeout=120)
@@ -56,9 +74,23 @@ def page_texts(pdf: bytes) -> list[str]:
 
 
 def exact_reader(pdf: bytes, fallback: list[str]) -> Callable[[int], str]:
-    """Page i's text as pypdf reads it (no joining of words hyphenated at a line end, which
-    pdftotext does and which would glue "12-" and "13" into "1213"); pdftotext's text where
-    pypdf cannot read the page."""
+    """Page i's text as pypdf reads it, or the fallback's text where pypdf cannot read the page.
+
+    pypdf does not join words hyphenated at a line end, which pdftotext does and which would
+    glue "12-" and "13" into "1213".
+
+    Parameters
+    ----------
+    pdf : bytes
+        The memo's PDF.
+    fallback : list[str]
+        The text of every page from :func:`page_texts`.
+
+    Returns
+    -------
+    Callable[[int], str]
+        Page index (0-based) -> text; each page is read once and kept.
+    """
     cache: dict[int, str] = {}
     try:
         from pypdf import PdfReader
@@ -79,12 +111,35 @@ def exact_reader(pdf: bytes, fallback: list[str]) -> Callable[[int], str]:
 
 
 def flat(text: str) -> str:
+    """The text with every run of white space (en and no-break spaces included) as one space.
+
+    Parameters
+    ----------
+    text : str
+        Text read from a page or the HTML.
+
+    Returns
+    -------
+    str
+        The text on one line, stripped.
+    """
     # pdftotext prints the headings' en-space as a plain space; one space between words.
     return " ".join(text.replace("\u2002", " ").replace("\u00a0", " ").split())
 
 
 def footer_fingerprints(pages: list[str]) -> tuple[str | None, ...]:
-    """The fingerprint printed in each page's footer (None where a page carries none)."""
+    """The fingerprint printed in each page's footer (None where a page carries none).
+
+    Parameters
+    ----------
+    pages : list[str]
+        The text of every page.
+
+    Returns
+    -------
+    tuple[str | None, ...]
+        For each page the last "Inputs <16 hex digits>" it prints, the digits only.
+    """
     out = []
     for text in pages:
         found = FOOTER_FINGERPRINT.findall(flat(text))
@@ -93,6 +148,18 @@ def footer_fingerprints(pages: list[str]) -> tuple[str | None, ...]:
 
 
 def numbers(text: str) -> Counter[str]:
+    """The numbers a text prints, each counted as often as it appears.
+
+    Parameters
+    ----------
+    text : str
+        Text read from a page or the HTML.
+
+    Returns
+    -------
+    Counter[str]
+        Each number as printed (see :data:`NUMBER` and the module docstring) -> its count.
+    """
     return Counter(NUMBER.findall(flat(text)))
 
 
@@ -132,6 +199,20 @@ class _SectionText(HTMLParser):
 
 
 def section_text(memo_html: str, wanted: tuple[str, ...]) -> str:
+    """The text of chosen ``<section id=...>`` elements of the memo's HTML, running strings left out.
+
+    Parameters
+    ----------
+    memo_html : str
+        The memo's HTML.
+    wanted : tuple[str, ...]
+        The ids of the sections.
+
+    Returns
+    -------
+    str
+        The sections' text in the order of ``wanted``, table cells and paragraphs apart.
+    """
     parser = _SectionText(wanted)
     parser.feed(memo_html)
     return " ".join("".join(parser.parts[key]) for key in wanted)
@@ -149,19 +230,27 @@ def _strip_running(text: str, borrower: str) -> str:
 class PageCheck:
     """The numbers of one part of the memo, printed against rendered again from the recomputation."""
 
-    part: str  # "decision page" or "body"
-    pages: tuple[int, ...]  # 1-based page numbers read
-    expected: int  # numbers the recomputation prints there
-    missing: tuple[str, ...]  # recomputed but not printed (as often)
-    extra: tuple[str, ...]  # printed but not recomputed (decision page only; the body has charts)
-    recorded_absent: tuple[str, ...] = ()  # recorded figures of this part not found in its text
+    part: str
+    """"decision page" or "body"."""
+    pages: tuple[int, ...]
+    """1-based page numbers read."""
+    expected: int
+    """Numbers the recomputation prints there."""
+    missing: tuple[str, ...]
+    """Recomputed but not printed (as often)."""
+    extra: tuple[str, ...]
+    """Printed but not recomputed (decision page only; the body has charts)."""
+    recorded_absent: tuple[str, ...] = ()
+    """Recorded figures of this part not found in its text."""
 
     @property
     def holds(self) -> bool:
+        """No number is missing or extra, and every recorded figure of the part is found."""
         return not self.missing and not self.extra and not self.recorded_absent
 
     @property
     def matched(self) -> int:
+        """Numbers of the recomputation found printed."""
         return self.expected - len(self.missing)
 
 
@@ -198,8 +287,31 @@ def check_pages(
 ) -> tuple[PageCheck, ...]:
     """The decision page and the body printed against the memo rendered again from ``results``.
 
-    ``pages`` (pdftotext) find where the decision page ends and the appendices begin; the numbers
-    are read from ``exact(i)`` (pypdf; default: ``pages[i]``)."""
+    The memo is rendered again as HTML (without charts, on the case's page size, with the
+    recorded print time); the decision page runs to the page that prints "generated <time>",
+    the body from there to the page that starts with "Appendix A".
+
+    Parameters
+    ----------
+    pages : list[str]
+        The text of every page (pdftotext), used to find where the decision page ends and the
+        appendices begin.
+    results : Any
+        The recomputed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    recorded : dict[str, str]
+        The recorded figures, label -> text as printed; those of :data:`DECISION_FIGURES` must
+        appear on the decision page.
+    generated_at : str
+        The print time, as recorded.
+    exact : Callable[[int], str] | None, optional
+        Page index -> text the numbers are read from (see :func:`exact_reader`); None reads
+        ``pages[i]``.
+
+    Returns
+    -------
+    tuple[PageCheck, ...]
+        The check of the decision page, then of the body.
+    """
     read = exact or (lambda i: pages[i])
     from obligor_memo.app.memo.view import memo_html
 

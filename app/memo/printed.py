@@ -25,6 +25,19 @@ def printed_figures(results: Any) -> dict[str, str]:
 
     Summary amounts carry the currency; per-facility amounts are printed in tables whose header
     names the currency, so they are recorded without it, as printed.
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`);
+        covenants, Z-scores, market figures, scenarios and sensitivity rows are recorded when
+        the results carry them.
+
+    Returns
+    -------
+    dict[str, str]
+        Label -> text as printed, in a fixed order (the summary, then each facility, pricing,
+        covenants, Z-scores, market PD, scenarios and sensitivity).
     """
     cur = results.case.borrower.currency
     pd, t = results.pd, results.total

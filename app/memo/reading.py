@@ -26,15 +26,34 @@ PRINTED_LABELS = {
 
 @dataclass(frozen=True)
 class LastReview:
-    case: Any  # engine.case.Case
-    source: str  # file name
-    recorded: Any | None  # engine.compare.RecordedFigures (memo PDFs only)
-    fingerprint: str | None  # as recorded in the memo
-    printed_on: str | None  # the memo's print date, YYYY-MM-DD
+    """A last review as read: its case and, from a memo PDF, the figures it printed."""
+
+    case: Any
+    """The case (an ``engine.case.Case``)."""
+    source: str
+    """The file name."""
+    recorded: Any | None
+    """The figures as printed (an ``engine.compare.RecordedFigures``; memo PDFs only)."""
+    fingerprint: str | None
+    """The case's fingerprint as recorded in the memo."""
+    printed_on: str | None
+    """The memo's print date, YYYY-MM-DD."""
 
 
 def printed_number(text: str) -> float | str | None:
-    """A figure as printed ('EUR 1,234', '0.2123 %', '4') back to a number (rounded as printed)."""
+    """A figure as printed ('EUR 1,234', '0.2123 %', '4') back to a number (rounded as printed).
+
+    Parameters
+    ----------
+    text : str
+        The figure as printed, with or without a three-letter currency code before it.
+
+    Returns
+    -------
+    float | str | None
+        The number (a percentage as a fraction); None for 'n/a', 'not graded' or nothing; the
+        text itself when it is not a number (a grade, '< 0.0001 %').
+    """
     text = text.strip()
     if text in ("n/a", "not graded", ""):
         return None
@@ -52,7 +71,26 @@ def printed_number(text: str) -> float | str | None:
 def read_last_review(data: bytes, name: str) -> LastReview:
     """A memo PDF or a case file (YAML or JSON) as the review to compare with or roll forward.
 
-    Raises engine.errors.CaseError (a bad case) or MemoRecordError (a PDF without a record).
+    Parameters
+    ----------
+    data : bytes
+        The file's content; a PDF is recognised by its header.
+    name : str
+        The file's name, as messages and :attr:`LastReview.source` give it.
+
+    Returns
+    -------
+    LastReview
+        The review; from a memo also its recorded figures, fingerprint and print date (when
+        the memo records them).
+
+    Raises
+    ------
+    CaseError
+        If the case does not validate, or a case file names a statements file (there is no
+        folder to read it from).
+    MemoRecordError
+        If a PDF carries no case.json, or its embedded record cannot be read.
     """
     from obligor_memo.engine.case import parse_case
     from obligor_memo.engine.compare import RecordedFigures
@@ -88,6 +126,28 @@ def read_last_review(data: bytes, name: str) -> LastReview:
 
 
 def read_last_review_path(path: Path) -> LastReview:
+    """A memo PDF or a case file on disk as the review to compare with or roll forward.
+
+    A case file is loaded as ``load_case`` loads it, so statements files it names are read
+    (relative to its folder).
+
+    Parameters
+    ----------
+    path : Path
+        The memo PDF or case file.
+
+    Returns
+    -------
+    LastReview
+        The review, as :func:`read_last_review` gives it.
+
+    Raises
+    ------
+    CaseError
+        If the case cannot be read or does not validate.
+    MemoRecordError
+        If a PDF carries no case.json, or its embedded record cannot be read.
+    """
     from obligor_memo.engine.loading import load_case
 
     data = path.read_bytes()
@@ -97,7 +157,22 @@ def read_last_review_path(path: Path) -> LastReview:
 
 
 def roll_forward_review(last: LastReview, *, approved_on: str | None = None) -> dict[str, Any]:
-    """The new case dict started from a last review (figures as printed when it is a memo)."""
+    """The new case dict started from a last review (figures as printed when it is a memo).
+
+    Parameters
+    ----------
+    last : LastReview
+        The last review.
+    approved_on : str | None, optional
+        Date the last review was approved; None takes the memo's print date (unset for a case
+        file).
+
+    Returns
+    -------
+    dict[str, Any]
+        The new case, as :func:`obligor_memo.engine.review.roll_forward` gives it; without
+        recorded figures they are computed now from the last case.
+    """
     from obligor_memo.engine.review import roll_forward
 
     if last.recorded is not None:

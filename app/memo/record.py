@@ -10,7 +10,7 @@ A memo carries two attached files:
 :func:`verify_memo` re-evaluates the attached case with the engine installed now, formats the
 figures again with the same formatter and compares them one by one. A changed engine, a tampered
 case or tampered figures show up as named differences. The figure labels and formats are defined
-once here, in :func:`printed_figures`; the memo prints the same strings.
+once, in :func:`.printed.printed_figures` (re-exported here); the memo prints the same strings.
 """
 
 from __future__ import annotations
@@ -32,14 +32,39 @@ class MemoRecordError(ValueError):
 
 
 def canonical_case_json(results: Any) -> bytes:
-    """The case exactly as fingerprinted (engine.evaluate.canonical_case_json)."""
+    """The case exactly as fingerprinted (engine.evaluate.canonical_case_json).
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    bytes
+        The case in canonical JSON (sorted keys, no spaces, ASCII), the ``case.json`` attachment.
+    """
     from obligor_memo.engine.evaluate import canonical_case_json as canonical
 
     return canonical(results.case)
 
 
 def figures_record(results: Any, *, generated_at: str) -> bytes:
-    """The ``printed-figures.json`` attachment (canonical JSON, so identical inputs match)."""
+    """The ``printed-figures.json`` attachment (canonical JSON, so identical inputs match).
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+    generated_at : str
+        The print time, as the memo shows it.
+
+    Returns
+    -------
+    bytes
+        ASCII JSON with ``format``, ``engine_version``, ``fingerprint``, ``generated_at`` and
+        ``figures`` (label -> text as printed, in the memo's order).
+    """
     record = {
         "format": RECORD_FORMAT,
         "engine_version": results.engine_version,
@@ -52,7 +77,23 @@ def figures_record(results: Any, *, generated_at: str) -> bytes:
 
 
 def read_attachments(pdf: bytes) -> dict[str, bytes]:
-    """Every embedded file of a PDF: name -> content (first copy where a name repeats)."""
+    """Every embedded file of a PDF: name -> content (first copy where a name repeats).
+
+    Parameters
+    ----------
+    pdf : bytes
+        The PDF file.
+
+    Returns
+    -------
+    dict[str, bytes]
+        The attachments by file name.
+
+    Raises
+    ------
+    MemoRecordError
+        If the bytes are not a PDF or cannot be read as one.
+    """
     from pypdf import PdfReader
     from pypdf.errors import PdfReadError
 
@@ -68,24 +109,37 @@ def read_attachments(pdf: bytes) -> dict[str, bytes]:
 
 @dataclass(frozen=True)
 class FigureCheck:
+    """One recorded figure: its text as the memo printed it and as it is formatted now."""
+
     label: str
-    printed: str | None  # None: the figure is new (the memo did not print it)
-    now: str | None  # None: the engine no longer produces it
+    """The figure's label, as in ``printed-figures.json``."""
+    printed: str | None
+    """The text as printed; None: the figure is new (the memo did not print it)."""
+    now: str | None
+    """The text as recomputed now; None: the engine no longer produces it."""
 
     @property
     def holds(self) -> bool:
-        """A figure the memo did not print cannot have changed."""
+        """The figure reads the same now as printed; a figure the memo did not print cannot have changed."""
         return self.printed is None or self.printed == self.now
 
 
 @dataclass(frozen=True)
 class VerifyReport:
+    """What ``verify`` found: the record against the attached case, and the pages against both."""
+
     printed_engine_version: str
+    """The engine version the memo was printed with, as recorded."""
     current_engine_version: str
+    """The engine version that recomputed it now."""
     recorded_fingerprint: str
+    """The fingerprint the record gives."""
     case_fingerprint: str
+    """The SHA-256 of the attached case.json, as embedded."""
     generated_at: str
+    """The print time, as recorded."""
     checks: tuple[FigureCheck, ...] = field(default_factory=tuple)
+    """One check per figure recorded or computed now (recorded ones first)."""
     page_fingerprints: tuple[str | None, ...] = ()
     """The fingerprint in each page's footer (16 hex digits; None: the page carries none)."""
     page_checks: tuple[Any, ...] = ()
@@ -101,18 +155,22 @@ class VerifyReport:
 
     @property
     def pages_hold(self) -> bool:
+        """The pages were read, belong to the attached case, and every page check holds."""
         return not self.pages_note and self.pages_belong and all(c.holds for c in self.page_checks)
 
     @property
     def fingerprint_holds(self) -> bool:
+        """The attached case hashes to the fingerprint the record gives."""
         return self.recorded_fingerprint == self.case_fingerprint
 
     @property
     def changed(self) -> tuple[FigureCheck, ...]:
+        """The recorded figures that no longer hold."""
         return tuple(c for c in self.checks if not c.holds)
 
     @property
     def ok(self) -> bool:
+        """The fingerprint holds, every recorded figure holds and the pages hold: the memo stands."""
         return self.fingerprint_holds and not self.changed and self.pages_hold
 
     def _page_lines(self) -> list[str]:
@@ -151,7 +209,14 @@ class VerifyReport:
         return lines
 
     def text(self) -> str:
-        """A plain report, one line per figure, that a committee secretary can file."""
+        """A plain report, one line per figure, that a committee secretary can file.
+
+        Returns
+        -------
+        str
+            The engine versions and inputs check, a line per figure (holds, new, GONE or
+            CHANGED), the page checks and a closing verdict; lines joined by newlines.
+        """
         lines = [
             f"Memo generated {self.generated_at} by engine {self.printed_engine_version}; "
             f"re-computed now with engine {self.current_engine_version}."
@@ -199,8 +264,26 @@ class VerifyReport:
 def verify_memo(pdf: bytes) -> VerifyReport:
     """Re-evaluate the memo's embedded case and compare each printed figure.
 
-    Raises :class:`MemoRecordError` when the PDF carries no readable record, and
-    :class:`engine.errors.CaseError` when the embedded case no longer validates.
+    The case is analysed in full, as the memo command prints it; the numbers on the decision
+    page and in the body's text and tables are read and checked too, unless the pages cannot be
+    read (the report then says why).
+
+    Parameters
+    ----------
+    pdf : bytes
+        The memo's PDF.
+
+    Returns
+    -------
+    VerifyReport
+        The report; its ``ok`` says whether the memo stands.
+
+    Raises
+    ------
+    MemoRecordError
+        If the PDF carries no readable record.
+    CaseError
+        If the embedded case no longer validates.
     """
     from obligor_memo.engine import ENGINE_VERSION
     from obligor_memo.engine.analysis import analyse

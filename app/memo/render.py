@@ -1,8 +1,8 @@
 """The printed credit memo: results -> HTML (Jinja2) -> PDF (WeasyPrint), charts as vector forms.
 
-The charts are the workbench's own plotly figures (:mod:`app.charts`), exported to SVG through
-kaleido and a system Chromium, made PDF pages and placed in their boxes after layout
-(:mod:`app.chart_pages`). Chromium starts once per memo (every figure goes through one session)
+The charts are the workbench's own plotly figures (:mod:`obligor_memo.app.charts`), exported to
+SVG through kaleido and a system Chromium, made PDF pages and placed in their boxes after layout
+(:mod:`.chart_pages`). Chromium starts once per memo (every figure goes through one session)
 or once per process when the workbench keeps :func:`start_chart_exporter` running.
 
 Safety: Jinja2 autoescapes and fails on any undefined name; WeasyPrint fetches nothing except
@@ -39,8 +39,35 @@ def render_memo_html(
     generated_at: datetime | None = None,
     annex: bool = False,
 ) -> str:
-    """The memo's HTML with the charts inline as SVG data URIs (for reading or another renderer;
-    :func:`render_memo_pdf` references the charts instead and draws them while laying out)."""
+    """The memo's HTML with the charts inline as SVG data URIs (for reading or another renderer).
+
+    :func:`render_memo_pdf` references the charts instead and draws them while laying out.
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    charts : bool, optional
+        Whether to draw the charts; False prints a note in each chart's place.
+    page_size : str | None, optional
+        "A4" or "Letter"; None takes the case's ``memo.page_size``.
+    generated_at : datetime | None, optional
+        The print time shown; None for now.
+    annex : bool, optional
+        Whether to add the technical annex.
+
+    Returns
+    -------
+    str
+        The HTML document.
+
+    Raises
+    ------
+    ValueError
+        If the page size is not allowed.
+    ChartsUnavailable
+        If charts are asked for and no browser can draw them.
+    """
     size = _page_size(results, page_size)
     results = as_printed(results, size)
     svgs, notes = export_charts(results, annex) if charts else ({}, {})
@@ -68,8 +95,24 @@ def _page_size(results: Any, page_size: str | None) -> str:
 
 
 def as_printed(results: Any, size: str) -> Any:
-    """The results with the case saying the paper it is printed on: a memo printed on Letter from
-    an A4 case embeds, lists and fingerprints ``memo.page_size: Letter`` (no figure depends on it)."""
+    """The results with the case saying the paper it is printed on.
+
+    A memo printed on Letter from an A4 case embeds, lists and fingerprints
+    ``memo.page_size: Letter`` (no figure depends on it).
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    size : str
+        The paper size printed on, "A4" or "Letter".
+
+    Returns
+    -------
+    Any
+        ``results`` itself when the case already says ``size``, else a copy whose case says it
+        and whose fingerprint is computed again.
+    """
     if results.case.memo.page_size == size:
         return results
     import dataclasses
@@ -91,14 +134,45 @@ def html_to_pdf(
     charts: ChartJob | None = None,
     progress: Callable[[str], None] | None = None,
 ) -> bytes:
-    """Lay out and write the PDF, then put each chart in its place; a failed chart drawing
-    raises :class:`ChartsUnavailable`.
+    """Lay out and write the PDF, then put each chart in its place.
 
     The layout never waits for the charts: ``<img src="memo-chart:N" id="memo-chart-N">`` is laid
     out as an empty image of chart N's own size, and chart N's PDF page (drawn meanwhile from its
     SVG, off this thread) is placed in that box after writing. The charts are vector forms, as
     they would be had WeasyPrint drawn the SVG itself, which cost about 0.6 s of this thread's
-    time on the sample memo."""
+    time on the sample memo. The case and the printed figures are attached for ``verify``, and
+    the PDF's identifier is derived from the case's fingerprint.
+
+    Parameters
+    ----------
+    html : str
+        The memo's HTML.
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    page_size : str
+        The paper size, "A4" or "Letter".
+    generated_at : str
+        The print time, as the memo shows it and the record repeats it.
+    allowed_data_uris : set[str]
+        The data URIs the HTML may load.
+    url_fetcher : Any, optional
+        The WeasyPrint URL fetcher; None uses :func:`memo_fetcher`.
+    charts : ChartJob | None, optional
+        The charts being drawn; None for a memo without charts.
+    progress : Callable[[str], None] | None, optional
+        Told each step as it starts: "layout", "charts" (waiting for the drawings), "writing"
+        (placing them).
+
+    Returns
+    -------
+    bytes
+        The memo's PDF.
+
+    Raises
+    ------
+    ChartsUnavailable
+        If the charts could not be drawn or placed.
+    """
     from weasyprint import Attachment
 
     sizes = [figure_size(fig) for fig in charts.figures.values()] if charts is not None else []
@@ -154,14 +228,41 @@ def render_memo_pdf(
     progress: Callable[[str], None] | None = None,
     annex: bool = False,
 ) -> bytes:
-    """The memo as PDF bytes (the committee memo; ``annex=True`` adds the technical annex). Raises :class:`ChartsUnavailable` (naming the fix) when charts are
-    asked for and no browser can draw them; ``charts=False`` prints a note in each chart's place.
-    ``exporter``: a browser started for this memo alone, closed once its charts are drawn.
+    """The memo as PDF bytes (the committee memo; ``annex=True`` adds the technical annex).
 
     The charts are drawn by the browser, and made into PDF pages, while this thread writes the
     HTML and WeasyPrint lays it out and writes it; they are then placed in their boxes.
-    ``progress`` is told each step as it starts: "layout", "charts" (waiting for the drawings),
-    "writing" (placing them).
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    charts : bool, optional
+        Whether to draw the charts; False prints a note in each chart's place.
+    page_size : str | None, optional
+        "A4" or "Letter"; None takes the case's ``memo.page_size``.
+    generated_at : datetime | None, optional
+        The print time shown; None for now.
+    exporter : ChartExporter | None, optional
+        A browser started for this memo alone, closed once its charts are drawn (without
+        charts, once the memo is written).
+    progress : Callable[[str], None] | None, optional
+        Told each step as it starts: "layout", "charts" (waiting for the drawings), "writing"
+        (placing them).
+    annex : bool, optional
+        Whether to add the technical annex.
+
+    Returns
+    -------
+    bytes
+        The memo's PDF, carrying its case and printed figures.
+
+    Raises
+    ------
+    ValueError
+        If the page size is not allowed.
+    ChartsUnavailable
+        When charts are asked for and no browser can draw them (the message names the fix).
     """
     size = _page_size(results, page_size)
     results = as_printed(results, size)

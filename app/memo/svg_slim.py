@@ -68,7 +68,9 @@ _ZEROS = ("0", "0.0", "0px")
 
 def _draws_nothing(element: Any, paint: dict[str, str]) -> bool:
     """A shape that leaves no mark: no geometry, zero size, or neither fill nor stroke shows.
-    ``paint`` holds the fill and stroke settings the element has after inheritance."""
+
+    ``paint`` holds the fill and stroke settings the element has after inheritance.
+    """
     tag = element.tag.rpartition("}")[2]
     if tag not in _DRAWN_SHAPES or "id" in element.attrib:  # an id may be drawn by <use>
         return False
@@ -90,11 +92,24 @@ def _draws_nothing(element: Any, paint: dict[str, str]) -> bool:
 
 
 def slim_svg(svg: str) -> str:
-    """The same drawing with less for the PDF renderer to walk: plotly's empty layer groups
-    (and groups without attributes, replaced by their children), shapes that leave no mark (legend toggles, zero-size scroll bars, paths without geometry),
-    class names, screen-only properties, and ``style`` declarations turned into presentation
-    attributes. Every visible element, attribute value and the drawing order are kept; text
-    that cannot be parsed as SVG is returned unchanged.
+    """The same drawing with less for the PDF renderer to walk.
+
+    Dropped: plotly's empty layer groups (and groups without attributes, replaced by their
+    children), shapes that leave no mark (legend toggles, zero-size scroll bars, paths without
+    geometry), class names and screen-only properties; ``style`` declarations are turned into
+    presentation attributes. Every visible element, attribute value and the drawing order are
+    kept.
+
+    Parameters
+    ----------
+    svg : str
+        The SVG document, as plotly writes it.
+
+    Returns
+    -------
+    str
+        The slimmed document; text that cannot be parsed as XML, or whose root is not an SVG
+        element, is returned unchanged.
     """
     import xml.etree.ElementTree as ET
 

@@ -17,7 +17,18 @@ from obligor_memo.app.present import formatting as fmt
 
 
 def find_templates() -> Path:
-    """The memo's templates folder (``templates/`` of the checkout, or the installed copy)."""
+    """The memo's templates folder (``templates/`` of the checkout, or the installed copy).
+
+    Returns
+    -------
+    Path
+        The folder of the ``obligor_memo.templates`` package.
+
+    Raises
+    ------
+    FileNotFoundError
+        If the folder holds no memo.html.
+    """
     folder = Path(str(resources.files("obligor_memo.templates")))
     if not (folder / "memo.html").is_file():
         raise FileNotFoundError(f"The memo templates (memo.html) were not found in {folder}. Reinstall obligor-memo.")
@@ -31,8 +42,18 @@ PAGE_SIZES = {"A4": "A4", "Letter": "letter"}
 
 @functools.lru_cache(maxsize=1)
 def environment() -> Any:
-    """One Jinja2 environment per process: it keeps the compiled templates (compiling them
-    took about 0.15 s of every memo) and recompiles a template whose file has changed."""
+    """One Jinja2 environment per process, which keeps the compiled templates.
+
+    Compiling them took about 0.15 s of every memo; a template whose file has changed is
+    compiled again.
+
+    Returns
+    -------
+    Any
+        The ``jinja2.Environment`` on :data:`TEMPLATES_DIR`: autoescaped, strict about
+        undefined names, every printed value passed through :func:`breakable`, and the number
+        formats and labels as filters.
+    """
     from jinja2 import Environment, FileSystemLoader, StrictUndefined
 
     env = Environment(
@@ -69,13 +90,25 @@ BREAK_EVERY = 12
 
 
 def breakable(value: Any) -> Any:
-    """Every printed text with a chance to break inside a long word (a zero-width space every
-    12 characters of a run of 25 or more), so a 300-character word wraps in its table cell.
+    """Every printed text with a chance to break inside a long word, so that it wraps in its cell.
 
-    The stylesheet breaks long words only where they overflow (``overflow-wrap: break-word``):
-    ``anywhere`` would let them break too, but makes WeasyPrint measure every cell's narrowest
-    width one character at a time, which cost 4 s of the sample memo's 7 s layout. Markup (HTML
-    the templates build) is left as it is; so are numbers."""
+    A zero-width space goes every 12 characters into each run of 25 or more characters without
+    a space, so a 300-character word wraps in its table cell. The stylesheet breaks long words
+    only where they overflow (``overflow-wrap: break-word``): ``anywhere`` would let them break
+    too, but makes WeasyPrint measure every cell's narrowest width one character at a time,
+    which cost 4 s of the sample memo's 7 s layout.
+
+    Parameters
+    ----------
+    value : Any
+        A value a template prints (the environment's ``finalize``).
+
+    Returns
+    -------
+    Any
+        The text with the breaks added; markup (HTML the templates build), numbers and any
+        other value as given.
+    """
     if not isinstance(value, str) or hasattr(value, "__html__"):
         return value
     if len(value) < LONG_RUN_MIN:
@@ -89,14 +122,42 @@ def _break_run(match: re.Match[str]) -> str:
 
 
 def in_millions(value: float | None, decimals: int = 1) -> str:
-    """Amounts in a table headed '[CUR m]'."""
+    """Amounts in a table headed '[CUR m]'.
+
+    Parameters
+    ----------
+    value : float | None
+        The amount [currency units]; None prints as a dash.
+    decimals : int, optional
+        Decimals of the millions.
+
+    Returns
+    -------
+    str
+        The amount in millions with thousands separators, without unit.
+    """
     if value is None:
         return "—"
     return fmt.num(value / 1e6, decimals)
 
 
 def by_unit(value: float | None, unit: str) -> str:
-    """A sensitivity input in its own unit: rates and shares as percentages, times in years."""
+    """A sensitivity input in its own unit: rates and shares as percentages, times in years.
+
+    Parameters
+    ----------
+    value : float | None
+        The input's value; None prints as a dash.
+    unit : str
+        The engine's unit of the input: one holding "year" without "/" prints in years,
+        "[fraction]", "[1/year]" and "[1/sqrt(year)]" as a percentage, any other as a number
+        with four decimals.
+
+    Returns
+    -------
+    str
+        The value as printed.
+    """
     if value is None:
         return "—"
     if "year" in unit and "/" not in unit:
@@ -107,5 +168,16 @@ def by_unit(value: float | None, unit: str) -> str:
 
 
 def label(code: str | None) -> str:
-    """An enumeration value as words: 'senior_unsecured' -> 'senior unsecured'."""
+    """An enumeration value as words: 'senior_unsecured' -> 'senior unsecured'.
+
+    Parameters
+    ----------
+    code : str | None
+        The value; None prints as a dash.
+
+    Returns
+    -------
+    str
+        The value with its underscores as spaces.
+    """
     return "—" if code is None else str(code).replace("_", " ")

@@ -12,8 +12,10 @@ from obligor_memo.app.present.compare_report import review_view
 
 
 def _grid_view(grid: Any, points: int = 7) -> dict[str, Any] | None:
-    """A readable excerpt of the two-way PD grid: evenly spaced rows and columns, the case's own
-    point always among them (the chart shows the whole grid)."""
+    """A readable excerpt of the two-way PD grid: evenly spaced rows and columns, the case's own among them.
+
+    The chart shows the whole grid.
+    """
     if grid is None:
         return None
 
@@ -40,6 +42,16 @@ def inputs_yaml(case_data: dict[str, Any]) -> str:
     Exactly the inputs: ``yaml.safe_load`` of this text gives back the same values. A narrow
     line width keeps it readable in two columns; long text wraps as YAML allows (still the same
     value when read back).
+
+    Parameters
+    ----------
+    case_data : dict[str, Any]
+        The case as plain data (``engine.case.case_to_dict``).
+
+    Returns
+    -------
+    str
+        The YAML text, keys in the case's order.
     """
     import yaml
 
@@ -51,7 +63,23 @@ _STATUS = {"new": "new", "renewal": "renewal", "increase": "increase", "unchange
 
 
 def scenario_sentence(line: Any, base_grade: str | None, hurdle: float | None) -> str:
-    """One scenario said in a sentence: its PD and grade against the base, its RAROC against the hurdle."""
+    """One scenario said in a sentence: its PD and grade against the base, its RAROC against the hurdle.
+
+    Parameters
+    ----------
+    line : Any
+        The scenario's line of the decision summary (an ``engine.decision.ScenarioLine``).
+    base_grade : str | None
+        The grade of the base case.
+    hurdle : float | None
+        The hurdle rate [fraction/year]; None leaves the RAROC out.
+
+    Returns
+    -------
+    str
+        The sentence, ending with a full stop; the RAROC part only when the scenario has one
+        and there is a hurdle.
+    """
     grade = f"grade {line.grade} (base {base_grade})" if line.grade_changed else f"grade unchanged at {line.grade}"
     text = f"{line.name}: PD {fmt.pd_pct(line.pd)}, {grade}"
     if line.raroc is not None and hurdle is not None:
@@ -61,8 +89,24 @@ def scenario_sentence(line: Any, base_grade: str | None, hurdle: float | None) -
 
 
 def cross_check_view(results: Any) -> dict[str, Any]:
-    """The cross-checks graded against the grade in force, in words, and whether they need the
-    analyst's reconciliation (more than two notches apart) and have it."""
+    """The cross-checks graded against the grade in force, in words, and whether they are reconciled.
+
+    A cross-check more than NOTCH_TOLERANCE (two) notches from the grade in force needs the
+    analyst's reconciliation (the memo's cross-check explanation).
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+
+    Returns
+    -------
+    dict[str, Any]
+        ``rows`` (each check's ``source``, ``read``, ``grade``, ``notches`` in words and whether
+        it is ``far``), the ``sentence`` that sums them up, ``value`` (the grade of the check
+        furthest off, or a dash when none is far), ``unexplained`` (the caution's message, or
+        None), ``zone_convention`` (the PD each Z-score zone is read as) and ``far``.
+    """
     from obligor_memo.engine.decision import NOTCH_TOLERANCE, ZONE_PD
 
     checks = getattr(results, "cross_checks", ())
@@ -107,7 +151,18 @@ def cross_check_view(results: Any) -> dict[str, Any]:
 
 
 def short_fingerprint(results: Any) -> str:
-    """The inputs' fingerprint as the running footer and the summary page print it."""
+    """The inputs' fingerprint as the running footer and the summary page print it.
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+
+    Returns
+    -------
+    str
+        The first 16 characters of the fingerprint.
+    """
     return results.fingerprint[:16]
 
 
@@ -123,7 +178,29 @@ def build_view(
 ) -> dict[str, Any]:
     """Everything the template prints; small display values only, the engine computes the rest.
 
-    ``annex``: print the technical annex too (see :data:`ANNEX_SECTIONS`)."""
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    charts : dict[str, str]
+        The source of each chart's image by chart key: an SVG data URI, or a ``memo-chart:N``
+        place-holder whose box gets the id ``memo-chart-N``.
+    chart_notes : dict[str, str]
+        The note printed in the place of each chart that could not be built.
+    charts_requested : bool
+        Whether charts were asked for (without them a note marks each chart's place).
+    generated_at : str
+        The print time as the memo shows it.
+    page_size : str
+        The paper size, "A4" or "Letter".
+    annex : bool, optional
+        Whether to print the technical annex too (see :data:`ANNEX_SECTIONS`).
+
+    Returns
+    -------
+    dict[str, Any]
+        The template's variables by name.
+    """
     from obligor_memo.engine.case import case_to_dict
 
     case = results.case
@@ -225,7 +302,19 @@ ANNEX_SECTIONS = frozenset({"term-structure", "exposure", "recovery", "loss", "m
 
 
 def appendix_letters(annex: bool) -> dict[str, str]:
-    """Section id -> appendix letter, for the appendices this memo prints."""
+    """Section id -> appendix letter, for the appendices this memo prints.
+
+    Parameters
+    ----------
+    annex : bool
+        Whether the technical annex is printed; without it the sections of
+        :data:`ANNEX_SECTIONS` have no letter.
+
+    Returns
+    -------
+    dict[str, str]
+        Letters from "A" on, in the order of :data:`APPENDICES`.
+    """
     printed = [s for s in APPENDICES if annex or s not in ANNEX_SECTIONS]
     return {section: chr(ord("A") + i) for i, section in enumerate(printed)}
 
@@ -240,6 +329,30 @@ def memo_html(
     stamp: str,
     annex: bool = False,
 ) -> str:
+    """The memo's HTML: the view of :func:`build_view` printed by the template memo.html.
+
+    Parameters
+    ----------
+    results : Any
+        The analysed case (the Results of :func:`obligor_memo.engine.analysis.analyse`).
+    charts : dict[str, str]
+        The source of each chart's image by chart key (see :func:`build_view`).
+    notes : dict[str, str]
+        The note printed in the place of each chart that could not be built.
+    charts_requested : bool
+        Whether charts were asked for.
+    page_size : str
+        The paper size, "A4" or "Letter".
+    stamp : str
+        The print time as the memo shows it.
+    annex : bool, optional
+        Whether to print the technical annex too.
+
+    Returns
+    -------
+    str
+        The HTML document.
+    """
     view = build_view(
         results,
         charts=charts,

@@ -11,6 +11,22 @@ from obligor_memo.app.present import formatting as fmt
 
 
 def figure_text(kind: str, value: Any, currency: str = "") -> str:
+    """One compared figure as printed, by its kind.
+
+    Parameters
+    ----------
+    kind : str
+        The figure's kind: "text" (printed as it is), "pd", "rate", or anything else for money.
+    value : Any
+        The figure [fraction for a PD or rate; currency units for money]; None prints as 'n/a'.
+    currency : str, optional
+        Currency code put before money; "" for none.
+
+    Returns
+    -------
+    str
+        The figure as printed.
+    """
     if value is None:
         return "n/a"
     if kind == "text":
@@ -23,7 +39,20 @@ def figure_text(kind: str, value: Any, currency: str = "") -> str:
 
 
 def delta_text(kind: str, value: Any) -> str:
-    """A signed change: money in whole units, PDs and rates in percentage points."""
+    """A signed change: money in whole units, PDs and rates in percentage points.
+
+    Parameters
+    ----------
+    kind : str
+        The figure's kind: "money", "pd", or anything else for a rate.
+    value : Any
+        The change [currency units for money; fraction for a PD or rate]; None prints as 'n/a'.
+
+    Returns
+    -------
+    str
+        The change with its sign ('+', '-' or none for zero), e.g. '+12,500' or '-0.35 pp'.
+    """
     if value is None:
         return "n/a"
     sign = "+" if value > 0 else ("-" if value < 0 else "")
@@ -35,6 +64,18 @@ def delta_text(kind: str, value: Any) -> str:
 
 
 def compare_json(comparison: Any) -> dict[str, Any]:
+    """The ``compare --json`` object.
+
+    Parameters
+    ----------
+    comparison : Any
+        The comparison (:class:`obligor_memo.engine.compare.Comparison`).
+
+    Returns
+    -------
+    dict[str, Any]
+        ``comparison.to_dict()``, ready for ``json.dumps``.
+    """
     return comparison.to_dict()
 
 
@@ -48,7 +89,21 @@ def _table(headers: list[str], rows: list[list[str]]) -> list[str]:
 
 
 def figure_rows(comparison: Any, currency: str) -> list[dict[str, str]]:
-    """The figures side by side: label, then, now, change (as printed)."""
+    """The figures side by side: label, then, now, change (as printed).
+
+    Parameters
+    ----------
+    comparison : Any
+        The comparison (:class:`obligor_memo.engine.compare.Comparison`).
+    currency : str
+        Currency code put before money.
+
+    Returns
+    -------
+    list[dict[str, str]]
+        One row per compared figure, in the comparison's order, with ``name``, ``label``,
+        ``old``, ``new`` and ``change`` (for the grade, the direction of its move).
+    """
     from obligor_memo.engine.compare import FIGURE_BY_NAME
 
     rows = []
@@ -69,6 +124,22 @@ def figure_rows(comparison: Any, currency: str) -> list[dict[str, str]]:
 
 
 def cause_rows(comparison: Any, figures: tuple[str, ...] = ("pd", "expected_loss")) -> list[dict[str, Any]]:
+    """Each block of inputs with the changes it made and its share of the figures' changes.
+
+    Parameters
+    ----------
+    comparison : Any
+        The comparison (:class:`obligor_memo.engine.compare.Comparison`).
+    figures : tuple[str, ...], optional
+        Names of the figures whose shares are printed.
+
+    Returns
+    -------
+    list[dict[str, Any]]
+        One row per attribution block, with ``block``, ``label``, ``changes`` (the changed
+        input paths) and, under each figure's name, its share as a signed change (figures the
+        block has no share of are left out).
+    """
     from obligor_memo.engine.compare import FIGURE_BY_NAME
 
     out = []
@@ -85,7 +156,21 @@ def cause_rows(comparison: Any, figures: tuple[str, ...] = ("pd", "expected_loss
 
 
 def headline(comparison: Any, currency: str) -> str:
-    """One line: grade and PD then and now, the EL change and its main cause."""
+    """One line: grade and PD then and now, the EL change and its main cause.
+
+    Parameters
+    ----------
+    comparison : Any
+        The comparison (:class:`obligor_memo.engine.compare.Comparison`).
+    currency : str
+        Currency code after the EL change.
+
+    Returns
+    -------
+    str
+        The sentence, ending with a full stop; the main cause is left out when no block
+        changed the EL.
+    """
     g = comparison.grade
     el = comparison.change.get("expected_loss")
     cause = comparison.main_cause("expected_loss")
@@ -100,6 +185,28 @@ def headline(comparison: Any, currency: str) -> str:
 
 
 def compare_text(comparison: Any, *, old_name: str, new_name: str, currency: str) -> str:
+    """The plain-text report that ``compare`` prints without ``--json``.
+
+    The headline, the figures then and now, the attribution table (each block's share of every
+    figure that changed, and the total change), the changed inputs, the comparison's notes and
+    the closing reminder that this is a model estimate, not a credit decision.
+
+    Parameters
+    ----------
+    comparison : Any
+        The comparison (:class:`obligor_memo.engine.compare.Comparison`).
+    old_name : str
+        Name of the earlier file, as the title shows it.
+    new_name : str
+        Name of the later file, as the title shows it.
+    currency : str
+        Currency code of the amounts.
+
+    Returns
+    -------
+    str
+        The report, lines joined by newlines (no trailing newline).
+    """
     lines = [
         f"Since the last review: {old_name} -> {new_name} (amounts in {currency})",
         "",
@@ -151,8 +258,26 @@ _CACHE: dict[str, Any] = {}
 
 
 def review_comparison(results: Any) -> Any | None:
-    """The comparison of the case with its ``review.previous`` (None when it records none);
-    a previous case that no longer validates gives a CaseError. Cached by the fingerprint."""
+    """The comparison of the case with its ``review.previous`` (None when it records none).
+
+    Cached by the case's fingerprint (the last 16 kept).
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    Any | None
+        The :class:`obligor_memo.engine.compare.Comparison` of the previous review's case with
+        this one; None when the case records no previous review or none of its inputs.
+
+    Raises
+    ------
+    CaseError
+        If the previous review's case no longer validates.
+    """
     from obligor_memo.engine.case import parse_case
     from obligor_memo.engine.compare import RecordedFigures, compare_cases
 
@@ -170,7 +295,22 @@ def review_comparison(results: Any) -> Any | None:
 
 
 def review_view(results: Any) -> dict[str, Any] | None:
-    """What the memo's "Since the last review" section prints (None: no previous review)."""
+    """What the memo's "Since the last review" section prints (None: no previous review).
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    dict[str, Any] | None
+        None without a previous review. Otherwise ``available`` and ``approved_on``; when the
+        comparison cannot be made (the previous inputs are missing or no longer validate),
+        ``available`` is False and ``note`` says why; else the ``headline``, the ``figures``
+        and ``causes`` rows, the ``notes``, the number of ``evaluations`` and the ``history``
+        of earlier reviews (date, grade, PD).
+    """
     from obligor_memo.engine.errors import CaseError
 
     previous = getattr(getattr(results.case, "review", None), "previous", None)

@@ -8,7 +8,20 @@ from obligor_memo.app.present import formatting as fmt
 
 
 def covenant_line(c: Any) -> dict[str, str]:
-    """One covenant as the memo prints it (the decision page and section 1 use these strings)."""
+    """One covenant as the memo prints it (the decision page and section 1 use these strings).
+
+    Parameters
+    ----------
+    c : Any
+        The covenant test (a :class:`obligor_memo.engine.covenants.CovenantTest`).
+
+    Returns
+    -------
+    dict[str, str]
+        The printed strings under ``label``, ``limit``, ``tested``, ``year``, ``value``,
+        ``headroom``, ``fall`` (the EBITDA fall to a breach, or the reason there is none),
+        ``ebitda_at_breach`` and ``status`` ('holds', 'breached' or 'not tested').
+    """
     value_fmt = (lambda v: fmt.pct(v, 1)) if c.metric == "ebitda_margin" else fmt.times
     if c.ebitda_fall_to_breach is not None and not c.breached:
         fall = fmt.pct(c.ebitda_fall_to_breach, 1)
@@ -28,8 +41,21 @@ def covenant_line(c: Any) -> dict[str, str]:
 
 
 def covenant_sentence(c: Any) -> str:
-    """One covenant in a sentence: "Net debt / EBITDA at most 4.00x, 2025: 3.42x, headroom 14.6 %,
-    EBITDA may fall 14.6 % before a breach." """
+    """One covenant in a sentence, as the memo and the workbench print it.
+
+    For example "Net debt / EBITDA at most 4.00x, 2025: 3.42x, headroom 14.6 % (holds); EBITDA
+    may fall 14.6 % before a breach."
+
+    Parameters
+    ----------
+    c : Any
+        The covenant test (a :class:`obligor_memo.engine.covenants.CovenantTest`).
+
+    Returns
+    -------
+    str
+        The sentence, ending with a full stop.
+    """
     line = covenant_line(c)
     tail = (
         f"EBITDA may fall {line['fall']} before a breach"

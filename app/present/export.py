@@ -120,7 +120,21 @@ def _records(rows: Iterable[dict[str, Any]]) -> list[dict[str, Any]]:
 
 
 def tables(results: Any) -> dict[str, list[dict[str, Any]]]:
-    """The workbook's tables, each a list of flat rows (column -> value)."""
+    """The workbook's tables, each a list of flat rows (column -> value).
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    dict[str, list[dict[str, Any]]]
+        Table name -> rows, in sheet order: inputs, statements, facilities, totals, pd, then
+        those the results have (pricing, pricing by facility, term structure, sensitivity,
+        pd grid, scenarios, credit metrics), and cautions last (one "none" row when there are
+        none). Nested values are flattened to dotted column names.
+    """
     data = results.to_dict()
     case = data["case"]
     inputs = [
@@ -171,7 +185,19 @@ def tables(results: Any) -> dict[str, list[dict[str, Any]]]:
 
 
 def export_workbook(results: Any) -> bytes:
-    """The results as an .xlsx workbook: one sheet per table, frozen header row, number formats."""
+    """The results as an .xlsx workbook: one sheet per table, frozen header row, number formats.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    bytes
+        The workbook file; each sheet holds one table of :func:`tables` (its title cut to 31
+        characters).
+    """
     from openpyxl import Workbook
     from openpyxl.styles import Font
 
@@ -213,7 +239,22 @@ def _cell(value: Any) -> Any:
 
 
 def export_csvs(results: Any, folder: Path) -> list[Path]:
-    """One CSV per table in ``folder`` (created); returns the files written."""
+    """One CSV per table in ``folder`` (created); returns the files written.
+
+    Parameters
+    ----------
+    results : Any
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+    folder : Path
+        Folder to write into; created with its parents if missing. Files of the same names are
+        overwritten.
+
+    Returns
+    -------
+    list[Path]
+        The files written, one per table of :func:`tables`, named after it (spaces as
+        underscores) with ``.csv``, UTF-8.
+    """
     folder.mkdir(parents=True, exist_ok=True)
     written = []
     for title, rows in tables(results).items():

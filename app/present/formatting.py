@@ -12,6 +12,22 @@ import math
 
 
 def money(value: float | None, currency: str = "", *, decimals: int = 0) -> str:
+    """An amount with thousands separators, after its currency code: 'EUR 1,250,000'.
+
+    Parameters
+    ----------
+    value : float | None
+        The amount [currency units]; None, NaN or an infinity prints as 'n/a'.
+    currency : str
+        Currency code put before the number; "" for none.
+    decimals : int
+        Decimals printed.
+
+    Returns
+    -------
+    str
+        The amount as printed.
+    """
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
     text = f"{value:,.{decimals}f}"
@@ -19,13 +35,43 @@ def money(value: float | None, currency: str = "", *, decimals: int = 0) -> str:
 
 
 def millions(value: float | None, currency: str = "") -> str:
+    """An amount in millions with two decimals, after its currency code: 'EUR 12.50m'.
+
+    Parameters
+    ----------
+    value : float | None
+        The amount [currency units]; None prints as 'n/a'.
+    currency : str
+        Currency code put before the number; "" for none.
+
+    Returns
+    -------
+    str
+        The amount as printed.
+    """
     if value is None:
         return "n/a"
     return f"{currency} {value / 1e6:,.2f}m".strip()
 
 
 def pct(value: float | None, decimals: int = 2) -> str:
-    """A rate as a percentage; tiny non-zero values keep three significant digits."""
+    """A rate as a percentage with thousands separators: 0.0275 -> '2.75 %'.
+
+    A non-zero value that would round to zero prints as the smallest step instead: '< 0.01 %',
+    or '> -0.01 %' when negative (with two decimals).
+
+    Parameters
+    ----------
+    value : float | None
+        The rate [fraction]; None, NaN or an infinity prints as 'n/a'.
+    decimals : int
+        Decimals of the percentage.
+
+    Returns
+    -------
+    str
+        The rate as printed.
+    """
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
     step = 10.0 ** -(decimals + 2)
@@ -36,7 +82,21 @@ def pct(value: float | None, decimals: int = 2) -> str:
 
 
 def pd_pct(value: float | None) -> str:
-    """A PD: 4 decimals in percent below 1 %, 2 from 1 % up; below 0.0001 % as "< 0.0001 %"."""
+    """A PD: 4 decimals in percent below 1 %, 2 from 1 % up; below 0.0001 % as "< 0.0001 %".
+
+    Zero prints as '0 %'; a value that would round to 0.0000 % (below 0.00005 %) as
+    '< 0.0001 %'.
+
+    Parameters
+    ----------
+    value : float | None
+        The probability of default [fraction]; None, NaN or an infinity prints as 'n/a'.
+
+    Returns
+    -------
+    str
+        The PD as printed.
+    """
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
     if value == 0:
@@ -49,18 +109,57 @@ def pd_pct(value: float | None) -> str:
 
 
 def num(value: float | None, decimals: int = 2) -> str:
+    """A plain number with thousands separators: 1234.5 -> '1,234.50'.
+
+    Parameters
+    ----------
+    value : float | None
+        The number; None, NaN or an infinity prints as 'n/a'.
+    decimals : int
+        Decimals printed.
+
+    Returns
+    -------
+    str
+        The number as printed.
+    """
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "n/a"
     return f"{value:,.{decimals}f}"
 
 
 def times(value: float | None, decimals: int = 2) -> str:
-    """A multiple such as net debt / EBITDA: '3.42x'; 'n/a' where it is undefined."""
+    """A multiple such as net debt / EBITDA: '3.42x'; 'n/a' where it is undefined.
+
+    Parameters
+    ----------
+    value : float | None
+        The multiple [times]; None, NaN or an infinity prints as 'n/a'.
+    decimals : int
+        Decimals printed.
+
+    Returns
+    -------
+    str
+        The multiple as printed.
+    """
     text = num(value, decimals)
     return text if text == "n/a" else f"{text}x"
 
 
 def years(value: float | None) -> str:
+    """A length of time in years, in its shortest form: 5 -> '5 y', 2.5 -> '2.5 y'.
+
+    Parameters
+    ----------
+    value : float | None
+        The length [years]; None prints as 'n/a'.
+
+    Returns
+    -------
+    str
+        The length as printed.
+    """
     if value is None:
         return "n/a"
     return f"{value:g} y"
@@ -131,7 +230,27 @@ def _path_words(path: str) -> str:
 
 
 def scenario_change(path: str, value: object, facility_ids: tuple[str, ...] = ()) -> str:
-    """One input a scenario sets, in words: 'pd.asset_growth = -0.05' -> 'Asset growth -5.0 % a year'."""
+    """One input a scenario sets, in words: 'pd.asset_growth = -0.05' -> 'Asset growth -5.0 % a year'.
+
+    Known paths print with their own words and format; a facility path prints as
+    'owner: field value' ('Every facility' for the wildcard ``*``); any other path prints its
+    parts as words, never the dotted path.
+
+    Parameters
+    ----------
+    path : str
+        The case path the scenario sets, e.g. ``pd.asset_growth`` or ``facilities.TL1.ccf``.
+    value : object
+        The value it sets; None prints as 'not set (estimated)'.
+    facility_ids : tuple[str, ...]
+        The case's facility ids, so that a facility path is split at the right place (ids may
+        hold dots).
+
+    Returns
+    -------
+    str
+        The change in words.
+    """
     if path in _CHANGE_WORDS:
         words, how = _CHANGE_WORDS[path]
         return f"{words} {_change_value(value, how)}"

@@ -8,7 +8,18 @@ from obligor_memo.app.present import formatting as fmt
 
 
 def contract_json(results) -> dict[str, Any]:
-    """The ``evaluate --json`` object: the documented contract keys and every intermediate."""
+    """The ``evaluate --json`` object: the documented contract keys and every intermediate.
+
+    Parameters
+    ----------
+    results
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    dict[str, Any]
+        ``results.to_dict()``, ready for ``json.dumps``.
+    """
     return results.to_dict()
 
 
@@ -22,6 +33,23 @@ def _table(headers: list[str], rows: list[list[str]]) -> str:
 
 
 def summary_text(results) -> str:
+    """The plain-text summary that ``evaluate`` prints without ``--json``.
+
+    The PD and how it was reached, a table of the facilities and their total (EAD, CCF, LGD, EL,
+    UL, and RW and RWA where the results carry them), the EL rate, the one-year and horizon PDs,
+    regulatory and economic capital, the RAROC table when the case is priced, the cautions, and
+    the closing reminder that this is a model estimate, not a credit decision.
+
+    Parameters
+    ----------
+    results
+        The evaluated case (:class:`obligor_memo.engine.evaluate.Results`).
+
+    Returns
+    -------
+    str
+        The summary, lines joined by newlines (no trailing newline).
+    """
     case = results.case
     cur = case.borrower.currency
     pd = results.pd
