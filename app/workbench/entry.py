@@ -1,5 +1,7 @@
-"""What the analyst types and reads, in the screen's words: numbers as people write them, rates
-as percentages, and every case path named by its label, facility id or statement year.
+"""What the analyst types and reads, in the screen's words.
+
+Numbers as people write them, rates as percentages, and every case path named by its label,
+facility id or statement year.
 
 No Streamlit here, so every rule is testable on its own. The case file keeps fractions (the file
 format does not change): a rate typed as ``2.75`` is stored as ``0.0275``, exactly as the case
@@ -30,7 +32,15 @@ _NUMBER_IN_TEXT = re.compile(r"(?<![\w.^])[+-]?\d+(\.\d+)?([eE][+-]?\d+)?(?![\w.
 
 
 class EntryError(ValueError):
-    """Text that is not a number: ``reason`` says what was typed and what is allowed."""
+    """Text that is not a number: ``reason`` says what was typed and what is allowed.
+
+    Parameters
+    ----------
+    text : str
+        The text as typed.
+    reason : str
+        What was typed and what is allowed ("got 'abc'; allowed: ..."); also the message.
+    """
 
     def __init__(self, text: str, reason: str) -> None:
         super().__init__(reason)
@@ -39,17 +49,52 @@ class EntryError(ValueError):
 
 
 def to_fraction(percent: float) -> float:
-    """A percentage as the fraction the case file stores: ``2.75 -> 0.0275`` (decimal division)."""
+    """A percentage as the fraction the case file stores: ``2.75 -> 0.0275`` (decimal division).
+
+    Parameters
+    ----------
+    percent : float
+        The value as shown [%].
+
+    Returns
+    -------
+    float
+        The value as stored [fraction].
+    """
     return float(Decimal(repr(float(percent))) / 100)
 
 
 def to_percent(fraction: float) -> float:
-    """A stored fraction as the percentage shown: ``0.0275 -> 2.75`` (decimal multiplication)."""
+    """A stored fraction as the percentage shown: ``0.0275 -> 2.75`` (decimal multiplication).
+
+    Parameters
+    ----------
+    fraction : float
+        The value as stored [fraction].
+
+    Returns
+    -------
+    float
+        The value as shown [%].
+    """
     return float(Decimal(repr(float(fraction))) * 100)
 
 
 def unit_words(unit: str, currency: str = "") -> str:
-    """The unit as the screen says it: ``"%"``, ``"EUR"``, ``"years"``; empty for plain numbers."""
+    """The unit as the screen says it: ``"%"``, ``"EUR"``, ``"years"``; empty for plain numbers.
+
+    Parameters
+    ----------
+    unit : str
+        One of ``UNITS``.
+    currency : str, optional
+        The case's currency, the words of a money unit.
+
+    Returns
+    -------
+    str
+        The unit's words; empty for an integer, a plain number or an unknown unit.
+    """
     return {PERCENT: "%", MONEY: currency, YEARS: "years"}.get(unit, "")
 
 
@@ -59,6 +104,18 @@ def parse(text: str | None, unit: str = NUMBER) -> float | int | None:
     Empty text is ``None`` (not set). Accepted: ``2.75``, ``-0.5``, ``0,4`` (a decimal comma:
     0.4, never 4), ``1,250,000`` and ``1 250 000`` (grouped thousands), a trailing ``%`` on a
     rate, and for amounts the suffixes ``k``, ``m`` / ``mn`` and ``bn`` (``90m`` is 90,000,000).
+
+    Parameters
+    ----------
+    text : str | None
+        The text as typed.
+    unit : str, optional
+        One of ``UNITS``: the unit the text is written in.
+
+    Returns
+    -------
+    float | int | None
+        The number in the screen's unit (an int for ``INTEGER``); None for empty text.
 
     Raises
     ------
@@ -99,6 +156,19 @@ def parse(text: str | None, unit: str = NUMBER) -> float | int | None:
 
 
 def allowed_form(unit: str) -> str:
+    """What a field of ``unit`` accepts, in words, with examples.
+
+    Parameters
+    ----------
+    unit : str
+        One of ``UNITS``.
+
+    Returns
+    -------
+    str
+        Such as "a percentage such as 2.75 (for 2.75 %) or 0,4"; "a number such as 1.25" for a
+        plain number or an unknown unit.
+    """
     return {
         PERCENT: "a percentage such as 2.75 (for 2.75 %) or 0,4",
         MONEY: "an amount such as 90,000,000, 90000000 or 90m",
@@ -108,7 +178,20 @@ def allowed_form(unit: str) -> str:
 
 
 def show(value: Any, unit: str = NUMBER) -> str:
-    """The text a field shows for a stored value (fractions as percentages, amounts grouped)."""
+    """The text a field shows for a stored value (fractions as percentages, amounts grouped).
+
+    Parameters
+    ----------
+    value : Any
+        The value as stored; text that did not read as a number is shown as typed.
+    unit : str, optional
+        One of ``UNITS``: the field's unit.
+
+    Returns
+    -------
+    str
+        The text, without the unit; empty for None.
+    """
     if value is None:
         return ""
     if isinstance(value, bool) or not isinstance(value, (int, float)):
@@ -128,15 +211,44 @@ def _trim(x: float) -> str:
 
 
 def store(value: float | int | None, unit: str) -> float | int | None:
-    """A parsed screen number as the case file stores it (a percentage becomes a fraction)."""
+    """A parsed screen number as the case file stores it (a percentage becomes a fraction).
+
+    Parameters
+    ----------
+    value : float | int | None
+        The number as :func:`parse` read it, in the screen's unit.
+    unit : str
+        One of ``UNITS``: the field's unit.
+
+    Returns
+    -------
+    float | int | None
+        The number as stored: a percentage divided by 100, anything else unchanged.
+    """
     if value is None or unit != PERCENT:
         return value
     return to_fraction(value)
 
 
 def screen_allowed(allowed: str, unit: str) -> str:
-    """The engine's allowed text in the field's unit: for a rate, "a number from 0 to 1" reads
-    "a number from 0 % to 100 %"; for an amount, 1e+15 reads 1,000,000,000,000,000."""
+    """The engine's allowed text in the field's unit.
+
+    For a rate, "a number from 0 to 1" reads "a number from 0 % to 100 %"; for an amount, 1e+15
+    reads 1,000,000,000,000,000.
+
+    Parameters
+    ----------
+    allowed : str
+        What the engine allows, in its words (numbers as stored).
+    unit : str
+        One of ``UNITS``: the field's unit.
+
+    Returns
+    -------
+    str
+        The text with its numbers in the field's unit; unchanged for units other than percent
+        and money.
+    """
     if unit not in (PERCENT, MONEY):
         return allowed
 
@@ -157,8 +269,11 @@ class FieldName:
     """Where a case path sits on screen: the page's title, the label and the unit."""
 
     page: str
+    """The title of the page that holds the field (one of ``PAGE_TITLES``)."""
     label: str
+    """The field's label on that page."""
     unit: str = NUMBER
+    """One of ``UNITS``: the unit the field is typed in."""
 
 
 BORROWER = "Borrower and statements"
@@ -271,7 +386,19 @@ _INDEX = re.compile(r"\[\d+\]")
 
 
 def field_name(path: str) -> FieldName | None:
-    """The screen name of a case path (the nearest listed ancestor when the path itself is not)."""
+    """The screen name of a case path (the nearest listed ancestor when the path itself is not).
+
+    Parameters
+    ----------
+    path : str
+        A case path such as ``facilities[1].recovery.std``.
+
+    Returns
+    -------
+    FieldName | None
+        The entry of ``FIELDS`` for the path, list indices read as ``[*]``; None when neither
+        the path nor any ancestor is listed.
+    """
     pattern = _INDEX.sub("[*]", path)
     while pattern:
         if pattern in FIELDS:
@@ -288,8 +415,25 @@ def _listed(raw: dict[str, Any], key: str) -> list[Any]:
 
 
 def where(path: str, raw: dict[str, Any] | None) -> str:
-    """A case path in the screen's words: ``facilities[1].recovery.std`` -> "Facility RCF-1,
-    recovery std"; ``statements[0].total_assets`` -> "Statements, year 2016, total assets"."""
+    """A case path in the screen's words.
+
+    ``facilities[1].recovery.std`` -> "Facility RCF-1, recovery std";
+    ``statements[0].total_assets`` -> "Statements, year 2016, total assets".
+
+    Parameters
+    ----------
+    path : str
+        A case path.
+    raw : dict[str, Any] | None
+        The case as typed, for the facility ids, statement years and scenario names; None
+        names rows by their number.
+
+    Returns
+    -------
+    str
+        The words: the row (facility, statement year, scenario, covenant, key risk) and the
+        field's label.
+    """
     parts = split_path(path) if path.strip(".[]") else []
     raw = raw if isinstance(raw, dict) else {}
     if parts[:1] == ["statements"] and len(parts) >= 2 and isinstance(parts[1], int):
@@ -328,12 +472,35 @@ def where(path: str, raw: dict[str, Any] | None) -> str:
 
 
 def page_of(path: str) -> str | None:
-    """The title of the page that holds the field at ``path`` (None when no page does)."""
+    """The title of the page that holds the field at ``path`` (None when no page does).
+
+    Parameters
+    ----------
+    path : str
+        A case path.
+
+    Returns
+    -------
+    str | None
+        The page's title; None when neither the path nor any ancestor is listed.
+    """
     name = field_name(path)
     return name.page if name else None
 
 
 def unit_of(path: str) -> str:
+    """The unit the field at ``path`` is typed in.
+
+    Parameters
+    ----------
+    path : str
+        A case path.
+
+    Returns
+    -------
+    str
+        ``MONEY`` for a statement amount, the unit of a listed field, else ``NUMBER``.
+    """
     if path.startswith("statements[") and not path.endswith("year"):
         return MONEY
     name = field_name(path)
@@ -352,7 +519,25 @@ def _overlay_unit(path: str) -> str:
 
 
 def message(field: str, value: Any, allowed: str, raw: dict[str, Any] | None) -> str:
-    """One problem in the screen's words: where, what was typed (in the field's unit), what is allowed."""
+    """One problem in the screen's words: where, what was typed (in the field's unit), what is allowed.
+
+    Parameters
+    ----------
+    field : str
+        The problem's field: a case path, or a what-if or scenario setting
+        (``what-if.set['pd.asset_growth']``).
+    value : Any
+        The value given.
+    allowed : str
+        What is allowed, in the engine's words; case paths quoted in it are named too.
+    raw : dict[str, Any] | None
+        The case as typed, for the names of rows.
+
+    Returns
+    -------
+    str
+        The sentence "<where>: got <value>; allowed: <allowed>."
+    """
     allowed = _QUOTED_PATH.sub(lambda m: where(m.group(1), raw), allowed)
     overlay = _OVERLAY.fullmatch(field)
     if overlay:
@@ -388,8 +573,23 @@ def _overlay_label(path: str) -> str:
 
 
 def override_words(path: str, value: Any) -> str:
-    """A what-if or scenario setting in words: ``pd.asset_growth = -0.05`` -> "Asset growth -5 %";
-    ``facilities.RCF-1.ccf = 1.0`` -> "Facility RCF-1, CCF 100 %"."""
+    """A what-if or scenario setting in words.
+
+    ``pd.asset_growth = -0.05`` -> "Asset growth -5 %"; ``facilities.RCF-1.ccf = 1.0`` ->
+    "Facility RCF-1, CCF 100 %".
+
+    Parameters
+    ----------
+    path : str
+        The setting's path in the engine's scenario format (facilities named by id).
+    value : Any
+        The value set.
+
+    Returns
+    -------
+    str
+        The label and the value in the field's unit; choices in words (``CHOICE_WORDS``).
+    """
     label, unit = _overlay_label(path), _overlay_unit(path)
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         text = show(value, unit) + (" %" if unit == PERCENT else " years" if unit == YEARS else "")

@@ -1,7 +1,7 @@
 """The workbench's Streamlit entry: session, sidebar and the pages in the order of the job.
 
-Run through ``obligor-memo app`` (see app/serve.py). Each browser session gets its own case,
-autosaved under the working folder; the case id sits in the URL so a refresh finds it again.
+Run through ``obligor-memo app`` (see app/workbench/serve.py). Each browser session gets its own
+case, autosaved under the working folder; the case id sits in the URL so a refresh finds it again.
 """
 
 from __future__ import annotations

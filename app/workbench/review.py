@@ -1,7 +1,9 @@
-""" "Since the last review": open last year's memo PDF or case file as the start of the new case,
-and see what changed since then and why (grade migration, figures side by side, waterfalls of
-the EL and PD change by cause, the changed inputs). Shown inside an existing page by
-:func:`section`; every number comes from engine.compare, formatted by app.present.
+"""The "Since the last review" view: start the new case from the last review, see what changed.
+
+Open last year's memo PDF or case file as the start of the new case, and see what changed since
+then and why (grade migration, figures side by side, waterfalls of the EL and PD change by cause,
+the changed inputs). Shown inside an existing page by :func:`section`; every number comes from
+engine.compare, formatted by app.present.
 """
 
 from __future__ import annotations
@@ -16,6 +18,7 @@ from obligor_memo.engine.errors import CaseError
 
 
 def _open_last_review(key: str) -> None:
+    """Start the new case from the uploaded last review (the uploader's callback); a bad file leaves a message."""
     from obligor_memo.app.memo.reading import read_last_review, roll_forward_review
     from obligor_memo.app.memo.record import MemoRecordError
 
@@ -38,7 +41,14 @@ def _open_last_review(key: str) -> None:
 
 
 def section(results) -> None:
-    """The view, placed in a page with one call."""
+    """The view, placed in a page with one call.
+
+    Parameters
+    ----------
+    results : Any
+        The results in force (what ``ui.header`` returns), or None while no case is valid: the
+        uploader is shown, the comparison is not.
+    """
     ss = st.session_state
     with st.expander("Since the last review", expanded=bool(results is not None and results.case.review)):
         c1, c2 = st.columns([2, 1])

@@ -21,6 +21,19 @@ MAX_UPLOAD_MB = 2  # Streamlit's unit is the megabyte
 
 
 def is_loopback(host: str) -> bool:
+    """Whether ``host`` stays on this machine: "localhost" or a loopback IP address.
+
+    Parameters
+    ----------
+    host : str
+        A host name or an IP address.
+
+    Returns
+    -------
+    bool
+        True for "localhost" and any loopback address (127.0.0.0/8, ::1); False for anything
+        else, other host names included.
+    """
     if host == "localhost":
         return True
     try:
@@ -30,7 +43,22 @@ def is_loopback(host: str) -> bool:
 
 
 def streamlit_command(*, port: int, host: str) -> list[str]:
-    """The child command line; every setting is explicit so no user config can loosen it."""
+    """The child command line; every setting is explicit so no user config can loosen it.
+
+    Parameters
+    ----------
+    port : int
+        The port the server listens on.
+    host : str
+        The address the server binds to.
+
+    Returns
+    -------
+    list[str]
+        This Python running ``streamlit run`` on the workbench's main.py, headless, without
+        usage statistics, file watching or error details, with uploads capped at
+        ``MAX_UPLOAD_MB`` [MB].
+    """
     return [
         sys.executable,
         "-m",
@@ -67,7 +95,26 @@ def streamlit_command(*, port: int, host: str) -> list[str]:
 
 
 def serve(port: int = 8501, host: str = "127.0.0.1", workdir: Path | None = None) -> int:
-    """Run the workbench until interrupted; returns the exit code."""
+    """Run the workbench until interrupted; returns the exit code.
+
+    The working folder's ``cases`` folder is created first; binding to an address other than a
+    loopback one prints a warning.
+
+    Parameters
+    ----------
+    port : int, optional
+        The port the server listens on.
+    host : str, optional
+        The address the server binds to.
+    workdir : Path | None, optional
+        The working folder for autosaved cases; None: :func:`.state.default_workdir`.
+
+    Returns
+    -------
+    int
+        2 when the working folder cannot be used, else the server's exit code (0 when it was
+        stopped by Ctrl+C, SIGINT or SIGTERM).
+    """
     folder = Path(workdir).expanduser() if workdir else default_workdir()
     try:
         (folder / "cases").mkdir(parents=True, exist_ok=True)
@@ -97,8 +144,24 @@ def serve(port: int = 8501, host: str = "127.0.0.1", workdir: Path | None = None
 
 
 def _wait_forwarding_signals(child: subprocess.Popen[bytes], grace: float = 15.0) -> int:
-    """Wait for the server; SIGTERM or SIGHUP to this process is passed on to it, so Streamlit
-    shuts down as on Ctrl+C (its exit handlers close the chart browser) and nothing is left."""
+    """Wait for the server; SIGTERM or SIGHUP to this process is passed on to it.
+
+    Streamlit then shuts down as on Ctrl+C (its exit handlers close the chart browser) and
+    nothing is left: a server still running when this process leaves is terminated, and killed
+    after ``grace``.
+
+    Parameters
+    ----------
+    child : subprocess.Popen[bytes]
+        The server process.
+    grace : float, optional
+        How long the server may take to stop before it is killed [s].
+
+    Returns
+    -------
+    int
+        0 when the server ended by SIGTERM or SIGINT (or Ctrl+C here), else its exit code.
+    """
 
     def forward(signum: int, frame: Any) -> None:
         if child.poll() is None:

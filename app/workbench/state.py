@@ -52,15 +52,46 @@ def default_workdir() -> Path:
 
 
 def new_case_id() -> str:
+    """A new case id: 32 random lower-case hex characters (a UUID4's hex form)."""
     return uuid.uuid4().hex
 
 
 def is_case_id(text: Any) -> TypeGuard[str]:
-    """True only for ids this module makes: nothing else may reach a file path."""
+    """True only for ids this module makes: nothing else may reach a file path.
+
+    Parameters
+    ----------
+    text : Any
+        The candidate id (from the URL, a saved file or this module).
+
+    Returns
+    -------
+    bool
+        Whether ``text`` is a string of exactly 32 lower-case hex characters.
+    """
     return isinstance(text, str) and _CASE_ID.fullmatch(text) is not None
 
 
 def autosave_path(workdir: Path, case_id: str) -> Path:
+    """The autosave file of a case: ``cases/<case_id>.json`` under the working folder.
+
+    Parameters
+    ----------
+    workdir : Path
+        The working folder.
+    case_id : str
+        The case id; checked by :func:`is_case_id` before it is joined to the path.
+
+    Returns
+    -------
+    Path
+        The file's path (the file itself is neither read nor created).
+
+    Raises
+    ------
+    ValueError
+        If ``case_id`` is not 32 lower-case hex characters.
+    """
     if not is_case_id(case_id):
         raise ValueError(f"case_id: got {case_id!r}; allowed: 32 lower-case hex characters")
     return Path(workdir) / "cases" / f"{case_id}.json"
@@ -70,7 +101,18 @@ def autosave_path(workdir: Path, case_id: str) -> Path:
 
 
 def plain(value: Any) -> Any:
-    """JSON-safe plain data: numpy scalars to Python, NaN and infinities to None (an empty cell)."""
+    """JSON-safe plain data: numpy scalars to Python, NaN and infinities to None (an empty cell).
+
+    Parameters
+    ----------
+    value : Any
+        Any value; dicts, lists and tuples are converted item by item (dict keys become strings).
+
+    Returns
+    -------
+    Any
+        Dicts, lists, None, bool, int, float and str as they are; anything else as its ``str``.
+    """
     if isinstance(value, dict):
         return {str(k): plain(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
@@ -98,7 +140,23 @@ def sample_case_dict() -> dict[str, Any]:
 
 
 def split_path(path: str) -> list[str | int]:
-    """``facilities[1].recovery.std`` -> ["facilities", 1, "recovery", "std"]."""
+    """``facilities[1].recovery.std`` -> ["facilities", 1, "recovery", "std"].
+
+    Parameters
+    ----------
+    path : str
+        A dotted path into the case dict, list indices in square brackets.
+
+    Returns
+    -------
+    list[str | int]
+        The path's parts: names as strings, indices as integers.
+
+    Raises
+    ------
+    ValueError
+        If ``path`` holds no part.
+    """
     parts: list[str | int] = []
     for name, index in _PATH_PART.findall(path):
         parts.append(int(index) if index else name)
@@ -108,6 +166,27 @@ def split_path(path: str) -> list[str | int]:
 
 
 def get_path(data: Any, path: str, default: Any = None) -> Any:
+    """The value at ``path`` in ``data``; ``default`` where the path is missing or holds None.
+
+    Parameters
+    ----------
+    data : Any
+        A case dict (or any nesting of dicts and lists).
+    path : str
+        A dotted path such as ``facilities[1].recovery.std``.
+    default : Any, optional
+        What is returned when a step of the path is missing, does not fit the data or holds None.
+
+    Returns
+    -------
+    Any
+        The value found, else ``default``.
+
+    Raises
+    ------
+    ValueError
+        If ``path`` holds no part (see :func:`split_path`).
+    """
     node = data
     for part in split_path(path):
         try:
@@ -120,7 +199,22 @@ def get_path(data: Any, path: str, default: Any = None) -> Any:
 
 
 def set_path(data: dict[str, Any], path: str, value: Any) -> dict[str, Any]:
-    """A copy of ``data`` with ``path`` set; missing mappings on the way are created."""
+    """A copy of ``data`` with ``path`` set; missing mappings on the way are created.
+
+    Parameters
+    ----------
+    data : dict[str, Any]
+        The case dict; it is not changed.
+    path : str
+        A dotted path such as ``facilities[1].recovery.std``.
+    value : Any
+        The value to set, stored as plain data (:func:`plain`).
+
+    Returns
+    -------
+    dict[str, Any]
+        A deep copy of ``data`` with the value set.
+    """
     out = copy.deepcopy(data)
     parts = split_path(path)
     node: Any = out
@@ -145,10 +239,24 @@ class Checked:
     """A raw case dict and what validation made of it."""
 
     case: Case | None
+    """The validated case; None when the dict does not validate."""
     problems: tuple[Problem, ...]
+    """Every problem the validation found; empty when the case validates."""
 
 
 def check(raw: Any) -> Checked:
+    """A raw case dict validated by ``engine.case.parse_case``: the case, or its problems.
+
+    Parameters
+    ----------
+    raw : Any
+        The case as typed (plain data).
+
+    Returns
+    -------
+    Checked
+        The case and no problems, or no case and every problem found.
+    """
     try:
         return Checked(parse_case(raw, source="case"), ())
     except CaseError as exc:
@@ -156,7 +264,20 @@ def check(raw: Any) -> Checked:
 
 
 def problems_at(problems: tuple[Problem, ...] | list[Problem], path: str) -> list[Problem]:
-    """The problems that belong to the widget at ``path`` (itself or anything below it)."""
+    """The problems that belong to the widget at ``path`` (itself or anything below it).
+
+    Parameters
+    ----------
+    problems : tuple[Problem, ...] | list[Problem]
+        The problems of the case.
+    path : str
+        The widget's case path, such as ``facilities`` or ``pd.override``.
+
+    Returns
+    -------
+    list[Problem]
+        The problems whose field is ``path`` or lies below it, in their order.
+    """
     return [p for p in problems if p.field == path or p.field.startswith(path + ".") or p.field.startswith(path + "[")]
 
 
@@ -194,7 +315,15 @@ def _revision_of(record: dict[str, Any] | None) -> int:
 
 
 class Conflict(Exception):
-    """The autosaved case is newer than the one this session started from (another tab saved it)."""
+    """The autosaved case is newer than the one this session started from (another tab saved it).
+
+    Parameters
+    ----------
+    revision : int
+        The revision of the file on disk.
+    saved_at : str
+        When that revision was saved, as the file records it.
+    """
 
     def __init__(self, revision: int, saved_at: str) -> None:
         super().__init__(f"the autosave is at revision {revision} (saved {saved_at})")
@@ -204,8 +333,12 @@ class Conflict(Exception):
 
 @dataclass(frozen=True)
 class Saved:
+    """An autosave written: the file and the revision it now holds."""
+
     path: Path
+    """The file written."""
     revision: int
+    """The revision written (1 for the first save of a case)."""
 
 
 def autosave_checked(
@@ -223,6 +356,34 @@ def autosave_checked(
     later one (another tab or window saved the same case), nothing is written and
     :class:`Conflict` is raised, so the last writer never silently wins. ``expect=None`` writes
     whatever is on disk (the user chose to keep this version).
+
+    Parameters
+    ----------
+    workdir : Path
+        The working folder; the file goes to its ``cases`` folder.
+    case_id : str
+        The session's case id.
+    raw : dict[str, Any]
+        The case as typed.
+    valid : dict[str, Any] | None
+        The last valid case; None when there is none.
+    extra : dict[str, Any] | None, optional
+        Further session state saved beside the case (the workbench keeps its what-if
+        settings there); None for none.
+    expect : int | None, optional
+        The revision this session last loaded or wrote; None writes over whatever is on disk.
+
+    Returns
+    -------
+    Saved
+        The file written and its new revision.
+
+    Raises
+    ------
+    Conflict
+        If the file on disk is at a later revision than ``expect``.
+    ValueError
+        If ``case_id`` is not a case id (see :func:`autosave_path`).
     """
     path = autosave_path(workdir, case_id)
     with _SAVE_LOCKS[str(path)]:
@@ -252,21 +413,63 @@ def autosave(
     valid: dict[str, Any] | None,
     extra: dict[str, Any] | None = None,
 ) -> Path:
-    """Write the session's state atomically (as the next revision); returns the file written."""
+    """Write the session's state atomically (as the next revision); returns the file written.
+
+    Unlike :func:`autosave_checked` it never checks the revision on disk.
+
+    Parameters
+    ----------
+    workdir : Path
+        The working folder; the file goes to its ``cases`` folder.
+    case_id : str
+        The session's case id.
+    raw : dict[str, Any]
+        The case as typed.
+    valid : dict[str, Any] | None
+        The last valid case; None when there is none.
+    extra : dict[str, Any] | None, optional
+        Further session state saved beside the case; None for none.
+
+    Returns
+    -------
+    Path
+        The file written.
+    """
     return autosave_checked(workdir, case_id, raw=raw, valid=valid, extra=extra).path
 
 
 @dataclass(frozen=True)
 class Restored:
+    """A session's state as read back from its autosave file."""
+
     raw: dict[str, Any]
+    """The case as typed."""
     valid: dict[str, Any] | None
+    """The last valid case; None when the file holds none."""
     extra: dict[str, Any]
+    """Further session state saved beside the case (the what-if settings); empty when none."""
     saved_at: str
+    """When the file was saved, as it records it; empty when it records no time."""
     revision: int = 0
+    """The revision of the file (0 when it records none)."""
 
 
 def restore(workdir: Path, case_id: str) -> Restored | None:
-    """The saved state of ``case_id``, or None when there is none or it cannot be read."""
+    """The saved state of ``case_id``, or None when there is none or it cannot be read.
+
+    Parameters
+    ----------
+    workdir : Path
+        The working folder.
+    case_id : str
+        The case id; anything that is not a case id gives None.
+
+    Returns
+    -------
+    Restored | None
+        The state saved, or None when the file is missing, unreadable, not an autosave or
+        holds no case dict.
+    """
     try:
         path = autosave_path(workdir, case_id)
     except ValueError:
@@ -284,7 +487,25 @@ def restore(workdir: Path, case_id: str) -> Restored | None:
 
 
 def case_file_text(data: dict[str, Any], fmt: str = "yaml") -> str:
-    """The case as a YAML or JSON file a user can open again (or run from the command line)."""
+    """The case as a YAML or JSON file a user can open again (or run from the command line).
+
+    Parameters
+    ----------
+    data : dict[str, Any]
+        The case dict.
+    fmt : str, optional
+        ``"yaml"`` or ``"json"``.
+
+    Returns
+    -------
+    str
+        The file's text (YAML keys in the case's order; JSON indented by two spaces).
+
+    Raises
+    ------
+    ValueError
+        If ``fmt`` is neither ``"yaml"`` nor ``"json"``.
+    """
     if fmt == "json":
         return json.dumps(plain(data), indent=2, allow_nan=False)
     if fmt != "yaml":
@@ -293,7 +514,26 @@ def case_file_text(data: dict[str, Any], fmt: str = "yaml") -> str:
 
 
 def case_dict_from_upload(data: bytes, name: str) -> dict[str, Any]:
-    """A case file upload (YAML or JSON) as a validated case dict. Raises CaseError."""
+    """A case file upload (YAML or JSON) as a validated case dict.
+
+    Parameters
+    ----------
+    data : bytes
+        The uploaded file's bytes.
+    name : str
+        The uploaded file's name; its ending tells YAML from JSON.
+
+    Returns
+    -------
+    dict[str, Any]
+        The validated case in its dict form (``engine.case.case_to_dict``).
+
+    Raises
+    ------
+    CaseError
+        If the file is larger than ``engine.loading.MAX_CASE_BYTES``, does not end in .yaml,
+        .yml or .json, is not UTF-8 text or does not hold a valid case.
+    """
     from obligor_memo.engine.loading import MAX_CASE_BYTES, load_case_text
 
     if len(data) > MAX_CASE_BYTES:
@@ -323,8 +563,7 @@ def statements_from_upload(
     orientation: str | None = None,
     lines: list[dict[str, Any]] | None = None,
 ) -> dict[str, Any]:
-    """An uploaded CSV/XLSX read for the mapping preview (plain data). Raises CaseError naming
-    the file and the bad cell.
+    """An uploaded CSV/XLSX read for the mapping preview (plain data).
 
     The file is read by ``engine.statements.read_statements`` (wide or long layouts, title rows,
     the trade's wording, amounts multiplied by ``unit``) with ``mapping`` ({label in file:
@@ -333,8 +572,34 @@ def statements_from_upload(
     ``lines`` are the preview's lines after the user's choices (label in the file, detected
     field, chosen field or None for not used): the file is read again with them as the mapping.
 
-    The result holds ``rows`` (what the case's statements become), the ``lines``, the labels
-    still unrecognised and how the file was read."""
+    Parameters
+    ----------
+    data : bytes
+        The uploaded file's bytes.
+    name : str
+        The uploaded file's name; its ending tells CSV from XLSX.
+    unit : str, optional
+        The unit the file's amounts are stated in: ``"units"``, ``"thousands"`` or ``"millions"``.
+    mapping : dict[str, str] | None, optional
+        {label in file: field or "ignore"}; None for none.
+    orientation : str | None, optional
+        ``"wide"`` or ``"long"``; None keeps the detected one.
+    lines : list[dict[str, Any]] | None, optional
+        The preview's lines as the user left them; None reads with ``mapping``.
+
+    Returns
+    -------
+    dict[str, Any]
+        ``rows`` (what the case's statements become), the ``lines``, the labels still
+        ``unrecognised``, the ``recognised`` ones (label -> field) and how the file was read:
+        ``file``, ``unit``, ``orientation``, ``header_row`` and ``kind`` (``"plain"``: the case's
+        own column names; ``"layout"``: a laid-out file).
+
+    Raises
+    ------
+    CaseError
+        If the file cannot be read as statements; the message names the file and the bad cell.
+    """
     from obligor_memo.engine.statements import read_statements
 
     if lines is not None:
@@ -363,10 +628,12 @@ def statements_from_upload(
 
 
 def _lines_of(read: Any, kind: str, mapping: dict[str, str], data: bytes, name: str) -> list[dict[str, Any]]:
-    """The preview's lines of a first read: each label found with the field it maps to (None
-    when not used), ``detected`` being the field its wording alone gives. Lines the mapping
-    sets to "ignore" are skipped by the reader, so they are found by reading once more without
-    those entries: a line is never dropped from the list unseen."""
+    """The preview's lines of a first read: each label found, with the field it maps to.
+
+    The field is None when the line is not used; ``detected`` is the field its wording alone
+    gives. Lines the mapping sets to "ignore" are skipped by the reader, so they are found by
+    reading once more without those entries: a line is never dropped from the list unseen.
+    """
     from obligor_memo.engine.statement_layout import field_for, normalise
     from obligor_memo.engine.statements import read_statements
 
@@ -396,8 +663,11 @@ def _lines_of(read: Any, kind: str, mapping: dict[str, str], data: bytes, name: 
 
 
 def _read_forced(data: bytes, name: str, *, unit: str, mapping: dict[str, str], orientation: str) -> Any:
-    """The file read with the years across the columns ("wide") or down the rows ("long"), the
-    header row found as the engine finds it but only of that kind."""
+    """The file read with the years across the columns ("wide") or down the rows ("long").
+
+    The header row is found as the engine finds it, but only of that kind, within the first 15
+    rows of a sheet; a file with none raises CaseError.
+    """
     from obligor_memo.engine import statement_layout as layout_mod
     from obligor_memo.engine import statements as statements_mod
 
@@ -431,9 +701,22 @@ def _read_forced(data: bytes, name: str, *, unit: str, mapping: dict[str, str], 
 
 
 def statements_mapping(preview: dict[str, Any]) -> dict[str, str]:
-    """The mapping to save with the case, {label in file: field or "ignore"}: every line of a
-    laid-out file as chosen (lines left unrecognised and unused are not in it). Empty for a
-    table with the case's own column names, which reads as named."""
+    """The mapping to save with the case, {label in file: field or "ignore"}.
+
+    Every line of a laid-out file as chosen (lines left unrecognised and unused are not in it).
+    Empty for a table with the case's own column names, which reads as named.
+
+    Parameters
+    ----------
+    preview : dict[str, Any]
+        A preview from :func:`statements_from_upload` (its ``kind`` and ``lines`` are read).
+
+    Returns
+    -------
+    dict[str, str]
+        Label in the file -> field; "ignore" for a line whose wording names a field but that
+        is set to not used.
+    """
     if preview.get("kind") == "plain":
         return {}
     out: dict[str, str] = {}
@@ -446,8 +729,23 @@ def statements_mapping(preview: dict[str, Any]) -> dict[str, str]:
 
 
 def with_statements(raw: dict[str, Any], preview: dict[str, Any]) -> dict[str, Any]:
-    """A copy of the case dict with the statements replaced by the preview's rows and how they
-    were read kept in ``statements_source`` (file, unit, orientation, mapping)."""
+    """A copy of the case dict with the statements replaced by the preview's rows.
+
+    How they were read is kept in ``statements_source`` (file, unit, orientation, header row,
+    the labels recognised and not, and the mapping).
+
+    Parameters
+    ----------
+    raw : dict[str, Any]
+        The case dict; it is not changed.
+    preview : dict[str, Any]
+        A preview from :func:`statements_from_upload`.
+
+    Returns
+    -------
+    dict[str, Any]
+        The new case dict; each statement row holds every field of a row, empty ones None.
+    """
     source = {
         "file": preview["file"],
         "unit": preview["unit"],
@@ -478,8 +776,23 @@ _UNIT_WORDS = (
 
 
 def unit_hint(data: bytes, name: str) -> tuple[str, str] | None:
-    """The unit the file's title rows (or header) name, with the text that says so: "EUR
-    thousands", "(EUR m)", "in '000". None when they name none, or both."""
+    """The unit the file's title rows (or header) name, with the text that says so.
+
+    Such as "EUR thousands", "(EUR m)", "in '000". None when they name none, or both.
+
+    Parameters
+    ----------
+    data : bytes
+        The uploaded file's bytes.
+    name : str
+        The uploaded file's name; its ending tells CSV from XLSX.
+
+    Returns
+    -------
+    tuple[str, str] | None
+        The unit (``"thousands"`` or ``"millions"``) and the cell that names it; None when the
+        rows name no unit or both, or the file cannot be read.
+    """
     from obligor_memo.engine import statement_layout as layout_mod
     from obligor_memo.engine import statements as statements_mod
 

@@ -1,7 +1,7 @@
 """Streamlit plumbing shared by the workbench pages: session state, fields, messages, results.
 
 Pages stay thin: they lay out fields bound to case paths and show what the engine returns,
-formatted with app.formatting. Every edit goes through :func:`commit`, which validates, keeps the
+formatted with app.present.formatting. Every edit goes through :func:`commit`, which validates, keeps the
 raw dict even when it does not validate, evaluates the last valid case and autosaves.
 """
 
