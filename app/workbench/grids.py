@@ -1,6 +1,8 @@
-"""The data grids' columns: how each case field shows in a grid cell and how what is typed there
-goes back into the case (percent columns show 75 for a stored 0.75; choices show words and store
-their keys), and one data-editor change applied to the case's records."""
+"""The data grids' columns, and one data-editor change applied to the case's records.
+
+How each case field shows in a grid cell and how what is typed there goes back into the case
+(percent columns show 75 for a stored 0.75; choices show words and store their keys).
+"""
 
 from __future__ import annotations
 
@@ -23,14 +25,23 @@ class Column:
     """
 
     name: str
+    """The key of the records' field the column shows."""
     label: str
+    """The column's heading."""
     kind: str = "number"
+    """"number", "text", "select" or "check"."""
     unit: str = entry.NUMBER
+    """One of entry.UNITS: the unit a number is typed in."""
     required: bool = False
+    """A cell may not be left empty (the data editor's own check)."""
     options: dict[str, str] | None = None
+    """For a select: stored key -> the words shown."""
     help: str | None = None
+    """The heading's tooltip; None for none."""
     max_chars: int | None = None
+    """For a text column: the most characters a cell takes; None for no limit."""
     default: Any = None
+    """What an empty check or text cell stores."""
     width: Literal["small", "medium", "large"] | None = None
     """"small", "medium" or "large"; None: the grid's own choice."""
     unit_for: Callable[[dict[str, Any]], str] | None = None
@@ -40,12 +51,39 @@ class Column:
     text and read as people write numbers."""
 
     def for_row(self, row: Any) -> Column:
-        """This column as it reads and writes the cell of ``row``."""
+        """The column as it reads and writes the cell of ``row``.
+
+        Parameters
+        ----------
+        row : Any
+            The record (a dict; anything else reads as an empty one).
+
+        Returns
+        -------
+        Column
+            The column itself when its unit does not depend on the row, else a copy with the
+            unit read off the row.
+        """
         if self.unit_for is None:
             return self
         return replace(self, unit=self.unit_for(row if isinstance(row, dict) else {}), unit_for=None)
 
     def to_screen(self, value: Any) -> Any:
+        """A stored value as the grid's cell shows it.
+
+        Parameters
+        ----------
+        value : Any
+            The record's value (None when the record lacks the field).
+
+        Returns
+        -------
+        Any
+            For a number with an empty word: that word when empty, else the number as text in
+            the column's unit (text kept as typed). A select's words (the value itself when no
+            option has it), a check's bool, a number in the column's unit (a percentage [%] for
+            a percent column; None when it is not a number), a text's str ("" for None).
+        """
         if self.kind == "number" and self.empty_text is not None:
             if value is None:
                 return self.empty_text
@@ -63,6 +101,22 @@ class Column:
         return "" if value is None else str(value)
 
     def from_screen(self, value: Any) -> Any:
+        """What a grid cell's value stores in the case.
+
+        Parameters
+        ----------
+        value : Any
+            The cell's value as the data editor gives it.
+
+        Returns
+        -------
+        Any
+            An empty cell (None or NaN): ``default`` for a check or text column, else None. A
+            select's key (the value itself when no option shows it), a check's bool, a text's
+            str. A number: text read as people write numbers (the empty word or empty text:
+            None; text that does not read as a number is kept as typed), then stored as a
+            fraction for a percent column, an int for a whole integer, else a float.
+        """
         if value is None or (isinstance(value, float) and value != value):
             return self.default if self.kind in ("check", "text") else None
         if self.kind == "select":
@@ -86,6 +140,20 @@ class Column:
         return str(value)
 
     def config(self, currency: str) -> Any:
+        """The column's configuration for Streamlit's data editor.
+
+        Parameters
+        ----------
+        currency : str
+            The case's currency, as the grid passes it (no column's configuration uses it).
+
+        Returns
+        -------
+        Any
+            A select, check or text column configuration (text also for a number with an empty
+            word), else a number column formatted by the unit: "%.2f %%" for a percent, "%d"
+            for an integer, "%.2f" for years, "localized" for money and "%.4f" otherwise.
+        """
         cc = st.column_config
         if self.kind == "select":
             return cc.SelectboxColumn(
@@ -113,6 +181,21 @@ class Column:
 
 
 def grid_frame(records: list[Any], columns: tuple[Column, ...]) -> Any:
+    """The records as the grid's table: a row per record, a column per column, cells as shown.
+
+    Parameters
+    ----------
+    records : list[Any]
+        The case's records (anything that is not a dict gives empty cells).
+    columns : tuple[Column, ...]
+        The grid's columns, in order.
+
+    Returns
+    -------
+    Any
+        A pandas DataFrame: number columns (without an empty word) as float64, empty cells NaN;
+        check columns as bool; the others as object.
+    """
     import pandas as pd
 
     data = {
@@ -133,8 +216,29 @@ def grid_frame(records: list[Any], columns: tuple[Column, ...]) -> Any:
 def apply_grid_delta(
     records: list[Any], delta: dict[str, Any], columns: tuple[Column, ...], defaults: dict[str, Any] | None = None
 ) -> list[dict[str, Any]]:
-    """The records after one data-editor change (``edited_rows``, ``added_rows``,
-    ``deleted_rows``); keys the grid does not show (a facility's recovery, collateral) are kept."""
+    """The records after one data-editor change (``edited_rows``, ``added_rows``, ``deleted_rows``).
+
+    Keys the grid does not show (a facility's recovery, collateral) are kept. A cell whose unit is
+    read off the row is read after the row's other cells, so a changed choice applies to it.
+
+    Parameters
+    ----------
+    records : list[Any]
+        The records as in the case (anything that is not a dict reads as an empty one).
+    delta : dict[str, Any]
+        The data editor's change: ``edited_rows`` (row index -> column -> value),
+        ``deleted_rows`` (row indices) and ``added_rows`` (column -> value).
+    columns : tuple[Column, ...]
+        The grid's columns; keys no column has are ignored.
+    defaults : dict[str, Any] | None, optional
+        The values a new row starts from; None for none.
+
+    Returns
+    -------
+    list[dict[str, Any]]
+        New dicts (``records`` is not changed): the edits applied, the deleted rows dropped and
+        the added rows appended.
+    """
     by_name = {c.name: c for c in columns}
     out = [dict(r) if isinstance(r, dict) else {} for r in records]
     for index, changes in (delta.get("edited_rows") or {}).items():
@@ -231,7 +335,19 @@ COVENANT_COLUMNS = (
 
 
 def complete_covenant(row: dict[str, Any]) -> dict[str, Any]:
-    """A covenant's direction follows from its metric (a leverage cap, a cover floor)."""
+    """A covenant's direction follows from its metric (a leverage cap, a cover floor).
+
+    Parameters
+    ----------
+    row : dict[str, Any]
+        A covenant record.
+
+    Returns
+    -------
+    dict[str, Any]
+        A copy with ``direction`` set from ``engine.case.COVENANT_DIRECTION`` when the metric is
+        listed there; else ``row`` itself.
+    """
     metric = row.get("metric")
     if metric in COVENANT_DIRECTION:
         return {**row, "direction": COVENANT_DIRECTION[metric]}

@@ -1,5 +1,7 @@
-"""The mapping step after a statements upload: what was read from the file, line by line, with
-the field each line goes to, the unit and the orientation, all editable; then accept or cancel.
+"""The mapping step after a statements upload: what was read from the file, line by line.
+
+Each line with the field it goes to, the unit and the orientation, all editable; then accept or
+cancel.
 
 The preview lives in ``st.session_state[KEY]`` (plain data and the file's bytes), so a page
 switch keeps it; the widgets are rebuilt from it on every run. The case changes only on
@@ -47,7 +49,18 @@ FIRST_VALUES = 3
 
 
 def words(field: str | None) -> str:
-    """A field as the screen names it ("Total assets"); None is "not used"."""
+    """A field as the screen names it ("Total assets"); None is "not used".
+
+    Parameters
+    ----------
+    field : str | None
+        A statement field, or None for a line not used.
+
+    Returns
+    -------
+    str
+        The field's words; a field not in ``FIELD_WORDS`` with its underscores as spaces.
+    """
     return NOT_USED if field is None else FIELD_WORDS.get(field, field.replace("_", " "))
 
 
@@ -60,8 +73,18 @@ def _in_sentence(text: str) -> str:
 
 def start(data: bytes, name: str) -> None:
     """Read an upload into the preview (the statements uploader's callback calls this).
+
     The unit named in the file's title rows is chosen, else the one saved with the case; the
-    mapping saved with the case is applied. A bad file leaves a message and no preview."""
+    mapping saved with the case is applied (when the file cannot be read with it, the file is
+    read as it stands). A bad file leaves a message and no preview.
+
+    Parameters
+    ----------
+    data : bytes
+        The uploaded file's bytes.
+    name : str
+        The uploaded file's name.
+    """
     ss = st.session_state
     source = ss.raw.get("statements_source") if isinstance(ss.raw.get("statements_source"), dict) else {}
     hint = state.unit_hint(data, name)
@@ -93,14 +116,23 @@ def start(data: bytes, name: str) -> None:
 
 
 def _refused(name: str, exc: CaseError) -> None:
+    """Keep the message of a file that could not be read, and drop any preview."""
     ss = st.session_state
     ss.upload_error = f"{name} could not be read. {exc.paragraph()}"
     ss.pop(KEY, None)
 
 
 def _reread(**changes: Any) -> None:
-    """Read the file again with the preview's unit, orientation and lines, ``changes`` applied;
-    on failure the earlier preview stays with a message."""
+    """Read the file again with the preview's unit, orientation and lines, ``changes`` applied.
+
+    On failure the earlier preview stays with a message. Lines that leave a required field
+    without a line are not read: they wait as ``pending``, with a message.
+
+    Parameters
+    ----------
+    **changes : Any
+        ``unit``, ``orientation`` or ``lines`` to read with instead of the preview's.
+    """
     ss = st.session_state
     preview = ss.get(KEY)
     if not preview:
@@ -138,6 +170,7 @@ def _reread(**changes: Any) -> None:
 
 
 def _on_field(index: int, widget: str) -> None:
+    """Read the file again with line ``index`` going to the field chosen in ``widget``."""
     ss = st.session_state
     preview = ss[KEY]
     choice = ss[widget]
@@ -147,10 +180,12 @@ def _on_field(index: int, widget: str) -> None:
 
 
 def _on_unit(widget: str) -> None:
+    """Read the file again in the unit chosen in ``widget``."""
     _reread(unit=st.session_state[widget])
 
 
 def _on_orientation(widget: str) -> None:
+    """Read the file again with the years running as chosen in ``widget``."""
     _reread(orientation=st.session_state[widget])
 
 
@@ -189,7 +224,20 @@ def _years_text(years: list[int], *, count: bool = False) -> str:
 
 
 def line_table(read: dict[str, Any]) -> list[dict[str, str]]:
-    """Each line's years and first values as read (amounts in currency units), for the preview."""
+    """Each line's years and first values as read (amounts in currency units), for the preview.
+
+    Parameters
+    ----------
+    read : dict[str, Any]
+        A preview's read (from :func:`.state.statements_from_upload`).
+
+    Returns
+    -------
+    list[dict[str, str]]
+        One dict per line: ``years`` (the years with a value; "not read" for a line not used)
+        and ``values`` (the first ``FIRST_VALUES`` of them as "year: amount"). Short- and
+        long-term debt show the total debt they are added into.
+    """
     out = []
     for line in read["lines"]:
         target = line["field"]
@@ -207,7 +255,18 @@ def line_table(read: dict[str, Any]) -> list[dict[str, str]]:
 
 
 def duplicates(lines: list[dict[str, Any]]) -> dict[str, list[str]]:
-    """Fields two or more lines go to (the first line in the file is the one read)."""
+    """Fields two or more lines go to (the first line in the file is the one read).
+
+    Parameters
+    ----------
+    lines : list[dict[str, Any]]
+        The preview's lines.
+
+    Returns
+    -------
+    dict[str, list[str]]
+        Field -> the labels of the lines that go to it, in the file's order.
+    """
     by_field: dict[str, list[str]] = {}
     for line in lines:
         if line["field"] is not None:
@@ -216,7 +275,19 @@ def duplicates(lines: list[dict[str, Any]]) -> dict[str, list[str]]:
 
 
 def would_be_problems(read: dict[str, Any]) -> list[str]:
-    """What the case would say about these statements once accepted, in the screen's words."""
+    """What the case would say about these statements once accepted, in the screen's words.
+
+    Parameters
+    ----------
+    read : dict[str, Any]
+        A preview's read (from :func:`.state.statements_from_upload`).
+
+    Returns
+    -------
+    list[str]
+        The messages of the problems under ``statements`` in the case as typed with these
+        statements; empty when there are none.
+    """
     candidate = state.with_statements(st.session_state.raw, read)
     checked = state.check(candidate)
     out = [

@@ -43,7 +43,20 @@ def _evaluate_canonical(canonical: str) -> Any:
 
 
 def evaluate_dict(data: dict[str, Any]) -> tuple[Any | None, tuple[Problem, ...], str | None]:
-    """(results, problems, internal error text) for a case dict; never raises."""
+    """(results, problems, internal error text) for a case dict; never raises.
+
+    Parameters
+    ----------
+    data : dict[str, Any]
+        A case dict (the case as typed, or the last valid one).
+
+    Returns
+    -------
+    tuple[Any | None, tuple[Problem, ...], str | None]
+        The evaluated case (``engine.evaluate.Results``, cached and shared) or None; the
+        problems when the case does not validate or its evaluation refuses it; the engine's
+        error text when the evaluation failed for another reason, else None.
+    """
     checked = state.check(data)
     if checked.case is None:
         return None, checked.problems, None
@@ -68,8 +81,25 @@ def _analyse_cached(key: str, _case: Any) -> Any:
 
 
 def analysed(case: Any) -> Any:
-    """engine.analysis.analyse of a validated case (sensitivity, PD grid, scenarios), cached by
-    the case's fingerprint. Raises CaseError when a saved scenario does not validate."""
+    """engine.analysis.analyse of a validated case (sensitivity, PD grid, scenarios), cached.
+
+    The cache is keyed by the case's fingerprint.
+
+    Parameters
+    ----------
+    case : Any
+        A validated case (``engine.case.Case``).
+
+    Returns
+    -------
+    Any
+        The results with the what-if layers filled in (frozen, shared by every session).
+
+    Raises
+    ------
+    CaseError
+        When a saved scenario does not validate.
+    """
     from obligor_memo.engine.evaluate import fingerprint
 
     return _analyse_cached(fingerprint(case), case)
@@ -153,8 +183,15 @@ def _save(force: bool = False) -> None:
 
 
 def commit(raw: dict[str, Any]) -> None:
-    """Make ``raw`` the case as typed: the previous one goes on the undo list, then validate,
-    evaluate and autosave."""
+    """Make ``raw`` the case as typed, then validate, evaluate and autosave.
+
+    The previous one goes on the undo list (when it differs; up to ``UNDO_DEPTH`` are kept).
+
+    Parameters
+    ----------
+    raw : dict[str, Any]
+        The new case as typed.
+    """
     ss = st.session_state
     if raw != ss.raw:
         ss.undo = [*ss.get("undo", []), ss.raw][-UNDO_DEPTH:]
@@ -163,7 +200,17 @@ def commit(raw: dict[str, Any]) -> None:
 
 
 def replace_case(raw: dict[str, Any], notice: str) -> None:
-    """Load a whole new case (sample, file): widgets restart from it (one undo brings the old one back)."""
+    """Load a whole new case (sample, file): widgets restart from it (one undo brings the old one back).
+
+    The what-if settings and the fields' typing errors are cleared.
+
+    Parameters
+    ----------
+    raw : dict[str, Any]
+        The new case.
+    notice : str
+        The message shown at the top of the next page run.
+    """
     ss = st.session_state
     ss.gen += 1
     ss.whatif = {}
@@ -209,6 +256,10 @@ def keep_mine() -> None:
 
 
 def conflict_panel() -> None:
+    """The save conflict, when there is one: its message and the choices it leaves.
+
+    Load the other tab's version, keep this tab's, or download this tab's as a case file.
+    """
     ss = st.session_state
     if not ss.get("conflict"):
         return
@@ -232,6 +283,13 @@ def conflict_panel() -> None:
 
 
 def set_whatif(settings: dict[str, Any]) -> None:
+    """Make ``settings`` the session's what-if settings and autosave them with the case.
+
+    Parameters
+    ----------
+    settings : dict[str, Any]
+        Dotted path -> value, in the engine's scenario format.
+    """
     st.session_state.whatif = settings
     _save()
 
@@ -245,6 +303,7 @@ def results() -> Any:
 
 
 def currency() -> str:
+    """The last valid case's currency; empty when it names none."""
     return state.get_path(st.session_state.valid, "borrower.currency", "")
 
 
@@ -252,12 +311,45 @@ def currency() -> str:
 
 
 def problem_text(p: Problem) -> str:
-    """A problem in the screen's words: the field's label (facility id, statement year), what
-    was typed in the field's unit, and what is allowed."""
+    """A problem in the screen's words.
+
+    The field's label (facility id, statement year), what was typed in the field's unit, and
+    what is allowed.
+
+    Parameters
+    ----------
+    p : Problem
+        The problem, as the engine gives it.
+
+    Returns
+    -------
+    str
+        The message (:func:`.entry.message`, rows named from the case as typed).
+    """
     return entry.message(p.field, p.value, p.allowed, st.session_state.get("raw"))
 
 
 def show_problems(path: str, where: Any = None, *, exact: bool = False) -> list[Problem]:
+    """Show the messages of the field at ``path`` (and of the fields below it).
+
+    Text typed in the field that did not read as a number shows its own message instead of the
+    engine's for that field. At most 12 problems are shown, then how many more there are.
+
+    Parameters
+    ----------
+    path : str
+        The field's case path.
+    where : Any, optional
+        Where the messages go (a Streamlit container or column); None: the page.
+    exact : bool, optional
+        Only the problems of ``path`` itself, none of those below it.
+
+    Returns
+    -------
+    list[Problem]
+        The problems found, beyond the 12 shown too (without those of ``path`` itself when its
+        typed text's message was shown).
+    """
     ss = st.session_state
     found = state.problems_at(ss.problems, path)
     if exact:
@@ -291,7 +383,23 @@ def _elsewhere(title: str) -> None:
 
 
 def header(title: str, lead: str) -> Any:
-    """Page title, the case's standing and the model caution; returns the results in force."""
+    """Page title, the case's standing and the model caution; returns the results in force.
+
+    Under the title and lead: a pending notice, the save conflict, an internal error, the
+    count of problems and the problems held on other pages, then the caution.
+
+    Parameters
+    ----------
+    title : str
+        The page's title (one of ``entry.PAGE_TITLES``).
+    lead : str
+        The line under the title.
+
+    Returns
+    -------
+    Any
+        The results of the last valid case (:func:`results`), or None when there is none.
+    """
     ss = st.session_state
     st.title(title)
     st.caption(lead)
@@ -316,12 +424,36 @@ def header(title: str, lead: str) -> Any:
 
 
 def metric(where: Any, label: str, value: str, help: str | None = None) -> None:
+    """One metric: a label over its figure.
+
+    Parameters
+    ----------
+    where : Any
+        The Streamlit container or column it goes in.
+    label : str
+        The metric's label.
+    value : str
+        The figure, formatted.
+    help : str | None, optional
+        The tooltip; None for none.
+    """
     where.metric(label, value, help=help)
 
 
 def metric_rows(where: Any, items: list[tuple[str, str, str | None]], per_row: int = 3) -> None:
-    """Metrics (label, value, help) laid out ``per_row`` to a row, so that none is squeezed
-    until its figure is cut or runs into the next one."""
+    """Metrics (label, value, help) laid out ``per_row`` to a row.
+
+    So that none is squeezed until its figure is cut or runs into the next one.
+
+    Parameters
+    ----------
+    where : Any
+        The Streamlit container the rows go in.
+    items : list[tuple[str, str, str | None]]
+        (label, formatted figure, tooltip or None), in order.
+    per_row : int, optional
+        How many metrics a row holds.
+    """
     for start in range(0, len(items), per_row):
         cells = where.columns(per_row)
         for cell, (label, value, tip) in zip(cells, items[start : start + per_row]):
@@ -343,8 +475,11 @@ def _store(path: str, key: str, convert: Callable[[Any], Any] | None = None) -> 
 
 
 def _store_number(path: str, key: str, unit: str, label: str) -> None:
-    """A typed number: read as people write it; text that is not a number is kept as typed
-    (in the case as typed, never lost) with a message beside the field."""
+    """Store a typed number, read as people write it (the number field's callback).
+
+    Text that is not a number is kept as typed (in the case as typed, never lost) with a
+    message beside the field.
+    """
     ss = st.session_state
     text = ss[key]
     errors = dict(ss.get("entry_errors") or {})
@@ -371,9 +506,31 @@ def number_field(
     placeholder: str | None = None,
     messages: Any = None,
 ) -> None:
-    """A number bound to ``path``, typed as people write it (``unit`` percent: 2.75 means
-    2.75 %, stored as 0.0275). Empty is allowed when ``optional`` (null: the engine estimates).
-    ``messages``: where its messages go when ``where`` is a narrow column (a container below the row)."""
+    """A number bound to ``path``, typed as people write it.
+
+    With ``unit`` percent, 2.75 means 2.75 %, stored as 0.0275. Empty is allowed when
+    ``optional`` (null: the engine estimates).
+
+    Parameters
+    ----------
+    label : str
+        The field's label.
+    path : str
+        The case path the field edits.
+    unit : str, optional
+        One of ``entry.UNITS``: the unit the number is typed in.
+    where : Any, optional
+        The Streamlit container or column the field goes in; None: the page.
+    optional : bool, optional
+        The case field may be empty; the placeholder then says "not set" unless one is given.
+    help : str | None, optional
+        The tooltip; None: what the unit allows.
+    placeholder : str | None, optional
+        The text an empty field shows.
+    messages : Any, optional
+        Where its messages go when ``where`` is a narrow column (a container below the row);
+        None: ``where``.
+    """
     where = where or st
     current = state.get_path(st.session_state.raw, path)
     key = _key(path)
@@ -402,6 +559,24 @@ def select_field(
     labels: dict[Any, str] | None = None,
     help: str | None = None,
 ) -> None:
+    """A choice bound to ``path``, with its messages below it.
+
+    Parameters
+    ----------
+    label : str
+        The field's label.
+    path : str
+        The case path the field edits.
+    options : list[Any]
+        The values it may take, as stored; a value in the case that is not among them shows
+        the first.
+    where : Any, optional
+        The Streamlit container or column the field goes in; None: the page.
+    labels : dict[Any, str] | None, optional
+        The words shown for each value; None (or a value not in it): the value as text.
+    help : str | None, optional
+        The tooltip; None for none.
+    """
     where = where or st
     current = state.get_path(st.session_state.raw, path)
     index = options.index(current) if current in options else 0
@@ -422,6 +597,23 @@ def select_field(
 def text_field(
     label: str, path: str, *, where: Any = None, area: bool = False, help: str | None = None, height: int | None = None
 ) -> None:
+    """A text bound to ``path``, with its messages below it.
+
+    Parameters
+    ----------
+    label : str
+        The field's label.
+    path : str
+        The case path the field edits.
+    where : Any, optional
+        The Streamlit container or column the field goes in; None: the page.
+    area : bool, optional
+        A text area of several lines instead of a one-line input.
+    help : str | None, optional
+        The tooltip; None for none.
+    height : int | None, optional
+        The text area's height [px]; None: Streamlit's default.
+    """
     where = where or st
     current = state.get_path(st.session_state.raw, path) or ""
     key = _key(path)
@@ -435,6 +627,19 @@ def text_field(
 
 
 def toggle_field(label: str, path: str, *, where: Any = None, help: str | None = None) -> None:
+    """A checkbox bound to ``path`` (empty reads as unticked), with its messages below it.
+
+    Parameters
+    ----------
+    label : str
+        The field's label.
+    path : str
+        The case path the field edits.
+    where : Any, optional
+        The Streamlit container or column the field goes in; None: the page.
+    help : str | None, optional
+        The tooltip; None for none.
+    """
     where = where or st
     key = _key(path)
     where.checkbox(
@@ -449,7 +654,19 @@ def toggle_field(label: str, path: str, *, where: Any = None, help: str | None =
 
 
 def rows_of(items: Any) -> list[dict[str, Any]]:
-    """Engine result records (dataclasses or mappings) as table rows, numbers formatted."""
+    """Engine result records (dataclasses or mappings) as table rows, numbers formatted.
+
+    Parameters
+    ----------
+    items : Any
+        One record or an iterable of them.
+
+    Returns
+    -------
+    list[dict[str, Any]]
+        A row per record: keys with spaces for underscores; floats to four decimals, text,
+        integers, bools and None as they are, anything else as its ``str``.
+    """
     from dataclasses import asdict, is_dataclass
 
     if is_dataclass(items) or isinstance(items, dict):
@@ -481,14 +698,42 @@ def _figure(
 
 
 def figure(name: str, results: Any, *args: Any, **kwargs: Any) -> Any:
-    """``app.charts.<name>(results, ...)``, built once per case and arguments."""
+    """``app.charts.<name>(results, ...)``, built once per case and arguments.
+
+    Parameters
+    ----------
+    name : str
+        The figure function's name in :mod:`obligor_memo.app.charts`.
+    results : Any
+        The results to draw; their fingerprint and whether the what-if layers are filled in key
+        the cache, with the name and the arguments.
+    *args : Any
+        Further arguments of the figure function.
+    **kwargs : Any
+        Further keyword arguments of the figure function.
+
+    Returns
+    -------
+    Any
+        The plotly figure, shared by every session: not to be changed.
+    """
     arguments = json.dumps([args, kwargs], sort_keys=True, default=str)
     layers = getattr(results, "sensitivity", None) is not None
     return _figure(name, results.fingerprint, layers, arguments, results, args, kwargs)
 
 
 def chart(where: Any, figure: Any, key: str) -> None:
-    """A figure exactly as the memo prints it (our layout, not the Streamlit theme)."""
+    """A figure exactly as the memo prints it (our layout, not the Streamlit theme).
+
+    Parameters
+    ----------
+    where : Any
+        The Streamlit container or column it goes in.
+    figure : Any
+        The plotly figure.
+    key : str
+        The chart's widget key, unique on the page.
+    """
     where.plotly_chart(figure, key=key, theme=None, config={"displaylogo": False})
 
 
@@ -496,7 +741,16 @@ def chart(where: Any, figure: Any, key: str) -> None:
 
 
 def key_figures(where: Any) -> None:
-    """The figures a committee asks first, on every page, from the last valid case."""
+    """The figures a committee asks first, on every page, from the last valid case.
+
+    PD in force, grade, total EAD, expected loss and RWA; then capital, RAROC and the hurdle
+    with a pricing proposal, regulatory capital without one.
+
+    Parameters
+    ----------
+    where : Any
+        The Streamlit container they go in (the sidebar).
+    """
     found = results()
     if found is None:
         where.caption("No valid case yet: the key figures appear once the case validates.")
@@ -565,6 +819,22 @@ def grid(
     so what the grid shows is always the case: a page switch, a refresh or a restart cannot
     bring back an older table. The grid's identity follows its data, so after a change it starts
     afresh from the case with nothing pending.
+
+    Parameters
+    ----------
+    path : str
+        The case path of the list of records the grid edits.
+    columns : tuple[grids.Column, ...]
+        The grid's columns, in order.
+    name : str
+        The grid's widget key (the session's generation is appended).
+    defaults : dict[str, Any] | None, optional
+        The values a new row starts from; None for none.
+    height : int | None, optional
+        The grid's height [px]; None: as its rows need.
+    complete : Callable[[dict[str, Any]], dict[str, Any]] | None, optional
+        Applied to every record after a change (such as ``grids.complete_covenant``); None
+        for none.
     """
     ss = st.session_state
     records = state.get_path(ss.raw, path)
