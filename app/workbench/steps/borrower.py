@@ -15,11 +15,16 @@ REQUIRED = ("year", "total_assets", "short_term_liabilities", "long_term_liabili
 
 
 def _open_sample() -> None:
+    """Replace the case with the invented sample borrower (the button's callback)."""
     _ui.replace_case(state.sample_case_dict(), "Opened the sample borrower.")
 
 
 def _read_upload(key: str, reader):
-    """The uploaded file read by ``reader``, or None with the message kept for the page."""
+    """The uploaded file read by ``reader``, and its name.
+
+    (None, None) when nothing is uploaded, or when ``reader`` refuses the file: the message is then
+    kept for the page.
+    """
     upload = st.session_state.get(key)
     if upload is None:
         return None, None
@@ -33,12 +38,14 @@ def _read_upload(key: str, reader):
 
 
 def _open_case_file(key: str) -> None:
+    """Replace the case with the uploaded case file (the uploader's callback); a bad file leaves a message."""
     raw, name = _read_upload(key, state.case_dict_from_upload)
     if raw is not None:
         _ui.replace_case(raw, f"Opened {name}.")
 
 
 def _upload_statements(key: str) -> None:
+    """Read the uploaded statements table into the mapping preview (the uploader's callback)."""
     upload = st.session_state.get(key)
     if upload is not None:  # read into the mapping preview; the case changes on "Accept"
         _mapping.start(upload.getvalue(), upload.name)

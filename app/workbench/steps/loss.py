@@ -98,6 +98,7 @@ st.subheader("Pricing")
 
 
 def _add_pricing() -> None:
+    """Add a pricing proposal to the case, a proposed spread of 2 % a year (the button's callback)."""
     _ui.commit(state.set_path(st.session_state.raw, "pricing", {"proposed_spread": 0.02}))
 
 

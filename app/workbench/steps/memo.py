@@ -20,6 +20,7 @@ PRESTART_VARIABLE = settings.CHART_PRESTART
 
 
 def _memo_module() -> Any | None:
+    """The memo renderer (``app.memo``), or None when it cannot be imported (the reason is logged)."""
     try:
         return importlib.import_module("obligor_memo.app.memo")
     except Exception:  # the renderer's own dependencies (WeasyPrint, kaleido) may be missing
@@ -29,9 +30,12 @@ def _memo_module() -> Any | None:
 
 @st.cache_resource(show_spinner=False)
 def _chart_browser_started() -> bool:
-    """Once per server: the chart browser and the layout worker start in the background, so
-    memos print warm. A failure is not cached (st.cache_resource keeps only returned values):
-    the next visit tries again, and the print button reports the reason."""
+    """Once per server: the chart browser and the layout worker start in the background.
+
+    So memos print warm. False when the memo renderer cannot be loaded. A failure is not cached
+    (st.cache_resource keeps only returned values): the next visit tries again, and the print
+    button reports the reason.
+    """
     memo_module = _memo_module()
     if memo_module is None:
         return False
@@ -48,8 +52,11 @@ STEPS = {
 
 
 def _results_workbook(case: Any) -> Callable[[], bytes]:
-    """The results workbook of the last valid case, built when the button is clicked (the full
-    analysis and the workbook take a moment; the page does not wait for them)."""
+    """The results workbook of the last valid case, built when the button is clicked.
+
+    The full analysis and the workbook take a moment; the page does not wait for them (the
+    download button calls the function returned).
+    """
 
     def build() -> bytes:
         from obligor_memo.app.present.export import export_workbook
@@ -60,6 +67,7 @@ def _results_workbook(case: Any) -> Callable[[], bytes]:
 
 
 def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
+    """Print the memo into the session, its steps shown as they run; a failure leaves a message."""
     ss = st.session_state
     annex = bool(ss.get("memo_annex", False))
     ss.memo_chart_problem = None
@@ -85,6 +93,7 @@ def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
 
 
 def _memo_print_panel(results: Any, stem: str) -> None:
+    """The memo's print buttons, the technical annex choice, and the download of the memo printed for this case."""
     ss = st.session_state
     memo_module = _memo_module()
     if memo_module is None or results is None:

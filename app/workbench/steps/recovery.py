@@ -27,6 +27,7 @@ fac_res = next((f for f in results.facilities if f.id == chosen), None) if resul
 
 
 def _toggle_recovery(key: str) -> None:
+    """Give the facility its own recovery assumption, or drop it, as the toggle says (its callback)."""
     if st.session_state[key]:
         start = (
             {"mean": fac_res.recovery_mean, "std": fac_res.recovery_std, "upper": fac_res.recovery_upper}
@@ -39,6 +40,7 @@ def _toggle_recovery(key: str) -> None:
 
 
 def _toggle_collateral(key: str) -> None:
+    """Give the facility an empty collateral block, or drop it, as the toggle says (its callback)."""
     value = {"value": 0.0, "haircut": 0.0, "description": ""} if st.session_state[key] else None
     _ui.commit(state.set_path(st.session_state.raw, f"{base}.collateral", value))
 

@@ -39,9 +39,12 @@ WHERE = "what-if"
 
 
 def _set(paths: dict[str, object], key: str, unit: str, label: str) -> None:
-    """Store one control; ``paths`` are companion values that must travel with it (a recovery
-    block the case lacks needs its std and upper as well as the mean). Text that is not a
-    number is kept in the field with a message; the settings do not change."""
+    """Store one control (its text input's callback).
+
+    ``paths`` are companion values that must travel with it (a recovery block the case lacks
+    needs its std and upper as well as the mean). Text that is not a number is kept in the field
+    with a message; the settings do not change.
+    """
     ss = st.session_state
     settings = dict(ss.whatif)
     path = next(iter(paths))
@@ -65,6 +68,7 @@ def _set(paths: dict[str, object], key: str, unit: str, label: str) -> None:
 
 
 def _reset() -> None:
+    """Clear every what-if setting; the controls restart from the case (the button's callback)."""
     st.session_state.wgen = st.session_state.get("wgen", 0) + 1
     st.session_state.whatif_typed, st.session_state.whatif_errors = {}, {}
     _ui.set_whatif({})
@@ -81,6 +85,32 @@ def control(
     help: str | None = None,
     companions: dict[str, object] | None = None,
 ) -> None:
+    """A what-if control: a text input for the setting at ``path``, typed as people write numbers.
+
+    It shows the overlay's setting where there is one, else ``base_value``; text that did not
+    read as a number stays in the field, its message below.
+
+    Parameters
+    ----------
+    label : str
+        The control's label.
+    path : str
+        The setting's path in the engine's scenario format (``pd.asset_growth``,
+        ``facilities.<id>.ccf``).
+    base_value : Any
+        The value the case gives (None where it leaves the setting to the engine's estimate).
+    where : Any
+        The Streamlit column the control goes in.
+    unit : str, optional
+        One of ``entry.UNITS``: the unit the setting is typed in.
+    placeholder : str | None, optional
+        The text an empty control shows.
+    help : str | None, optional
+        The tooltip; None: what the unit allows.
+    companions : dict[str, object] | None, optional
+        Settings stored with this one (path -> value), such as the std and upper of a recovery
+        block the case lacks; None for none.
+    """
     key = f"w{ss.get('wgen', 0)}:{ss.gen}:{path}"
     value = overlay.get(path, base_value)
     typed = (ss.get("whatif_typed") or {}).get(path)
@@ -197,20 +227,24 @@ delta = headline_delta(head, base_head)
 
 
 def _amount(value: float | None) -> str:
-    """Millions with two decimals, but whole units below a million: a small EL or a capital
-    of zero must not read as "EUR 0.00m"."""
+    """Millions with two decimals, but whole units below a million; "n/a" for no figure.
+
+    A small EL or a capital of zero must not read as "EUR 0.00m".
+    """
     if value is None:
         return "n/a"
     return millions(value, cur) if abs(value) >= 1e6 else money(value, cur)
 
 
 def _signed_money(value: float | None) -> str | None:
+    """A change of an amount with its sign; None for no change (or no figure)."""
     if value is None or value == 0:
         return None
     return ("+" if value > 0 else "-") + _amount(abs(value))
 
 
 def _signed_rate(value: float | None, decimals: int = 2) -> str | None:
+    """A change of a rate in percentage points, signed ("+0.25 pp"); None for no change (or no figure)."""
     if value is None or value == 0:
         return None
     return f"{value * 100:+.{decimals}f} pp"
@@ -284,6 +318,7 @@ st.subheader("Save the what-if settings as a named scenario")
 
 
 def _save_scenario(name_key: str, text_key: str, case) -> None:
+    """Save the what-if settings as a named scenario, if its name is new and the engine accepts them."""
     name = (st.session_state.get(name_key) or "").strip()
     settings = dict(st.session_state.whatif)
     existing = [str(s.get("name", "")) for s in (st.session_state.raw.get("scenarios") or [])]
@@ -309,6 +344,7 @@ def _save_scenario(name_key: str, text_key: str, case) -> None:
 
 
 def _delete_scenario(key: str) -> None:
+    """Delete the saved scenario chosen in ``key`` from the case (the button's callback)."""
     name = st.session_state.get(key)
     scenarios = [s for s in (st.session_state.raw.get("scenarios") or []) if s.get("name") != name]
     _ui.commit(_ui.state.set_path(st.session_state.raw, "scenarios", scenarios))
@@ -341,6 +377,7 @@ except CaseError as exc:
 
 
 def _row(name: str, f, d) -> dict[str, str]:
+    """One row of the scenarios table: the figures ``f`` and their changes ``d`` from the base, formatted."""
     return {
         "Scenario": name,
         "PD in force": pd_pct(f.pd),
