@@ -73,13 +73,14 @@ RAROC = """() => { const m = [...document.querySelectorAll('[data-testid="stMetr
     .find(e => e.innerText.startsWith('RAROC')); return m ? m.querySelector('[data-testid="stMetricValue"]').innerText : null; }"""
 
 
-async def _session(browser, url: str, edits: int, start: asyncio.Event) -> list[float]:
+async def _session(browser, url: str, edits: int, ready: asyncio.Queue, start: asyncio.Event) -> list[float]:
     context = await browser.new_context(viewport={"width": 1400, "height": 1000})
     page = await context.new_page()
     await page.goto(url + "/loss", wait_until="networkidle", timeout=240000)
     box = page.get_by_role("textbox", name="Proposed spread (% a year)", exact=True)
     await box.wait_for(timeout=240000)
     await page.wait_for_function(f"() => ({RAROC})() !== null", timeout=240000)
+    ready.put_nowait(True)
     await start.wait()
     times, strip = [], []
     for i in range(edits):
@@ -109,9 +110,11 @@ async def browser_run(url: str, sessions: int, edits: int) -> list[float]:
         browser = await p.chromium.launch(
             executable_path=CHROMIUM, headless=True, args=["--no-sandbox", "--disable-gpu", "--disable-dev-shm-usage"]
         )
+        ready: asyncio.Queue = asyncio.Queue()
         start = asyncio.Event()
-        tasks = [asyncio.create_task(_session(browser, url, edits, start)) for _ in range(sessions)]
-        await asyncio.sleep(1.0)
+        tasks = [asyncio.create_task(_session(browser, url, edits, ready, start)) for _ in range(sessions)]
+        for _ in range(sessions):  # every session has its page on screen: then all edit at once
+            await ready.get()
         start.set()
         results = await asyncio.gather(*tasks)
         await browser.close()

@@ -18,6 +18,7 @@ from obligor_memo.app.charts.whatif import pd_grid_figure, scenarios_figure, sen
 __all__ = [
     "FIGURES",
     "ANALYSIS_FIGURES",
+    "READS",
     "asset_trend_figure",
     "liabilities_figure",
     "term_structure_figure",
@@ -47,4 +48,13 @@ ANALYSIS_FIGURES = {
     "sensitivity": sensitivity_figure,
     "pd_grid": pd_grid_figure,
     "scenarios": scenarios_figure,
+}
+
+# What some figures read from Results, as dotted attribute paths: the workbench keys its figure
+# cache by these values instead of the whole case, so an edit that does not touch them (a spread,
+# a hurdle rate) reuses the figure. tests/test_chart_reads.py builds each figure from an object
+# holding only these paths: a figure that reads anything else fails there.
+READS: dict[str, tuple[str, ...]] = {
+    "loss_distribution_figure": ("loss_distribution", "pd.horizon_years", "case.borrower.currency"),
+    "exposure_figure": ("facilities", "total.ead", "case.borrower.currency"),
 }

@@ -7,8 +7,10 @@ raw dict even when it does not validate, evaluates the last valid case and autos
 
 from __future__ import annotations
 
+import hashlib
 import json
 import logging
+import pickle
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -705,8 +707,9 @@ def figure(name: str, results: Any, *args: Any, **kwargs: Any) -> Any:
     name : str
         The figure function's name in :mod:`obligor_memo.app.charts`.
     results : Any
-        The results to draw; their fingerprint and whether the what-if layers are filled in key
-        the cache, with the name and the arguments.
+        The results to draw; their fingerprint (or, for a figure listed in ``charts.READS``,
+        a digest of the values it reads) and whether the what-if layers are filled in key the
+        cache, with the name and the arguments.
     *args : Any
         Further arguments of the figure function.
     **kwargs : Any
@@ -717,9 +720,24 @@ def figure(name: str, results: Any, *args: Any, **kwargs: Any) -> Any:
     Any
         The plotly figure, shared by every session: not to be changed.
     """
+    from obligor_memo.app.charts import READS
+
     arguments = json.dumps([args, kwargs], sort_keys=True, default=str)
     layers = getattr(results, "sensitivity", None) is not None
-    return _figure(name, results.fingerprint, layers, arguments, results, args, kwargs)
+    return _figure(name, _drawn_key(results, READS.get(name)), layers, arguments, results, args, kwargs)
+
+
+def _drawn_key(results: Any, reads: tuple[str, ...] | None) -> str:
+    """The case's fingerprint, or a digest of only what the figure reads (``charts.READS``)."""
+    if reads is None:
+        return str(results.fingerprint)
+    values = []
+    for path in reads:
+        value = results
+        for part in path.split("."):
+            value = getattr(value, part)
+        values.append(value)
+    return "reads:" + hashlib.sha256(pickle.dumps(values, protocol=pickle.HIGHEST_PROTOCOL)).hexdigest()
 
 
 def chart(where: Any, figure: Any, key: str) -> None:
