@@ -164,8 +164,9 @@ def break_evens(results: Any) -> tuple[BreakEven, ...]:
 
     The inputs searched are the long-term share of the default point, the asset volatility, the
     asset growth (where the PD step uses one) and the unsecured mean recovery of the first facility
-    with its own recovery law (recovery moves RAROC, never the grade). Each case is evaluated
-    whole (``evaluate(..., detail=False)``).
+    with its own recovery law (recovery moves RAROC, never the grade). The grade search runs the
+    PD step alone (estimate and grade, as ``evaluate`` runs them); the hurdle search evaluates each
+    case whole (``evaluate(..., detail=False)``).
 
     Parameters
     ----------
@@ -179,12 +180,14 @@ def break_evens(results: Any) -> tuple[BreakEven, ...]:
         and its grade has an upper edge.
     """
     from obligor_memo.engine.evaluate import evaluate
+    from obligor_memo.engine.pd_estimate import estimate_pd, grade_pd
     from obligor_memo.engine.scenarios import apply_overrides
 
     case, pd, pricing = results.case, results.pd, results.pricing
     if case.pd.method != "balance_sheet" or pd.grade_upper is None:
         return ()
     cache: dict[tuple[str, float], Any] = {}
+    pds: dict[tuple[str, float], float] = {}
 
     def run(path: str, value: float) -> Any:
         key = (path, round(value, 12))
@@ -192,8 +195,19 @@ def break_evens(results: Any) -> tuple[BreakEven, ...]:
             cache[key] = evaluate(apply_overrides(case, {path: value}, where="break-even"), detail=False)
         return cache[key]
 
+    def pd_in_force(path: str, value: float) -> float:
+        # The PD step alone (the grade needs nothing else): evaluate's first two steps, as it
+        # runs them, without the exposures, loss distribution and capital of the whole case.
+        key = (path, round(value, 12))
+        if key in cache:
+            return float(cache[key].pd.pd)
+        if key not in pds:
+            moved = apply_overrides(case, {path: value}, where="break-even")
+            pds[key] = float(grade_pd(moved, estimate_pd(moved, cross_check=False)[1])[0].pd)
+        return pds[key]
+
     def grade_gap(path: str) -> Callable[[float], float]:
-        return lambda v: run(path, v).pd.pd - pd.grade_upper
+        return lambda v: pd_in_force(path, v) - pd.grade_upper
 
     def hurdle_gap(path: str) -> Callable[[float], float]:
         def f(v: float) -> float:

@@ -273,7 +273,7 @@ def build_view(
         "statement_keys": statement_keys,
         "statement_groups": statement_groups,
         "statement_rows": case_data["statements"],
-        "inputs_yaml": inputs_yaml(case_data),
+        "inputs_yaml": inputs_yaml(case_data) if annex else "",  # printed only in the annex
         "window_years": window,
         "fingerprint_short": short_fingerprint(results),
         "author": case.memo.prepared_by or "obligor-memo",
