@@ -10,7 +10,6 @@ from __future__ import annotations
 import hashlib
 import json
 import logging
-import pickle
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -737,7 +736,22 @@ def _drawn_key(results: Any, reads: tuple[str, ...] | None) -> str:
         for part in path.split("."):
             value = getattr(value, part)
         values.append(value)
-    return "reads:" + hashlib.sha256(pickle.dumps(values, protocol=pickle.HIGHEST_PROTOCOL)).hexdigest()
+    try:
+        text = json.dumps(values, default=_plain_value, sort_keys=True)
+    except TypeError:  # a value with no plain form: the whole case keys the figure
+        return str(results.fingerprint)
+    return "reads:" + hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def _plain_value(value: Any) -> Any:
+    """A dataclass as a dict, an array as a list (for the digest of what a figure reads)."""
+    from dataclasses import asdict, is_dataclass
+
+    if is_dataclass(value) and not isinstance(value, type):
+        return asdict(value)
+    if hasattr(value, "tolist"):
+        return value.tolist()
+    raise TypeError(f"no plain form for {type(value).__name__}")
 
 
 def chart(where: Any, figure: Any, key: str) -> None:
