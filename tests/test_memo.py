@@ -550,6 +550,9 @@ def test_committee_memo_prints_the_committees_appendices_lettered_in_order(commi
     assert "further cautions on these figures in appendix C" in flat
     assert "read the cautions in appendix C" in flat
     assert "read the cautions in appendix G" in " ".join(pdf_text(sample_pdf).split())
+    # The caution on the default point points to the sensitivities: B here, F with the annex.
+    assert "section 2 and appendix B show how much it matters" in flat
+    assert "section 2 and appendix F show how much it matters" in " ".join(pdf_text(sample_pdf).split())
     assert "obligor-memo memo --annex" in flat  # says where the rest is
 
 
