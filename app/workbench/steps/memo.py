@@ -236,3 +236,12 @@ with right:
             "`obligor-memo export` writes them.",
         )
     _memo_print_panel(results, stem)
+
+# A print starts from the analysed case (sensitivity, PD grid, scenarios). It is computed here,
+# once the page is on screen, so that the click on Print after a change does not wait for it:
+# cached by the case's fingerprint, and a rerun that interrupts the page keeps what finished.
+if results is not None:
+    try:
+        _ui.analysed(results.case)
+    except Exception:  # the print reports it, with its message, when it is asked for
+        log.info("the analysis ahead of printing failed", exc_info=True)
