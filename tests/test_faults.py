@@ -212,3 +212,28 @@ def test_memo_page_prints_the_technical_annex_when_ticked(tmp_path, monkeypatch)
     assert not _downloads(at)
     assert any("annex was switched" in c.value for c in at.caption)
     memo.stop_chart_exporter()
+
+
+def test_memo_page_analyses_the_case_before_the_click(tmp_path, monkeypatch):
+    """The page analyses the case once it is drawn; the print after the click reuses that analysis."""
+    import streamlit as st
+    from obligor_memo.engine import analysis
+
+    calls = []
+    real = analysis.analyse
+
+    def counted(*args, **kwargs):
+        calls.append(1)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(analysis, "analyse", counted)
+    monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "no-such-chromium"))
+    st.cache_resource.clear()
+    at = _memo_page(tmp_path, monkeypatch)
+    assert len(calls) == 1  # the page on screen: analysed ahead of any click
+    _button(at, "Print the memo (PDF)").click().run()  # no browser: the charts fail
+    _button(at, "Print the memo without charts").click().run()
+    assert not at.exception
+    assert at.session_state["memo_pdf"][1].startswith(b"%PDF-")
+    assert len(calls) == 1  # the print did not analyse again
+    memo.stop_chart_exporter()
