@@ -199,8 +199,6 @@ def break_evens(results: Any) -> tuple[BreakEven, ...]:
         # The PD step alone (the grade needs nothing else): evaluate's first two steps, as it
         # runs them, without the exposures, loss distribution and capital of the whole case.
         key = (path, round(value, 12))
-        if key in cache:
-            return float(cache[key].pd.pd)
         if key not in pds:
             moved = apply_overrides(case, {path: value}, where="break-even")
             pds[key] = float(grade_pd(moved, estimate_pd(moved, cross_check=False)[1])[0].pd)

@@ -231,7 +231,7 @@ class Results:
             if f.name in ("engine_version", "fingerprint", "laws"):
                 continue
             value = getattr(self, f.name)
-            out[f.name] = case_to_dict(value) if isinstance(value, Case) else _plain(value)
+            out[f.name] = case_to_dict(value) if isinstance(value, Case) else plain_data(value)
         return out
 
 
@@ -255,16 +255,28 @@ class ScenarioResult:
     """The full evaluation, every intermediate."""
 
 
-def _plain(value: Any) -> Any:
-    """Dataclasses, mappings, sequences and numpy values as JSON-ready Python data."""
+def plain_data(value: Any) -> Any:
+    """Dataclasses, mappings, sequences and numpy values as JSON-ready Python data.
+
+    Parameters
+    ----------
+    value : Any
+        A result record (a frozen dataclass), or anything it holds.
+
+    Returns
+    -------
+    Any
+        Dicts, lists, numbers, strings and None: fields declared ``repr=False`` are left out,
+        non-finite floats become None.
+    """
     if is_dataclass(value) and not isinstance(value, type):
-        return {f.name: _plain(getattr(value, f.name)) for f in fields(value) if f.repr}
+        return {f.name: plain_data(getattr(value, f.name)) for f in fields(value) if f.repr}
     if isinstance(value, Mapping):
-        return {str(k): _plain(v) for k, v in value.items()}
+        return {str(k): plain_data(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
+        return [plain_data(v) for v in value]
     if hasattr(value, "tolist"):  # numpy arrays and scalars
-        return _plain(value.tolist())
+        return plain_data(value.tolist())
     if isinstance(value, float) and not math.isfinite(value):
         return None
     return value

@@ -728,30 +728,17 @@ def figure(name: str, results: Any, *args: Any, **kwargs: Any) -> Any:
 
 def _drawn_key(results: Any, reads: tuple[str, ...] | None) -> str:
     """The case's fingerprint, or a digest of only what the figure reads (``charts.READS``)."""
+    from operator import attrgetter
+
+    from obligor_memo.engine.results import plain_data
+
     if reads is None:
         return str(results.fingerprint)
-    values = []
-    for path in reads:
-        value = results
-        for part in path.split("."):
-            value = getattr(value, part)
-        values.append(value)
     try:
-        text = json.dumps(values, default=_plain_value, sort_keys=True)
+        text = json.dumps(plain_data([attrgetter(path)(results) for path in reads]), sort_keys=True)
     except TypeError:  # a value with no plain form: the whole case keys the figure
         return str(results.fingerprint)
     return "reads:" + hashlib.sha256(text.encode("utf-8")).hexdigest()
-
-
-def _plain_value(value: Any) -> Any:
-    """A dataclass as a dict, an array as a list (for the digest of what a figure reads)."""
-    from dataclasses import asdict, is_dataclass
-
-    if is_dataclass(value) and not isinstance(value, type):
-        return asdict(value)
-    if hasattr(value, "tolist"):
-        return value.tolist()
-    raise TypeError(f"no plain form for {type(value).__name__}")
 
 
 def chart(where: Any, figure: Any, key: str) -> None:
