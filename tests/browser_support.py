@@ -80,9 +80,26 @@ def settle(page) -> None:
     page.wait_for_timeout(350)
 
 
-def open_page(page, title: str) -> None:
-    page.get_by_role("link", name=title).first.click()
-    page.get_by_role("heading", name=title).first.wait_for(timeout=30000)
+def open_page(page, title: str, *, wait_for=None) -> None:
+    """Click the sidebar link ``title`` and wait for its heading (and ``wait_for``, a locator).
+
+    A click that lands while the page is still drawing can be lost, as it would be for a user
+    clicking that fast, who clicks again: so does this, at most three times in all. Each lost
+    click leaves a screenshot in test-artifacts/ for whoever reads a failure."""
+    link = page.get_by_role("link", name=title, exact=True).first
+    heading = page.get_by_role("heading", name=title).first
+    for attempt in range(3):
+        link.click()
+        try:
+            heading.wait_for(timeout=20000)
+            if wait_for is not None:
+                wait_for.wait_for(timeout=20000)
+            break
+        except Exception:  # a Playwright timeout: the page did not come
+            ARTIFACTS.mkdir(exist_ok=True)
+            page.screenshot(path=str(ARTIFACTS / f"lost_click_{title.split()[0].lower()}_{attempt}.png"))
+            if attempt == 2:
+                raise
     settle(page)
 
 

@@ -6,55 +6,20 @@ page go to test-artifacts/ so a person can look at them.
 
 from __future__ import annotations
 
-import os
-import socket
-import subprocess
-import sys
-import time
-import urllib.request
 from pathlib import Path
 
 import pytest
-
-CHROMIUM = "/usr/bin/chromium"
-ROOT = Path(__file__).resolve().parent.parent
-ARTIFACTS = ROOT / "test-artifacts"
+from browser_support import ARTIFACTS, CHROMIUM, LAUNCH_ARGS, Server, open_page
 
 pytestmark = [pytest.mark.browser, pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 @pytest.fixture(scope="module")
 def server(tmp_path_factory):
-    port = _free_port()
     workdir = tmp_path_factory.mktemp("workdir")
-    code = (
-        "import sys; from obligor_memo.app.workbench.serve import serve; "
-        f"sys.exit(serve(port={port}, host='127.0.0.1', workdir=r'{workdir}'))"
-    )
-    proc = subprocess.Popen(
-        [sys.executable, "-c", code], cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, start_new_session=True
-    )
-    url = f"http://127.0.0.1:{port}"
-    deadline = time.time() + 30
-    while time.time() < deadline:
-        try:
-            with urllib.request.urlopen(url + "/_stcore/health", timeout=1) as r:
-                if r.status == 200:
-                    break
-        except OSError:
-            time.sleep(0.3)
-    else:
-        proc.kill()
-        pytest.fail("the workbench did not start within 30 s")
-    yield url, workdir
-    os.killpg(proc.pid, 15)
-    proc.communicate(timeout=10)  # reads and closes the pipe
+    running = Server(workdir).start()
+    yield running.url, workdir
+    running.stop()
 
 
 def _metric(page, label: str) -> str:
@@ -77,7 +42,7 @@ def test_default_point_moves_pd(server):
         browser = p.chromium.launch(
             executable_path=CHROMIUM,
             headless=True,
-            args=["--no-sandbox", "--headless=new", "--disable-gpu", "--disable-dev-shm-usage"],
+            args=LAUNCH_ARGS,
         )
         page = browser.new_page(viewport={"width": 1500, "height": 1100})
         page.goto(url, wait_until="networkidle")
@@ -85,9 +50,8 @@ def test_default_point_moves_pd(server):
         _settle(page)
         page.screenshot(path=str(ARTIFACTS / "01_borrower.png"), full_page=True)
 
-        page.get_by_role("link", name="Asset trend and PD", exact=True).first.click()
-        page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=60000)
-        _settle(page)
+        pd_metric = page.locator('[data-testid="stMetric"]', has_text="PD in force").first
+        open_page(page, "Asset trend and PD", wait_for=pd_metric)
         before = _metric(page, "PD in force")
         page.screenshot(path=str(ARTIFACTS / "02_asset_pd_before.png"), full_page=True)
 
@@ -128,18 +92,14 @@ def test_default_point_moves_pd(server):
             ],
             start=5,
         ):
-            page.get_by_role("link", name=name, exact=True).first.click()
-            page.get_by_role("heading", name=name).first.wait_for(timeout=60000)
-            _settle(page)
+            open_page(page, name)
             page.screenshot(
                 path=str(ARTIFACTS / f"{index:02d}_{name.split()[0].lower().strip(',-')}.png"), full_page=True
             )
             assert not page.get_by_text("Traceback").count()
 
         # What-if: a control moves the PD metric and redraws the heat map and tornado.
-        page.get_by_role("link", name="What-if and scenarios", exact=True).first.click()
-        page.locator('[data-testid="stMetric"]', has_text="PD in force").first.wait_for(timeout=60000)
-        _settle(page)
+        open_page(page, "What-if and scenarios", wait_for=pd_metric)
         before = _metric(page, "PD in force")
         # The case's share is 100 % after the edit above; the what-if lightens it.
         box = page.get_by_role("textbox", name="Long-term share of the default point (%)", exact=True)
@@ -164,9 +124,9 @@ def test_default_point_moves_pd(server):
 
         # The autosave keeps what was typed: a fresh load of the same address restores it.
         page.reload(wait_until="networkidle")
-        page.get_by_role("link", name="Asset trend and PD", exact=True).first.click()
-        page.get_by_role("textbox", name="Long-term share (%)", exact=True).wait_for(timeout=60000)
-        _settle(page)
+        open_page(
+            page, "Asset trend and PD", wait_for=page.get_by_role("textbox", name="Long-term share (%)", exact=True)
+        )
         assert page.get_by_role("textbox", name="Long-term share (%)", exact=True).input_value() == "100"
         browser.close()
     saved = list((Path(workdir) / "cases").glob("*.json"))
