@@ -28,6 +28,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from obligor_memo.app import settings
+from obligor_memo.app.memo.weasy import weasyprint
 
 CONVERTER_VARIABLE = settings.SVG_CONVERTER
 CONVERTER_NAME = "rsvg-convert"
@@ -172,7 +173,8 @@ def _with_weasyprint(svgs: Sequence[str]) -> bytes:
     from xml.etree import ElementTree
 
     from obligor_memo.app.memo.fetch import memo_fetcher
-    from weasyprint import HTML
+
+    HTML = weasyprint().HTML
     from weasyprint.urls import URLFetcher, URLFetcherResponse
 
     body = []

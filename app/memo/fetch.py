@@ -11,6 +11,7 @@ from pathlib import Path
 from typing import Any
 
 from obligor_memo.app.memo.templates import ASSETS_DIR
+from obligor_memo.app.memo.weasy import weasyprint
 
 CHART_SCHEME = "memo-chart:"
 CHART_ANCHOR = "memo-chart-{}"  # the id of chart N's box in the HTML
@@ -36,6 +37,7 @@ def memo_fetcher(allowed_data_uris: set[str], chart_sizes: list[tuple[int, int]]
     Any
         The fetcher, a ``weasyprint.urls.URLFetcher``.
     """
+    weasyprint()  # imported with the quick library lookup
     from weasyprint.urls import URLFetcher, URLFetcherResponse
 
     allowed = set(allowed_data_uris)

@@ -17,6 +17,7 @@ from obligor_memo.app.memo import chart_pages
 from obligor_memo.app.memo.chart_pages import Placement
 from obligor_memo.app.memo.fetch import CHART_ANCHOR, memo_fetcher
 from obligor_memo.app.memo.templates import ASSETS_DIR, PAGE_SIZES, TEMPLATES_DIR
+from obligor_memo.app.memo.weasy import weasyprint
 
 # Fonts subset (the PDF stays small), no hinting (not needed on paper), images as they are.
 WRITE_OPTIONS: dict[str, Any] = {"full_fonts": False, "hinting": False, "optimize_images": False}
@@ -58,7 +59,7 @@ def objects_set_aside() -> Iterator[None]:
 
 
 def _sheets(page_size: str, fetcher: Any) -> list[Any]:
-    from weasyprint import CSS
+    CSS = weasyprint().CSS
 
     sheets = [
         CSS(string=(TEMPLATES_DIR / name).read_text(encoding="utf-8"), url_fetcher=fetcher) for name in STYLESHEETS
@@ -99,7 +100,7 @@ def lay_out(
     ChartPagesError
         If this WeasyPrint does not report box sizes (before version 70).
     """
-    from weasyprint import HTML
+    HTML = weasyprint().HTML
 
     fetcher = fetcher or memo_fetcher(set(), list(chart_sizes))
     with objects_set_aside():

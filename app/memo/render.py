@@ -26,6 +26,7 @@ from obligor_memo.app.memo.fetch import CHART_SCHEME, memo_fetcher
 from obligor_memo.app.memo.figures import ChartJob, export_charts
 from obligor_memo.app.memo.templates import PAGE_SIZES
 from obligor_memo.app.memo.view import memo_html
+from obligor_memo.app.memo.weasy import weasyprint
 
 # Any fixed instant works; a PDF reader shows it as the document date, so it is stated plainly.
 FIXED_PDF_DATE = datetime(2000, 1, 1, tzinfo=UTC)
@@ -173,7 +174,7 @@ def html_to_pdf(
     ChartsUnavailable
         If the charts could not be drawn or placed.
     """
-    from weasyprint import Attachment
+    Attachment = weasyprint().Attachment
 
     sizes = [figure_size(fig) for fig in charts.figures.values()] if charts is not None else []
     fetcher = url_fetcher or memo_fetcher(allowed_data_uris, sizes)
