@@ -11,6 +11,7 @@ import json
 import logging
 import sys
 from pathlib import Path
+from typing import Any
 
 import click
 from obligor_memo.app import settings
@@ -119,16 +120,18 @@ def memo(case: Path, output: Path, page_size: str | None, no_charts: bool, annex
         )
     browser = None
     try:
-        if not no_charts:
+        from obligor_memo.engine.loading import load_case
+
+        loaded = load_case(case)
+        if not no_charts and not _memo_drawn_before(loaded, page_size, annex):
             # The browser is the slowest part of a cold memo, so it starts first, while the case
-            # is read and analysed (a bad case still fails at once and closes it); the memo
-            # closes it as soon as the charts are drawn, before the PDF is written.
+            # is analysed; the memo closes it as soon as the charts are drawn, before the PDF is
+            # written. A memo whose charts are all kept from an earlier print starts none.
             browser = ChartExporter().start(wait=False)
         from obligor_memo.app.memo import render_memo_pdf
         from obligor_memo.engine.analysis import analyse
-        from obligor_memo.engine.loading import load_case
 
-        results = analyse(load_case(case))
+        results = analyse(loaded)
         pdf = render_memo_pdf(results, charts=not no_charts, page_size=page_size, exporter=browser, annex=annex)
     except ChartsUnavailable as exc:
         _fail(f"The memo was not written: {exc}")
@@ -139,6 +142,18 @@ def memo(case: Path, output: Path, page_size: str | None, no_charts: bool, annex
     partial.write_bytes(pdf)
     partial.replace(output)
     click.echo(f"Wrote {output} ({len(pdf):,} bytes).")
+
+
+def _memo_drawn_before(case: Any, page_size: str | None, annex: bool) -> bool:
+    """Whether every chart of this memo is kept on disk from an earlier print (no browser needed)."""
+    from obligor_memo.app.memo import chart_cache
+    from obligor_memo.app.memo.render import printed_case
+    from obligor_memo.engine.evaluate import fingerprint
+
+    if chart_cache.cache_dir() is None:
+        return False
+    printed = printed_case(case, page_size or case.memo.page_size)
+    return chart_cache.memo_drawn(chart_cache.memo_key(fingerprint(printed), annex=annex))
 
 
 @main.command()

@@ -18,6 +18,8 @@ SVG_CONVERTER = "OBLIGOR_MEMO_SVG_CONVERTER"
 WORKDIR = "OBLIGOR_MEMO_WORKDIR"
 CHART_PRESTART = "OBLIGOR_MEMO_CHART_PRESTART"
 DEBUG = "OBLIGOR_MEMO_DEBUG"
+CHART_CACHE = "OBLIGOR_MEMO_CHART_CACHE"
+CACHE_HOME = "XDG_CACHE_HOME"
 
 
 @dataclass(frozen=True)
@@ -37,6 +39,9 @@ class Settings:
     when the memo page opens (it then starts at the first print)."""
     debug: bool
     """``OBLIGOR_MEMO_DEBUG``: any value makes the command line print tracebacks of internal errors."""
+    chart_cache: Path | None
+    """``OBLIGOR_MEMO_CHART_CACHE``: the folder of kept chart drawings, 'off' for none; unset:
+    ``$XDG_CACHE_HOME/obligor-memo/charts``, else ``~/.cache/obligor-memo/charts``."""
 
 
 def _text(name: str) -> str | None:
@@ -51,9 +56,16 @@ def current() -> Settings:
     -------
     Settings
         Every variable as set now, stripped; None where unset or empty (the folder and the two
-        switches with their defaults applied).
+        switches and the chart cache with their defaults applied).
     """
     workdir = _text(WORKDIR)
+    cache = _text(CHART_CACHE)
+    if cache is None:
+        chart_cache: Path | None = (
+            Path(_text(CACHE_HOME) or Path.home() / ".cache").expanduser() / "obligor-memo" / "charts"
+        )
+    else:
+        chart_cache = None if cache.lower() == "off" else Path(cache).expanduser()
     return Settings(
         browser_path=_text(BROWSER_PATH),
         chart_timeout=_text(CHART_TIMEOUT),
@@ -61,6 +73,7 @@ def current() -> Settings:
         workdir=Path(workdir).expanduser() if workdir else Path.home() / ".obligor-memo",
         chart_prestart=_text(CHART_PRESTART) != "0",
         debug=_text(DEBUG) is not None,
+        chart_cache=chart_cache,
     )
 
 

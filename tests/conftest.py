@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import copy
 import json
+import os
 import shutil
 import sys
 from collections.abc import Callable
@@ -17,6 +18,10 @@ from typing import Any
 
 import pytest
 import yaml
+
+# Chart drawings are kept on disk for users (app/memo/chart_cache.py); a test that counts browser
+# starts or provokes browser faults must draw, so the suite keeps none unless a test sets a folder.
+os.environ.setdefault("OBLIGOR_MEMO_CHART_CACHE", "off")
 
 ROOT = Path(__file__).resolve().parents[1]
 SAMPLE_CASE = ROOT / "sample_data" / "hollowmere.yaml"

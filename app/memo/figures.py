@@ -17,6 +17,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
+from obligor_memo.app.memo import chart_cache
 from obligor_memo.app.memo.chart_browser import (
     ChartExporter,
     ChartsUnavailable,
@@ -198,7 +199,7 @@ _CACHE_LOCK = threading.Lock()
 
 
 def figure_key(fig: Any) -> str:
-    """The SVG cache's key of a figure: its JSON, export width and the kaleido version, hashed.
+    """The SVG cache's key of a figure: its JSON, export width and the drawing tools' versions, hashed.
 
     Parameters
     ----------
@@ -210,14 +211,8 @@ def figure_key(fig: Any) -> str:
     str
         The SHA-256 hex digest.
     """
-    spec = fig.to_json() + f"|{getattr(fig, '_memo_width', 760)}|{_kaleido_version()}"
+    spec = fig.to_json() + f"|{getattr(fig, '_memo_width', 760)}|{chart_cache.drawing_versions()}"
     return hashlib.sha256(spec.encode("utf-8")).hexdigest()
-
-
-def _kaleido_version() -> str:
-    from importlib.metadata import version
-
-    return version("kaleido")
 
 
 def svg_data_uri(svg: str) -> str:
@@ -239,8 +234,9 @@ def svg_data_uri(svg: str) -> str:
 def export_figures(figures: dict[str, Any], *, exporter: ChartExporter | None = None) -> dict[str, str]:
     """SVG text of each figure, from the cache or drawn by a chart browser.
 
-    Figures not in the cache are drawn in one batch and slimmed (:func:`slim_svg`) before they
-    are cached; the cache keeps the last 64 drawings.
+    Figures in neither the process's cache nor the folder of kept drawings
+    (:mod:`.chart_cache`) are drawn in one batch and slimmed (:func:`slim_svg`), then kept in
+    both; the process keeps the last 64 drawings.
 
     Parameters
     ----------
@@ -263,6 +259,11 @@ def export_figures(figures: dict[str, Any], *, exporter: ChartExporter | None = 
     keys = {key: figure_key(fig) for key, fig in figures.items()}
     with _CACHE_LOCK:
         missing = {key: fig for key, fig in figures.items() if keys[key] not in _SVG_CACHE}
+    if missing:  # drawn by an earlier process?
+        kept = chart_cache.read(keys[key] for key in missing)
+        with _CACHE_LOCK:
+            _SVG_CACHE.update(kept)
+        missing = {key: fig for key, fig in missing.items() if keys[key] not in kept}
     if missing:
         own = None
         chosen = exporter or running_exporter()
@@ -273,9 +274,10 @@ def export_figures(figures: dict[str, Any], *, exporter: ChartExporter | None = 
         finally:
             if own is not None:
                 own.close()
+        slimmed = {keys[key]: slim_svg(svg) for key, svg in drawn.items()}
+        chart_cache.write(slimmed)
         with _CACHE_LOCK:
-            for key, svg in drawn.items():
-                _SVG_CACHE[keys[key]] = slim_svg(svg)
+            _SVG_CACHE.update(slimmed)
             while len(_SVG_CACHE) > _SVG_CACHE_SIZE:
                 _SVG_CACHE.pop(next(iter(_SVG_CACHE)))
     with _CACHE_LOCK:
@@ -317,10 +319,14 @@ def export_charts(results: Any, annex: bool = True) -> tuple[dict[str, str], dic
 
 
 def _all_drawn(figures: dict[str, Any]) -> bool:
-    """Every figure's SVG is in the cache already."""
+    """Every figure's SVG is in the process's cache or kept on disk already."""
     keys = [figure_key(fig) for fig in figures.values()]
     with _CACHE_LOCK:
-        return all(key in _SVG_CACHE for key in keys)
+        missing = [key for key in keys if key not in _SVG_CACHE]
+    kept = chart_cache.read(missing) if missing else {}
+    with _CACHE_LOCK:
+        _SVG_CACHE.update(kept)
+    return len(kept) == len(missing)
 
 
 class ChartJob:
@@ -365,8 +371,10 @@ class ChartJob:
         # The first memo of a process starts its browser at once, so that it comes up while the
         # figures are built. A later one (a reprint: its figures were probably drawn before)
         # builds them first and starts a browser only if one of them is not drawn yet; starting
-        # and closing an unused browser cost about 1.5 s of CPU beside the layout.
-        early = exporter is None and running_exporter() is None and not _SVG_CACHE
+        # and closing an unused browser cost about 1.5 s of CPU beside the layout. With drawings
+        # kept on disk, any memo may be a reprint: the command line decides before the analysis
+        # (see chart_cache.memo_drawn) and passes the browser it started, if any.
+        early = exporter is None and running_exporter() is None and not _SVG_CACHE and chart_cache.cache_dir() is None
         own = exporter or (ChartExporter().start(wait=False) if early else None)
         try:
             self.figures, self.notes = build_figures(results, annex)
@@ -377,6 +385,7 @@ class ChartJob:
                 own.close(force=True)
             raise
         exporter = own or running_exporter()
+        self._memo_key = chart_cache.memo_key(results.fingerprint, annex=annex) if chart_cache.cache_dir() else None
         self._timeout = exporter.timeout if exporter is not None else chart_timeout()
         self._future: concurrent.futures.Future[tuple[dict[str, str], bytes]] = concurrent.futures.Future()
         self._thread = threading.Thread(target=self._draw, args=(own,), name="memo-chart-job", daemon=True)
@@ -387,6 +396,8 @@ class ChartJob:
 
         try:
             svgs = export_figures(self.figures, exporter=own)
+            if self._memo_key is not None:  # the next process printing this memo needs no browser
+                chart_cache.remember_memo(self._memo_key, (figure_key(fig) for fig in self.figures.values()))
             if own is not None:
                 own.close()  # the browser is not needed for the PDF pages
                 own = None

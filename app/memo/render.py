@@ -120,8 +120,28 @@ def as_printed(results: Any, size: str) -> Any:
 
     from obligor_memo.engine.evaluate import fingerprint
 
-    case = results.case.model_copy(update={"memo": results.case.memo.model_copy(update={"page_size": size})})
+    case = printed_case(results.case, size)
     return dataclasses.replace(results, case=case, fingerprint=fingerprint(case))
+
+
+def printed_case(case: Any, size: str) -> Any:
+    """The case as a memo on ``size`` paper embeds it: ``memo.page_size`` set to the paper.
+
+    Parameters
+    ----------
+    case : Any
+        A validated case (``engine.case.Case``).
+    size : str
+        The paper size printed on, "A4" or "Letter".
+
+    Returns
+    -------
+    Any
+        ``case`` itself when it says ``size`` already, else a copy that does.
+    """
+    if case.memo.page_size == size:
+        return case
+    return case.model_copy(update={"memo": case.memo.model_copy(update={"page_size": size})})
 
 
 def html_to_pdf(
