@@ -304,6 +304,9 @@ def main() -> int:
         print(json.dumps(ITEMS[args.item](args.quick)))
         return 0
 
+    # Chart drawings kept on disk would turn every memo after the first into a reprint: the
+    # figures here are first prints (bench_memo.py times the reprint beside them).
+    os.environ["OBLIGOR_MEMO_CHART_CACHE"] = "off"
     repeats = 3 if args.quick else 10
     wanted = set(args.only or [])
     figures: dict[str, dict] = {}
