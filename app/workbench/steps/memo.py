@@ -119,7 +119,8 @@ def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
     annex = bool(ss.get("memo_annex", False))
     key = (results.fingerprint, charts, annex)
     ss.memo_chart_problem = None
-    ss.memo_print_failed = None
+    if ss.get("memo_print_failed") == key:  # tried again: it may print ahead again if this works
+        ss.memo_print_failed = None
     printer = print_ahead.printer()
     job = printer.job(key) if charts else None
     if job is not None and job.cancel():  # still queued behind another print: print it here
