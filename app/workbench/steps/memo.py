@@ -109,6 +109,23 @@ def _waited(job: print_ahead.PrintJob, say: Callable[[str], None]) -> bytes:
         job.wait(POLL_SECONDS)
 
 
+def _failed(printer: print_ahead.Printer, job: print_ahead.PrintJob | None, key: print_ahead.Key) -> None:
+    """After a failed print: not printed ahead again for this key, and its job (if any) forgotten.
+
+    Parameters
+    ----------
+    printer : print_ahead.Printer
+        The process's print worker.
+    job : print_ahead.PrintJob | None
+        The print ahead the click waited for, if it did.
+    key : print_ahead.Key
+        (fingerprint, charts, annex) of the print.
+    """
+    st.session_state.memo_print_failed = key  # the next click prints afresh, here
+    if job is not None:
+        printer.forget(job)
+
+
 def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
     """Print the memo into the session, its steps shown as they run; a failure leaves a message.
 
@@ -144,17 +161,13 @@ def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
             status.update(label="The memo is printed: download it below.", state="complete")
         except memo_module.ChartsUnavailable as exc:
             ss.memo_chart_problem = str(exc)
-            ss.memo_print_failed = key
+            _failed(printer, job, key)
             status.update(label="The charts could not be drawn.", state="error")
         except Exception as exc:  # the renderer's failure must not reach the screen raw
             log.exception("the memo could not be printed")
-            ss.memo_print_failed = key
+            _failed(printer, job, key)
             status.update(label="The memo could not be printed.", state="error")
             st.error(f"The memo could not be printed ({type(exc).__name__}: {exc}). Your inputs are kept.")
-        finally:
-            failed = job is not None and job.future.done() and (job.future.cancelled() or job.future.exception())
-            if job is not None and failed:
-                printer.forget(job)  # the failure was shown: the next click prints afresh
 
 
 def _print_ahead(results: Any, full: Any) -> None:
