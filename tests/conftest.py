@@ -97,3 +97,12 @@ def sample_results(sample_case):
     from obligor_memo.engine.evaluate import evaluate
 
     return evaluate(sample_case)
+
+
+@pytest.fixture(autouse=True)
+def _no_print_ahead_left():
+    """No memo printed ahead outlives its test (nor is found by the next one for the same case)."""
+    yield
+    module = sys.modules.get("obligor_memo.app.workbench.print_ahead")
+    if module is not None:
+        module.printer().clear(timeout=120)

@@ -8,10 +8,10 @@ import subprocess
 from pathlib import Path
 
 import pytest
-from browser_support import edit_cell
+from browser_support import ROOT, edit_cell
 from click.testing import CliRunner
 from obligor_memo.app.cli import main
-from test_browser import ARTIFACTS, CHROMIUM, ROOT, _settle, server  # noqa: F401  (fixture)
+from test_browser import ARTIFACTS, CHROMIUM, _settle, server  # noqa: F401  (fixture)
 
 pytestmark = [pytest.mark.browser, pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="needs the system Chromium")]
 

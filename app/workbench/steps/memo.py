@@ -5,13 +5,14 @@ from __future__ import annotations
 import importlib
 import logging
 import re
+import uuid
 from collections.abc import Callable
 from typing import Any
 
 import streamlit as st
 from obligor_memo.app import settings
 from obligor_memo.app.present.covenants import covenant_sentence
-from obligor_memo.app.workbench import grids, state
+from obligor_memo.app.workbench import grids, print_ahead, state
 from obligor_memo.app.workbench import ui as _ui
 
 log = logging.getLogger(__name__)
@@ -66,30 +67,139 @@ def _results_workbook(case: Any) -> Callable[[], bytes]:
     return build
 
 
+POLL_SECONDS = 0.05  # how often the click looks at a print ahead's progress [s]
+
+
+def _session_token() -> str:
+    """The browser session's name for the print-ahead worker (a session cancels only its own jobs)."""
+    ss = st.session_state
+    if "memo_print_session" not in ss:
+        ss.memo_print_session = uuid.uuid4().hex
+    return str(ss.memo_print_session)
+
+
+def _waited(job: print_ahead.PrintJob, say: Callable[[str], None]) -> bytes:
+    """The PDF of a print ahead that has started, each step told as the job reaches it.
+
+    Parameters
+    ----------
+    job : print_ahead.PrintJob
+        A job the worker has taken (printing, or finished).
+    say : Callable[[str], None]
+        Told each step's name once, in order.
+
+    Returns
+    -------
+    bytes
+        The memo's PDF.
+
+    Raises
+    ------
+    Exception
+        The print's own failure, as the job raised it.
+    """
+    shown = 0
+    while True:
+        steps = job.steps()
+        for step in steps[shown:]:
+            say(step)
+        shown = len(steps)
+        if job.future.done():
+            return job.result()
+        job.wait(POLL_SECONDS)
+
+
+def _failed(printer: print_ahead.Printer, job: print_ahead.PrintJob | None, key: print_ahead.Key) -> None:
+    """After a failed print: not printed ahead again for this key, and its job (if any) forgotten.
+
+    Parameters
+    ----------
+    printer : print_ahead.Printer
+        The process's print worker.
+    job : print_ahead.PrintJob | None
+        The print ahead the click waited for, if it did.
+    key : print_ahead.Key
+        (fingerprint, charts, annex) of the print.
+    """
+    st.session_state.memo_print_failed = key  # the next click prints afresh, here
+    if job is not None:
+        printer.forget(job)
+
+
 def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
-    """Print the memo into the session, its steps shown as they run; a failure leaves a message."""
+    """Print the memo into the session, its steps shown as they run; a failure leaves a message.
+
+    A print ahead of this case (same fingerprint, charts and annex) that has started is waited
+    for; one still queued is cancelled and the memo printed here.
+    """
     ss = st.session_state
     annex = bool(ss.get("memo_annex", False))
+    key = (results.fingerprint, charts, annex)
     ss.memo_chart_problem = None
+    if ss.get("memo_print_failed") == key:  # tried again: it may print ahead again if this works
+        ss.memo_print_failed = None
+    printer = print_ahead.printer()
+    job = printer.job(key) if charts else None
+    if job is not None and job.cancel():  # still queued behind another print: print it here
+        printer.forget(job)
+        job = None
     with st.status("Printing the memo..." if charts else "Printing the memo without charts...") as status:
+
+        def say(step: str) -> None:
+            if step in STEPS and (charts or step != "charts"):
+                status.write(STEPS[step])
+
         try:
-            status.write(STEPS["analysis"])
-            full = _ui.analysed(results.case)
-
-            def say(step: str) -> None:
-                if step in STEPS and (charts or step != "charts"):
-                    status.write(STEPS[step])
-
-            pdf = memo_module.render_memo_pdf(full, charts=charts, progress=say, annex=annex)
+            if job is not None:
+                pdf = _waited(job, say)
+            else:
+                say("analysis")
+                full = _ui.analysed(results.case)
+                with print_ahead.PRINTING:
+                    pdf = memo_module.render_memo_pdf(full, charts=charts, progress=say, annex=annex)
             ss.memo_pdf = (results.fingerprint, pdf, charts, annex)
             status.update(label="The memo is printed: download it below.", state="complete")
         except memo_module.ChartsUnavailable as exc:
             ss.memo_chart_problem = str(exc)
+            _failed(printer, job, key)
             status.update(label="The charts could not be drawn.", state="error")
         except Exception as exc:  # the renderer's failure must not reach the screen raw
             log.exception("the memo could not be printed")
+            _failed(printer, job, key)
             status.update(label="The memo could not be printed.", state="error")
             st.error(f"The memo could not be printed ({type(exc).__name__}: {exc}). Your inputs are kept.")
+
+
+def _print_ahead(results: Any, full: Any) -> None:
+    """Start printing the memo of this case on the worker, unless it is printed or cannot be.
+
+    Parameters
+    ----------
+    results : Any
+        The page's results (their fingerprint names the case).
+    full : Any
+        The same case analysed (what the memo prints).
+    """
+    ss = st.session_state
+    annex = bool(ss.get("memo_annex", False))
+    key = (results.fingerprint, True, annex)
+    held = ss.get("memo_pdf")
+    if held and (held[0], held[2], held[3]) == key:
+        return  # printed already
+    if ss.get("memo_print_failed") == key or ss.get("memo_chart_problem"):
+        return  # the click showed why it failed; the next click prints again itself
+    if full.fingerprint != results.fingerprint:  # never print one case under another's name
+        log.warning("the analysed case does not match the page's case: no print ahead")
+        return
+    memo_module = _memo_module()
+    if memo_module is None:
+        return
+    render = memo_module.render_memo_pdf
+
+    def job(progress: Callable[[str], None]) -> bytes:
+        return bytes(render(full, charts=True, progress=progress, annex=annex))
+
+    print_ahead.printer().submit(key, _session_token(), job)
 
 
 def _memo_print_panel(results: Any, stem: str) -> None:
@@ -240,8 +350,15 @@ with right:
 # A print starts from the analysed case (sensitivity, PD grid, scenarios). It is computed here,
 # once the page is on screen, so that the click on Print after a change does not wait for it:
 # cached by the case's fingerprint, and a rerun that interrupts the page keeps what finished.
+# The memo is then printed ahead on the process's one print worker, so that the click finds it
+# printed or printing (print_ahead.py); the worker gets the analysed case, never Streamlit.
 if results is not None:
     try:
-        _ui.analysed(results.case)
+        full = _ui.analysed(results.case)
     except Exception:  # the print reports it, with its message, when it is asked for
         log.info("the analysis ahead of printing failed", exc_info=True)
+    else:
+        try:
+            _print_ahead(results, full)
+        except Exception:  # the click prints it then, and reports any failure
+            log.warning("the memo could not be printed ahead", exc_info=True)
