@@ -228,8 +228,14 @@ def test_memo_page_analyses_the_case_before_the_click(tmp_path, monkeypatch):
 
     monkeypatch.setattr(analysis, "analyse", counted)
     monkeypatch.setenv("BROWSER_PATH", str(tmp_path / "no-such-chromium"))
+    from obligor_memo.app.workbench import print_ahead
+    from obligor_memo.app.workbench import ui as workbench_ui
+
     st.cache_resource.clear()
+    workbench_ui.ANALYSES.clear()
     at = _memo_page(tmp_path, monkeypatch)
+    for key in print_ahead.printer().keys():  # the print ahead analyses first, then fails (no browser)
+        print_ahead.printer().job(key).wait(120)
     assert len(calls) == 1  # the page on screen: analysed ahead of any click
     _button(at, "Print the memo (PDF)").click().run()  # no browser: the charts fail
     _button(at, "Print the memo without charts").click().run()

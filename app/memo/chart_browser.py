@@ -464,11 +464,8 @@ class ChartExporter:
             if force:
                 _kill_group(group)
             if loop is not None and browser is not None:
-                try:
-                    # Tidies the pipes and temporary folders; quick when the browser is dead.
-                    asyncio.run_coroutine_threadsafe(browser.close(), loop).result(timeout=1 if force else 10)
-                except BaseException:  # closing must go on: the group is killed next
-                    log.debug("the chart browser did not close cleanly", exc_info=True)
+                # Tidies the pipes and temporary folders; quick when the browser is dead.
+                _run_on(loop, browser.close(), 1 if force else 10, "the chart browser did not close cleanly")
             _kill_group(group)  # whatever still runs in the browser's group
             if loop is not None:
 
@@ -478,16 +475,29 @@ class ChartExporter:
                         task.cancel()
                     await asyncio.wait(tasks, timeout=1) if tasks else None
 
-                try:
-                    asyncio.run_coroutine_threadsafe(_cancel_rest(), loop).result(timeout=2)
-                except BaseException:  # the loop is stopped next in any case
-                    log.debug("the chart browser's tasks did not cancel in time", exc_info=True)
+                _run_on(loop, _cancel_rest(), 2, "the chart browser's tasks did not cancel in time")
                 loop.call_soon_threadsafe(loop.stop)
                 if self._thread is not None:
                     self._thread.join(timeout=5)
                 if not loop.is_running():
                     loop.close()
             self._thread = None
+
+
+def _run_on(loop: asyncio.AbstractEventLoop, coroutine: Any, timeout: float, failure: str) -> None:
+    """Run a closing step on the browser's loop; whatever goes wrong, closing goes on.
+
+    A coroutine that never started (the loop had already stopped) is closed here, so that it is
+    not left for the garbage collector to report as never awaited.
+    """
+    import inspect
+
+    try:
+        asyncio.run_coroutine_threadsafe(coroutine, loop).result(timeout=timeout)
+    except BaseException:  # closing must go on: the group is killed and the loop stopped next
+        log.debug(failure, exc_info=True)
+        if inspect.iscoroutine(coroutine) and inspect.getcoroutinestate(coroutine) == inspect.CORO_CREATED:
+            coroutine.close()
 
 
 _DRAWING_FAILED = "The browser failed while drawing the charts"

@@ -295,3 +295,81 @@ def printer() -> Printer:
         if _PRINTER is None:
             _PRINTER = Printer()
         return _PRINTER
+
+
+class _Interrupted(Exception):
+    """The caller computing a value stopped without a result or an error of its own."""
+
+
+class SharedValues:
+    """Values computed once per key and shared by every thread; a second caller waits for the first.
+
+    The analysed case is needed by the memo page's script thread and by the print worker at
+    about the same moment: whichever asks first computes it, the other waits for that result
+    instead of computing it a second time beside it. A failure is not kept (the next caller
+    tries again) and reaches every caller waiting for it. The last ``size`` values are kept.
+
+    Parameters
+    ----------
+    size : int, optional
+        How many values are kept.
+    """
+
+    def __init__(self, size: int = 32) -> None:
+        self._size = size
+        self._lock = threading.Lock()
+        self._values: OrderedDict[Hashable, Future[object]] = OrderedDict()
+
+    def get(self, key: Hashable, compute: Callable[[], object]) -> object:
+        """The value of ``key``, computed by ``compute`` unless kept or being computed.
+
+        Parameters
+        ----------
+        key : Hashable
+            The value's key.
+        compute : Callable[[], object]
+            Computes it (called at most once at a time per key).
+
+        Returns
+        -------
+        object
+            The value.
+
+        Raises
+        ------
+        Exception
+            What ``compute`` raised, in this caller or the one it waited for.
+        """
+        while True:
+            with self._lock:
+                future = self._values.get(key)
+                owner = future is None
+                if future is None:
+                    future = self._values[key] = Future()
+                    while len(self._values) > self._size:
+                        self._values.popitem(last=False)
+                else:
+                    self._values.move_to_end(key)
+            if owner:
+                return self._compute(key, future, compute)
+            try:
+                return future.result()
+            except _Interrupted:
+                continue  # the first caller was stopped: compute it here
+
+    def _compute(self, key: Hashable, future: Future[object], compute: Callable[[], object]) -> object:
+        try:
+            value = compute()
+        except BaseException as exc:
+            with self._lock:
+                if self._values.get(key) is future:
+                    del self._values[key]
+            future.set_exception(exc if isinstance(exc, Exception) else _Interrupted(repr(exc)))
+            raise
+        future.set_result(value)
+        return value
+
+    def clear(self) -> None:
+        """Forget every kept value (values being computed still reach their waiters)."""
+        with self._lock:
+            self._values.clear()

@@ -16,7 +16,7 @@ from typing import Any
 
 import streamlit as st
 from obligor_memo.app.present.formatting import millions, num, pct, pd_pct
-from obligor_memo.app.workbench import entry, grids, state
+from obligor_memo.app.workbench import entry, grids, print_ahead, state
 from obligor_memo.engine.errors import CaseError, Problem
 
 log = logging.getLogger(__name__)
@@ -71,20 +71,24 @@ def evaluate_dict(data: dict[str, Any]) -> tuple[Any | None, tuple[Problem, ...]
         return None, (), f"{type(exc).__name__}: {exc}"
 
 
-@st.cache_resource(max_entries=32, show_spinner=False)
-def _analyse_cached(key: str, _case: Any) -> Any:
-    # ``key`` is the case's fingerprint (SHA-256 of its canonical JSON): the case itself is
-    # not hashed by Streamlit, and Results is frozen, so sharing one object is safe.
+ANALYSES = print_ahead.SharedValues(size=32)
+"""The analysed cases of the process, by fingerprint: shared by every session and by the print
+worker (whichever asks first computes; Results is frozen, so sharing one object is safe)."""
+
+
+def _analyse(case: Any) -> Any:
     from obligor_memo.engine.analysis import analyse
     from obligor_memo.engine.evaluate import evaluate
 
-    return analyse(_case, evaluate(_case))
+    return analyse(case, evaluate(case))
 
 
 def analysed(case: Any) -> Any:
     """engine.analysis.analyse of a validated case (sensitivity, PD grid, scenarios), cached.
 
-    The cache is keyed by the case's fingerprint.
+    The cache (:data:`ANALYSES`) is keyed by the case's fingerprint and shared by every session
+    and the print worker; a caller asking while another computes the same case waits for it.
+    No Streamlit call is made, so the print worker may call it.
 
     Parameters
     ----------
@@ -103,7 +107,7 @@ def analysed(case: Any) -> Any:
     """
     from obligor_memo.engine.evaluate import fingerprint
 
-    return _analyse_cached(fingerprint(case), case)
+    return ANALYSES.get(fingerprint(case), lambda: _analyse(case))
 
 
 # --------------------------------------------------------------------------- session

@@ -170,15 +170,16 @@ def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
             st.error(f"The memo could not be printed ({type(exc).__name__}: {exc}). Your inputs are kept.")
 
 
-def _print_ahead(results: Any, full: Any) -> None:
+def _print_ahead(results: Any) -> None:
     """Start printing the memo of this case on the worker, unless it is printed or cannot be.
+
+    The worker analyses the case first (:func:`ui.analysed`, shared with this page), so the
+    print starts as soon as the page is drawn rather than after the analysis.
 
     Parameters
     ----------
     results : Any
         The page's results (their fingerprint names the case).
-    full : Any
-        The same case analysed (what the memo prints).
     """
     ss = st.session_state
     annex = bool(ss.get("memo_annex", False))
@@ -188,15 +189,16 @@ def _print_ahead(results: Any, full: Any) -> None:
         return  # printed already
     if ss.get("memo_print_failed") == key or ss.get("memo_chart_problem"):
         return  # the click showed why it failed; the next click prints again itself
-    if full.fingerprint != results.fingerprint:  # never print one case under another's name
-        log.warning("the analysed case does not match the page's case: no print ahead")
-        return
     memo_module = _memo_module()
     if memo_module is None:
         return
-    render = memo_module.render_memo_pdf
+    render, case, analysed = memo_module.render_memo_pdf, results.case, _ui.analysed
 
     def job(progress: Callable[[str], None]) -> bytes:
+        progress("analysis")
+        full = analysed(case)
+        if full.fingerprint != key[0]:  # never print one case under another's name
+            raise RuntimeError("the analysed case does not match the page's case")
         return bytes(render(full, charts=True, progress=progress, annex=annex))
 
     print_ahead.printer().submit(key, _session_token(), job)
@@ -347,18 +349,21 @@ with right:
         )
     _memo_print_panel(results, stem)
 
-# A print starts from the analysed case (sensitivity, PD grid, scenarios). It is computed here,
-# once the page is on screen, so that the click on Print after a change does not wait for it:
-# cached by the case's fingerprint, and a rerun that interrupts the page keeps what finished.
-# The memo is then printed ahead on the process's one print worker, so that the click finds it
-# printed or printing (print_ahead.py); the worker gets the analysed case, never Streamlit.
+# A print starts from the analysed case (sensitivity, PD grid, scenarios). Once the page is on
+# screen, the memo is printed ahead on the process's one print worker, which analyses the case
+# first (print_ahead.py): the click finds it printed or printing. Where no print ahead is
+# needed, the case is still analysed here, for the results workbook and a later click.
 if results is not None:
+    submitted = False
     try:
-        full = _ui.analysed(results.case)
-    except Exception:  # the print reports it, with its message, when it is asked for
-        log.info("the analysis ahead of printing failed", exc_info=True)
-    else:
+        _print_ahead(results)
+        submitted = (
+            print_ahead.printer().job((results.fingerprint, True, bool(ss.get("memo_annex", False)))) is not None
+        )
+    except Exception:  # the click prints it then, and reports any failure
+        log.warning("the memo could not be printed ahead", exc_info=True)
+    if not submitted:
         try:
-            _print_ahead(results, full)
-        except Exception:  # the click prints it then, and reports any failure
-            log.warning("the memo could not be printed ahead", exc_info=True)
+            _ui.analysed(results.case)
+        except Exception:  # the print reports it, with its message, when it is asked for
+            log.info("the analysis ahead of printing failed", exc_info=True)
