@@ -322,3 +322,93 @@ def test_a_failed_print_ahead_is_reported_at_the_click_and_not_retried_on_its_ow
     assert tries == [True, False] and print_ahead.printer().keys() == []
     _click_print(at)  # the click tries again itself
     assert tries == [True, False, True]
+
+
+# --------------------------------------------------------------------------- shared analyses
+
+
+def test_a_value_asked_for_twice_at_once_is_computed_once():
+    from obligor_memo.app.workbench.print_ahead import SharedValues
+
+    values, gate, calls = SharedValues(), threading.Event(), []
+
+    def compute():
+        calls.append(1)
+        assert gate.wait(WAIT)
+        return object()
+
+    got: list[object] = []
+    threads = [threading.Thread(target=lambda: got.append(values.get("case", compute))) for _ in range(3)]
+    for thread in threads:
+        thread.start()
+    gate.set()
+    for thread in threads:
+        thread.join(WAIT)
+    assert len(calls) == 1 and len(got) == 3 and got[0] is got[1] is got[2]
+    assert values.get("case", compute) is got[0] and len(calls) == 1  # kept
+
+
+def test_a_failure_reaches_the_waiter_and_is_not_kept():
+    from obligor_memo.app.workbench.print_ahead import SharedValues
+
+    values, entered, release = SharedValues(), threading.Event(), threading.Event()
+
+    def failing():
+        entered.set()
+        assert release.wait(WAIT)
+        raise ValueError("statements: got no year; allowed: at least two years")
+
+    first = threading.Thread(target=lambda: pytest.raises(ValueError, values.get, "case", failing))
+    first.start()
+    assert entered.wait(WAIT)
+    waiter_errors: list[BaseException] = []
+
+    def waiter():
+        try:
+            values.get("case", lambda: "never computed: the first caller computes it")
+        except ValueError as exc:
+            waiter_errors.append(exc)
+
+    second = threading.Thread(target=waiter)
+    second.start()
+    release.set()
+    first.join(WAIT)
+    second.join(WAIT)
+    assert [str(e) for e in waiter_errors] == ["statements: got no year; allowed: at least two years"]
+    assert values.get("case", lambda: "fixed") == "fixed"  # the failure was not kept
+
+
+def test_a_stopped_first_caller_leaves_the_value_to_the_next():
+    from obligor_memo.app.workbench.print_ahead import SharedValues
+
+    values, entered, release = SharedValues(), threading.Event(), threading.Event()
+
+    class Stopped(BaseException):  # as a script run stopped by the framework
+        pass
+
+    def stopped():
+        entered.set()
+        assert release.wait(WAIT)
+        raise Stopped
+
+    first = threading.Thread(target=lambda: pytest.raises(Stopped, values.get, "case", stopped))
+    first.start()
+    assert entered.wait(WAIT)
+    got: list[object] = []
+    second = threading.Thread(target=lambda: got.append(values.get("case", lambda: "computed by the waiter")))
+    second.start()
+    release.set()
+    first.join(WAIT)
+    second.join(WAIT)
+    assert got == ["computed by the waiter"]
+
+
+def test_shared_values_keep_the_most_recent():
+    from obligor_memo.app.workbench.print_ahead import SharedValues
+
+    values = SharedValues(size=2)
+    for name in ("a", "b", "c"):
+        values.get(name, lambda name=name: name.upper())
+    values.get("b", lambda: "not again")
+    assert values.get("c", lambda: "not again") == "C"
+    assert values.get("a", lambda: "again") == "again"  # the oldest went first
