@@ -184,14 +184,16 @@ def test_the_command_prints_again_without_a_browser_and_the_same_bytes(kept, tmp
     out_first, out_again = tmp_path / "first.pdf", tmp_path / "again.pdf"
     first = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(out_first)])
     assert first.exit_code == 0, first.output
-    assert len(starts) == 1
+    # One start, or two when a page failed while drawing in a busy browser (export_svg's retry).
+    drawn_first = len(starts)
+    assert drawn_first >= 1
     assert list(kept.glob(f"*{chart_cache.INDEX_SUFFIX}"))
 
     monkeypatch.setattr(memo_figures, "_SVG_CACHE", {})  # as in a new process
     monkeypatch.setattr(chart_pages, "_PAGES_CACHE", {})
     again = CliRunner().invoke(main, ["memo", str(sample_case_path), "-o", str(out_again)])
     assert again.exit_code == 0, again.output
-    assert len(starts) == 1  # no browser for the reprint
+    assert len(starts) == drawn_first  # no browser for the reprint
 
     # The same drawings, placed the same way: with one print time, not one byte differs.
     from obligor_memo.engine.analysis import analyse
@@ -204,5 +206,5 @@ def test_the_command_prints_again_without_a_browser_and_the_same_bytes(kept, tmp
     monkeypatch.setattr(memo_figures, "_SVG_CACHE", {})
     monkeypatch.setattr(chart_pages, "_PAGES_CACHE", {})
     drawn_anew = memo.render_memo_pdf(results, generated_at=stamp)
-    assert len(starts) == 2
+    assert len(starts) > drawn_first  # drawn anew: a browser started
     assert from_disk == drawn_anew
