@@ -190,6 +190,10 @@ def test_memo_page_reports_the_fault_and_prints_without_charts(kind, tmp_path, m
     assert not at.exception
     assert [d.proto.label for d in _downloads(at)] == ["Memo without charts (PDF)"]
     assert at.session_state["memo_pdf"][1].startswith(b"%PDF-")
+    # Nothing starts the faulty browser again ahead of a click: not the edit, not the plain print.
+    from obligor_memo.app.workbench import print_ahead
+
+    assert not [key for key in print_ahead.printer().keys() if key[1]]
     memo.stop_chart_exporter()
     assert_group_gone(tmp_path)
 

@@ -158,9 +158,12 @@ def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
                 with print_ahead.PRINTING:
                     pdf = memo_module.render_memo_pdf(full, charts=charts, progress=say, annex=annex)
             ss.memo_pdf = (results.fingerprint, pdf, charts, annex)
+            if charts:
+                ss.memo_charts_failed = False
             status.update(label="The memo is printed: download it below.", state="complete")
         except memo_module.ChartsUnavailable as exc:
             ss.memo_chart_problem = str(exc)
+            ss.memo_charts_failed = True  # no print ahead with charts until one prints here
             _failed(printer, job, key)
             status.update(label="The charts could not be drawn.", state="error")
         except Exception as exc:  # the renderer's failure must not reach the screen raw
@@ -187,8 +190,10 @@ def _print_ahead(results: Any) -> None:
     held = ss.get("memo_pdf")
     if held and (held[0], held[2], held[3]) == key:
         return  # printed already
-    if ss.get("memo_print_failed") == key or ss.get("memo_chart_problem"):
-        return  # the click showed why it failed; the next click prints again itself
+    if ss.get("memo_print_failed") == key or ss.get("memo_chart_problem") or ss.get("memo_charts_failed"):
+        # The click showed why it failed; the next click prints again itself. After the charts
+        # failed, a print without charts (or any edit) must not start the browser again ahead.
+        return
     memo_module = _memo_module()
     if memo_module is None:
         return
