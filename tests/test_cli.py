@@ -168,3 +168,53 @@ def test_starting_the_command_loads_no_front_end_libraries(runs) -> None:
     assert done.returncode == 0, done.stderr
     loaded = set(json.loads(done.stdout.strip().splitlines()[-1]))
     assert loaded.isdisjoint({"streamlit", "plotly", "weasyprint", "kaleido", "jinja2"})
+
+
+@pytest.mark.browser
+@pytest.mark.slow
+@pytest.mark.skipif(not (VENV_BIN / "obligor-memo").exists(), reason="needs the installed console script")
+def test_the_memo_command_ends_at_once_and_leaves_nothing_running(tmp_path):
+    """After the PDF is written, ``memo`` skips the interpreter's teardown (cli.run): the file and
+    the message are complete, the exit code is 0, and no process of its tree (Chromium) is left."""
+    import os
+    import shutil
+    import signal
+    import time
+
+    if shutil.which("chromium") is None and not Path("/usr/bin/chromium").exists():
+        pytest.skip("needs Chromium")
+    out = tmp_path / "memo.pdf"
+    env = {**os.environ, "OBLIGOR_MEMO_CHART_CACHE": str(tmp_path / "charts")}  # a browser draws
+    process = subprocess.Popen(
+        [str(VENV_BIN / "obligor-memo"), "memo", str(SAMPLE_CASE), "-o", str(out)],
+        cwd=ROOT,
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        start_new_session=True,
+    )
+    stdout, stderr = process.communicate(timeout=240)
+    assert process.returncode == 0, stderr
+    assert stdout.strip() == f"Wrote {out} ({out.stat().st_size:,} bytes)."
+    assert out.read_bytes().startswith(b"%PDF-") and out.read_bytes().rstrip().endswith(b"%%EOF")
+    deadline = time.time() + 10
+    while True:  # the session the command started is empty once its browser has gone
+        try:
+            os.killpg(process.pid, 0)
+        except ProcessLookupError:
+            break
+        if time.time() > deadline:
+            os.killpg(process.pid, signal.SIGKILL)
+            raise AssertionError("a process of the memo command's tree is still running")
+        time.sleep(0.2)
+    # A failure still ends the usual way, with its message and code.
+    failed = subprocess.run(
+        [str(VENV_BIN / "obligor-memo"), "memo", str(SAMPLE_CASE), "-o", str(tmp_path / "no" / "m.pdf")],
+        cwd=ROOT,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert failed.returncode == 2 and "does not exist" in failed.stderr
