@@ -255,6 +255,7 @@ def _memo_print_panel(results: Any, stem: str) -> None:
             mime="application/pdf",
             icon=":material/download:",
             key="memo_download",
+            on_click="ignore",  # the download needs no rerun of the page
         )
     elif pdf and pdf[0] == results.fingerprint:
         st.caption("The technical annex was switched since the memo was printed: print it again.")
@@ -267,6 +268,11 @@ results = _ui.header(
     "Write the narrative as it should print; download the case file to archive or re-run it next year.",
 )
 ss = st.session_state
+if results is not None:  # the worker starts printing while the rest of the page is drawn
+    try:
+        _print_ahead(results)
+    except Exception:  # the click prints it then, and reports any failure
+        log.warning("the memo could not be printed ahead", exc_info=True)
 
 left, right = st.columns([2, 1])
 with left:
