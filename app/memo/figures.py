@@ -260,9 +260,7 @@ def export_figures(figures: dict[str, Any], *, exporter: ChartExporter | None = 
     with _CACHE_LOCK:
         missing = {key: fig for key, fig in figures.items() if keys[key] not in _SVG_CACHE}
     if missing:  # drawn by an earlier process?
-        kept = chart_cache.read(keys[key] for key in missing)
-        with _CACHE_LOCK:
-            _SVG_CACHE.update(kept)
+        kept = _load_kept([keys[key] for key in missing])
         missing = {key: fig for key, fig in missing.items() if keys[key] not in kept}
     if missing:
         own = None
@@ -323,10 +321,15 @@ def _all_drawn(figures: dict[str, Any]) -> bool:
     keys = [figure_key(fig) for fig in figures.values()]
     with _CACHE_LOCK:
         missing = [key for key in keys if key not in _SVG_CACHE]
-    kept = chart_cache.read(missing) if missing else {}
+    return len(_load_kept(missing)) == len(missing)
+
+
+def _load_kept(keys: list[str]) -> set[str]:
+    """Bring the drawings of ``keys`` kept on disk into the process's cache; the keys found."""
+    kept = chart_cache.read(keys) if keys else {}
     with _CACHE_LOCK:
         _SVG_CACHE.update(kept)
-    return len(kept) == len(missing)
+    return set(kept)
 
 
 class ChartJob:

@@ -173,7 +173,7 @@ def _print(memo_module: Any, results: Any, *, charts: bool) -> None:
             st.error(f"The memo could not be printed ({type(exc).__name__}: {exc}). Your inputs are kept.")
 
 
-def _print_ahead(results: Any) -> None:
+def _print_ahead(results: Any) -> bool:
     """Start printing the memo of this case on the worker, unless it is printed or cannot be.
 
     The worker analyses the case first (:func:`ui.analysed`, shared with this page), so the
@@ -183,20 +183,25 @@ def _print_ahead(results: Any) -> None:
     ----------
     results : Any
         The page's results (their fingerprint names the case).
+
+    Returns
+    -------
+    bool
+        Whether the worker has a print of this case (queued, printing or printed).
     """
     ss = st.session_state
     annex = bool(ss.get("memo_annex", False))
     key = (results.fingerprint, True, annex)
     held = ss.get("memo_pdf")
     if held and (held[0], held[2], held[3]) == key:
-        return  # printed already
-    if ss.get("memo_print_failed") == key or ss.get("memo_chart_problem") or ss.get("memo_charts_failed"):
+        return False  # printed already
+    if ss.get("memo_print_failed") == key or ss.get("memo_charts_failed"):
         # The click showed why it failed; the next click prints again itself. After the charts
         # failed, a print without charts (or any edit) must not start the browser again ahead.
-        return
+        return False
     memo_module = _memo_module()
     if memo_module is None:
-        return
+        return False
     render, case, analysed = memo_module.render_memo_pdf, results.case, _ui.analysed
 
     def job(progress: Callable[[str], None]) -> bytes:
@@ -207,6 +212,7 @@ def _print_ahead(results: Any) -> None:
         return bytes(render(full, charts=True, progress=progress, annex=annex))
 
     print_ahead.printer().submit(key, _session_token(), job)
+    return True
 
 
 def _memo_print_panel(results: Any, stem: str) -> None:
@@ -268,9 +274,10 @@ results = _ui.header(
     "Write the narrative as it should print; download the case file to archive or re-run it next year.",
 )
 ss = st.session_state
+printing_ahead = False
 if results is not None:  # the worker starts printing while the rest of the page is drawn
     try:
-        _print_ahead(results)
+        printing_ahead = _print_ahead(results)
     except Exception:  # the click prints it then, and reports any failure
         log.warning("the memo could not be printed ahead", exc_info=True)
 
@@ -360,21 +367,11 @@ with right:
         )
     _memo_print_panel(results, stem)
 
-# A print starts from the analysed case (sensitivity, PD grid, scenarios). Once the page is on
-# screen, the memo is printed ahead on the process's one print worker, which analyses the case
-# first (print_ahead.py): the click finds it printed or printing. Where no print ahead is
-# needed, the case is still analysed here, for the results workbook and a later click.
-if results is not None:
-    submitted = False
+# A print starts from the analysed case (sensitivity, PD grid, scenarios). The print ahead
+# (above) analyses it on the worker; where none was started, the case is still analysed here,
+# once the page is on screen, for the results workbook and a later click.
+if results is not None and not printing_ahead:
     try:
-        _print_ahead(results)
-        submitted = (
-            print_ahead.printer().job((results.fingerprint, True, bool(ss.get("memo_annex", False)))) is not None
-        )
-    except Exception:  # the click prints it then, and reports any failure
-        log.warning("the memo could not be printed ahead", exc_info=True)
-    if not submitted:
-        try:
-            _ui.analysed(results.case)
-        except Exception:  # the print reports it, with its message, when it is asked for
-            log.info("the analysis ahead of printing failed", exc_info=True)
+        _ui.analysed(results.case)
+    except Exception:  # the print reports it, with its message, when it is asked for
+        log.info("the analysis ahead of printing failed", exc_info=True)
