@@ -58,6 +58,30 @@ class ScenarioLine:
 
 
 @dataclass(frozen=True)
+class FacilityGroup:
+    """The facilities a decision page does not list one by one, summed."""
+
+    count: int
+    """How many."""
+    unchanged: int
+    """How many of them are unchanged."""
+    committed: float
+    """Their committed amounts summed [currency units]."""
+    ead: float
+    """Their exposures at default summed [currency units]."""
+
+
+LISTED_FACILITIES = 12
+"""A decision page lists at most this many facilities one by one (a third of a page)."""
+BRIEF_SCENARIOS = 8
+"""The body reads at most this many scenarios in a sentence each."""
+DECISION_COVENANTS = 3
+"""A decision page shows at most this many covenants, the tightest."""
+BODY_COVENANTS = 8
+"""The body tables at most this many covenants, the tightest (the record appendix has them all)."""
+
+
+@dataclass(frozen=True)
 class Decision:
     """The figures of the memo's decision page."""
 
@@ -69,6 +93,84 @@ class Decision:
     """Every scenario evaluated with the results; empty when none is attached."""
     worst: ScenarioLine | None
     """Highest PD in force; ties broken by the lower RAROC (a missing RAROC counts as 0)."""
+    listed: tuple[FacilityLine, ...] = ()
+    """The facilities the decision page lists one by one, in the case's order: every facility
+    when there are at most :data:`LISTED_FACILITIES`; else those being decided (status other
+    than unchanged), the largest committed first, filling all rows but one."""
+    others: FacilityGroup | None = None
+    """The facilities not listed, summed; None when every facility is listed."""
+    brief: tuple[ScenarioLine, ...] = ()
+    """The scenarios read in a sentence each: all when at most :data:`BRIEF_SCENARIOS`, else the
+    worst ones (as :attr:`worst`), in the case's order."""
+    covenants: tuple[Any, ...] = ()
+    """The covenants the decision page shows: all when at most :data:`DECISION_COVENANTS`, else
+    the breached ones and the least headroom first; a covenant that cannot be read comes last."""
+    body_covenants: tuple[Any, ...] = ()
+    """The covenants the body tables: all when at most :data:`BODY_COVENANTS`, else the tightest
+    (as :attr:`covenants`), in the case's order."""
+
+
+def _severity(s: ScenarioLine) -> tuple[float, float]:
+    """Sort key of a scenario, worst last: PD in force, then the lower RAROC (none counts as 0)."""
+    return (s.pd, -(s.raroc if s.raroc is not None else 0.0))
+
+
+def listed_facilities(lines: tuple[FacilityLine, ...]) -> tuple[tuple[FacilityLine, ...], FacilityGroup | None]:
+    """The facilities a decision page lists one by one and the rest summed.
+
+    Parameters
+    ----------
+    lines : tuple[FacilityLine, ...]
+        Every facility, in the case's order.
+
+    Returns
+    -------
+    tuple[tuple[FacilityLine, ...], FacilityGroup | None]
+        The listed facilities (see :attr:`Decision.listed`) and the others summed; every facility
+        and None when there are at most :data:`LISTED_FACILITIES`.
+    """
+    if len(lines) <= LISTED_FACILITIES:
+        return lines, None
+    decided = sorted(
+        (i for i, f in enumerate(lines) if f.status != "unchanged"), key=lambda i: lines[i].committed, reverse=True
+    )
+    keep = set(decided[: LISTED_FACILITIES - 1])
+    rest = [f for i, f in enumerate(lines) if i not in keep]
+    group = FacilityGroup(
+        count=len(rest),
+        unchanged=sum(f.status == "unchanged" for f in rest),
+        committed=sum(f.committed for f in rest),
+        ead=sum(f.ead for f in rest),
+    )
+    return tuple(f for i, f in enumerate(lines) if i in keep), group
+
+
+def _in_case_order(every: tuple[Any, ...], kept: tuple[Any, ...]) -> tuple[Any, ...]:
+    """``kept`` (items of ``every``) in the order of ``every``."""
+    ids = {id(x) for x in kept}
+    return tuple(x for x in every if id(x) in ids)
+
+
+def tightest_covenants(tests: tuple[Any, ...], count: int = DECISION_COVENANTS) -> tuple[Any, ...]:
+    """The covenants a decision page shows: breached and least headroom first.
+
+    Parameters
+    ----------
+    tests : tuple[Any, ...]
+        Every covenant test (``engine.covenants.CovenantTest``), in the case's order.
+    count : int, optional
+        How many to keep.
+
+    Returns
+    -------
+    tuple[Any, ...]
+        ``tests`` itself when it has at most ``count`` entries; else the ``count`` with the least
+        headroom (a covenant without a headroom after every one with).
+    """
+    if len(tests) <= count:
+        return tests
+    ordered = sorted(tests, key=lambda c: (c.headroom is None, c.headroom if c.headroom is not None else 0.0))
+    return tuple(ordered[:count])
 
 
 def _ratio(numerator: float, denominator: float | None) -> float | None:
@@ -125,9 +227,23 @@ def decision_summary(results: Any) -> Decision:
                 meets_hurdle=None if raroc is None or hurdle is None else raroc >= hurdle,
             )
         )
-    worst = max(scen, key=lambda s: (s.pd, -(s.raroc if s.raroc is not None else 0.0)), default=None)
+    worst = max(scen, key=_severity, default=None)
+    brief = scen
+    if len(scen) > BRIEF_SCENARIOS:
+        kept = set(sorted(range(len(scen)), key=lambda i: _severity(scen[i]), reverse=True)[:BRIEF_SCENARIOS])
+        brief = [s for i, s in enumerate(scen) if i in kept]
+    listed, others = listed_facilities(tuple(lines))
+    tests = tuple(getattr(results, "covenants", ()))
     return Decision(
-        facilities=tuple(lines), total_committed=sum(f.committed for f in lines), scenarios=tuple(scen), worst=worst
+        facilities=tuple(lines),
+        total_committed=sum(f.committed for f in lines),
+        scenarios=tuple(scen),
+        worst=worst,
+        listed=listed,
+        others=others,
+        brief=tuple(brief),
+        covenants=tightest_covenants(tests),
+        body_covenants=_in_case_order(tests, tightest_covenants(tests, BODY_COVENANTS)),
     )
 
 

@@ -79,8 +79,40 @@ class PdDrivers:
     """One per year change; empty unless the volatility is estimated from at least three changes."""
     driving_year: YearLeftOut | None
     """The year whose removal changes the volatility most; None without years left out."""
+    years_shown: tuple[YearLeftOut, ...]
+    """The years a page prints: all when at most :data:`YEARS_SHOWN`, else the ones whose removal
+    changes the volatility most, in year order."""
     break_evens: tuple[BreakEven, ...]
     """Break-evens of each input searched (balance-sheet method only)."""
+
+
+YEARS_SHOWN = 10
+"""At most this many years left out are printed: a row of ten years fits a page's width."""
+
+
+def most_telling(
+    years: tuple[YearLeftOut, ...], volatility: float, count: int = YEARS_SHOWN
+) -> tuple[YearLeftOut, ...]:
+    """The ``count`` years whose removal moves the volatility most, in year order.
+
+    Parameters
+    ----------
+    years : tuple[YearLeftOut, ...]
+        Every year left out.
+    volatility : float
+        The volatility with every year [1/sqrt(year)].
+    count : int, optional
+        How many to keep.
+
+    Returns
+    -------
+    tuple[YearLeftOut, ...]
+        ``years`` itself when it has at most ``count`` entries.
+    """
+    if len(years) <= count:
+        return years
+    kept = sorted(years, key=lambda y: abs(y.volatility - volatility), reverse=True)[:count]
+    return tuple(sorted(kept, key=lambda y: y.year))
 
 
 def leave_one_year_out(results: Any) -> tuple[YearLeftOut, ...]:
@@ -264,11 +296,14 @@ def pd_drivers(results: Any) -> PdDrivers:
     """
     years = leave_one_year_out(results)
     driving = None
+    shown: tuple[YearLeftOut, ...] = ()
     if years and results.trend is not None:
         driving = max(years, key=lambda y: abs(y.volatility - results.trend.volatility_used))
+        shown = most_telling(years, results.trend.volatility_used)
     return PdDrivers(
         drivers=top_drivers(getattr(results, "sensitivity", None)),
         years_left_out=years,
         driving_year=driving,
+        years_shown=shown,
         break_evens=break_evens(results),
     )

@@ -229,6 +229,7 @@ def build_view(
     ]
     statement_groups = [statement_keys[i : i + 6] for i in range(0, len(statement_keys), 6)]
     window = results.trend.window_years if results.trend is not None else None
+    letters = appendix_letters(annex)
     return {
         "r": results,
         "case": case,
@@ -253,12 +254,18 @@ def build_view(
         },
         "decision": decision,
         "status_label": _STATUS,
-        "scenario_sentences": [scenario_sentence(x, results.pd.grade, hurdle) for x in decision.scenarios],
+        "scenario_sentences": [scenario_sentence(x, results.pd.grade, hurdle) for x in decision.brief],
         "worst_sentence": (
             scenario_sentence(decision.worst, results.pd.grade, hurdle) if decision.worst is not None else None
         ),
         "key_risks": list(case.memo.risks[:3]),
         "covenant_lines": [pdfcase.covenant_line(c) for c in getattr(results, "covenants", ())],
+        "decision_covenant_lines": [pdfcase.covenant_line(c) for c in decision.covenants],
+        "body_covenant_lines": [pdfcase.covenant_line(c) for c in decision.body_covenants],
+        # The body's by-year tables print the latest years; the appendix has every year's lines.
+        "body_ratios": results.ratios[-BODY_YEARS:],
+        "body_metrics": results.credit_metrics[-BODY_YEARS:],
+        "body_years": BODY_YEARS,
         "drivers": pd_drivers(results),
         "cross": cross_check_view(results),
         "scenario_changes": {
@@ -279,7 +286,8 @@ def build_view(
         "author": case.memo.prepared_by or "obligor-memo",
         "review": review_view(results),
         "annex": annex,
-        "appendix_letters": appendix_letters(annex),
+        "appendix_letters": letters,
+        "appendix_list": [(letters[k], APPENDIX_TITLES[k]) for k in APPENDICES if k in letters],
         "case_file": pdfcase.CASE_FILE,
     }
 
@@ -298,6 +306,21 @@ APPENDICES = (
     "methods",
     "appendix",
 )
+APPENDIX_TITLES = {
+    "term-structure": "term structure",
+    "exposure": "exposure",
+    "recovery": "recovery",
+    "loss": "loss and capital",
+    "pricing": "pricing",
+    "sensitivities": "sensitivities and scenarios",
+    "cautions": "cautions",
+    "methods": "methods",
+    "appendix": "inputs and record",
+}
+"""How the body's closing note names each appendix."""
+BODY_YEARS = 10
+"""The body's by-year tables print at most the latest ten years (the trend and the volatility
+use every year of the window; the appendix prints every year's statement lines)."""
 ANNEX_SECTIONS = frozenset({"term-structure", "exposure", "recovery", "loss", "methods"})
 
 
