@@ -205,7 +205,7 @@ def _facility_plan(
         notes.insert(
             0,
             f"no recovery block on {', '.join(preset)}: the law in use (seniority "
-            "preset mean, lgd.default_recovery_std) was set explicitly and its mean moved",
+            "preset mean and the case's default recovery std) was set explicitly and its mean moved",
         )
     if name == "ccf" and any(s.clipped for s in shifts):
         notes.append("CCFs kept within [0, 1]: " + ", ".join(s.facility_id for s in shifts if s.clipped))

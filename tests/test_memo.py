@@ -262,6 +262,24 @@ def test_sensitivity_section_prints_scenarios_side_by_side(sample_results, sampl
     assert fmt.pd_pct(sample_results.pd_grid.base_pd) in text
 
 
+def test_an_input_prints_with_one_precision_in_every_what_if_table_and_chart(sample_results, sample_sections):
+    from obligor_memo.app.charts import whatif as charts_whatif
+
+    # Shares and rates with one decimal, as the break-even points print them; never "50.00 %" or "0.50".
+    assert fmt.input_value(0.5, "[fraction]") == "50.0 %" and fmt.input_value(0.1264, "[1/sqrt(year)]") == "12.6 %"
+    assert fmt.input_value(1.0, "[years]") == "1 y" and fmt.input_value(None, "[fraction]") == "n/a"
+    sensitivity = " ".join(sample_sections["Appendix F Sensitivities and scenarios"].split())
+    pd_section = " ".join(sample_sections["2 Probability of default"].split())
+    share = sample_results.case.pd.default_point.long_term_share
+    assert f"Default point: share of long-term liabilities {fmt.pct(share, 1)}" in sensitivity
+    assert fmt.pct(share, 2) not in sensitivity
+    assert f"Long-term share in the default point {fmt.pct(share, 1)}" in pd_section
+    labels = charts_whatif.sensitivity_figure(sample_results).data[0].y
+    long_term = next(label for label in labels if "long-term" in label)
+    assert f"(base {fmt.pct(share, 1)})" in long_term and f"{share:.2f}" not in long_term
+    assert "lgd." not in sensitivity and "pd." not in sensitivity  # words, not field paths
+
+
 def test_financials_narrative_and_appendix(sample_results, sample_sections):
     r = sample_results
     fin = sample_sections["1 The borrower and its accounts"]

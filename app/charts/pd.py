@@ -24,7 +24,7 @@ from obligor_memo.app.charts.style import (
     new_figure,
     r2_text,
 )
-from obligor_memo.app.present.formatting import millions, num, pct, pd_pct
+from obligor_memo.app.present.formatting import millions, pct, pd_pct
 
 # --------------------------------------------------------------------------- asset trend
 
@@ -107,7 +107,7 @@ def asset_trend_figure(results: Any) -> go.Figure:
             mode="lines",
             line={"color": PLUM, "width": 2, "dash": "dot"},
             name=f"Default point {millions(results.pd.default_point, cur)} "
-            f"({num(results.pd.short_term_share)} x ST + {num(results.pd.long_term_share)} x LT)",
+            f"({pct(results.pd.short_term_share, 0)} of ST + {pct(results.pd.long_term_share, 0)} of LT)",
             hovertemplate="default point: " + cur + " %{y:,.1f}m<extra></extra>",
         )
     )

@@ -20,7 +20,7 @@ from typing import Any
 import numpy as np
 import plotly.graph_objects as go
 from obligor_memo.app.charts.style import COPPER, INK, MILLION, STEEL, currency, layout_dict, money_axis
-from obligor_memo.app.present.formatting import millions, money, num, pct, pd_pct
+from obligor_memo.app.present.formatting import input_value, millions, money, num, pd_pct
 
 MEASURES = ("el", "pd")
 # PDs below this are drawn in the lightest colour (log10 of 0 has no place on the scale); the
@@ -33,28 +33,21 @@ PD_SCALE = [[0.0, "#f7f8f9"], [0.25, "#cdd4db"], [0.5, "#8d9aa7"], [0.75, "#4c5d
 
 
 def input_value_text(value: float | None, unit: str) -> str:
-    """An assumption's value in the unit a credit analyst reads it in.
+    """An assumption's value in the unit a credit analyst reads it in (as the memo's tables print it).
 
     Parameters
     ----------
     value : float | None
         The value in the engine's unit; None prints as 'n/a'.
     unit : str
-        The engine's unit of the input: "[1/year]" and "[1/sqrt(year)]" print as a percentage
-        with one decimal, "[years]" as '5 y', anything else as a number with two decimals.
+        The engine's unit of the input.
 
     Returns
     -------
     str
-        The value as printed.
+        The value as printed (:func:`~obligor_memo.app.present.formatting.input_value`).
     """
-    if value is None:
-        return "n/a"
-    if unit in ("[1/year]", "[1/sqrt(year)]"):
-        return pct(value, 1)
-    if unit == "[years]":
-        return f"{value:g} y"
-    return num(value, 2)
+    return input_value(value, unit)
 
 
 def _moved_to(row: Any, side: str) -> str:

@@ -142,29 +142,21 @@ def in_millions(value: float | None, decimals: int = 1) -> str:
 
 
 def by_unit(value: float | None, unit: str) -> str:
-    """A sensitivity input in its own unit: rates and shares as percentages, times in years.
+    """A sensitivity input in its own unit (:func:`~obligor_memo.app.present.formatting.input_value`).
 
     Parameters
     ----------
     value : float | None
         The input's value; None prints as a dash.
     unit : str
-        The engine's unit of the input: one holding "year" without "/" prints in years,
-        "[fraction]", "[1/year]" and "[1/sqrt(year)]" as a percentage, any other as a number
-        with four decimals.
+        The engine's unit of the input.
 
     Returns
     -------
     str
-        The value as printed.
+        The value as printed, as the sensitivity chart prints it.
     """
-    if value is None:
-        return "—"
-    if "year" in unit and "/" not in unit:
-        return fmt.years(value)
-    if unit in ("[fraction]", "[1/year]", "[1/sqrt(year)]"):
-        return fmt.pct(value)
-    return fmt.num(value, 4)
+    return "—" if value is None else fmt.input_value(value, unit)
 
 
 def label(code: str | None) -> str:

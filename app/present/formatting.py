@@ -165,6 +165,34 @@ def years(value: float | None) -> str:
     return f"{value:g} y"
 
 
+def input_value(value: float | None, unit: str) -> str:
+    """An assumption's value in the unit a credit analyst reads it in, the same in every table and chart.
+
+    Rates and shares print as percentages with one decimal (as the break-even points do), lengths
+    of time in years, anything else as a number with two decimals.
+
+    Parameters
+    ----------
+    value : float | None
+        The value in the engine's unit; None prints as 'n/a'.
+    unit : str
+        The engine's unit: one holding "year" without "/" is a length of time; "[fraction]",
+        "[1/year]" and "[1/sqrt(year)]" are percentages.
+
+    Returns
+    -------
+    str
+        The value as printed: 0.5 [fraction] -> '50.0 %', 0.1264 [1/sqrt(year)] -> '12.6 %', 1 [years] -> '1 y'.
+    """
+    if value is None:
+        return "n/a"
+    if "year" in unit and "/" not in unit:
+        return years(value)
+    if unit in ("[fraction]", "[1/year]", "[1/sqrt(year)]"):
+        return pct(value, 1)
+    return num(value, 2)
+
+
 # --------------------------------------------------------------------------- scenario changes in words
 
 # A case path a scenario sets -> (words, how its value prints). Paths not listed print their
