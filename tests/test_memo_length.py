@@ -202,6 +202,10 @@ def test_the_summed_facilities_and_covenants_are_in_the_record_appendix(sample_d
     for f in data["facilities"]:
         assert re.search(rf"^\s*{re.escape(f['id'])}\s", record, flags=re.M), f["id"]
     assert record.count("half-yearly") >= len(data["covenants"])
+    letter = re.search(r"Appendix ([A-Z])\s+Inputs and record", pages[start]).group(1)
+    assert f"the {BODY_COVENANTS} tightest in section 1, every covenant in appendix {letter}" in " ".join(
+        decision.split()
+    )
     body = "\n".join(pages[1 : body_pages(pages)[1]])
     assert f"The {BODY_COVENANTS} of 20 covenants with the least headroom" in " ".join(body.split())
     assert f"The {BRIEF_SCENARIOS} of 50 scenarios with the highest PD" in " ".join(body.split())
