@@ -275,3 +275,23 @@ def test_chart_fonts_print_at_7_pt_in_their_boxes(analysed):
         sizes = [fig.layout.font.size] + [a.font.size for a in fig.layout.annotations if a.font.size is not None]
         sizes += [t.textfont.size for t in fig.data if getattr(t, "textfont", None) is not None and t.textfont.size]
         assert min(sizes) * scale >= PRINT_MIN_PT, key
+
+
+@needs_browser
+def test_no_two_printed_words_overlap(charted_pdf):
+    from tests.test_memo_length import overlapping_words
+
+    assert not overlapping_words(charted_pdf), overlapping_words(charted_pdf)[:10]
+
+
+@needs_browser
+def test_a_long_history_labels_its_years_without_overlap(sample_case):
+    """Sixty statement years: the year axes step so that their labels stay apart."""
+    from obligor_memo.engine.analysis import analyse
+    from obligor_memo.engine.case import case_to_dict, parse_case
+
+    from tests.test_memo_length import long_history, overlapping_words
+
+    results = analyse(parse_case(long_history(case_to_dict(sample_case), 60), source="test case"))
+    pdf = memo.render_memo_pdf(results, generated_at=datetime(2031, 1, 2, tzinfo=UTC))
+    assert not overlapping_words(pdf), overlapping_words(pdf)[:10]

@@ -40,6 +40,28 @@ def pages_of(pdf: bytes) -> list[str]:
     return text.split("\f")[:-1]
 
 
+WORD = re.compile(r'<word xMin="([\d.]+)" yMin="([\d.]+)" xMax="([\d.]+)" yMax="([\d.]+)">([^<]*)</word>')
+
+
+def overlapping_words(pdf: bytes) -> list[tuple[int, str, str]]:
+    """(page, word, word) for each two words whose boxes (pdftotext -bbox) overlap by more than a
+    tenth of the smaller box: a column run into the next, or axis labels printed over each other."""
+    out = subprocess.run(["pdftotext", "-bbox", "-", "-"], input=pdf, capture_output=True, check=True).stdout.decode()
+    found = []
+    for number, page in enumerate(out.split("<page ")[1:], start=1):
+        words = [(float(a), float(b), float(c), float(d), w) for a, b, c, d, w in WORD.findall(page)]
+        words.sort()
+        for i, a in enumerate(words):
+            for b in words[i + 1 :]:
+                if b[0] >= a[2]:
+                    break  # sorted by left edge: no later word starts left of this one's right edge
+                dx, dy = min(a[2], b[2]) - b[0], min(a[3], b[3]) - max(a[1], b[1])
+                smaller = min((a[2] - a[0]) * (a[3] - a[1]), (b[2] - b[0]) * (b[3] - b[1]))
+                if dx > 0.5 and dy > 0.5 and dx * dy > 0.1 * smaller:
+                    found.append((number, a[4], b[4]))
+    return found
+
+
 def body_pages(pages: list[str]) -> tuple[int, int]:
     """(first body page, first appendix page), 0-based."""
     first = next(i for i, t in enumerate(pages) if re.search(r"^\s*1\s+The borrower", t, flags=re.M))
@@ -94,6 +116,14 @@ def printed(data: dict[str, Any]) -> tuple[Any, bytes]:
 
 
 # --------------------------------------------------------------------------- what the pages select
+
+
+@pytest.mark.parametrize(("span", "step"), [(0, 1), (9, 1), (11, 1), (12, 2), (22, 2), (23, 5), (59, 10), (199, 20)])
+def test_year_ticks_step_by_one_two_or_five_and_stay_a_dozen(span, step):
+    from obligor_memo.app.charts.style import year_step
+
+    assert year_step(span) == step
+    assert span / step + 1 <= 12  # a dozen year labels fit a chart's width
 
 
 def test_at_most_the_limit_every_facility_is_listed(sample_results):
@@ -188,6 +218,7 @@ def test_large_cases_print_one_decision_page_and_a_short_body_that_verifies(samp
     assert appendix - first <= 6, f"the body runs to {appendix - first} pages"
     report = verify_memo(pdf)
     assert report.ok, report.text()
+    assert not overlapping_words(pdf), overlapping_words(pdf)[:10]  # e.g. 50 scenarios side by side
 
 
 def test_the_summed_facilities_and_covenants_are_in_the_record_appendix(sample_dict):

@@ -23,6 +23,7 @@ from obligor_memo.app.charts.style import (
     money_axis,
     new_figure,
     r2_text,
+    year_step,
 )
 from obligor_memo.app.present.formatting import millions, pct, pd_pct
 
@@ -114,7 +115,7 @@ def asset_trend_figure(results: Any) -> go.Figure:
     apply_layout(
         fig, title="Asset trend and default point", x_title="Year", y_title=f"Total assets {money_axis(results)}"
     )
-    fig.update_xaxes(dtick=1, tickformat="d")
+    fig.update_xaxes(dtick=year_step(max(years) - min(years)), tickformat="d")
     return fig
 
 
@@ -170,7 +171,7 @@ def liabilities_figure(results: Any) -> go.Figure:
     )
     fig.update_layout(barmode="stack", bargap=0.3)
     apply_layout(fig, title="Liabilities by year", x_title="Year", y_title=f"Liabilities {money_axis(results)}")
-    fig.update_xaxes(dtick=1, tickformat="d")
+    fig.update_xaxes(dtick=year_step(years[-1] - years[0]), tickformat="d")
     return fig
 
 
@@ -220,7 +221,7 @@ def term_structure_figure(results: Any) -> go.Figure:
         x_title="Years from today [years]",
         y_title="Probability of default [%]",
     )
-    fig.update_xaxes(dtick=1)
+    fig.update_xaxes(dtick=year_step(max(ts.years) - min(ts.years) if ts.years else 1))
     fig.update_yaxes(tickformat=".2%", rangemode="tozero")
     fig.update_layout(title={"font": {"size": 14}})
     return fig

@@ -164,6 +164,31 @@ def apply_layout(
     return fig
 
 
+def year_step(span: float, most: int = 12) -> int:
+    """The step between year ticks: 1, 2 or 5 times a power of ten, so at most ``most`` ticks show.
+
+    Parameters
+    ----------
+    span : float
+        Years from the first tick to the last.
+    most : int, optional
+        The most ticks the axis may carry (a dozen year labels fit a chart's width).
+
+    Returns
+    -------
+    int
+        1 for up to ``most`` - 1 years; 2, 5, 10, 20, 50, ... beyond.
+    """
+    step, scale = 1, 1
+    while span / step > most - 1:
+        for factor in (2, 5, 10):
+            step = factor * scale
+            if span / step <= most - 1:
+                return step
+        scale *= 10
+    return step
+
+
 def r2_text(value: float | None) -> str:
     """A coefficient of determination (R^2) with three decimals, for a chart label.
 

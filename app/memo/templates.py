@@ -81,9 +81,12 @@ def environment() -> Any:
             "id_class": lambda v: "nowrap" if len(str(v)) <= 12 else "text",
         }
     )
+    env.globals["SCENARIO_COLUMNS"] = SCENARIO_COLUMNS
     return env
 
 
+SCENARIO_COLUMNS = 4
+"""Scenarios per "side by side" table, beside the base case: six columns of amounts fit any paper."""
 LONG_RUN_MIN = 25
 LONG_RUN = re.compile(rf"[^\s\u200b]{{{LONG_RUN_MIN},}}")
 BREAK_EVERY = 12
