@@ -105,3 +105,56 @@ def credit_metrics(rows: Sequence[Any]) -> tuple[CreditYear, ...]:
     years = tuple(credit_year(r) for r in rows)
     wanted = ("revenue", "ebitda", "net_debt", "free_cash_flow", "interest_cover")
     return years if any(getattr(y, name) is not None for y in years for name in wanted) else ()
+
+
+AMOUNTS = ("revenue", "ebitda", "net_debt", "free_cash_flow")
+"""Metrics in currency: their trend is a compound annual growth rate."""
+RATIOS = ("ebitda_margin", "net_debt_to_ebitda", "interest_cover", "debt_to_equity")
+"""Metrics as ratios: their trend is the change from the first year to the last."""
+
+
+@dataclass(frozen=True)
+class MetricTrend:
+    """How one metric moved over the years read: growth a year for amounts, change for ratios."""
+
+    name: str
+    """The metric (a :class:`CreditYear` field)."""
+    first_year: int
+    """The first year that gives the metric."""
+    last_year: int
+    """The last year that gives it."""
+    growth: float | None
+    """Compound annual growth (last / first) ** (1 / years) - 1 [1/year], for amounts whose first
+    and last values are above 0; None otherwise (a fall to or from a loss has no growth rate)."""
+    change: float | None
+    """Last minus first [fraction for the margin, times for multiples], for ratios; None for amounts."""
+
+
+def metric_trends(years: Sequence[CreditYear]) -> dict[str, MetricTrend]:
+    """The trend of each metric over ``years``, from the first to the last year that gives it.
+
+    Common practice: the compound annual growth rate of an amount and the change of a ratio over
+    the period, as a credit memo reads a borrower's accounts.
+
+    Parameters
+    ----------
+    years : Sequence[CreditYear]
+        The years read, oldest first.
+
+    Returns
+    -------
+    dict[str, MetricTrend]
+        By metric name; a metric given in fewer than two years has no entry.
+    """
+    out = {}
+    for name in AMOUNTS + RATIOS:
+        given = [(y.year, getattr(y, name)) for y in years if getattr(y, name) is not None]
+        if len(given) < 2 or given[-1][0] <= given[0][0]:
+            continue
+        (y0, v0), (y1, v1) = given[0], given[-1]
+        if name in AMOUNTS:
+            growth = (v1 / v0) ** (1.0 / (y1 - y0)) - 1.0 if v0 > 0 and v1 > 0 else None
+            out[name] = MetricTrend(name, y0, y1, growth=growth, change=None)
+        else:
+            out[name] = MetricTrend(name, y0, y1, growth=None, change=v1 - v0)
+    return out

@@ -145,6 +145,18 @@ def test_the_versions_name_plotly_kaleido_the_browser_and_the_slimming():
         assert "no browser" in text
 
 
+def test_another_browser_is_another_version(monkeypatch, tmp_path):
+    """A browser named by BROWSER_PATH after the versions were first read keys its own drawings."""
+    before = chart_cache.drawing_versions()
+    other = tmp_path / "other-chromium"
+    other.write_text("#!/bin/sh\n")
+    other.chmod(0o755)
+    monkeypatch.setenv("BROWSER_PATH", str(other))
+    assert str(other) in chart_cache.drawing_versions() and chart_cache.drawing_versions() != before
+    monkeypatch.undo()
+    assert chart_cache.drawing_versions() == before
+
+
 def test_the_memo_list_is_a_hint_that_each_drawing_must_back(kept):
     svg = '<svg xmlns="http://www.w3.org/2000/svg"></svg>'
     key = chart_cache.memo_key("f" * 64, annex=False)

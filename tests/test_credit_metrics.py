@@ -66,3 +66,53 @@ def test_sample_metrics_match_its_statements_file():
 
 def test_no_lines_no_metrics():
     assert credit_metrics([Row(year=2024, total_assets=1.0)]) == ()
+
+
+def test_trends_are_compound_growth_for_amounts_and_changes_for_ratios():
+    from obligor_memo.engine.credit_metrics import metric_trends
+
+    results = evaluate(load_case(SAMPLE_CASE))
+    years = results.credit_metrics
+    trends = metric_trends(years)
+    first, last = years[0], years[-1]
+    span = last.year - first.year
+    # Common practice: CAGR = (last / first) ** (1 / years) - 1; checked against numpy's power.
+    import numpy as np
+
+    assert trends["revenue"].growth == pytest.approx(np.power(last.revenue / first.revenue, 1 / span) - 1, rel=1e-12)
+    assert trends["revenue"].growth == pytest.approx(0.0504, abs=5e-4)  # 234.0 -> 364.3 over 9 years
+    assert trends["ebitda_margin"].change == pytest.approx(last.ebitda_margin - first.ebitda_margin, rel=1e-12)
+    assert trends["net_debt_to_ebitda"].change == pytest.approx(last.net_debt_to_ebitda - first.net_debt_to_ebitda)
+    assert trends["revenue"].change is None and trends["ebitda_margin"].growth is None
+    assert (trends["revenue"].first_year, trends["revenue"].last_year) == (first.year, last.year)
+
+
+def test_a_trend_to_or_from_a_loss_has_no_growth_and_one_year_has_no_trend():
+    from obligor_memo.engine.credit_metrics import metric_trends
+
+    rows = [
+        credit_year(Row(year=2023, operating_cash_flow=10.0, capital_expenditure=15.0, sales=100.0)),
+        credit_year(Row(year=2025, operating_cash_flow=20.0, capital_expenditure=5.0, sales=121.0)),
+    ]
+    trends = metric_trends(rows)
+    assert trends["free_cash_flow"].growth is None  # -5 -> 15: no growth rate
+    assert trends["revenue"].growth == pytest.approx(0.10)  # 100 -> 121 over two years
+    assert "ebitda" not in trends  # not given
+    assert metric_trends(rows[:1]) == {}
+
+
+@pytest.mark.parametrize(
+    ("value", "kind", "printed"),
+    [
+        (0.0504, "growth", "+5.0 %/yr"),
+        (-0.0001, "growth", "0.0 %/yr"),
+        (-0.0098, "margin", "-1.0 pp"),
+        (0.92, "multiple", "+0.92x"),
+        (-1.916, "multiple", "-1.92x"),
+        (None, "growth", "n/a"),
+    ],
+)
+def test_trends_print_with_their_sign_and_unit(value, kind, printed):
+    from obligor_memo.app.present.formatting import trend
+
+    assert trend(value, kind) == printed

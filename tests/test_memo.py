@@ -280,6 +280,20 @@ def test_an_input_prints_with_one_precision_in_every_what_if_table_and_chart(sam
     assert "lgd." not in sensitivity and "pd." not in sensitivity  # words, not field paths
 
 
+def test_credit_metrics_close_with_their_trend(sample_results, sample_sections):
+    from obligor_memo.engine.credit_metrics import metric_trends
+
+    fin = " ".join(sample_sections["1 The borrower and its accounts"].split())
+    t = metric_trends(sample_results.credit_metrics)
+    row = " ".join(
+        [fmt.trend(t[n].growth, "growth") for n in ("revenue", "ebitda")]
+        + [fmt.trend(t["ebitda_margin"].change, "margin"), fmt.trend(t["net_debt"].growth, "growth")]
+        + [fmt.trend(t[n].change, "multiple") for n in ("net_debt_to_ebitda", "interest_cover", "debt_to_equity")]
+        + [fmt.trend(t["free_cash_flow"].growth, "growth")]
+    )
+    assert f"Trend {row}" in fin and "+5.0 %/yr" in row
+
+
 def test_financials_narrative_and_appendix(sample_results, sample_sections):
     r = sample_results
     fin = sample_sections["1 The borrower and its accounts"]

@@ -48,9 +48,11 @@ def cache_dir() -> Path | None:
     return settings.current().chart_cache
 
 
-@functools.cache
 def drawing_versions() -> str:
     """What shapes a drawing besides the figure: plotly, kaleido, the browser, the slimming code.
+
+    The browser is looked up on each call (a changed ``BROWSER_PATH`` is a different browser);
+    the package versions and the slimming digest are read once per process.
 
     Returns
     -------
@@ -59,9 +61,6 @@ def drawing_versions() -> str:
         browser update draws text a little differently), and a digest of the SVG slimming
         module (its output is what is kept).
     """
-    from importlib.metadata import version
-
-    from obligor_memo.app.memo import svg_slim
     from obligor_memo.app.memo.chart_browser import ChartsUnavailable, find_browser
 
     try:
@@ -70,6 +69,15 @@ def drawing_versions() -> str:
         browser_id = f"{browser}:{stat.st_size}:{int(stat.st_mtime)}"
     except (ChartsUnavailable, OSError):
         browser_id = "no browser"
+    return _versions(browser_id)
+
+
+@functools.cache
+def _versions(browser_id: str) -> str:
+    from importlib.metadata import version
+
+    from obligor_memo.app.memo import svg_slim
+
     slimming = hashlib.sha256(Path(svg_slim.__file__).read_bytes()).hexdigest()[:16]
     return f"plotly {version('plotly')}|kaleido {version('kaleido')}|{browser_id}|slim {slimming}"
 

@@ -77,6 +77,7 @@ def environment() -> Any:
             "yes_no": lambda v: "yes" if v else "no",
             "or_dash": lambda v: "—" if v in (None, "") else v,
             "times": fmt.times,
+            "trend": fmt.trend,
             # A facility id of up to 12 characters prints on one line; a longer one may wrap.
             "id_class": lambda v: "nowrap" if len(str(v)) <= 12 else "text",
         }

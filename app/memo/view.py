@@ -215,6 +215,7 @@ def build_view(
             if gap <= 0
             else f"the proposed spread falls short of the minimum by {fmt.pct(gap)}"
         )
+    from obligor_memo.engine.credit_metrics import metric_trends
     from obligor_memo.engine.decision import decision_summary
     from obligor_memo.engine.drivers import pd_drivers
 
@@ -265,6 +266,7 @@ def build_view(
         # The body's by-year tables print the latest years; the appendix has every year's lines.
         "body_ratios": results.ratios[-BODY_YEARS:],
         "body_metrics": results.credit_metrics[-BODY_YEARS:],
+        "metric_trends": metric_trends(results.credit_metrics[-BODY_YEARS:]),
         "body_years": BODY_YEARS,
         "drivers": pd_drivers(results),
         "cross": cross_check_view(results),

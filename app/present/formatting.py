@@ -147,6 +147,30 @@ def times(value: float | None, decimals: int = 2) -> str:
     return text if text == "n/a" else f"{text}x"
 
 
+def trend(value: float | None, kind: str) -> str:
+    """A metric's trend with its sign: '+5.0 %/yr', '-1.0 pp' or '+0.92x'; 'n/a' where there is none.
+
+    Growth a year for amounts, a margin's change in percentage points, a multiple's change.
+
+    Parameters
+    ----------
+    value : float | None
+        The growth [1/year] or the change [fraction or times].
+    kind : str
+        "growth", "margin" or "multiple".
+
+    Returns
+    -------
+    str
+        The trend as printed.
+    """
+    if value is None or not math.isfinite(value):
+        return "n/a"
+    scaled, decimals, unit = {"growth": (100, 1, " %/yr"), "margin": (100, 1, " pp")}.get(kind, (1, 2, "x"))
+    shown = round(value * scaled, decimals) + 0.0  # + 0.0: a rounded -0.0 prints as 0.0
+    return f"{shown:{'+' if shown else ''},.{decimals}f}{unit}"
+
+
 def years(value: float | None) -> str:
     """A length of time in years, in its shortest form: 5 -> '5 y', 2.5 -> '2.5 y'.
 
