@@ -83,8 +83,8 @@ def _budget() -> float:
 _SAMPLE_SECONDS: list[float] = []
 
 
-def _check(make: Callable[[], Any]) -> str:
-    """Read/validate with ``make`` and analyse; assert the contract and the time budget."""
+def _run(make: Callable[[], Any]) -> tuple[str, float]:
+    """Read/validate with ``make`` and analyse once, asserting the contract: (outcome, seconds)."""
     start = time.perf_counter()
     try:
         with _hard_stop(HARD_STOP):
@@ -100,7 +100,18 @@ def _check(make: Callable[[], Any]) -> str:
                 outcome = "rejected"
     except _Hang as hang:
         pytest.fail(str(hang))
-    elapsed = time.perf_counter() - start
+    return outcome, time.perf_counter() - start
+
+
+def _check(make: Callable[[], Any]) -> str:
+    """Read/validate with ``make`` and analyse; assert the contract and the time budget.
+
+    A case over the budget is timed once more and the faster run counts: a case slow by its
+    nature is slow both times, a moment when another process held the cores is not.
+    """
+    outcome, elapsed = _run(make)
+    if elapsed > _budget():
+        elapsed = min(elapsed, _run(make)[1])
     TIMINGS.append(elapsed)
     assert elapsed <= _budget(), f"{outcome} case took {elapsed:.2f} s (budget {_budget():.2f} s)"
     return outcome
