@@ -33,7 +33,7 @@ ShortText = Annotated[str, Field(max_length=200)]
 
 
 # Every list and mapping of a case has a limit, so no file can make a run slow (README: Limits).
-# Measured on the 2-core machine (2026-12-03): 100 facilities take 0.5 s of full analysis, 50 scenarios
+# Measured on the 2-core machine (2026-12-03): 100 facilities take 0.32 s of full analysis, 50 scenarios
 # 0.28 s (the sample alone 0.05 s); the grids and tables are bounded by their own schema fields.
 LIMITS = {
     "statements": 200,  # statement years

@@ -150,6 +150,44 @@ def _unit_covariance(a1: float, b1: float, a2: float, b2: float) -> float:
     return _covariance_by_quadrature(unit(a1, b1), unit(a2, b2))
 
 
+def pooled_by_law(eads: Sequence[float], laws: Sequence[Any]) -> list[tuple[float, Any]]:
+    """The exposures summed per recovery law (equal laws once), in order of first appearance.
+
+    Under the comonotonic join every recovery is F_i^-1(U) of one uniform U, so facilities with
+    equal laws recover alike: sum_i EAD_i (1 - F^-1(U)) over them is (sum_i EAD_i)(1 - F^-1(U)).
+    Pooling them is exact and makes the loss and its moments cost one term per distinct law
+    (facilities on one seniority preset share a law). Laws that cannot be hashed are kept apart.
+
+    Parameters
+    ----------
+    eads : Sequence[float]
+        Exposure at default of each facility [currency units].
+    laws : Sequence[Any]
+        Recovery law of each facility.
+
+    Returns
+    -------
+    list[tuple[float, Any]]
+        (summed exposure, law) per distinct law, exposures of 0 left out.
+    """
+    pooled: list[list[Any]] = []  # [summed exposure, law]
+    where: dict[Any, int] = {}
+    for ead, law in zip(eads, laws):
+        if not ead > 0:
+            continue
+        try:
+            at = where.get(law)
+        except TypeError:  # an unhashable law stands alone
+            pooled.append([float(ead), law])
+            continue
+        if at is None:
+            where[law] = len(pooled)
+            pooled.append([float(ead), law])
+        else:
+            pooled[at][0] += float(ead)
+    return [(total, law) for total, law in pooled]
+
+
 def comonotonic_second_moment(*, eads: Sequence[float], laws: Sequence[Any]) -> float:
     """E[S^2] for S = sum EAD_i (1 - R_i), R_i = F_i^-1(U) (laws with ``ppf``, ``mean``, ``var``).
 
@@ -170,7 +208,8 @@ def comonotonic_second_moment(*, eads: Sequence[float], laws: Sequence[Any]) -> 
     """
     mean_s = sum(e * (1.0 - float(law.mean())) for e, law in zip(eads, laws))
     var_s = 0.0
-    active = [(e, law) for e, law in zip(eads, laws) if e > 0]
+    # Equal laws pooled (exact: their recoveries move as one); one covariance per pair of laws.
+    active = pooled_by_law(eads, laws)
     for i, (ei, li) in enumerate(active):
         var_s += ei * ei * float(li.var())
         for ej, lj in active[i + 1 :]:

@@ -49,6 +49,7 @@ from typing import Literal, Protocol, cast
 
 import numpy as np
 import numpy.typing as npt
+from obligor_memo.engine.loss import pooled_by_law
 
 Join = Literal["comonotonic", "independent"]
 JOINS: tuple[str, ...] = ("comonotonic", "independent")
@@ -177,7 +178,13 @@ def _check_exposures_and_laws(
     if len(laws) != ead.size:
         raise ValueError(f"recovery_laws must have one law per exposure ({ead.size}); got {len(laws)}")
     means = np.empty(ead.size)
+    checked: dict[RecoveryLaw, float] = {}  # a law shared by many facilities is checked once
     for index, law in enumerate(laws):
+        try:
+            means[index] = checked[law]
+            continue
+        except (KeyError, TypeError):
+            pass
         for method in ("ppf", "mean", "var"):
             if not callable(getattr(law, method, None)):
                 raise ValueError(
@@ -200,6 +207,10 @@ def _check_exposures_and_laws(
                 f"at u = 0, 0.5, 1 it gave {probe.tolist()!r}"
             )
         means[index] = mean
+        try:
+            checked[law] = mean
+        except TypeError:  # an unhashable law is checked wherever it appears
+            pass
     return ead, laws, means
 
 
@@ -210,11 +221,14 @@ def _check_count(name: str, value: int, minimum: int) -> int:
 
 
 def _loss_given_default_comonotonic(u: np.ndarray, exposures: np.ndarray, laws: Sequence[RecoveryLaw]) -> np.ndarray:
-    """G(u) = sum_i EAD_i (1 - F_i^{-1}(u)) [currency units] for u in [0, 1]."""
+    """G(u) = sum_i EAD_i (1 - F_i^{-1}(u)) [currency units] for u in [0, 1].
+
+    Facilities with equal laws are summed first (:func:`obligor_memo.engine.loss.pooled_by_law`):
+    one quantile function per distinct law.
+    """
     total = np.zeros_like(u, dtype=float)
-    for ead, law in zip(exposures, laws):
-        if ead > 0.0:
-            total += ead * (1.0 - np.asarray(law.ppf(u), dtype=float))
+    for ead, law in pooled_by_law(exposures, laws):
+        total += ead * (1.0 - np.asarray(law.ppf(u), dtype=float))
     return total
 
 

@@ -127,3 +127,50 @@ def test_bad_parameters_are_named(kwargs, fragment) -> None:
 def test_negative_lgd_std_is_named() -> None:
     with pytest.raises(ValueError, match="lgd_std: got -0.1"):
         unexpected_loss(ead=1.0, pd=0.1, lgd=0.4, lgd_std=-0.1)
+
+
+# ---------------------------------------------------------------- equal laws pooled (comonotonic)
+
+
+def test_equal_laws_are_pooled_in_order_and_unhashable_laws_stay_apart():
+    from obligor_memo.engine.loss import pooled_by_law
+
+    a, b = recovery_law(mean=0.55, std=0.22), recovery_law(mean=0.2, std=0.18, upper=0.9)
+    again = recovery_law(mean=0.55, std=0.22)  # equal to a, another object
+
+    class Unhashable:
+        __hash__ = None
+
+    odd = Unhashable()
+    pooled = pooled_by_law([10.0, 5.0, 0.0, 2.5, 1.0, 4.0], [a, b, a, again, odd, b])
+    assert pooled == [(12.5, a), (9.0, b), (1.0, odd)]
+
+
+def test_pooled_second_moment_equals_the_integral_of_every_facility():
+    """E[S^2] with equal laws pooled against the comonotonic definition itself: the integral
+    over u of (sum_i EAD_i (1 - F_i^-1(u)))^2, facility by facility (scipy.integrate.quad)."""
+    from obligor_memo.engine.loss import comonotonic_second_moment
+    from scipy import integrate
+
+    a, b = recovery_law(mean=0.55, std=0.22), recovery_law(mean=0.2, std=0.18, upper=0.9)
+    eads, laws = [3.0, 1.0, 2.0, 0.5, 4.0], [a, b, a, recovery_law(mean=0.55, std=0.22), b]
+
+    def square(u: float) -> float:
+        return sum(e * (1.0 - float(law.ppf(u))) for e, law in zip(eads, laws)) ** 2
+
+    points = sorted({float(law.median_split) for law in (a, b)})
+    reference = sum(
+        integrate.quad(square, lo, hi, epsabs=1e-13, epsrel=1e-11, limit=200)[0]
+        for lo, hi in zip([0.0] + points, points + [1.0])
+    )
+    assert comonotonic_second_moment(eads=eads, laws=laws) == pytest.approx(reference, rel=1e-8)
+
+
+def test_pooled_loss_quantiles_equal_the_sum_over_facilities():
+    from obligor_memo.engine.lossdist import _loss_given_default_comonotonic
+
+    a, b = recovery_law(mean=0.55, std=0.22), recovery_law(mean=0.2, std=0.18, upper=0.9)
+    eads, laws = np.array([3.0, 1.0, 2.0, 4.0]), [a, b, a, b]
+    u = np.linspace(0.0, 1.0, 101)
+    by_facility = sum(e * (1.0 - np.asarray(law.ppf(u))) for e, law in zip(eads, laws))
+    np.testing.assert_allclose(_loss_given_default_comonotonic(u, eads, laws), by_facility, rtol=1e-13)
