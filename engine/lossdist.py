@@ -227,7 +227,7 @@ def _loss_given_default_comonotonic(u: np.ndarray, exposures: np.ndarray, laws: 
     one quantile function per distinct law.
     """
     total = np.zeros_like(u, dtype=float)
-    for ead, law in pooled_by_law(exposures, laws):
+    for ead, law in pooled_by_law(exposures.tolist(), laws):
         total += ead * (1.0 - np.asarray(law.ppf(u), dtype=float))
     return total
 
