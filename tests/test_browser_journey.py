@@ -117,6 +117,22 @@ def test_grid_and_field_edits_survive_page_switches_refresh_and_restart(server):
         assert _row(grid_rows(page), "2016")["Total assets"] == "310000000"
         assert len(_saved(server.workdir, case_id)["raw"]["statements"]) == len(years)
 
+        # The credit metrics below the grid follow a sales edit, as the memo will print them.
+        edit_cell(page, 0, 7, "250000000")  # 2016 sales, the last column the grid shows at this width
+        open_page(page, FACILITIES)
+        open_page(page, BORROWER)
+        saved = _saved(server.workdir, case_id)
+        assert saved["raw"]["statements"][0]["sales"] == 250_000_000
+        from obligor_memo.app.present.credit import credit_rows, latest_years
+        from obligor_memo.engine.credit_metrics import metric_trends
+
+        shown = latest_years(_results_of(saved["raw"]))
+        expected = credit_rows(shown, metric_trends(shown))
+        table = grid_rows(page, 1)
+        assert _row(table, "2016") == expected[0] and expected[0]["Revenue"] == "250.0"
+        assert _row(table, "Trend") == expected[-1]
+        page.screenshot(path=str(ARTIFACTS / "journey_01b_credit_metrics.png"))
+
         # A rate typed as a percentage gives the RAROC of the same rate written as a fraction.
         open_page(page, LOSS)
         type_into(page, "Proposed spread (% a year)", "1.5")

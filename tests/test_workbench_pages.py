@@ -134,3 +134,21 @@ def test_memo_page_text_is_kept_and_case_downloads(app):
     [w for w in app.text_input if w.label == "Reviewed by"][0].set_value("B. Reviewer").run()
     assert not app.exception
     assert app.session_state["raw"]["memo"]["reviewed_by"] == "B. Reviewer"
+
+
+def test_borrower_page_shows_the_credit_metrics_as_the_memo_prints_them(app, sample_results):
+    from obligor_memo.app.memo import render_memo_html
+    from obligor_memo.app.present.credit import credit_rows, latest_years
+    from obligor_memo.engine.credit_metrics import metric_trends
+
+    frames = [d.value for d in app.dataframe]
+    table = next(f for f in frames if "Net debt / EBITDA" in f.columns)
+    years = latest_years(sample_results)
+    expected = credit_rows(years, metric_trends(years))
+    assert table.to_dict("records") == expected
+    assert expected[-1]["Year"] == "Trend" and expected[-1]["Revenue"] == "+5.0 %/yr"  # 234.0 -> 364.3 in 9 years
+    # The memo's section 1 prints the same strings, row by row.
+    html = " ".join(render_memo_html(sample_results, charts=False).split())
+    for row in expected:
+        cells = "".join(f'<td class="num">{row[h]}</td>' for h in list(row)[1:])
+        assert cells in html, row["Year"]

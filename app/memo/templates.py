@@ -71,7 +71,7 @@ def environment() -> Any:
             "pd_pct": fmt.pd_pct,
             "num": fmt.num,
             "years": fmt.years,
-            "mn": in_millions,
+            "mn": fmt.in_millions,
             "label": label,
             "by_unit": by_unit,
             "yes_no": lambda v: "yes" if v else "no",
@@ -123,26 +123,6 @@ def breakable(value: Any) -> Any:
 def _break_run(match: re.Match[str]) -> str:
     run = match.group(0)
     return "\u200b".join(run[i : i + BREAK_EVERY] for i in range(0, len(run), BREAK_EVERY))
-
-
-def in_millions(value: float | None, decimals: int = 1) -> str:
-    """Amounts in a table headed '[CUR m]'.
-
-    Parameters
-    ----------
-    value : float | None
-        The amount [currency units]; None prints as a dash.
-    decimals : int, optional
-        Decimals of the millions.
-
-    Returns
-    -------
-    str
-        The amount in millions with thousands separators, without unit.
-    """
-    if value is None:
-        return "—"
-    return fmt.num(value / 1e6, decimals)
 
 
 def by_unit(value: float | None, unit: str) -> str:

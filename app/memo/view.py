@@ -215,6 +215,7 @@ def build_view(
             if gap <= 0
             else f"the proposed spread falls short of the minimum by {fmt.pct(gap)}"
         )
+    from obligor_memo.app.present.credit import BODY_YEARS, latest_years
     from obligor_memo.engine.credit_metrics import metric_trends
     from obligor_memo.engine.decision import decision_summary
     from obligor_memo.engine.drivers import pd_drivers
@@ -265,8 +266,8 @@ def build_view(
         "body_covenant_lines": [pdfcase.covenant_line(c) for c in decision.body_covenants],
         # The body's by-year tables print the latest years; the appendix has every year's lines.
         "body_ratios": results.ratios[-BODY_YEARS:],
-        "body_metrics": results.credit_metrics[-BODY_YEARS:],
-        "metric_trends": metric_trends(results.credit_metrics[-BODY_YEARS:]),
+        "body_metrics": latest_years(results),
+        "metric_trends": metric_trends(latest_years(results)),
         "body_years": BODY_YEARS,
         "drivers": pd_drivers(results),
         "cross": cross_check_view(results),
@@ -320,9 +321,6 @@ APPENDIX_TITLES = {
     "appendix": "inputs and record",
 }
 """How the body's closing note names each appendix."""
-BODY_YEARS = 10
-"""The body's by-year tables print at most the latest ten years (the trend and the volatility
-use every year of the window; the appendix prints every year's statement lines)."""
 ANNEX_SECTIONS = frozenset({"term-structure", "exposure", "recovery", "loss", "methods"})
 
 

@@ -34,6 +34,26 @@ def money(value: float | None, currency: str = "", *, decimals: int = 0) -> str:
     return f"{currency} {text}".strip()
 
 
+def in_millions(value: float | None, decimals: int = 1) -> str:
+    """An amount in a table headed '[CUR m]': 185.2 for 185,200,000; a dash where it is missing.
+
+    Parameters
+    ----------
+    value : float | None
+        The amount [currency units]; None prints as a dash.
+    decimals : int, optional
+        Decimals of the millions.
+
+    Returns
+    -------
+    str
+        The amount in millions with thousands separators, without unit.
+    """
+    if value is None:
+        return "—"
+    return num(value / 1e6, decimals)
+
+
 def millions(value: float | None, currency: str = "") -> str:
     """An amount in millions with two decimals, after its currency code: 'EUR 12.50m'.
 

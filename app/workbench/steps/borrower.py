@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import streamlit as st
+from obligor_memo.app.present.credit import credit_rows, latest_years
 from obligor_memo.app.workbench import grids, state
 from obligor_memo.app.workbench import mapping as _mapping
 from obligor_memo.app.workbench import review as _review
 from obligor_memo.app.workbench import ui as _ui
 from obligor_memo.engine.case import StatementRow
+from obligor_memo.engine.credit_metrics import metric_trends
 from obligor_memo.engine.errors import CaseError
 
 COLUMNS = list(StatementRow.model_fields)
@@ -102,4 +104,20 @@ st.caption(
 )
 _ui.grid("statements", grids.STATEMENT_COLUMNS, name="stmt_grid")
 _ui.show_problems("statements")
+if _results is not None and getattr(_results, "credit_metrics", ()):
+    years = latest_years(_results)
+    st.subheader(f"Credit metrics [{_ui.currency()} m; multiples in times]")
+    rows = credit_rows(years, metric_trends(years))
+    st.dataframe(
+        rows,
+        hide_index=True,
+        width="stretch",
+        height=35 * (len(rows) + 1) + 3,  # every year and the trend row, without a scroll bar
+        column_config={h: st.column_config.TextColumn(h, alignment="right") for h in list(rows[0])[1:]},
+    )
+    st.caption(
+        "As the memo prints them: net debt = total debt - cash; free cash flow = operating cash flow - "
+        f"capital expenditure; the latest {len(years)} years, then the trend (growth a year for amounts, "
+        "the change for the margin and the multiples)."
+    )
 _review.section(_results)
