@@ -104,8 +104,8 @@ st.caption(
 )
 _ui.grid("statements", grids.STATEMENT_COLUMNS, name="stmt_grid")
 _ui.show_problems("statements")
-if _results is not None and getattr(_results, "credit_metrics", ()):
-    years = latest_years(_results)
+years = latest_years(_results) if _results is not None else ()
+if years:
     st.subheader(f"Credit metrics [{_ui.currency()} m; multiples in times]")
     rows = credit_rows(years, metric_trends(years))
     st.dataframe(
