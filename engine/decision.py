@@ -228,10 +228,7 @@ def decision_summary(results: Any) -> Decision:
             )
         )
     worst = max(scen, key=_severity, default=None)
-    brief = scen
-    if len(scen) > BRIEF_SCENARIOS:
-        kept = set(sorted(range(len(scen)), key=lambda i: _severity(scen[i]), reverse=True)[:BRIEF_SCENARIOS])
-        brief = [s for i, s in enumerate(scen) if i in kept]
+    brief = _in_case_order(tuple(scen), tuple(sorted(scen, key=_severity, reverse=True)[:BRIEF_SCENARIOS]))
     listed, others = listed_facilities(tuple(lines))
     tests = tuple(getattr(results, "covenants", ()))
     return Decision(
@@ -241,7 +238,7 @@ def decision_summary(results: Any) -> Decision:
         worst=worst,
         listed=listed,
         others=others,
-        brief=tuple(brief),
+        brief=brief,
         covenants=tightest_covenants(tests),
         body_covenants=_in_case_order(tests, tightest_covenants(tests, BODY_COVENANTS)),
     )

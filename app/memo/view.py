@@ -215,7 +215,7 @@ def build_view(
             if gap <= 0
             else f"the proposed spread falls short of the minimum by {fmt.pct(gap)}"
         )
-    from obligor_memo.app.present.credit import BODY_YEARS, latest_years
+    from obligor_memo.app.present.credit import BODY_YEARS, credit_rows, latest_years
     from obligor_memo.engine.credit_metrics import metric_trends
     from obligor_memo.engine.decision import decision_summary
     from obligor_memo.engine.drivers import pd_drivers
@@ -232,6 +232,8 @@ def build_view(
     statement_groups = [statement_keys[i : i + 6] for i in range(0, len(statement_keys), 6)]
     window = results.trend.window_years if results.trend is not None else None
     letters = appendix_letters(annex)
+    credit_years = latest_years(results)
+    trends = metric_trends(credit_years)
     return {
         "r": results,
         "case": case,
@@ -266,9 +268,9 @@ def build_view(
         "body_covenant_lines": [pdfcase.covenant_line(c) for c in decision.body_covenants],
         # The body's by-year tables print the latest years; the appendix has every year's lines.
         "body_ratios": results.ratios[-BODY_YEARS:],
-        "body_metrics": latest_years(results),
-        "metric_trends": metric_trends(latest_years(results)),
-        "body_years": BODY_YEARS,
+        "body_metrics": credit_years,
+        "metric_trends": trends,
+        "credit_table": credit_rows(credit_years, trends),  # the strings the borrower page shows too
         "drivers": pd_drivers(results),
         "cross": cross_check_view(results),
         "scenario_changes": {
